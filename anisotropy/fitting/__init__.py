@@ -1,0 +1,1 @@
+"""Pure fitting: arrays in, parameters out (see issue 4)."""

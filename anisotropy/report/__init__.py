@@ -1,0 +1,1 @@
+"""Figures and the HTML report."""
