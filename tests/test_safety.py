@@ -1,0 +1,155 @@
+"""Tests of anisotropy._safety: escaping, folder names, CSV cells, atomic writes.
+
+The references are the standard library: ``html.escape`` and
+``html.parser`` (what a browser would see as text), ``os.path.commonpath``
+(containment), the ``csv`` module (round trip), ``os.replace`` semantics.
+"""
+
+import csv
+import html
+import io
+import json
+import os
+from html.parser import HTMLParser
+from pathlib import Path
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from anisotropy import _safety as S
+from anisotropy.errors import InputError
+
+HOSTILE = ["../../x", "..", ".", "", "<script>alert(1)</script>", "CON", "con.txt", "NUL",
+           "a/b", "a\\b", "a:b", "Zoné-Ünïcode", "北区", "   ", "-rf", "a" * 300,
+           "x\x00y", "COM1", "lpt9.log", "A", "a"]
+
+
+class _TextCollector(HTMLParser):
+    def __init__(self):
+        super().__init__()
+        self.tags = []
+        self.text = []
+
+    def handle_starttag(self, tag, attrs):
+        self.tags.append(tag)
+
+    def handle_data(self, data):
+        self.text.append(data)
+
+
+def test_escape_matches_stdlib_and_renders_as_text():
+    for s in HOSTILE + ['"quoted" & \'single\'']:
+        # reference: html.escape from the Python standard library
+        assert S.escape(s) == html.escape(s, quote=True)
+        p = _TextCollector()
+        p.feed(f"<p>{S.escape(s)}</p>")
+        p.close()
+        # html.parser sees only the <p> element, and the text is the original string
+        assert p.tags == ["p"]
+        assert "".join(p.text) == s
+    assert S.escape(None) == ""
+    assert S.escape(3.5) == "3.5"
+
+
+def test_folder_names_stay_inside_and_are_distinct(tmp_path):
+    names = S.folder_names(HOSTILE)
+    assert set(names) == set(HOSTILE)
+    folders = list(names.values())
+    # distinct, also without regard to case (case-insensitive file systems)
+    assert len({f.casefold() for f in folders}) == len(folders)
+    root = tmp_path / "out"
+    root.mkdir()
+    for name, folder in names.items():
+        assert folder and folder not in (".", "..")
+        assert "/" not in folder and "\\" not in folder and "\x00" not in folder
+        assert folder.split(".")[0].upper() not in S._RESERVED
+        assert len(folder) <= 80
+        d = root / folder
+        d.mkdir()
+        # reference: os.path.commonpath proves the folder is under root
+        assert os.path.commonpath([str(root.resolve()), str(d.resolve())]) == str(root.resolve())
+    # every folder is a direct child of root: nothing was created elsewhere
+    assert sorted(p.name for p in root.iterdir()) == sorted(folders)
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["out"]
+
+
+def test_plain_names_kept_and_lookalikes_separated():
+    assert S.safe_folder_name("oxide_1") == "oxide_1"
+    assert S.safe_folder_name("a/b") != S.safe_folder_name("a\\b")
+    names = S.folder_names(["a_b", "a/b"])
+    assert names["a_b"] == "a_b" and names["a/b"] != "a_b"
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.lists(st.text(max_size=40), min_size=1, max_size=8))
+def test_folder_names_property(names):
+    out = S.folder_names(names)
+    folders = list(out.values())
+    assert len({f.casefold() for f in folders}) == len(folders)
+    for f in folders:
+        # os.path.basename/normpath leave a single safe component unchanged
+        assert os.path.basename(f) == f and os.path.normpath(f) == f
+        assert f not in ("", ".", "..")
+
+
+def test_inside_refuses_escape(tmp_path):
+    assert S.inside(tmp_path, "a", "b.txt") == (tmp_path / "a" / "b.txt").resolve()
+    with pytest.raises(InputError):
+        S.inside(tmp_path, "..", "x")
+    with pytest.raises(InputError):
+        S.inside(tmp_path, "/etc/passwd")
+
+
+@pytest.mark.parametrize("cell", ["=1+1", "+1+2", "-2+3", "@SUM(A1)", "\tx", "\rx",
+                                  "=HYPERLINK(\"http://x\")", "\uff1d1"])
+def test_formula_cells_neutralised(cell):
+    out = S.neutralise_cell(cell)
+    # OWASP CSV-injection guidance (common practice): the cell must not start with a trigger
+    assert not out.startswith(S._FORMULA_START)
+    assert out == "'" + cell
+
+
+def test_plain_cells_kept():
+    for cell in ["-1.5", "+2", "3e-4", "oxide", "", 7, 2.5, None]:
+        assert S.neutralise_cell(cell) == cell
+
+
+def test_csv_round_trip(tmp_path):
+    rows = [{"domain": "=cmd|' /C calc'!A0", "n": 12, "x": float("nan")},
+            {"domain": 'has "quotes", commas\nand newline', "n": 3, "x": -1.5},
+            {"domain": "-rf", "n": None}]
+    path = S.atomic_write_csv(tmp_path / "s.csv", rows, ["domain", "n", "x"])
+    # reference: the csv module of the standard library reads back what we wrote
+    with open(path, newline="", encoding="utf-8") as fh:
+        back = list(csv.DictReader(fh))
+    assert back[0]["domain"] == "'=cmd|' /C calc'!A0"
+    assert back[0]["x"] == ""
+    assert back[1]["domain"] == 'has "quotes", commas\nand newline'
+    assert back[1]["x"] == "-1.5"
+    assert back[2]["domain"] == "'-rf" and back[2]["n"] == ""
+    assert [r["n"] for r in back[:2]] == ["12", "3"]
+
+
+def test_atomic_write_replaces_and_leaves_no_temp(tmp_path):
+    p = tmp_path / "sub" / "f.json"
+    S.atomic_write_json(p, {"a": np.float64(1.5), "b": np.arange(3), "c": float("nan")})
+    assert json.loads(p.read_text()) == {"a": 1.5, "b": [0, 1, 2], "c": None}
+    S.atomic_write_text(p, "second")
+    assert p.read_text() == "second"
+    assert [q.name for q in p.parent.iterdir()] == ["f.json"]
+
+
+def test_atomic_write_failure_keeps_old_file(tmp_path, monkeypatch):
+    p = tmp_path / "f.txt"
+    p.write_text("old")
+
+    def boom(src, dst):
+        raise OSError("disk full")
+
+    monkeypatch.setattr(S.os, "replace", boom)
+    with pytest.raises(OSError):
+        S.atomic_write_text(p, "new")
+    assert p.read_text() == "old"
+    assert [q.name for q in tmp_path.iterdir()] == ["f.txt"]
