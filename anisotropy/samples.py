@@ -548,13 +548,13 @@ def detect_coordinate_columns(df, *, x=None, y=None, z=None, exclude=(), source=
 def _domain_strings(s: pd.Series) -> pd.Series:
     """Domain codes as text (integral floats without '.0'); None where blank."""
     def one(v):
-        if v is None or (isinstance(v, float) and np.isnan(v)):
+        if v is None or v is pd.NA or (isinstance(v, (float, np.floating)) and np.isnan(v)):
             return None
         if isinstance(v, (float, np.floating)) and float(v).is_integer():
             return str(int(v))
         t = str(v).strip()
         return t if t else None
-    return s.map(one)
+    return pd.Series([one(v) for v in s.to_numpy(dtype=object)], index=s.index, dtype=object)
 
 
 def domain_values(df, domain) -> list[str]:
