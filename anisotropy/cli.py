@@ -77,6 +77,148 @@ def _read_samples_from_args(args):
 # ---------------------------------------------------------------------------
 
 # >>> explore
+_EXPLORE_SCHEMA = "anisotropy.explore/1"
+
+_POLICY_REASONS = {
+    ("missing_codes", "missing"): "values <= -90 are the usual missing-value codes (-99, -999)",
+    ("missing_codes", "keep"): "values <= -90 kept as real grades, as asked",
+    ("below_detection", "half"): "negative values are below-detection codes -DL, replaced by "
+                                 "DL/2 (common practice)",
+    ("below_detection", "missing"): "below-detection codes left out as missing, as asked",
+    ("below_detection", "keep"): "negative values kept as they are, as asked",
+    ("duplicates", "keep"): "every sample kept; samples sharing a location add zero-distance "
+                            "pairs, which show in the nugget",
+    ("duplicates", "average"): "one sample per location, with the mean grade, as asked",
+    ("duplicates", "drop"): "the first sample at each location kept, as asked",
+}
+_POLICY_DEFAULTS = {"missing_codes": "missing", "below_detection": "half", "duplicates": "keep"}
+
+
+def _add_explore(p: argparse.ArgumentParser) -> None:
+    _add_input_options(p)
+    _add_output_option(p, "anisotropy_explore")
+
+
+def _intake_lines(samples, args) -> list:
+    """What the intake decided and why, for the printed summary."""
+    lines = ["Reading the table", "-----------------"]
+    given = {"x": args.x, "y": args.y, "z": args.z}
+    for role in ("x", "y", "z"):
+        how = f"given with --{role}" if given[role] is not None else "detected from its name"
+        lines.append(f"  {role}: column {samples.columns[role]!r} ({how})")
+    lines.append(f"  grade: column {samples.columns['value']!r}")
+    if samples.columns.get("domain"):
+        sel = (f"domain {samples.domain!r} selected" if samples.domain is not None
+               else "no domain selected: all domains pooled")
+        lines.append(f"  domain: column {samples.columns['domain']!r}, {sel}")
+    if samples.columns.get("hole"):
+        lines.append(f"  hole id: column {samples.columns['hole']!r}")
+    else:
+        lines.append("  hole id: none given (down-hole spacing needs --hole)")
+    t = samples.table or {}
+    if t.get("format") == "csv":
+        lines.append(f"  file read as CSV, {t.get('separator')}-separated, decimal mark "
+                     f"{t.get('decimal')!r}")
+    elif t.get("format"):
+        lines.append(f"  file read as {t.get('format')}")
+    lines.append(f"  rows read: {samples.n_read}, samples used: {samples.n}")
+    pol = samples.policies or {}
+    for name, flag in (("missing_codes", "--missing-codes"), ("below_detection", "--below-detection"),
+                       ("duplicates", "--duplicates")):
+        val = pol.get(name, _POLICY_DEFAULTS[name])
+        tag = "default" if val == _POLICY_DEFAULTS[name] else "chosen"
+        lines.append(f"  {flag} {val} ({tag}): {_POLICY_REASONS.get((name, val), '')}")
+    d = samples.duplicates
+    lines.append(f"  duplicate locations: {d.get('locations', 0)} holding "
+                 f"{d.get('samples', 0)} samples")
+    lines.append("  local origin subtracted from x, y, z (minimum rounded down to a metre): "
+                 + ", ".join(f"{o:.0f}" for o in samples.origin))
+    return lines
+
+
+def _save_figure_atomic(make, path, *args, **kwargs):
+    """Draw a figure with ``make(*args, path=None, **kwargs)`` and write it atomically."""
+    import io
+
+    from anisotropy._safety import atomic_write_bytes
+
+    fig = make(*args, path=None, **kwargs)
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=fig.dpi)
+    atomic_write_bytes(path, buf.getvalue())
+    try:  # free the figure if pyplot created it
+        import matplotlib.pyplot as plt
+
+        plt.close(fig)
+    except Exception:  # noqa: BLE001 - closing is a courtesy
+        pass
+    return path
+
+
+def _cmd_explore(args) -> int:
+    """Statistics to know before variography: grades, declustering, top-cut, spacing, trend."""
+    import os
+    from pathlib import Path
+
+    from anisotropy._safety import atomic_write_json
+    from anisotropy.explore import explore
+
+    out = Path(args.out)
+    if out.exists() and not out.is_dir():
+        raise InputError(f"The output folder '{out}' is an existing file; give a folder "
+                         "name with --out.")
+    samples = _read_samples_from_args(args)
+    ex = explore(samples)
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise InputError(f"Cannot create the output folder '{out}' ({exc.strerror}); give "
+                         "another folder with --out.") from None
+    if not os.access(out, os.W_OK):
+        raise InputError(f"The output folder '{out}' is not writable; give another folder "
+                         "with --out.")
+
+    from anisotropy.report import figures
+
+    label = samples.columns.get("value") or "grade"
+    where = f", domain {samples.domain}" if samples.domain is not None else ""
+    _save_figure_atomic(figures.histogram_figure, out / "histogram.png", samples.values,
+                        **_figure_kwargs(figures.histogram_figure, label, where, ex))
+    _save_figure_atomic(figures.logprob_figure, out / "logprob.png", samples.values,
+                        **_figure_kwargs(figures.logprob_figure, label, where, ex))
+
+    record = {"schema": _EXPLORE_SCHEMA}
+    record.update(ex.to_dict())
+    record["samples"] = samples.to_dict()
+    record["figures"] = {"histogram": "histogram.png", "logprob": "logprob.png"}
+    atomic_write_json(out / "explore.json", record)
+
+    print("\n".join(_intake_lines(samples, args)))
+    print()
+    print(ex.summary())
+    print()
+    print(f"Written: {out / 'explore.json'}, {out / 'histogram.png'}, {out / 'logprob.png'}")
+    return EXIT_OK
+
+
+def _figure_kwargs(func, label, where, ex) -> dict:
+    """Keyword arguments the figure function accepts (titles, labels, top-cut lines)."""
+    import inspect
+
+    try:
+        params = inspect.signature(func).parameters
+    except (TypeError, ValueError):
+        return {}
+    kw = {}
+    if "title" in params:
+        kw["title"] = f"{label}{where}"
+    for name in ("label", "value_label", "xlabel"):
+        if name in params:
+            kw[name] = label
+            break
+    if "topcuts" in params:
+        kw["topcuts"] = [c["value"] for c in ex.topcut]
+    return kw
 # <<< explore
 
 # >>> discover

@@ -1,0 +1,182 @@
+"""End-to-end tests of the command line (``anisotropy explore``).
+
+References: the tables are written by the tests, so every expected count is
+known by construction (exact brute force); NumPy computes the reference
+statistics; the PNG signature is from the PNG specification (ISO/IEC 15948,
+section 5.2: the eight bytes 137 80 78 71 13 10 26 10).
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import subprocess
+import sys
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from anisotropy.cli import EXIT_BAD_INPUT, EXIT_OK, main
+
+PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # PNG specification, section 5.2
+
+REQUIRED_KEYS = {"count", "mean", "std", "cv", "min", "max", "quantiles", "declustered",
+                 "spacing", "topcut", "trend", "dropped", "changed", "warnings"}
+
+
+def drill_table(rng, n_holes=6, per_hole=25):
+    """Invented inclined drill holes with 2 m composites (Fenwright Hollow style)."""
+    rows = []
+    for h in range(n_holes):
+        cx, cy = 512_000.0 + 40.0 * (h % 3), 7_012_000.0 + 40.0 * (h // 3)
+        for k in range(per_hole):
+            d = 1.0 + 2.0 * k
+            rows.append({
+                "HoleID": f"FH{h + 1:03d}",
+                "MidX": cx + 0.5 * d, "MidY": cy + 0.1 * d, "MidZ": 850.0 - 0.85 * d,
+                "Au_gpt": float(np.round(rng.lognormal(0.0, 1.0), 3)),
+                "Domain": "vein" if k < 15 else "hangingwall",
+            })
+    return pd.DataFrame(rows)
+
+
+@pytest.fixture
+def good_csv(tmp_path, rng):
+    df = drill_table(rng)
+    # a few assay codes and a blank, placed by hand (brute-force expectations below)
+    df.loc[3, "Au_gpt"] = -99.0          # missing-value code
+    df.loc[4, "Au_gpt"] = -0.01          # below detection -> 0.005 (DL/2, common practice)
+    df.loc[5, "Au_gpt"] = np.nan         # blank
+    p = tmp_path / "fh_composites.csv"
+    df.to_csv(p, index=False)
+    return p, df
+
+
+def run(argv, capsys):
+    code = main([str(a) for a in argv])
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def test_explore_writes_the_files_with_the_required_keys(good_csv, tmp_path, capsys):
+    p, df = good_csv
+    out_dir = tmp_path / "out"
+    code, out, err = run(["explore", p, "--value", "Au_gpt", "--domain", "Domain",
+                          "--domain-value", "vein", "--hole", "HoleID", "--out", out_dir], capsys)
+    assert code == EXIT_OK, err
+    assert "Traceback" not in err
+    rec = json.loads((out_dir / "explore.json").read_text())
+    assert REQUIRED_KEYS <= set(rec)
+    assert {"mean", "std", "cell_size"} <= set(rec["declustered"])
+    assert {"across_hole", "down_hole", "suggested_lag"} <= set(rec["spacing"])
+    assert "candidates" in rec["topcut"]
+    assert "0.975" in rec["quantiles"] and "0.5" in rec["quantiles"]
+    # counts by construction: rows 3, 4, 5 are in the vein (k < 15 in hole 1)
+    assert rec["dropped"] == {"blank value": 1, "missing-value code (<= -90)": 1}
+    assert rec["changed"] == {"below-detection code (-DL) set to DL/2": 1}
+    vein = df[df.Domain == "vein"]
+    assert rec["samples"]["n_read"] == len(vein)
+    assert rec["count"] == len(vein) - 2
+    # the mean against NumPy on the cleaned grades (-0.01 -> 0.005 by arithmetic)
+    v = vein["Au_gpt"].to_numpy().copy()
+    v[v == -0.01] = 0.005
+    v = v[np.isfinite(v) & (v > -90)]
+    assert rec["mean"] == pytest.approx(float(np.mean(v)), rel=1e-12)
+    assert rec["max"] == pytest.approx(float(np.max(v)), rel=0)
+    assert {"dropped", "changed", "duplicates", "warnings"} <= set(rec["samples"])
+    for name in ("histogram.png", "logprob.png"):
+        assert (out_dir / name).read_bytes()[:8] == PNG_SIGNATURE
+    # atomic writes leave no temporary files behind
+    assert sorted(os.listdir(out_dir)) == ["explore.json", "histogram.png", "logprob.png"]
+    # the printed summary says what was dropped and changed, and why defaults were used
+    assert "missing-value code" in out and "DL/2" in out and "(default)" in out
+    assert "MidX" in out and "detected from its name" in out
+
+
+def test_duplicates_are_reported_under_each_policy(tmp_path, capsys):
+    df = pd.DataFrame({"x": [0.0, 0.0, 10.0, 20.0, 30.0, 0.0] * 3,
+                       "y": [0.0, 0.0, 5.0, 7.0, 9.0, 30.0] * 3,
+                       "z": np.repeat([0.0, 10.0, 20.0], 6),
+                       "au": np.arange(18, dtype=float) + 1.0})
+    p = tmp_path / "dups.csv"
+    df.to_csv(p, index=False)
+    for policy, n_used in (("keep", 18), ("average", 15), ("drop", 15)):
+        out_dir = tmp_path / policy
+        code, out, err = run(["explore", p, "--value", "au", "--duplicates", policy,
+                              "--out", out_dir], capsys)
+        assert code == EXIT_OK, err
+        rec = json.loads((out_dir / "explore.json").read_text())
+        # by construction: rows 1 and 2 of each level share a location -> 3 locations, 6 samples
+        assert rec["samples"]["duplicates"] == {"locations": 3, "samples": 6, "policy": policy}
+        assert rec["count"] == n_used
+        assert "duplicate locations: 3" in out
+
+
+BAD_TABLES = {
+    "text_in_grade": ("x,y,z,au\n0,0,0,1\n1,0,0,2\n2,0,0,<0.01\n3,1,1,n.s.\n",
+                      ["--value", "au"], ["'au'", "data row 3 ('<0.01')", "4 ('n.s.')"]),
+    "missing_coordinate": ("Easting,Northing,Elevtn,au\n0,0,0,1\n1,0,0,2\n",
+                           ["--value", "au"],
+                           ["elevation (z)", "'Easting'", "'Northing'", "'Elevtn'",
+                            "closest match is 'Elevtn'", "--z"]),
+    "wrong_value_column": ("x,y,z,au_gpt\n0,0,0,1\n", ["--value", "au_gtp"],
+                           ["'au_gtp'", "closest match is 'au_gpt'", "--value"]),
+    "unknown_domain": ("x,y,z,au,dom\n0,0,0,1,vein\n1,0,0,2,blanket\n",
+                       ["--value", "au", "--domain", "dom", "--domain-value", "shoot"],
+                       ["'shoot'", "'blanket'", "'vein'"]),
+    "ambiguous_x": ("x,midx,y,z,au\n0,0,0,0,1\n", ["--value", "au"], ["'x'", "'midx'", "--x"]),
+    "all_missing": ("x,y,z,au\n0,0,0,-99\n1,0,0,\n", ["--value", "au"], ["no samples"]),
+    "ragged": ("x,y,z,au\n0,0,0,1\n1,0,0,2,5,6\n", ["--value", "au"], ["line"]),
+}
+
+
+@pytest.mark.parametrize("name", sorted(BAD_TABLES))
+def test_bad_tables_exit_2_with_the_message_and_no_traceback(name, tmp_path, capsys):
+    text, opts, needles = BAD_TABLES[name]
+    p = tmp_path / f"{name}.csv"
+    p.write_text(text)
+    out_dir = tmp_path / "out"
+    code, out, err = run(["explore", p, *opts, "--out", out_dir], capsys)
+    assert code == EXIT_BAD_INPUT
+    assert "Traceback" not in err and "Traceback" not in out
+    assert err.startswith("anisotropy explore: ")
+    for needle in needles:
+        assert needle in err, (needle, err)
+    assert str(p) in err or name == "ragged" and p.name in err
+    assert not out_dir.exists()  # nothing written on bad input
+
+
+def test_missing_file_and_out_is_a_file(tmp_path, capsys, good_csv):
+    code, out, err = run(["explore", tmp_path / "nope.csv", "--value", "au"], capsys)
+    assert code == EXIT_BAD_INPUT and "not found" in err and "Traceback" not in err
+    p, _ = good_csv
+    blocker = tmp_path / "blocker"
+    blocker.write_text("x")
+    code, out, err = run(["explore", p, "--value", "Au_gpt", "--out", blocker], capsys)
+    assert code == EXIT_BAD_INPUT and "existing file" in err
+
+
+def test_unknown_policy_is_refused_by_the_parser(good_csv, capsys):
+    p, _ = good_csv
+    with pytest.raises(SystemExit) as info:
+        main(["explore", str(p), "--value", "Au_gpt", "--duplicates", "median"])
+    assert info.value.code == 2
+    assert "invalid choice" in capsys.readouterr().err
+
+
+def test_python_dash_m_runs_explore(good_csv, tmp_path):
+    p, _ = good_csv
+    out_dir = tmp_path / "sub"
+    env = dict(os.environ, MPLBACKEND="Agg")
+    proc = subprocess.run(
+        [sys.executable, "-m", "anisotropy", "explore", str(p), "--value", "Au_gpt",
+         "--hole", "HoleID", "--domain", "Domain", "--domain-value", "hangingwall",
+         "--out", str(out_dir)],
+        capture_output=True, text=True, env=env, timeout=300)
+    assert proc.returncode == 0, proc.stderr
+    assert "Traceback" not in proc.stderr
+    rec = json.loads((out_dir / "explore.json").read_text())
+    assert rec["domain"] == "hangingwall"
+    assert rec["count"] == 6 * 10  # 10 hanging-wall composites per hole, by construction
+    assert "Reading the table" in proc.stdout
