@@ -115,8 +115,15 @@ _DECORATIONS = ("mid", "midpoint", "centroid", "centre", "center", "coord", "coo
 
 
 def _norm(name) -> str:
-    """Column name folded for matching: lower case, letters and digits only."""
-    return re.sub(r"[^a-z0-9]", "", str(name).lower())
+    """Column name folded for matching: lower case, letters and digits only.
+
+    A unit in brackets (``Easting (m)``, ``RL [m]``) or a trailing ``_m`` /
+    `` m`` is removed first.
+    """
+    t = str(name).lower().strip()
+    t = re.sub(r"[\(\[\{].*?[\)\]\}]", "", t)
+    t = re.sub(r"[_\s.-]m$", "", t.strip())
+    return re.sub(r"[^a-z0-9]", "", t)
 
 
 def _axis_names(axis: str) -> set[str]:
@@ -554,7 +561,9 @@ def _domain_strings(s: pd.Series) -> pd.Series:
             return str(int(v))
         t = str(v).strip()
         return t if t else None
-    return pd.Series([one(v) for v in s.to_numpy(dtype=object)], index=s.index, dtype=object)
+    codes, uniques = pd.factorize(s.to_numpy(dtype=object), use_na_sentinel=True)
+    mapped = np.array([one(v) for v in uniques] + [None], dtype=object)
+    return pd.Series(mapped[codes], index=s.index, dtype=object)
 
 
 def domain_values(df, domain) -> list[str]:

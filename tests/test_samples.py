@@ -150,6 +150,8 @@ def test_missing_file_and_workbook(tmp_path):
     ("midpoint_x", "midpoint_y", "midpoint_z"),
     ("centroid_x", "centroid_y", "centroid_z"),
     ("Mid East", "Mid North", "Mid RL"),
+    ("Easting (m)", "Northing (m)", "RL [m]"),
+    ("x_m", "y_m", "z_m"),
 ])
 def test_coordinate_names_geologists_use(names):
     df = pd.DataFrame({names[0]: [1.0, 2.0], "HoleID": ["a", "b"], names[1]: [3.0, 4.0],
