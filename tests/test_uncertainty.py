@@ -1,0 +1,403 @@
+"""Tests of anisotropy.uncertainty: intervals, axis statistics, block resampling.
+
+Outside references used below:
+* scipy.stats.bootstrap (percentile and BCa, Efron & Tibshirani 1993, ch. 13-14)
+* numpy.quantile
+* exact brute force (all 6 axis permutations; a dense direction grid for the
+  orientation-tensor mean, which maximises sum cos^2: Fisher, Lewis &
+  Embleton 1987, sec. 3.2 - recalled from memory)
+"""
+
+from __future__ import annotations
+
+import itertools
+from dataclasses import dataclass
+
+import numpy as np
+import pytest
+from scipy import stats
+from scipy.spatial.transform import Rotation
+
+from anisotropy import uncertainty as U
+from anisotropy.errors import InputError, InsufficientDataError
+from anisotropy.geometry import fibonacci_hemisphere, line_to_vector
+
+
+# ---------------------------------------------------------------------------
+# intervals
+# ---------------------------------------------------------------------------
+
+def test_percentile_matches_numpy_quantile(rng):
+    r = rng.gamma(2.0, 1.0, size=999)
+    lo, hi = U.percentile_interval(r, 0.9)
+    # numpy.quantile (linear) at 5 % and 95 %
+    assert lo == pytest.approx(np.quantile(r, 0.05))
+    assert hi == pytest.approx(np.quantile(r, 0.95))
+
+
+def test_percentile_matches_scipy_bootstrap(rng):
+    x = rng.lognormal(size=40)
+    res = stats.bootstrap((x,), np.mean, n_resamples=2000, method="percentile",
+                          confidence_level=0.9, rng=np.random.default_rng(1))
+    lo, hi = U.percentile_interval(res.bootstrap_distribution, 0.9)
+    # scipy.stats.bootstrap(method="percentile") on the same resamples
+    assert lo == pytest.approx(res.confidence_interval.low, rel=1e-12)
+    assert hi == pytest.approx(res.confidence_interval.high, rel=1e-12)
+
+
+@pytest.mark.parametrize("stat", [np.mean, lambda x, axis=-1: np.var(x, axis=axis, ddof=1)])
+def test_bca_matches_scipy_on_same_resamples(rng, stat):
+    x = rng.lognormal(sigma=0.8, size=35)
+    res = stats.bootstrap((x,), stat, n_resamples=3000, method="BCa",
+                          confidence_level=0.9, rng=np.random.default_rng(7))
+    jack = np.array([stat(np.delete(x, i)) for i in range(len(x))])
+    acc = U.jackknife_acceleration(jack)
+    lo, hi = U.bca_interval(res.bootstrap_distribution, stat(x), 0.9, acceleration=acc)
+    # scipy.stats.bootstrap(method="BCa"), same bootstrap distribution and the
+    # delete-one jackknife of Efron & Tibshirani (1993) eq. 14.15
+    assert lo == pytest.approx(res.confidence_interval.low, rel=1e-9)
+    assert hi == pytest.approx(res.confidence_interval.high, rel=1e-9)
+
+
+def test_influence_acceleration_equals_jackknife_for_the_mean(rng):
+    # For the mean the statistic is exactly linear in the resampling counts,
+    # so the regression recovers influence values proportional to x_i - mean,
+    # as are the jackknife differences (Davison & Hinkley 1997, sec. 2.7.4;
+    # Efron & Tibshirani 1993, eq. 14.15): same acceleration.
+    x = rng.lognormal(sigma=1.0, size=20)
+    counts = rng.multinomial(20, np.full(20, 1 / 20), size=400)
+    reps = counts @ x / 20.0
+    jack = np.array([np.delete(x, i).mean() for i in range(20)])
+    assert U.influence_acceleration(reps, counts) == pytest.approx(
+        float(U.jackknife_acceleration(jack)), rel=1e-8)
+    # too few replicates per unit: no acceleration (documented fallback)
+    assert U.influence_acceleration(reps[:30], counts[:30]) == 0.0
+
+
+def test_bca_degenerate_returns_nan():
+    # every replicate above the estimate: z0 infinite (Efron & Tibshirani 1993, 14.3)
+    lo, hi = U.bca_interval(np.arange(1.0, 11.0), 0.0, 0.9)
+    assert np.isnan(lo) and np.isnan(hi)
+
+
+def test_confidence_validated():
+    with pytest.raises(InputError):
+        U.percentile_interval([1.0, 2.0], 1.5)
+
+
+# ---------------------------------------------------------------------------
+# axes
+# ---------------------------------------------------------------------------
+
+def _scatter_axes(rng, centre, sd_deg, n):
+    """Axes scattered around a centre (random small rotations), random signs."""
+    rv = rng.normal(scale=np.radians(sd_deg), size=(n, 3))
+    v = Rotation.from_rotvec(rv).apply(centre)
+    return v * rng.choice([-1.0, 1.0], size=(n, 1))
+
+
+def test_mean_axis_maximises_sum_cos2_brute_force(rng):
+    centre = line_to_vector(40.0, 30.0)
+    axes = _scatter_axes(rng, centre, 12.0, 200)
+    m, ev = U.mean_axis(axes)
+    grid = fibonacci_hemisphere(40000)
+    score = ((grid @ axes.T) ** 2).sum(axis=1)
+    best = grid[np.argmax(score)]
+    # exact brute force over a dense grid (~0.7 deg spacing)
+    assert np.degrees(np.arccos(min(1.0, abs(best @ m)))) < 1.0
+    assert m[2] <= 0  # lower hemisphere
+    assert ev.sum() == pytest.approx(1.0)
+    # eigenvalues against numpy.linalg.eigvalsh of the tensor built by hand
+    T = sum(np.outer(a, a) for a in axes / np.linalg.norm(axes, axis=1)[:, None]) / len(axes)
+    assert np.allclose(np.sort(ev), np.linalg.eigvalsh(T))
+
+
+def test_axis_cone_brute_force(rng):
+    ref = line_to_vector(200.0, 10.0)
+    axes = _scatter_axes(rng, ref, 8.0, 301)
+    _, cone = U.axis_cone(axes, ref, 0.9)
+    ang = [np.degrees(np.arccos(min(1.0, abs(float(a @ ref)) / np.linalg.norm(a))))
+           for a in axes]
+    # brute-force angles, numpy.quantile
+    assert cone == pytest.approx(np.quantile(ang, 0.9), abs=1e-6)
+    inside = np.mean(np.array(ang) <= cone + 1e-9)
+    assert 0.89 <= inside <= 0.91
+
+
+def _random_frame(rng):
+    return Rotation.random(random_state=rng.integers(1 << 31)).as_matrix()
+
+
+def test_match_frame_against_all_permutations(rng):
+    for _ in range(50):
+        ref = _random_frame(rng)
+        fr = _random_frame(rng)
+        matched, perm = U.match_frame(ref, fr)
+        best = max(itertools.permutations(range(3)),
+                   key=lambda p: sum(abs(ref[:, i] @ fr[:, p[i]]) for i in range(3)))
+        # exact brute force over the 6 permutations
+        assert tuple(perm) == best
+        assert np.all(np.sum(matched * ref, axis=0) >= 0)
+        assert np.allclose(np.abs(matched), np.abs(fr[:, list(best)]))
+
+
+def test_match_frame_recovers_swapped_axes(rng):
+    ref = _random_frame(rng)
+    small = Rotation.from_rotvec([0.02, -0.01, 0.03]).as_matrix()
+    fr = (small @ ref)[:, [1, 0, 2]] * np.array([1.0, -1.0, 1.0])
+    matched, perm = U.match_frame(ref, fr)
+    assert list(perm) == [1, 0, 2]
+    assert np.allclose(matched, small @ ref, atol=1e-12)
+
+
+def test_trend_interval_wraps_through_north(rng):
+    ref = line_to_vector(358.0, 20.0)
+    axes = _scatter_axes(rng, ref, 4.0, 400)
+    trend, plunge, note = U.trend_plunge_intervals(axes, ref, 0.9)
+    assert note is None
+    lo, hi = trend
+    assert lo > hi  # read clockwise from lo to hi through north
+    # brute force: signed trend differences from 358, numpy.quantile
+    a = axes * np.sign(axes @ ref)[:, None]
+    t = np.degrees(np.arctan2(a[:, 0], a[:, 1]))
+    d = (t - 358.0 + 180) % 360 - 180
+    assert lo == pytest.approx((358.0 + np.quantile(d, 0.05)) % 360, abs=1e-6)
+    assert hi == pytest.approx((358.0 + np.quantile(d, 0.95)) % 360, abs=1e-6)
+    assert 0 <= plunge[0] < 20 < plunge[1] <= 90
+
+
+def test_horizontal_axis_keeps_its_trend(rng):
+    # replicates tipping slightly up must not jump 180 degrees in trend
+    ref = line_to_vector(90.0, 0.0)
+    axes = _scatter_axes(rng, ref, 3.0, 300)
+    trend, plunge, _ = U.trend_plunge_intervals(axes, ref, 0.9)
+    assert 80 < trend[0] < 90 < trend[1] < 100
+    assert plunge[0] >= 0 and plunge[1] < 10
+
+
+def test_vertical_axis_has_no_trend(rng):
+    ref = line_to_vector(0.0, 88.0)
+    axes = _scatter_axes(rng, ref, 5.0, 200)
+    trend, plunge, note = U.trend_plunge_intervals(axes, ref, 0.9)
+    assert trend is None and "undefined" in note
+    assert plunge[1] <= 90
+
+
+# ---------------------------------------------------------------------------
+# block resampling with a stand-in volume and a stand-in refit
+# ---------------------------------------------------------------------------
+
+@dataclass
+class _Structure:
+    kind: str
+    sill: float
+    ranges: tuple
+    frame: object = None
+
+
+class _StandInModel:
+    """Just enough of models.NestedModel: one spherical structure in a frame."""
+
+    def __init__(self, nugget, sill, ranges, frame):
+        self.nugget = float(nugget)
+        self.structures = [_Structure("spherical", float(sill), tuple(map(float, ranges)))]
+        self.frame = np.asarray(frame, dtype=float)
+
+    @property
+    def total_sill(self):
+        return self.nugget + sum(s.sill for s in self.structures)
+
+    def _scale(self, u):
+        u = np.asarray(u, dtype=float)
+        return np.linalg.norm((self.frame.T @ (u / np.linalg.norm(u))) /
+                              np.asarray(self.structures[0].ranges))
+
+    def range_along(self, u):
+        return 1.0 / self._scale(u)
+
+    def variogram_along(self, u, d):
+        h = np.minimum(np.asarray(d, dtype=float) * self._scale(u), 1.0)
+        return self.nugget + self.structures[0].sill * (1.5 * h - 0.5 * h ** 3)
+
+
+_DIRS = fibonacci_hemisphere(12)
+
+
+class _StandInVolume:
+    """A LagVolume-like object: per-block sums of a noisy directional signal."""
+
+    def __init__(self, shape, size, rng, true_tensor, noise=0.5):
+        self.block_shape = tuple(shape)
+        self.block_size = np.asarray(size, dtype=float)
+        self.block_origin = np.zeros(3)
+        nb = int(np.prod(shape))
+        self.lag, self.n_lags = 10.0, 2
+        self.coarse_directions = _DIRS
+        sig = np.einsum("ji,ik,jk->j", _DIRS, true_tensor, _DIRS)
+        bs = np.zeros((nb, 3, len(_DIRS), 15))
+        cnt = rng.integers(5, 15, size=(nb, len(_DIRS)))
+        bs[:, 1, :, 0] = cnt
+        bs[:, 1, :, 2] = cnt * sig * (1 + noise * rng.standard_normal((nb, len(_DIRS))))
+        self.block_sums = bs
+        self.block_of_sample = np.arange(nb)
+
+    def coarse_sums(self, block_weights=None):
+        w = np.ones(len(self.block_sums)) if block_weights is None else block_weights
+        return np.tensordot(w, self.block_sums, axes=(0, 0))
+
+
+def _stand_in_refit(sums, *, fixed_frame=None, start=None):
+    """Frame from a least-squares tensor through the directional mean squares."""
+    g = sums[1, :, 2] / sums[1, :, 0]
+    A = np.stack([np.outer(d, d)[np.triu_indices(3)] for d in _DIRS])
+    coef, *_ = np.linalg.lstsq(A, g, rcond=None)
+    T = np.zeros((3, 3))
+    T[np.triu_indices(3)] = coef
+    T = (T + T.T) - np.diag(np.diag(T))
+    w, v = np.linalg.eigh(T)
+    order = np.argsort(w)[::-1]
+    v = v[:, order]
+    if np.linalg.det(v) < 0:
+        v[:, 2] *= -1
+    frame = fixed_frame if fixed_frame is not None else v
+    ranges = 100.0 * np.sqrt(np.maximum(np.diag(frame.T @ T @ frame), 1e-6))
+    resid = g - A @ coef
+    return _StandInModel(0.1, 0.9, ranges, frame), float(resid @ resid)
+
+
+def _truth():
+    R = Rotation.from_euler("zyx", [30, 20, 10], degrees=True).as_matrix()
+    return R @ np.diag([9.0, 4.0, 1.0]) @ R.T
+
+
+def test_resample_weights_are_multinomial_and_seeded():
+    w1 = U.resample_weights(30, 50, seed=3)
+    w2 = U.resample_weights(30, 50, seed=3)
+    assert np.array_equal(w1, w2)
+    assert np.all(w1.sum(axis=1) == 30)
+    # same draws as numpy's multinomial from the same generator
+    ref = np.random.default_rng(3).multinomial(30, np.full(30, 1 / 30), size=50)
+    assert np.array_equal(w1, ref)
+
+
+def test_reweighted_sums_equal_explicit_loop(rng):
+    vol = _StandInVolume((3, 3, 2), (10, 10, 10), rng, _truth())
+    w = rng.integers(0, 3, size=len(vol.block_sums)).astype(float)
+    explicit = sum(w[b] * vol.block_sums[b] for b in range(len(w)))
+    # exact brute force
+    assert np.allclose(U.reweighted_sums(vol.block_sums, w), explicit)
+
+
+def test_block_grouping_rule(rng):
+    vol = _StandInVolume((12, 12, 1), (10, 10, 10), rng, _truth())
+    g = U.choose_block_grouping(vol, major_range=45.0, min_blocks=25)
+    # side may not exceed 45 m and at least 25 occupied blocks remain:
+    # factor 4 gives 40 m and 3 x 3 = 9 blocks (too few); factor 2 gives
+    # 6 x 6 = 36 blocks at 20 m; factor 3 gives 4 x 4 = 16 (too few).
+    assert g.factor[:2] == (2, 2) and g.n_groups == 36
+    # brute force: every engine block in exactly one group
+    idx = np.unravel_index(np.arange(144), (12, 12, 1))
+    expected = (idx[0] // 2) * 6 + idx[1] // 2
+    assert np.array_equal(g.group_of_block, expected)
+    # no range cap, 9 blocks wanted: factors 4 and 5 both leave ceil(12/f)^2 = 9
+    # blocks, 6 leaves 4; the rule takes the largest, 5
+    g2 = U.choose_block_grouping(vol, major_range=1000.0, min_blocks=9)
+    assert g2.factor[:2] == (5, 5) and g2.n_groups == 9
+    assert "occupied" in g2.reason
+
+
+def test_too_few_blocks_warns_or_refuses(rng):
+    vol = _StandInVolume((2, 2, 1), (10, 10, 10), rng, _truth())
+    g = U.choose_block_grouping(vol, 100.0)
+    assert g.n_groups == 4 and g.warnings
+    vol1 = _StandInVolume((1, 1, 1), (10, 10, 10), rng, _truth())
+    with pytest.raises(InsufficientDataError):
+        U.choose_block_grouping(vol1, 100.0)
+
+
+def _reference(vol):
+    return _stand_in_refit(vol.coarse_sums())[0]
+
+
+def test_same_seed_same_bands_any_n_jobs(rng):
+    vol = _StandInVolume((8, 8, 1), (10, 10, 10), rng, _truth())
+    ref = _reference(vol)
+    a = U.block_bootstrap(vol, _stand_in_refit, ref, n_replicates=40, seed=11, n_jobs=1,
+                          min_blocks=25)
+    b = U.block_bootstrap(vol, _stand_in_refit, ref, n_replicates=40, seed=11, n_jobs=2,
+                          min_blocks=25)
+    c = U.block_bootstrap(vol, _stand_in_refit, ref, n_replicates=40, seed=12, n_jobs=1,
+                          min_blocks=25)
+    da, db, dc = a.to_dict(), b.to_dict(), c.to_dict()
+    for d in (da, db, dc):
+        d.pop("seconds")
+    assert da == db
+    assert da != dc
+    assert np.array_equal(a.counts, b.counts)
+
+
+def test_bands_shrink_with_more_blocks():
+    # 4x more blocks of the same signal: the sampling spread of the stand-in
+    # estimate falls roughly as 1/sqrt(blocks) (exact for a mean of iid blocks)
+    cones = []
+    for shape in ((6, 6, 1), (12, 12, 1)):
+        vol = _StandInVolume(shape, (10, 10, 10), np.random.default_rng(5), _truth())
+        res = U.block_bootstrap(vol, _stand_in_refit, _reference(vol), n_replicates=100,
+                                seed=1, min_blocks=25)
+        cones.append(res.to_dict()["major"]["cone_deg"])
+    assert cones[1] < 0.8 * cones[0]
+
+
+def test_result_schema_and_json(rng):
+    import json
+
+    vol = _StandInVolume((8, 8, 1), (10, 10, 10), rng, _truth())
+    ref = _reference(vol)
+    res = U.block_bootstrap(vol, _stand_in_refit, ref, n_replicates=30, seed=2)
+    d = json.loads(json.dumps(res.to_dict()))  # plain types only
+    assert d["method"] == "block_bootstrap" and d["replicates"] == 30
+    assert d["confidence"] == 0.9
+    for name in ("major", "semi_major", "minor"):
+        assert set(d[name]) >= {"cone_deg", "trend", "plunge", "range"}
+        lo, hi = d[name]["range"]
+        assert lo <= hi
+    assert len(d["sills"]) == 1 and len(d["nugget"]) == 2
+    assert 0.0 <= d["swap_rate"]["major_semi_major"] <= 1.0
+    bands = res.variogram_bands(np.eye(3), np.linspace(0, 200, 11))
+    assert bands["lo"].shape == (3, 11)
+    assert np.all(bands["lo"] <= bands["hi"] + 1e-12)
+    eb = res.experimental_bands()
+    assert eb["lo"].shape == (3, len(_DIRS))
+    assert "blocks" in res.summary()
+
+
+def test_swap_rate_on_nearly_isotropic_plane(rng):
+    # major and semi-major ranges nearly equal: their order flips between
+    # replicates, while a clearly elongated plane keeps it
+    R = Rotation.from_euler("z", 30, degrees=True).as_matrix()
+    flat = R @ np.diag([4.1, 4.0, 1.0]) @ R.T
+    long = R @ np.diag([9.0, 4.0, 1.0]) @ R.T
+    rates = []
+    for T in (flat, long):
+        vol = _StandInVolume((8, 8, 1), (10, 10, 10), np.random.default_rng(9), T, noise=0.3)
+        res = U.block_bootstrap(vol, _stand_in_refit, _reference(vol), n_replicates=60, seed=4)
+        rates.append(res.swap_rate)
+    assert rates[0] > 0.2
+    assert rates[1] < 0.05
+
+
+def test_failed_refits_are_counted(rng):
+    vol = _StandInVolume((8, 8, 1), (10, 10, 10), rng, _truth())
+    ref = _reference(vol)
+    calls = {"n": 0}
+
+    def flaky(sums, *, fixed_frame=None, start=None):
+        calls["n"] += 1
+        if calls["n"] % 5 == 0:
+            raise RuntimeError("did not converge")
+        return _stand_in_refit(sums, fixed_frame=fixed_frame, start=start)
+
+    res = U.block_bootstrap(vol, flaky, ref, n_replicates=20, seed=0)
+    assert res.n_failed == 4 and res.n_replicates == 16
+    d = res.to_dict()
+    assert d["failed"] == 4 and any("failed" in w for w in d["warnings"])
