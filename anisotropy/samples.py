@@ -871,11 +871,13 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
     if kb:
         if below_detection == "half":
             v = v.copy()
+            example = float(v[bdl][0])
             v[bdl] = -v[bdl] / 2.0
             changed[R_BDL_HALF] = kb
             warnings.append(f"{kb} below-detection {_plural(kb, 'code', 'codes')} (negative "
                             f"grades -DL) {_plural(kb, 'was', 'were')} replaced by half the "
-                            "detection limit, DL/2 (common practice; -0.01 becomes 0.005).")
+                            f"detection limit, DL/2 (common practice; {example:g} became "
+                            f"{-example / 2:g}).")
         elif below_detection == "missing":
             drop(bdl, R_BDL_MISSING)
             warnings.append(f"{kb} below-detection {_plural(kb, 'code', 'codes')} (negative "
