@@ -1,1 +1,645 @@
-"""The pair engine (see issue 3): one compiled pass over all pairs."""
+"""The pair engine: one compiled pass over all pairs into a lag-vector volume.
+
+Every unordered pair of samples closer than ``max_distance = (n_lags + 1/2)
+lag`` is visited once (cell lists, ``_cells.py``; compiled kernels,
+``_kernels.py``) and its contribution is added to three sets of bins:
+
+``sums`` (n_lags + 1, n_fine, n_ch)
+    distance class x fine direction cell (nearest axis of a Fibonacci
+    lattice, about 2 degrees apart by default), the basis of every directional
+    variogram and fan;
+``block_sums`` (n_blocks, n_lags + 1, n_coarse, n_ch)
+    the same sums per spatial block, at the coarse direction resolution the
+    fit uses (about 10 degrees), for the block bootstrap;
+``map_sums`` (nx, ny, nz, n_ch)
+    a Cartesian lag volume of cell ``map_cell`` for variogram maps.
+
+Conventions (shared with :func:`anisotropy.experimental_variogram` and the
+brute-force tests):
+
+* lag vector of a pair in the canonical orientation of
+  :func:`anisotropy.geometry.to_lower_hemisphere` (z < 0; if z == 0 then
+  x > 0; if also x == 0 then y > 0); head = tail + canonical lag,
+  delta = head - tail;
+* distance class ``k = ceil(d / lag - 1/2)``, k = 0..n_lags, so class k covers
+  (k lag - lag/2, k lag + lag/2] and class 0 holds the shortest pairs,
+  coincident points included; a pair whose class would exceed ``n_lags`` is
+  not counted (it lies beyond ``max_distance``);
+* coincident pairs (zero lag) have no direction: they sit in class 0, fine
+  cell 0, map centre cell;
+* the fine cell of a pair is read from a Lambert equal-area lookup table
+  (``_lattice.py``): exact at pixel centres, at most one pixel (well under a
+  tenth of the lattice spacing) off near cell boundaries;
+* block of a pair: the block holding the pair's midpoint. The midpoint is
+  symmetric in the two samples (it does not depend on which one is the
+  head), and with a regular grid it sends each pair to exactly one block, so
+  the blocks partition the pairs and a bootstrap that re-weights blocks
+  re-weights disjoint sets of pairs. ``block_of_sample`` gives each sample's
+  own block for resampling schemes that need it;
+* map cell of a pair: ``round(v / map_cell)`` componentwise (floor(x + 1/2))
+  of the canonical lag ``v``; only the canonical half (z <= 0) is stored,
+  see :meth:`LagVolume.full_map` for the symmetrised read-out.
+
+Memory is bounded independently of the number of pairs: the accumulators
+(one slice per work chunk plus the merged result) are the only large arrays,
+and the block grid is coarsened until the block sums fit ``block_memory``.
+Before a long run the estimated pair count is printed to standard error (or
+passed to a ``progress`` callable), and the run is processed in batches of
+cells with progress after each batch.
+"""
+
+from __future__ import annotations
+
+import math
+import sys
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..errors import DataError, InputError
+from . import _cells, _kernels, _lattice
+
+__all__ = [
+    "CHANNELS",
+    "LagVolume",
+    "RunPlan",
+    "build_volume",
+    "estimate_pair_count",
+    "plan_run",
+    "direction_vector",
+]
+
+CHANNELS = ("count", "dist", "sq", "abs", "sqrt", "head", "tail", "head2", "tail2",
+            "cross", "rel", "rel_n", "dx", "dy", "dz")
+CH = {name: i for i, name in enumerate(CHANNELS)}
+
+#: Fixed number of work chunks (each with its own accumulator slice). Fixed so
+#: that sums do not depend on the thread count; at least the thread count.
+def _n_chunks() -> int:
+    try:
+        import numba
+
+        return max(4, int(numba.get_num_threads()))
+    except Exception:  # pragma: no cover
+        return 4
+
+
+#: Pairs above which a run announces its estimate and reports progress.
+ANNOUNCE_PAIRS = 20_000_000
+#: Candidate pairs per batch of cells.
+BATCH_CANDIDATES = 400_000_000
+#: Default bound (bytes) for the block sums, all chunk slices included.
+BLOCK_MEMORY = 384 * 2**20
+
+
+# ----------------------------------------------------------------- validation
+def _check_coords_values(coords, values, what="samples"):
+    c = np.asarray(coords, dtype=np.float64)
+    if c.ndim != 2 or c.shape[1] not in (2, 3):
+        raise InputError(f"coordinates must be an (n, 3) array of x, y, z; got shape {c.shape}.")
+    if c.shape[1] == 2:
+        c = np.column_stack([c, np.zeros(len(c))])
+    v = np.asarray(values, dtype=np.float64).ravel()
+    if len(v) != len(c):
+        raise InputError(
+            f"{len(c)} coordinate rows but {len(v)} values: give one value per sample."
+        )
+    bad = np.flatnonzero(~np.all(np.isfinite(c), axis=1))
+    if len(bad):
+        rows = ", ".join(str(int(r)) for r in bad[:10]) + (" ..." if len(bad) > 10 else "")
+        raise DataError(
+            f"{len(bad)} {what} have missing (NaN) or infinite coordinates, at rows {rows} "
+            "(0-based). Remove or fix those rows before computing variograms."
+        )
+    badv = np.flatnonzero(~np.isfinite(v))
+    if len(badv):
+        rows = ", ".join(str(int(r)) for r in badv[:10]) + (" ..." if len(badv) > 10 else "")
+        raise DataError(
+            f"{len(badv)} {what} have missing (NaN) or infinite values, at rows {rows} "
+            "(0-based). Remove them or set a missing-value policy when reading the samples."
+        )
+    return np.ascontiguousarray(c), np.ascontiguousarray(v)
+
+
+def _check_lag(lag, n_lags):
+    try:
+        lag = float(lag)
+    except (TypeError, ValueError):
+        raise InputError(f"lag must be a positive distance in metres; got {lag!r}.") from None
+    if not (lag > 0) or not math.isfinite(lag):
+        raise InputError(f"lag must be a positive distance in metres; got {lag}.")
+    if isinstance(n_lags, bool) or int(n_lags) != n_lags or int(n_lags) < 1:
+        raise InputError(f"n_lags must be a whole number >= 1; got {n_lags!r}.")
+    return lag, int(n_lags)
+
+
+def direction_vector(direction) -> np.ndarray:
+    """Unit vector of a direction given as (trend, plunge) degrees or a 3-vector.
+
+    Returned in the canonical (lower-hemisphere) orientation.
+    """
+    from .. import geometry
+
+    d = np.asarray(direction, dtype=float).ravel()
+    if d.shape == (2,):
+        if not np.all(np.isfinite(d)) or not (-1e-9 <= d[1] <= 90 + 1e-9):
+            raise InputError(
+                f"direction (trend, plunge) must have plunge in [0, 90] degrees; got {tuple(d)}."
+            )
+        u = geometry.line_to_vector(d[0], d[1])
+    elif d.shape == (3,):
+        n = float(np.linalg.norm(d))
+        if not (n > 0) or not math.isfinite(n):
+            raise InputError(f"direction vector must be non-zero and finite; got {tuple(d)}.")
+        u = d / n
+    else:
+        raise InputError(
+            "direction must be (trend, plunge) in degrees or an (east, north, up) vector; "
+            f"got {direction!r}."
+        )
+    return geometry.to_lower_hemisphere(np.asarray(u, dtype=float).reshape(3))
+
+
+# ------------------------------------------------------------------- planning
+_WEIGHT_CACHE: dict = {}
+
+
+def _offset_weights(offsets: np.ndarray, cell: float, radius: float) -> np.ndarray:
+    """P(|p - q| <= R) for p, q uniform in two cells ``offset`` apart (seeded Monte Carlo)."""
+    key = (offsets.tobytes(), round(cell / radius, 12))
+    if key in _WEIGHT_CACHE:
+        return _WEIGHT_CACHE[key]
+    rng = np.random.default_rng(12345)
+    m = 4000
+    a = rng.random((m, 3))
+    b = rng.random((m, 3))
+    r = radius / cell
+    allo = np.vstack([np.zeros((1, 3), dtype=np.int64), offsets])
+    w = np.empty(len(allo))
+    for i, o in enumerate(allo):
+        d = b + o - a
+        w[i] = np.mean((d * d).sum(axis=1) <= r * r)
+    _WEIGHT_CACHE[key] = w
+    return w
+
+
+def estimate_pair_count(coords, max_distance) -> int:
+    """Estimated number of unordered pairs closer than ``max_distance``.
+
+    Counts samples in cells of side ``max_distance / 4`` and weights each cell
+    pair by the probability that two points uniform in those cells are within
+    the distance (a seeded Monte Carlo per offset). Cost grows with the number
+    of cells, not of pairs, so it is safe for distances implying billions of
+    pairs. Accuracy is that of the within-cell uniformity assumption (a few
+    per cent on spread-out data).
+
+    Parameters
+    ----------
+    coords : array_like (n, 3)
+    max_distance : float
+
+    Returns
+    -------
+    int
+    """
+    c = np.asarray(coords, dtype=np.float64)
+    if c.ndim != 2 or len(c) < 2:
+        return 0
+    if c.shape[1] == 2:
+        c = np.column_stack([c, np.zeros(len(c))])
+    r = float(max_distance)
+    if not (r > 0):
+        return 0
+    grid = _cells.make_grid(c, r, divisions=4, max_cells_per_sample=2.0)
+    off = _cells.half_stencil(grid.cell, r, grid.dims)
+    w = _offset_weights(off, grid.cell, r)
+    counts = np.diff(grid.start)
+    total = _kernels.count_estimate(counts, grid.dims, grid.occupied, off, w)
+    n = len(c)
+    return int(round(min(total, n * (n - 1) / 2.0)))
+
+
+@dataclass
+class RunPlan:
+    """What a pass will cost before it runs.
+
+    Attributes
+    ----------
+    n_samples, estimated_pairs, candidate_pairs : int
+    batches : list of (int, int)
+        Ranges of occupied cells processed one after the other.
+    cell : float
+        Cell side of the search grid, metres.
+    accumulator_bytes : int
+        Bytes of all accumulators (chunk slices and merged result).
+    """
+
+    n_samples: int
+    max_distance: float
+    estimated_pairs: int
+    candidate_pairs: int
+    batches: list
+    cell: float
+    accumulator_bytes: int = 0
+
+    @property
+    def n_batches(self) -> int:
+        return len(self.batches)
+
+    def to_dict(self) -> dict:
+        return {
+            "n_samples": int(self.n_samples),
+            "max_distance": float(self.max_distance),
+            "estimated_pairs": int(self.estimated_pairs),
+            "candidate_pairs": int(self.candidate_pairs),
+            "n_batches": int(self.n_batches),
+            "cell": float(self.cell),
+            "accumulator_bytes": int(self.accumulator_bytes),
+        }
+
+
+def _plan_batches(work: np.ndarray, target: float) -> list:
+    """Split consecutive occupied cells into batches of about ``target`` candidates."""
+    if len(work) == 0:
+        return []
+    cum = np.cumsum(work)
+    total = float(cum[-1])
+    nb = max(1, int(math.ceil(total / max(target, 1.0))))
+    if nb == 1:
+        return [(0, len(work))]
+    cuts = np.searchsorted(cum, total * np.arange(1, nb) / nb, side="left") + 1
+    edges = np.unique(np.concatenate([[0], np.clip(cuts, 1, len(work)), [len(work)]]))
+    return [(int(a), int(b)) for a, b in zip(edges[:-1], edges[1:]) if b > a]
+
+
+def _grid_and_plan(coords, radius, divisions, batch_candidates):
+    grid = _cells.make_grid(coords, radius, divisions=divisions)
+    off = _cells.half_stencil(grid.cell, radius, grid.dims)
+    work = _kernels.cell_work(grid.start, grid.dims, grid.occupied, off)
+    batches = _plan_batches(work, batch_candidates)
+    return grid, off, work, batches
+
+
+def plan_run(coords, max_distance, *, divisions=_cells.DEFAULT_CELL_DIVISIONS,
+             batch_candidates=BATCH_CANDIDATES) -> RunPlan:
+    """Plan a pass: pair-count estimate, candidate pairs and batches (nothing is binned).
+
+    Parameters
+    ----------
+    coords : array_like (n, 3)
+    max_distance : float
+    divisions : int
+        Cells per search radius.
+    batch_candidates : float
+        Candidate pairs per batch.
+
+    Returns
+    -------
+    RunPlan
+    """
+    c = np.asarray(coords, dtype=np.float64)
+    c = c - c.min(axis=0) if len(c) else c
+    grid, off, work, batches = _grid_and_plan(c, float(max_distance), divisions, batch_candidates)
+    return RunPlan(
+        n_samples=len(c),
+        max_distance=float(max_distance),
+        estimated_pairs=estimate_pair_count(c, max_distance),
+        candidate_pairs=int(work.sum()),
+        batches=batches,
+        cell=float(grid.cell),
+    )
+
+
+def _announce(progress, message):
+    if progress is True:
+        print(message, file=sys.stderr, flush=True)
+    elif callable(progress):
+        progress(message)
+
+
+# ---------------------------------------------------------------- the volume
+@dataclass
+class LagVolume:
+    """Accumulated pair sums of one pass (see the module docstring).
+
+    Attributes
+    ----------
+    lag, n_lags, max_distance : float, int, float
+        Distance classes k = 0..n_lags of width ``lag``; pairs up to
+        ``max_distance = (n_lags + 1/2) lag``.
+    directions : ndarray (n_fine, 3)
+        Fine lattice (unit vectors, canonical orientation).
+    sums : ndarray (n_lags + 1, n_fine, n_ch)
+    coarse_directions : ndarray (n_coarse, 3)
+    fine_to_coarse : ndarray (n_fine,) int64
+        Nearest coarse axis of each fine direction.
+    block_shape : tuple of 3 int
+    block_origin : ndarray (3,)
+        Lower corner of the block grid, input coordinates.
+    block_size : ndarray (3,)
+    block_of_sample : ndarray (n,) int64
+        Flat block index ``(bx * ny + by) * nz + bz`` of each sample.
+    block_sums : ndarray (n_blocks, n_lags + 1, n_coarse, n_ch)
+        Per block of pair midpoints; empty (0, ...) when blocks were turned off.
+    map_cell : float or None
+    map_sums : ndarray (2m + 1, 2m + 1, m + 1, n_ch)
+        Canonical half of the Cartesian lag volume: index (ix, iy, iz) holds
+        lags with ``round(v / map_cell) == (ix - m, iy - m, iz - m)``.
+    n_pairs : int
+        Pairs binned (within ``max_distance``).
+    seconds : float
+    memory_bytes : int
+        Bytes of all accumulators during the run (chunk slices + result).
+    stats : dict
+        Candidates looked at, cell side, batches, chunks, block memory.
+    """
+
+    lag: float
+    n_lags: int
+    max_distance: float
+    directions: np.ndarray
+    sums: np.ndarray
+    coarse_directions: np.ndarray
+    fine_to_coarse: np.ndarray
+    block_shape: tuple
+    block_origin: np.ndarray
+    block_size: np.ndarray
+    block_of_sample: np.ndarray
+    block_sums: np.ndarray
+    map_cell: float | None
+    map_sums: np.ndarray
+    n_pairs: int
+    seconds: float
+    memory_bytes: int
+    stats: dict = field(default_factory=dict)
+    channels: tuple = CHANNELS
+
+    @property
+    def n_blocks(self) -> int:
+        return int(self.block_sums.shape[0])
+
+    @property
+    def class_centres(self) -> np.ndarray:
+        """Nominal distance of each class, k * lag, k = 0..n_lags."""
+        return np.arange(self.n_lags + 1) * self.lag
+
+    def cell_mask(self, direction, angular_tolerance, bandwidth=None) -> np.ndarray:
+        """Bins (n_lags + 1, n_fine) that count for a direction.
+
+        A fine cell counts when the angle between its lattice axis and the
+        direction is <= ``angular_tolerance`` (all cells when the tolerance is
+        >= 90 degrees or ``direction`` is None). With a bandwidth ``b``, bin
+        (k, cell) counts only when ``k lag sin(angle) <= b``: the bandwidth
+        rule applied at the class centre and the cell axis.
+        """
+        nf = len(self.directions)
+        if direction is None or angular_tolerance >= 90.0:
+            m = np.ones(nf, dtype=bool)
+            sin = None
+            if direction is not None and bandwidth is not None:
+                u = direction_vector(direction)
+                c = np.abs(self.directions @ u)
+                sin = np.sqrt(np.maximum(0.0, 1.0 - c * c))
+        else:
+            u = direction_vector(direction)
+            c = np.minimum(np.abs(self.directions @ u), 1.0)
+            m = c >= math.cos(math.radians(float(angular_tolerance)))
+            sin = np.sqrt(np.maximum(0.0, 1.0 - c * c))
+        mask = np.broadcast_to(m, (self.n_lags + 1, nf)).copy()
+        if bandwidth is not None and sin is not None:
+            perp = self.class_centres[:, None] * sin[None, :]
+            mask &= perp <= float(bandwidth)
+        return mask
+
+    def aggregate(self, direction, angular_tolerance, bandwidth=None) -> np.ndarray:
+        """Sums (n_lags + 1, n_ch) over the fine cells of a direction.
+
+        Cell-resolution approximation of the exact rule: a pair counts when
+        its *cell axis* (not its own lag vector) is within the tolerance, so
+        the pair set differs from :func:`anisotropy.experimental_variogram`
+        only for pairs whose angle to the direction is within one cell radius
+        of the tolerance. With ``direction=None`` (omnidirectional) it is
+        exact.
+
+        Parameters
+        ----------
+        direction : None, (trend, plunge) or vector
+        angular_tolerance : float, degrees
+        bandwidth : float or None, metres (applied at class centres)
+        """
+        mask = self.cell_mask(direction, angular_tolerance, bandwidth)
+        return np.einsum("kf,kfc->kc", mask.astype(np.float64), self.sums)
+
+    def coarse_sums(self, block_weights=None) -> np.ndarray:
+        """Sums (n_lags + 1, n_coarse, n_ch) on the coarse lattice.
+
+        ``block_weights`` (n_blocks,) re-weights the blocks (a bootstrap
+        replicate); None sums every block, which equals the fine ``sums``
+        aggregated through ``fine_to_coarse``.
+        """
+        if block_weights is None:
+            if self.n_blocks:
+                return self.block_sums.sum(axis=0)
+            out = np.zeros((self.n_lags + 1, len(self.coarse_directions), len(CHANNELS)))
+            np.add.at(out, (slice(None), self.fine_to_coarse), self.sums)
+            return out
+        w = np.asarray(block_weights, dtype=np.float64).ravel()
+        if len(w) != self.n_blocks:
+            raise InputError(
+                f"block_weights needs one weight per block ({self.n_blocks}); got {len(w)}."
+            )
+        return np.tensordot(w, self.block_sums, axes=(0, 0))
+
+    def full_map(self) -> tuple:
+        """Symmetrised Cartesian map: (centres (n,), sums (n, n, n, n_ch)).
+
+        Each pair appears at its lag v and at -v (as in a variogram map);
+        the centre cell holds each zero-or-near-zero pair once.
+        ``centres`` are the cell-centre coordinates along every axis.
+        """
+        m = (self.map_sums.shape[0] - 1) // 2
+        n = 2 * m + 1
+        full = np.zeros((n, n, n, self.map_sums.shape[-1]))
+        full[:, :, : m + 1] = self.map_sums
+        full += full[::-1, ::-1, ::-1]
+        full[m, m, m] = self.map_sums[m, m, m]
+        return (np.arange(-m, m + 1) * self.map_cell, full)
+
+    def to_dict(self) -> dict:
+        """JSON-ready summary (no arrays)."""
+        return {
+            "lag": float(self.lag),
+            "n_lags": int(self.n_lags),
+            "max_distance": float(self.max_distance),
+            "n_fine": int(len(self.directions)),
+            "n_coarse": int(len(self.coarse_directions)),
+            "block_shape": [int(b) for b in self.block_shape],
+            "block_size": [float(b) for b in self.block_size],
+            "n_blocks": int(self.n_blocks),
+            "map_cell": None if self.map_cell is None else float(self.map_cell),
+            "n_pairs": int(self.n_pairs),
+            "seconds": float(self.seconds),
+            "memory_bytes": int(self.memory_bytes),
+            "stats": {k: (float(v) if isinstance(v, (float, np.floating)) else
+                          int(v) if isinstance(v, (int, np.integer)) else v)
+                      for k, v in self.stats.items()},
+        }
+
+
+def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_directions=None,
+                 blocks=None, map_cell=None, progress=True, block_memory=BLOCK_MEMORY,
+                 cell_divisions=_cells.DEFAULT_CELL_DIVISIONS,
+                 batch_candidates=BATCH_CANDIDATES) -> LagVolume:
+    """One pass over all pairs into a :class:`LagVolume`.
+
+    Parameters
+    ----------
+    coords : array_like (n, 3)
+        Sample coordinates (east, north, up), metres. Shifted internally to
+        their minimum for precision.
+    values : array_like (n,)
+    lag : float
+        Class width, metres.
+    n_lags : int
+        Classes 1..n_lags (plus class 0); pairs up to (n_lags + 1/2) lag.
+    fine_directions, coarse_directions : None, float, int or (n, 3) array
+        Direction lattices: None for the defaults (about 2 and 10 degrees
+        apart), a spacing in degrees, a number of Fibonacci directions (> 90)
+        or the vectors themselves.
+    blocks : None, float, (3,) floats or False
+        Block side(s) in metres for ``block_sums``. None: cubes of side
+        ``max_distance`` (enlarged to fit ``block_memory``); False: no block
+        sums.
+    map_cell : None, float or False
+        Cell of the Cartesian map, metres; None: ``lag``; False: no map.
+    progress : bool or callable
+        True prints the estimated pair count and per-batch progress to
+        standard error for runs above ``ANNOUNCE_PAIRS`` pairs; a callable
+        receives those messages (every run); False is silent.
+    block_memory : int
+        Bound in bytes for the block sums, all chunk slices included; the
+        block side grows until it holds.
+    cell_divisions : int
+        Search cells per ``max_distance``.
+    batch_candidates : float
+        Candidate pairs per batch.
+
+    Returns
+    -------
+    LagVolume
+    """
+    t_start = time.perf_counter()
+    c, v = _check_coords_values(coords, values)
+    lag, n_lags = _check_lag(lag, n_lags)
+    n = len(c)
+    max_distance = (n_lags + 0.5) * lag
+    origin = c.min(axis=0) if n else np.zeros(3)
+    cl = c - origin
+    hi = cl.max(axis=0) if n else np.zeros(3)
+
+    fine = _lattice.lattice(fine_directions, _lattice.DEFAULT_FINE_SPACING)
+    coarse = _lattice.lattice(coarse_directions, _lattice.DEFAULT_COARSE_SPACING)
+    f2c = _lattice.nearest_axis(fine, coarse)
+    table = _lattice.lambert_table(fine)
+    n_fine, n_coarse, n_cls, nch = len(fine), len(coarse), n_lags + 1, len(CHANNELS)
+    n_chunks = _n_chunks()
+
+    # blocks
+    do_blocks = blocks is not False
+    if do_blocks:
+        if blocks is None:
+            size = np.full(3, max_distance)
+        else:
+            size = np.broadcast_to(np.asarray(blocks, dtype=float), (3,)).astype(float).copy()
+            if not np.all(np.isfinite(size)) or np.any(size <= 0):
+                raise InputError(f"block size must be positive metres; got {blocks!r}.")
+        per_block = n_cls * n_coarse * nch * 8 * (n_chunks + 1)
+        while True:
+            shape = np.maximum(np.ceil(np.maximum(hi, 1e-12) / size), 1).astype(np.int64)
+            if int(np.prod(shape)) * per_block <= block_memory or np.prod(shape) == 1:
+                break
+            size = size * 1.25
+        bshape = shape
+        n_blocks = int(np.prod(bshape))
+        bidx = np.minimum(np.floor(cl / size).astype(np.int64), bshape - 1)
+        block_of_sample = (bidx[:, 0] * bshape[1] + bidx[:, 1]) * bshape[2] + bidx[:, 2]
+    else:
+        size = np.zeros(3)
+        bshape = np.ones(3, dtype=np.int64)
+        n_blocks = 0
+        block_of_sample = np.zeros(n, dtype=np.int64)
+    # map
+    do_map = map_cell is not False
+    if do_map:
+        mc = float(lag if map_cell is None else map_cell)
+        if not (mc > 0) or not math.isfinite(mc):
+            raise InputError(f"map_cell must be a positive distance in metres; got {map_cell!r}.")
+        mhalf = int(math.ceil(max_distance / mc))
+    else:
+        mc = None
+        mhalf = 0
+    mny, mnz = 2 * mhalf + 1, mhalf + 1
+
+    # accumulators (chunk slices)
+    acc_fine = np.zeros((n_chunks, n_cls * n_fine * nch))
+    acc_blk = np.zeros((n_chunks, max(n_blocks, 1) * n_cls * n_coarse * nch if do_blocks else 1))
+    acc_map = np.zeros((n_chunks, mny * mny * mnz * nch if do_map else 1))
+    stats = np.zeros((n_chunks, 2), dtype=np.int64)
+    memory = (acc_fine.nbytes + acc_blk.nbytes + acc_map.nbytes) * (n_chunks + 1) // n_chunks
+    memory += table.nbytes
+
+    grid, off, work, batches = _grid_and_plan(cl, max_distance, cell_divisions, batch_candidates)
+    est = None
+    loud = callable(progress) or (progress is True and work.sum() > ANNOUNCE_PAIRS)
+    if loud:
+        est = estimate_pair_count(cl, max_distance)
+        _announce(progress, (
+            f"pair engine: about {est:,} pairs within {max_distance:g} m among {n:,} samples "
+            f"({int(work.sum()):,} candidates, {len(batches)} batch(es), "
+            f"{memory / 2**20:.0f} MB of accumulators)"))
+    order = grid.order
+    x = np.ascontiguousarray(cl[order, 0])
+    y = np.ascontiguousarray(cl[order, 1])
+    z = np.ascontiguousarray(cl[order, 2])
+    vv = np.ascontiguousarray(v[order])
+    maxd2 = (max_distance * (1 + 1e-12)) ** 2
+    inv_pix = table.shape[0] / (2.0 * math.sqrt(2.0))
+    binv = np.where(size > 0, 1.0 / np.where(size > 0, size, 1.0), 0.0)
+    borig = np.zeros(3)
+    for bi, (q0, q1) in enumerate(batches):
+        _kernels.volume_pass(x, y, z, vv, grid.start, grid.dims, grid.occupied, off, q0, q1,
+                             n_chunks, maxd2, lag, n_lags, table, inv_pix, f2c, n_coarse,
+                             do_blocks, borig, binv, bshape, do_map,
+                             (1.0 / mc) if do_map else 0.0, mhalf,
+                             acc_fine, acc_blk, acc_map, stats)
+        if loud and len(batches) > 1:
+            done = float(work[:q1].sum() / max(work.sum(), 1))
+            _announce(progress, f"pair engine: batch {bi + 1}/{len(batches)} done "
+                                f"({100 * done:.0f} % of candidates)")
+    sums = acc_fine.sum(axis=0).reshape(n_cls, n_fine, nch)
+    del acc_fine
+    if do_blocks:
+        block_sums = acc_blk.sum(axis=0).reshape(n_blocks, n_cls, n_coarse, nch)
+    else:
+        block_sums = np.zeros((0, n_cls, n_coarse, nch))
+    del acc_blk
+    if do_map:
+        map_sums = acc_map.sum(axis=0).reshape(mny, mny, mnz, nch)
+    else:
+        map_sums = np.zeros((1, 1, 1, nch))
+    del acc_map
+    st = stats.sum(axis=0)
+    seconds = time.perf_counter() - t_start
+    return LagVolume(
+        lag=lag, n_lags=n_lags, max_distance=max_distance,
+        directions=fine, sums=sums, coarse_directions=coarse, fine_to_coarse=f2c,
+        block_shape=tuple(int(b) for b in bshape) if do_blocks else (0, 0, 0),
+        block_origin=origin.copy(), block_size=size, block_of_sample=block_of_sample,
+        block_sums=block_sums, map_cell=mc, map_sums=map_sums,
+        n_pairs=int(st[1]), seconds=seconds, memory_bytes=int(memory),
+        stats={"candidates": int(st[0]), "cell": float(grid.cell), "batches": len(batches),
+               "chunks": int(n_chunks), "table_size": int(table.shape[0]),
+               "block_bytes": int(block_sums.nbytes),
+               "estimated_pairs": -1 if est is None else int(est)},
+    )

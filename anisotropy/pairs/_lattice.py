@@ -1,0 +1,205 @@
+"""Direction lattices and the per-pair direction lookup of the pair engine.
+
+A pair's lag vector is first put in the canonical orientation of
+:func:`anisotropy.geometry.to_lower_hemisphere` (z < 0; if z == 0 then
+x > 0; if also x == 0 then y > 0). Its unit vector ``(x, y, z)`` then has
+Lambert equal-area coordinates
+
+    (X, Y) = sqrt(2 / (1 - z)) * (x, y),      X^2 + Y^2 = 2 (1 + z) <= 2,
+
+a disc of radius sqrt(2) (the rim holds the horizontal lags). The engine
+precomputes, on a square ``T x T`` grid of pixels covering that disc, the
+index of the lattice direction nearest (as an undirected axis) to the unit
+vector at each pixel centre. Per pair the cell is then one square root, one
+divide, two floors and one table read (see ``_kernels.py``); for a lag vector
+``v`` of length ``d`` the two coordinates are ``v_xy * sqrt(2 / (d (d - v_z)))``.
+
+Rim: a horizontal lag ``v`` and ``-v`` are the same axis but land on
+opposite points of the rim. The table is built with the undirected nearest
+axis (a nearest-neighbour search over the lattice *and* its antipodes), so
+both rim points carry the same answer whenever that axis is the nearest, and
+pixels just outside the disc (reached only through rounding) are pulled back
+onto the rim before the search.
+
+Accuracy of the lookup: the answer is exact for the pixel centre; a pair can
+only get a different cell than the true nearest axis when it lies within
+half a pixel diagonal of the boundary between two lattice cells, and then the
+axis it gets is at most one pixel's angular diameter (:func:`pixel_angle`)
+farther from it than the nearest one.
+"""
+
+from __future__ import annotations
+
+import functools
+import math
+
+import numpy as np
+from scipy.spatial import cKDTree
+
+from .. import geometry
+
+__all__ = [
+    "DEFAULT_FINE_SPACING",
+    "DEFAULT_COARSE_SPACING",
+    "lattice",
+    "lambert_table",
+    "lambert_coordinates",
+    "nearest_axis",
+    "pixel_angle",
+]
+
+#: Default spacing (degrees) of the fine lattice on which the volume is binned.
+DEFAULT_FINE_SPACING = 2.0
+#: Default spacing (degrees) of the coarse lattice used by the fit and the blocks.
+DEFAULT_COARSE_SPACING = 10.0
+
+_SQRT2 = math.sqrt(2.0)
+
+
+def lattice(spec, default_spacing: float) -> np.ndarray:
+    """Return a lower-hemisphere direction lattice as unit vectors.
+
+    Parameters
+    ----------
+    spec : None, float, int or array_like (n, 3)
+        None: the Fibonacci fan of :func:`anisotropy.geometry.fan_for_spacing`
+        for ``default_spacing``; a float in (0, 90]: that spacing in degrees;
+        an int > 90 or ``("n", k)``-like int: that many Fibonacci directions;
+        an array: the directions themselves (normalised and put in the
+        canonical orientation).
+    default_spacing : float
+        Spacing in degrees used when ``spec`` is None.
+
+    Returns
+    -------
+    ndarray, shape (n, 3)
+    """
+    from ..errors import InputError
+
+    if spec is None:
+        dirs = geometry.fan_for_spacing(default_spacing)
+    elif np.isscalar(spec):
+        if isinstance(spec, (int, np.integer)) and spec > 90:
+            dirs = geometry.fibonacci_hemisphere(int(spec))
+        else:
+            dirs = geometry.fan_for_spacing(float(spec))
+    else:
+        dirs = np.asarray(spec, dtype=float)
+        if dirs.ndim != 2 or dirs.shape[1] != 3 or len(dirs) == 0:
+            raise InputError(
+                f"direction lattice must be an (n, 3) array of vectors; got shape {dirs.shape}."
+            )
+        norm = np.linalg.norm(dirs, axis=1)
+        if not np.all(np.isfinite(norm)) or np.any(norm == 0):
+            raise InputError("direction lattice holds a zero-length or non-finite vector.")
+        dirs = dirs / norm[:, None]
+    dirs = geometry.to_lower_hemisphere(np.asarray(dirs, dtype=float))
+    return np.ascontiguousarray(dirs)
+
+
+def nearest_axis(vectors, directions) -> np.ndarray:
+    """Index of the nearest undirected axis of ``directions`` for each vector.
+
+    Exact (brute force through a k-d tree on the lattice and its antipodes).
+
+    Parameters
+    ----------
+    vectors : array_like (m, 3)
+        Non-zero vectors (need not be unit).
+    directions : array_like (n, 3)
+        Unit lattice vectors.
+
+    Returns
+    -------
+    ndarray of int64, shape (m,)
+    """
+    v = np.asarray(vectors, dtype=float)
+    v = v / np.linalg.norm(v, axis=1, keepdims=True)
+    d = np.asarray(directions, dtype=float)
+    tree = cKDTree(np.vstack([d, -d]))
+    _, idx = tree.query(v)
+    return (np.asarray(idx) % len(d)).astype(np.int64)
+
+
+def lambert_coordinates(vectors) -> np.ndarray:
+    """Lambert equal-area coordinates (X, Y) of canonical lag vectors.
+
+    Same formula as the compiled kernel: ``v_xy * sqrt(2 / (d (d - v_z)))``
+    with ``v`` in the canonical orientation and ``d = |v|``.
+    """
+    v = geometry.to_lower_hemisphere(np.asarray(vectors, dtype=float))
+    d = np.sqrt(v[:, 0] * v[:, 0] + v[:, 1] * v[:, 1] + v[:, 2] * v[:, 2])
+    s = np.sqrt(2.0 / (d * (d - v[:, 2])))
+    return np.stack([v[:, 0] * s, v[:, 1] * s], axis=1)
+
+
+def table_size_for(directions) -> int:
+    """Pixels per side of the lookup table for a lattice.
+
+    About 8 pixels across the lattice spacing (so that only pairs very near a
+    cell boundary can be misassigned), between 256 and 2048.
+    """
+    n = len(directions)
+    spacing = math.sqrt(2.0 * math.pi / max(n, 1))  # radians, rough
+    # the Lambert radial scale at the rim is cos(45 deg) ~ 0.707 per radian
+    pix = 0.707 * spacing / 8.0
+    t = int(math.ceil(2.0 * _SQRT2 / pix))
+    return int(min(2048, max(256, t)))
+
+
+def pixel_angle(table_size: int) -> float:
+    """Upper bound (degrees) of the angular diameter of one lookup pixel.
+
+    The Lambert map stretches angles by at most 1/cos(45 deg) = sqrt(2)
+    (radially at the rim), so a pixel of side ``p`` spans at most
+    ``sqrt(2) * sqrt(2) * p`` radians along its diagonal.
+    """
+    p = 2.0 * _SQRT2 / table_size
+    return math.degrees(2.0 * p)
+
+
+@functools.lru_cache(maxsize=8)
+def _table_cached(key: bytes, n: int, table_size: int) -> np.ndarray:
+    directions = np.frombuffer(key, dtype=np.float64).reshape(n, 3)
+    t = table_size
+    pix = 2.0 * _SQRT2 / t
+    c = -_SQRT2 + (np.arange(t) + 0.5) * pix
+    X, Y = np.meshgrid(c, c, indexing="ij")
+    r2 = X * X + Y * Y
+    # pull pixels outside the disc back to the rim (horizontal lags)
+    scale = np.where(r2 > 2.0, np.sqrt(2.0 / np.maximum(r2, 1e-300)), 1.0)
+    X = X * scale
+    Y = Y * scale
+    r2 = np.minimum(r2, 2.0)
+    z = r2 / 2.0 - 1.0
+    f = np.sqrt(np.maximum(0.0, 1.0 - r2 / 4.0))
+    vec = np.stack([X.ravel() * f.ravel(), Y.ravel() * f.ravel(), z.ravel()], axis=1)
+    # a pixel at the exact centre has (0, 0, -1): fine
+    idx = nearest_axis(vec, directions)
+    dtype = np.int16 if n < 32000 else np.int32
+    out = idx.reshape(t, t).astype(dtype)
+    out.setflags(write=False)
+    return out
+
+
+def lambert_table(directions, table_size: int | None = None) -> np.ndarray:
+    """Lookup table pixel -> nearest lattice axis, shape (T, T).
+
+    Row index from X, column index from Y, pixel ``i`` covering
+    ``[-sqrt(2) + i p, -sqrt(2) + (i + 1) p)`` with ``p = 2 sqrt(2) / T``.
+    Cached per lattice.
+    """
+    d = np.ascontiguousarray(directions, dtype=np.float64)
+    if table_size is None:
+        table_size = table_size_for(d)
+    return _table_cached(d.tobytes(), len(d), int(table_size))
+
+
+def lookup(vectors, table) -> np.ndarray:
+    """Cell of each vector through the table (the kernel's rule, in NumPy)."""
+    t = table.shape[0]
+    inv_pix = t / (2.0 * _SQRT2)
+    XY = lambert_coordinates(vectors)
+    i = np.clip(np.floor((XY[:, 0] + _SQRT2) * inv_pix), 0, t - 1).astype(np.int64)
+    j = np.clip(np.floor((XY[:, 1] + _SQRT2) * inv_pix), 0, t - 1).astype(np.int64)
+    return table[i, j].astype(np.int64)
