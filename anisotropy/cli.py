@@ -96,6 +96,8 @@ _POLICY_DEFAULTS = {"missing_codes": "missing", "below_detection": "half", "dupl
 
 def _add_explore(p: argparse.ArgumentParser) -> None:
     _add_input_options(p)
+    p.add_argument("--units", metavar="TEXT", default="",
+                   help="grade units for the figure labels, e.g. g/t or %%")
     _add_output_option(p, "anisotropy_explore")
 
 
@@ -136,22 +138,16 @@ def _intake_lines(samples, args) -> list:
     return lines
 
 
-def _save_figure_atomic(make, path, *args, **kwargs):
-    """Draw a figure with ``make(*args, path=None, **kwargs)`` and write it atomically."""
+def _save_figure_atomic(make, path, *args, dpi=110, **kwargs):
+    """Draw a figure with ``make(*args, path=None, **kwargs)``; write the PNG atomically."""
     import io
 
     from anisotropy._safety import atomic_write_bytes
 
     fig = make(*args, path=None, **kwargs)
     buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=fig.dpi)
+    fig.savefig(buf, format="png", dpi=dpi)
     atomic_write_bytes(path, buf.getvalue())
-    try:  # free the figure if pyplot created it
-        import matplotlib.pyplot as plt
-
-        plt.close(fig)
-    except Exception:  # noqa: BLE001 - closing is a courtesy
-        pass
     return path
 
 
@@ -182,10 +178,13 @@ def _cmd_explore(args) -> int:
 
     label = samples.columns.get("value") or "grade"
     where = f", domain {samples.domain}" if samples.domain is not None else ""
+    dpi = getattr(figures, "DPI", 110)
     _save_figure_atomic(figures.histogram_figure, out / "histogram.png", samples.values,
-                        **_figure_kwargs(figures.histogram_figure, label, where, ex))
+                        title=f"Histogram of {label}{where}", units=args.units,
+                        topcut=ex.topcut, value_name=label, dpi=dpi)
     _save_figure_atomic(figures.logprob_figure, out / "logprob.png", samples.values,
-                        **_figure_kwargs(figures.logprob_figure, label, where, ex))
+                        title=f"Log-probability plot of {label}{where}", units=args.units,
+                        candidates=ex.topcut, value_name=label, dpi=dpi)
 
     record = {"schema": _EXPLORE_SCHEMA}
     record.update(ex.to_dict())
@@ -201,24 +200,6 @@ def _cmd_explore(args) -> int:
     return EXIT_OK
 
 
-def _figure_kwargs(func, label, where, ex) -> dict:
-    """Keyword arguments the figure function accepts (titles, labels, top-cut lines)."""
-    import inspect
-
-    try:
-        params = inspect.signature(func).parameters
-    except (TypeError, ValueError):
-        return {}
-    kw = {}
-    if "title" in params:
-        kw["title"] = f"{label}{where}"
-    for name in ("label", "value_label", "xlabel"):
-        if name in params:
-            kw[name] = label
-            break
-    if "topcuts" in params:
-        kw["topcuts"] = [c["value"] for c in ex.topcut]
-    return kw
 # <<< explore
 
 # >>> discover
@@ -228,9 +209,113 @@ def _figure_kwargs(func, label, where, ex) -> dict:
 # <<< check
 
 # >>> batch
+def _add_batch_chain_options(p: argparse.ArgumentParser) -> None:
+    """Discover options of the batch and demo commands (config values override them)."""
+    g = p.add_argument_group("discovery (for every domain; the config can override per domain)")
+    g.add_argument("--transform", default=None,
+                   choices=["auto", "normal_score", "raw", "log", "indicator"],
+                   help="variable the variograms are computed on (default: auto)")
+    g.add_argument("--estimator", default=None,
+                   choices=["semivariogram", "correlogram", "pairwise_relative", "madogram", "robust"],
+                   help="experimental estimator (default: semivariogram)")
+    g.add_argument("--lag", type=float, default=None, metavar="M",
+                   help="unit lag in metres (default: from the sample spacing)")
+    g.add_argument("--n-lags", type=int, default=None, metavar="N", help="number of lags")
+    g.add_argument("--angular-tolerance", type=float, default=None, metavar="DEG",
+                   help="half-angle of the direction cones in degrees")
+    g.add_argument("--bootstrap", type=int, default=None, metavar="N",
+                   help="bootstrap replicates per domain (default: 100; 0 for none)")
+    g.add_argument("--confidence", type=float, default=None, metavar="P",
+                   help="confidence level of the bands (default: 0.9)")
+    g.add_argument("--seed", type=int, default=0, help="random seed (default: 0)")
+    g.add_argument("--min-samples", type=int, default=None, metavar="N",
+                   help="domains with fewer samples are recorded as skipped (default: 30)")
+    g = p.add_argument_group("running")
+    g.add_argument("--domains", metavar="A,B", default=None,
+                   help="only these domains (comma-separated, as written in the table)")
+    g.add_argument("--jobs", type=int, default=1, metavar="N",
+                   help="domains run at once on local processes (default: 1; -1: all cores)")
+    g.add_argument("--scheduler", metavar="ADDRESS", default=None,
+                   help="run the domains on an existing Dask cluster (tcp://host:8786)")
+    g.add_argument("--config", metavar="FILE.toml", default=None,
+                   help="per-domain overrides and interpretations to check (TOML)")
+    g.add_argument("--resume", action="store_true",
+                   help="skip domains already complete in --out with the same options")
+    g.add_argument("--no-report", action="store_true",
+                   help="write results only, no HTML report per domain")
+
+
+def _batch_options(args) -> dict:
+    opts = {"seed": args.seed, "bootstrap": 100 if args.bootstrap is None else args.bootstrap}
+    for name in ("transform", "estimator", "lag", "n_lags", "angular_tolerance", "confidence"):
+        v = getattr(args, name)
+        if v is not None:
+            opts[name] = v
+    for name in ("missing_codes", "below_detection", "duplicates"):
+        if hasattr(args, name):
+            opts[name] = getattr(args, name)
+    return opts
+
+
+def _add_batch(p: argparse.ArgumentParser) -> None:
+    p.add_argument("file", help="sample table: CSV (any common separator) or Parquet")
+    g = p.add_argument_group("columns")
+    g.add_argument("--value", required=True, metavar="COL", help="grade column to study")
+    g.add_argument("--domain", required=True, metavar="COL", help="domain column")
+    g.add_argument("--x", metavar="COL", help="easting column (detected if omitted)")
+    g.add_argument("--y", metavar="COL", help="northing column (detected if omitted)")
+    g.add_argument("--z", metavar="COL", help="elevation column (detected if omitted)")
+    g.add_argument("--hole", metavar="COL",
+                   help="hole or string identifier (enables down-hole spacing)")
+    g = p.add_argument_group("assay codes and duplicates")
+    g.add_argument("--missing-codes", choices=["missing", "keep"], default="missing",
+                   help="values <= -90: treat as missing (default) or keep")
+    g.add_argument("--below-detection", choices=["half", "missing", "keep"], default="half",
+                   help="other negative values (-DL codes): DL/2 (default), missing, or keep")
+    g.add_argument("--duplicates", choices=["keep", "average", "drop"], default="keep",
+                   help="samples sharing a location: keep all (default), average, or drop")
+    _add_batch_chain_options(p)
+    _add_output_option(p, "anisotropy_batch")
+
+
+def _cmd_batch(args) -> int:
+    """Discover (and check) the continuity of every domain, with a report per domain."""
+    from anisotropy.batch import MIN_SAMPLES, run_batch
+
+    domains = None
+    if args.domains:
+        domains = [d.strip() for d in args.domains.split(",") if d.strip()]
+    print(f"batch: {args.file}, value {args.value}, domains from {args.domain} -> {args.out}",
+          flush=True)
+    res = run_batch(
+        args.file, value=args.value, domain=args.domain, out=args.out, domains=domains,
+        jobs=args.jobs, scheduler=args.scheduler, config=args.config, resume=args.resume,
+        min_samples=args.min_samples or MIN_SAMPLES, report=not args.no_report, progress=True,
+        x=args.x, y=args.y, z=args.z, hole=args.hole, **_batch_options(args))
+    print(res.summary())
+    return EXIT_OK if any(r["status"] == "ok" for r in res.rows) else EXIT_INTERNAL
 # <<< batch
 
 # >>> demo
+def _add_demo(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--out", metavar="DIR", default="fenwright_demo",
+                   help="folder for the results (default: fenwright_demo)")
+    p.add_argument("--jobs", type=int, default=2, metavar="N",
+                   help="domains run at once on local processes (default: 2)")
+    p.add_argument("--bootstrap", type=int, default=None, metavar="N",
+                   help="bootstrap replicates per domain (default: from the bundled config)")
+    p.add_argument("--resume", action="store_true",
+                   help="skip domains already complete in --out")
+
+
+def _cmd_demo(args) -> int:
+    """Run the whole chain on the invented Fenwright Hollow deposit and print where the index is."""
+    from anisotropy.demo import run_demo
+
+    res = run_demo(args.out, jobs=args.jobs, bootstrap=args.bootstrap, resume=args.resume,
+                   progress=True)
+    print(res.summary())
+    return EXIT_OK if all(r["status"] == "ok" for r in res.rows) else EXIT_INTERNAL
 # <<< demo
 
 
