@@ -217,3 +217,408 @@ def logprob_figure(values, *, title: str, units: str = "", candidates=None, path
     ax.legend(loc="lower right", fontsize=8, framealpha=0.9)
     save_figure(fig, path)
     return fig
+
+# ---------------------------------------------------------------------------
+# continuity figures (issue 6): variogram-map slices, stereonet,
+# directional variograms, model table. Plain arrays in, a Figure out.
+# ---------------------------------------------------------------------------
+
+CONTINUITY_COLOURS = {k: COLOURS[k] for k in ("major", "semi_major", "minor")}
+CONTINUITY_LABELS = {"major": "major", "semi_major": "semi-major", "minor": "minor"}
+INTERPRETED_STYLE = {"color": "black", "linestyle": "--"}
+OTHER_DIRECTION_COLOURS = ("#4d4d4d", "#2166ac", "#b2182b", "#8c510a", "#01665e")
+
+
+def _blank_figure(figsize):
+    """A figure without axes (the continuity figures lay out their own)."""
+    return Figure(figsize=figsize, layout="constrained")
+
+
+def _saved(fig, path):
+    save_figure(fig, path)
+    return fig
+
+
+def section_ellipse(frame, ranges, u_axis, v_axis, n=181):
+    """Points of the central section of a range ellipsoid by a plane.
+
+    The ellipsoid has semi-axes ``ranges`` along the columns of ``frame``;
+    the plane is spanned by the unit vectors ``u_axis`` and ``v_axis``.
+    Along a unit direction ``d`` the ellipsoid's radius is
+    ``1 / sqrt(sum_i (d . a_i)^2 / r_i^2)``.
+
+    Parameters
+    ----------
+    frame : array_like (3, 3)
+        Columns major, semi-major, minor unit vectors.
+    ranges : array_like (3,)
+        Ranges along those axes (metres).
+    u_axis, v_axis : array_like (3,)
+        Orthonormal in-plane basis (the map's horizontal and vertical axes).
+    n : int
+        Number of points around the curve.
+
+    Returns
+    -------
+    u, v : ndarray (n,)
+        In-plane coordinates (metres) of the ellipse.
+    """
+    R = np.asarray(frame, float)
+    r = np.asarray(ranges, float)
+    e_u = np.asarray(u_axis, float)
+    e_v = np.asarray(v_axis, float)
+    phi = np.linspace(0.0, 2.0 * np.pi, n)
+    d = np.cos(phi)[:, None] * e_u + np.sin(phi)[:, None] * e_v
+    proj = d @ R  # (n, 3): components along major, semi, minor
+    radius = 1.0 / np.sqrt(np.sum((proj / r) ** 2, axis=1))
+    return radius * np.cos(phi), radius * np.sin(phi)
+
+
+def variogram_map_figure(values, extent, pairs=None, *, ellipse=None, min_pairs=1,
+                         title="Variogram map", xlabel="u (m)", ylabel="v (m)",
+                         value_label="semivariogram", axis_marks=None, path=None):
+    """One slice of the variogram map, with the fitted range ellipse.
+
+    Parameters
+    ----------
+    values : array_like (n_v, n_u)
+        Estimator value per map cell; row index along the vertical map axis
+        (``v``), column index along the horizontal one (``u``). NaN where no
+        pairs.
+    extent : (u_min, u_max, v_min, v_max)
+        Map extent in metres (cell edges).
+    pairs : array_like (n_v, n_u), optional
+        Pair count per cell; cells with fewer than ``min_pairs`` are blanked
+        and the total is shown in the title.
+    ellipse : tuple of arrays or list of them, optional
+        ``(u, v)`` points of the fitted range ellipse (see
+        :func:`section_ellipse`), drawn in black; a list draws several with
+        labels ``[(u, v, label), ...]``.
+    min_pairs : int
+        Cells with fewer pairs are left blank.
+    title, xlabel, ylabel, value_label : str
+        Text; labels should carry units.
+    axis_marks : dict, optional
+        ``{name: (u, v)}`` in-plane directions of the axes to mark as rays
+        from the centre, coloured per axis (``major``, ``semi_major``,
+        ``minor``) or grey.
+    path : path-like, optional
+        Save a PNG there.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    vals = np.array(values, dtype=float)
+    if vals.ndim != 2:
+        raise ValueError("values must be a 2-D array (n_v, n_u)")
+    n_total = None
+    if pairs is not None:
+        cnt = np.asarray(pairs, dtype=float)
+        vals = np.where(cnt >= max(min_pairs, 1), vals, np.nan)
+        n_total = int(np.nansum(cnt))
+    fig = _blank_figure((5.6, 4.8))
+    ax = fig.add_subplot()
+    ax.set_facecolor("#eeeeee")
+    im = ax.imshow(vals, origin="lower", extent=extent, cmap="viridis", aspect="equal",
+                   interpolation="nearest")
+    cb = fig.colorbar(im, ax=ax, shrink=0.85)
+    cb.set_label(value_label)
+    if ellipse is not None:
+        items = ellipse if isinstance(ellipse, list) else [(ellipse[0], ellipse[1], "fitted range")]
+        for item in items:
+            u, v = item[0], item[1]
+            label = item[2] if len(item) > 2 else "fitted range"
+            ax.plot(u, v, color="black", lw=1.6, label=label)
+    if axis_marks:
+        half = 0.5 * min(extent[1] - extent[0], extent[3] - extent[2])
+        for name, (du, dv) in axis_marks.items():
+            norm = float(np.hypot(du, dv))
+            if norm < 1e-9:
+                continue
+            colour = CONTINUITY_COLOURS.get(name, "#4d4d4d")
+            lab = CONTINUITY_LABELS.get(name, name)
+            ax.plot([-half * du / norm, half * du / norm], [-half * dv / norm, half * dv / norm],
+                    color=colour, lw=1.2, ls=":", label=f"{lab} (in this plane)")
+    ax.set_xlim(extent[0], extent[1])
+    ax.set_ylim(extent[2], extent[3])
+    ax.set_xlabel(xlabel)
+    ax.set_ylabel(ylabel)
+    full = title if n_total is None else f"{title}\n{n_total:,} pairs; cells under {min_pairs} pairs blank"
+    ax.set_title(full, fontsize=10)
+    if ellipse is not None or axis_marks:
+        ax.legend(loc="upper right", fontsize=7, framealpha=0.8)
+    return _saved(fig, path)
+
+
+def _small_circle(axis, radius_deg, n=241):
+    """Points (n, 3) of a cone of half-angle ``radius_deg`` around ``axis`` (either sense)."""
+    a = np.asarray(axis, float)
+    a = a / np.linalg.norm(a)
+    helper = np.array([0.0, 0.0, 1.0]) if abs(a[2]) < 0.9 else np.array([1.0, 0.0, 0.0])
+    e1 = np.cross(a, helper)
+    e1 /= np.linalg.norm(e1)
+    e2 = np.cross(a, e1)
+    t = np.linspace(0.0, 2.0 * np.pi, n)
+    c, s = np.cos(np.radians(radius_deg)), np.sin(np.radians(radius_deg))
+    return c * a + s * (np.cos(t)[:, None] * e1 + np.sin(t)[:, None] * e2)
+
+
+def _project_segments(points):
+    """Project points to the lower-hemisphere net, split where they cross the primitive."""
+    from anisotropy.geometry import equal_area
+
+    p = np.asarray(points, float)
+    upper = p[:, 2] > 0
+    x, y = equal_area(p)
+    x, y = np.atleast_1d(x), np.atleast_1d(y)
+    cuts = np.flatnonzero(upper[1:] != upper[:-1]) + 1
+    return [(xs, ys) for xs, ys in zip(np.split(x, cuts), np.split(y, cuts)) if len(xs) > 1]
+
+
+def _net_frame(ax):
+    from anisotropy.geometry import equal_area, line_to_vector
+
+    t = np.linspace(0, 2 * np.pi, 361)
+    ax.plot(np.cos(t), np.sin(t), color="black", lw=1.0)
+    for pl in (30, 60):
+        v = line_to_vector(np.degrees(t), np.full_like(t, pl))
+        x, y = equal_area(v)
+        ax.plot(x, y, color="#bbbbbb", lw=0.5)
+    for tr in range(0, 360, 30):
+        v = line_to_vector(np.full(10, float(tr)), np.linspace(0, 90, 10))
+        x, y = equal_area(v)
+        ax.plot(x, y, color="#dddddd", lw=0.5)
+    ax.plot([0], [0], marker="+", color="#888888")
+    for label, (x, y) in {"N": (0, 1.07), "E": (1.07, 0), "S": (0, -1.07), "W": (-1.07, 0)}.items():
+        ax.text(x, y, label, ha="center", va="center", fontsize=9)
+    ax.set_xlim(-1.18, 1.18)
+    ax.set_ylim(-1.18, 1.18)
+    ax.set_aspect("equal")
+    ax.axis("off")
+
+
+def stereonet_figure(axes, *, clouds=None, cones=None, interpreted=None, confidence=None,
+                     title="Axes of continuity (lower hemisphere, equal area)", path=None):
+    """Lower-hemisphere equal-area net of the three axes with their uncertainty.
+
+    Parameters
+    ----------
+    axes : dict
+        ``{"major": v, "semi_major": v, "minor": v}`` unit vectors (east,
+        north, up), either sense.
+    clouds : dict, optional
+        ``{name: (n_rep, 3)}`` bootstrap replicate axes, drawn as small dots.
+    cones : dict, optional
+        ``{name: radius_deg}`` confidence-cone radius around each axis, drawn
+        as the projected small circle.
+    interpreted : dict, optional
+        ``{name: v}`` interpreted directions, drawn as open black markers
+        joined to the label; names as in ``axes`` (or any label).
+    confidence : float, optional
+        Confidence level of the cones, for the legend (0.9 -> "90 %").
+    title : str
+    path : path-like, optional
+        Save a PNG there.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    from anisotropy.geometry import equal_area, to_lower_hemisphere, vector_to_line
+
+    fig = _blank_figure((5.6, 5.4))
+    ax = fig.add_subplot()
+    _net_frame(ax)
+    level = "" if confidence is None else f" {confidence * 100:.0f} %"
+    for name, colour in CONTINUITY_COLOURS.items():
+        if clouds and name in clouds and clouds[name] is not None and len(clouds[name]):
+            cx, cy = equal_area(to_lower_hemisphere(np.asarray(clouds[name], float)))
+            ax.scatter(np.atleast_1d(cx), np.atleast_1d(cy), s=5, color=colour, alpha=0.35,
+                       linewidths=0, label=f"{CONTINUITY_LABELS[name]} replicates ({len(clouds[name])})")
+    for name, colour in CONTINUITY_COLOURS.items():
+        if cones and name in cones and axes and name in axes and cones[name] is not None \
+                and np.isfinite(cones[name]):
+            for k, (xs, ys) in enumerate(_project_segments(_small_circle(axes[name], cones[name]))):
+                ax.plot(xs, ys, color=colour, lw=1.3,
+                        label=(f"{CONTINUITY_LABELS[name]}{level} cone {cones[name]:.0f}°" if k == 0 else None))
+    markers = {"major": "o", "semi_major": "s", "minor": "^"}
+    for name, colour in CONTINUITY_COLOURS.items():
+        if axes and name in axes and axes[name] is not None:
+            v = np.asarray(axes[name], float)
+            x, y = equal_area(v)
+            tr, pl = vector_to_line(v)
+            ax.plot([x], [y], marker=markers[name], ms=9, color=colour, markeredgecolor="black",
+                    ls="none", label=f"{CONTINUITY_LABELS[name]} {float(tr):03.0f}/{float(pl):02.0f}")
+    if interpreted:
+        for name, v in interpreted.items():
+            if v is None:
+                continue
+            x, y = equal_area(np.asarray(v, float))
+            tr, pl = vector_to_line(np.asarray(v, float))
+            lab = CONTINUITY_LABELS.get(name, str(name))
+            ax.plot([x], [y], marker=markers.get(name, "D"), ms=12, mfc="none", mec="black",
+                    mew=1.6, ls="none", label=f"interpreted {lab} {float(tr):03.0f}/{float(pl):02.0f}")
+    ax.set_title(title, fontsize=10)
+    ax.legend(loc="upper left", bbox_to_anchor=(1.0, 1.0), fontsize=7, framealpha=0.9)
+    fig.set_size_inches(8.2, 5.4)
+    return _saved(fig, path)
+
+
+def directional_variograms_figure(curves, *, sill=None, value_label="semivariogram",
+                                  distance_label="lag distance (m)",
+                                  title="Directional variograms", path=None):
+    """Experimental directional variograms with pair counts, bands and the model.
+
+    Parameters
+    ----------
+    curves : list of dict
+        One dict per direction with keys ``label`` (str), ``distance``,
+        ``value`` (experimental, NaN where empty), ``pairs`` (arrays of the
+        same length), optional ``lo``/``hi`` (band, e.g. bootstrap
+        percentiles) with optional ``band_distance`` when the band is on
+        its own distances, optional ``model_distance``/``model_value`` (fitted
+        nested model along this direction), optional ``axis`` (``major``,
+        ``semi_major``, ``minor``; others go on the last panel together).
+    sill : float, optional
+        Total sill, drawn as a horizontal line.
+    value_label, distance_label, title : str
+    path : path-like, optional
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    fig = _blank_figure((10.0, 7.6))
+    grid = fig.subplots(2, 2, sharey=True)
+    panels = {"major": grid[0, 0], "semi_major": grid[0, 1], "minor": grid[1, 0]}
+    other_ax = grid[1, 1]
+    other_k = 0
+    dmax = 0.0
+    for c in curves:
+        d = np.asarray(c["distance"], float)
+        finite = d[np.isfinite(d)]
+        if finite.size:
+            dmax = max(dmax, float(finite.max()))
+    for c in curves:
+        name = c.get("axis")
+        if name in panels:
+            ax, colour = panels[name], CONTINUITY_COLOURS[name]
+        else:
+            ax = other_ax
+            colour = OTHER_DIRECTION_COLOURS[other_k % len(OTHER_DIRECTION_COLOURS)]
+            other_k += 1
+        d = np.asarray(c["distance"], float)
+        g = np.asarray(c["value"], float)
+        n = np.asarray(c.get("pairs", np.zeros_like(d)), float)
+        ok = np.isfinite(d) & np.isfinite(g) & (n > 0)
+        if c.get("lo") is not None and c.get("hi") is not None:
+            lo, hi = np.asarray(c["lo"], float), np.asarray(c["hi"], float)
+            if c.get("band_distance") is not None:
+                bd = np.asarray(c["band_distance"], float)
+                b = np.isfinite(bd) & np.isfinite(lo) & np.isfinite(hi)
+            else:
+                bd = d
+                b = ok & np.isfinite(lo) & np.isfinite(hi)
+            ax.fill_between(bd[b], lo[b], hi[b], color=colour, alpha=0.18, lw=0,
+                            label=c.get("band_label", "bootstrap band"))
+        sizes = 12 + 60 * np.sqrt(n[ok] / max(float(n[ok].max()), 1.0)) if ok.any() else 12
+        ax.scatter(d[ok], g[ok], s=sizes, color=colour, edgecolor="black", linewidths=0.4,
+                   zorder=3, label=f"{c['label']} ({int(n.sum()):,} pairs)")
+        if name in panels:
+            for di, gi, ni in zip(d[ok], g[ok], n[ok]):
+                ax.annotate(f"{int(ni)}", (di, gi), textcoords="offset points", xytext=(0, 6),
+                            ha="center", fontsize=6, color="#444444")
+        if c.get("model_distance") is not None:
+            ax.plot(c["model_distance"], c["model_value"], color=colour, lw=1.6,
+                    label=c.get("model_label", "fitted model"))
+    for name, ax in list(panels.items()) + [("others", other_ax)]:
+        if sill is not None and np.isfinite(sill):
+            ax.axhline(sill, color="#888888", lw=0.8, ls=":", label="total sill")
+        ax.set_xlim(0, dmax * 1.03 if dmax > 0 else 1)
+        ax.set_ylim(bottom=0)
+        ax.set_xlabel(distance_label)
+        ax.set_ylabel(value_label)
+        ax.set_title("along the " + CONTINUITY_LABELS[name] + " axis" if name in panels
+                     else "other directions", fontsize=10)
+        if ax.has_data():
+            ax.legend(fontsize=7, loc="lower right")
+    fig.suptitle(title + " (numbers beside points: pairs per lag)", fontsize=11)
+    return _saved(fig, path)
+
+
+MODEL_TABLE_COLUMNS = ("structure", "type", "sill", "range major (m)", "range semi-major (m)",
+                       "range minor (m)", "major trend/plunge", "semi-major trend/plunge",
+                       "minor trend/plunge")
+
+
+def model_table_rows(model_dict, axes_dict=None):
+    """Rows of the model table from the ``model`` and ``axes`` blocks of discovery.json.
+
+    Parameters
+    ----------
+    model_dict : dict
+        ``{"nugget": float, "structures": [{"type", "sill", "ranges": {...}}]}``.
+    axes_dict : dict, optional
+        ``{"major": {"trend", "plunge"}, ...}`` for the orientation columns.
+
+    Returns
+    -------
+    list of dict
+        Keys :data:`MODEL_TABLE_COLUMNS`; the first row is the nugget.
+    """
+    def orient(name):
+        if not axes_dict or name not in axes_dict:
+            return ""
+        a = axes_dict[name]
+        return f"{float(a['trend']):05.1f}/{float(a['plunge']):04.1f}"
+
+    def num(x, fmt):
+        return "" if x is None else format(float(x), fmt)
+
+    rows = [{"structure": "0", "type": "nugget", "sill": num(model_dict.get("nugget"), ".4g"),
+             "range major (m)": "", "range semi-major (m)": "", "range minor (m)": "",
+             "major trend/plunge": "", "semi-major trend/plunge": "", "minor trend/plunge": ""}]
+    for k, s in enumerate(model_dict.get("structures", []), start=1):
+        r = s.get("ranges", {})
+        rows.append({"structure": str(k), "type": str(s.get("type", s.get("kind", ""))),
+                     "sill": num(s.get("sill"), ".4g"),
+                     "range major (m)": num(r.get("major"), ".1f"),
+                     "range semi-major (m)": num(r.get("semi_major"), ".1f"),
+                     "range minor (m)": num(r.get("minor"), ".1f"),
+                     "major trend/plunge": orient("major"),
+                     "semi-major trend/plunge": orient("semi_major"),
+                     "minor trend/plunge": orient("minor")})
+    return rows
+
+
+def model_table_figure(rows, *, title="Nested model (transformed units)", path=None):
+    """The model table drawn as a figure (for slides and the PNG set).
+
+    Parameters
+    ----------
+    rows : list of dict
+        From :func:`model_table_rows`.
+    title : str
+    path : path-like, optional
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    fig = _blank_figure((10.0, 0.9 + 0.32 * (len(rows) + 1)))
+    ax = fig.add_subplot()
+    ax.axis("off")
+    cells = [[str(r.get(c, "")) for c in MODEL_TABLE_COLUMNS] for r in rows]
+    table = ax.table(cellText=cells, colLabels=list(MODEL_TABLE_COLUMNS), loc="center",
+                     cellLoc="center")
+    table.auto_set_font_size(False)
+    table.set_fontsize(7.5)
+    table.scale(1.0, 1.3)
+    ax.set_title(title, fontsize=10)
+    return _saved(fig, path)
+
+
+__all__ += ["section_ellipse", "variogram_map_figure", "stereonet_figure",
+            "directional_variograms_figure", "model_table_rows", "model_table_figure",
+            "MODEL_TABLE_COLUMNS", "CONTINUITY_COLOURS"]
