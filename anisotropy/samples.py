@@ -993,16 +993,17 @@ def _planarity(coords: np.ndarray, warnings: list) -> bool:
     z = coords[:, 2]
     if np.ptp(z) <= PLANAR_ABSOLUTE:
         warnings.append(
-            f"All samples lie at one elevation (within {np.ptp(z):.3g} m), as on a single "
-            "bench: the vertical direction cannot be studied, and only directions in the "
-            "horizontal plane are meaningful.")
+            f"All samples lie at one elevation (they span {np.ptp(z):.2f} m vertically, within "
+            f"the {PLANAR_ABSOLUTE:g} m tolerance), as on a single bench: the vertical "
+            "direction cannot be studied, and only directions in the horizontal plane are "
+            "meaningful.")
         return True
     centred = coords - coords.mean(axis=0)
     _, s, vt = np.linalg.svd(centred, full_matrices=False)
     rms = s / np.sqrt(n)
     if rms[1] <= max(PLANAR_ABSOLUTE, PLANAR_RELATIVE * rms[0]):
         warnings.append(
-            f"All samples lie close to one line (rms distance {rms[1]:.3g} m from it), as in a "
+            f"All samples lie close to one line (rms distance {rms[1]:.2f} m from it), as in a "
             "single straight hole: only the direction along it can be studied.")
         return True
     if rms[2] <= max(PLANAR_ABSOLUTE, PLANAR_RELATIVE * rms[0]):
@@ -1012,7 +1013,7 @@ def _planarity(coords: np.ndarray, warnings: list) -> bool:
         dip = float(np.degrees(np.arccos(np.clip(abs(nvec[2]), 0.0, 1.0))))
         dipdir = float(np.degrees(np.arctan2(nvec[0], nvec[1])) % 360.0)
         warnings.append(
-            f"All samples lie close to one plane (rms distance {rms[2]:.3g} m from it; dip "
+            f"All samples lie close to one plane (rms distance {rms[2]:.2f} m from it; dip "
             f"{dip:.0f} degrees towards {dipdir:.0f}): the direction across that plane cannot "
             "be studied, and only directions within it are meaningful.")
         return True
