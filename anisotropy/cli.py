@@ -135,6 +135,8 @@ def _intake_lines(samples, args) -> list:
                  f"{d.get('samples', 0)} samples")
     lines.append("  local origin subtracted from x, y, z (minimum rounded down to a metre): "
                  + ", ".join(f"{o:.0f}" for o in samples.origin))
+    if samples.planar:
+        lines.append("  planar: yes, the samples lie on one plane or line (see the warnings)")
     return lines
 
 
