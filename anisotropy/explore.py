@@ -181,8 +181,12 @@ def _cell_weights(c0: np.ndarray, size: float, shape, n_offsets: int) -> np.ndar
         idx = np.floor((c0 + off) / dims).astype(np.int64)
         span = idx.max(axis=0) + 1
         key = idx[:, 0] + span[0] * (idx[:, 1] + span[1] * idx[:, 2])
-        _, inv, counts = np.unique(key, return_inverse=True, return_counts=True)
-        w += 1.0 / (len(counts) * counts[inv])
+        if float(np.prod(span.astype(float))) <= 4.0 * n + 1e6:
+            counts = np.bincount(key)          # direct cell counts (small grids)
+            w += 1.0 / (np.count_nonzero(counts) * counts[key])
+        else:
+            _, inv, counts = np.unique(key, return_inverse=True, return_counts=True)
+            w += 1.0 / (len(counts) * counts[inv])
     return w / n_offsets
 
 
@@ -251,10 +255,15 @@ def cell_declustering(coords, values, cell_sizes=None, *, n_offsets: int = 5,
         crit = criterion
     naive_m, naive_sd = float(np.mean(v)), float(np.std(v))
     notes = []
-    if len(sizes) > 1 and best in (0, len(sizes) - 1):
+    flat = naive_m != 0 and abs(means[best] - naive_m) / abs(naive_m) < 0.005
+    if len(sizes) > 1 and best == 0 and flat:
+        notes.append("No cell size moves the mean by more than 0.5 %: no sign of clustering "
+                     "(weights close to equal).")
+    elif len(sizes) > 1 and best in (0, len(sizes) - 1):
         notes.append("The chosen cell size is at the end of the range tried; widen cell_sizes "
                      "and check the size makes geological sense.")
-    if len(sizes) > 1 and naive_m != 0 and abs(means[best] - naive_m) / abs(naive_m) < 0.01:
+    if len(sizes) > 1 and not (best == 0 and flat) and naive_m != 0 \
+            and abs(means[best] - naive_m) / abs(naive_m) < 0.01:
         notes.append("Declustering changes the mean by less than 1 %: no material "
                      "clustering effect on the mean.")
     return Declustering(weights=weights[best], cell_size=float(sizes[best]), mean=float(means[best]),
@@ -274,9 +283,11 @@ class Spacing:
     Attributes
     ----------
     across_hole : float or None
-        Median plan distance from each hole (centroid of its samples) to the
-        nearest other hole; for blast holes, the median in-bench nearest-
-        neighbour distance in plan.
+        Median distance from each hole (centroid of its samples) to the
+        nearest other hole centroid, in 3D; for blast holes, the median
+        in-bench nearest-neighbour distance in plan.
+    across_hole_plan : float or None
+        The same hole-centroid distance measured in plan (x, y only).
     down_hole : float or None
         Median distance between consecutive samples along a hole.
     bench : float or None
@@ -308,11 +319,13 @@ class Spacing:
     n_holes: int | None = None
     n_levels: int | None = None
     levels: list = field(default_factory=list)
+    across_hole_plan: float | None = None
 
     def to_dict(self) -> dict:
         """JSON-ready dictionary."""
         return {
-            "across_hole": _f(self.across_hole), "down_hole": _f(self.down_hole),
+            "across_hole": _f(self.across_hole), "across_hole_plan": _f(self.across_hole_plan),
+            "down_hole": _f(self.down_hole),
             "bench": _f(self.bench), "nearest": _f(self.nearest), "layout": self.layout,
             "suggested_lag": {k: _f(v) for k, v in self.suggested_lag.items()},
             "lag_tolerance": {k: _f(v) for k, v in self.lag_tolerance.items()},
@@ -327,7 +340,7 @@ def _nn_median(points: np.ndarray) -> float | None:
     if len(points) < 2:
         return None
     tree = cKDTree(points)
-    k = min(len(points), 8)
+    k = min(len(points), 4)
     d, _ = tree.query(points, k=k)
     d = np.where(d > 0, d, np.inf)[:, 1:].min(axis=1)
     d = d[np.isfinite(d)]
@@ -374,10 +387,14 @@ def nominal_spacing(coords, holes=None, *, bench_tolerance: float = 1.0,
 
     Notes
     -----
-    With hole ids: ``across_hole`` is the median, over holes, of the plan
-    distance from the hole's centroid to the nearest other hole centroid
-    (scipy.spatial.cKDTree); parallel holes of equal length give the collar
-    spacing. ``down_hole`` is the median gap between consecutive samples
+    With hole ids: ``across_hole`` is the median, over holes, of the
+    distance from the centroid of the hole's samples to the nearest other
+    hole centroid (scipy.spatial.cKDTree); parallel holes of equal length
+    give the collar spacing. It is measured in 3D because in a steep body
+    holes from successive collar rows pierce the body at nearly the same
+    plan position at different depths, so the plan distance
+    (``across_hole_plan``, also reported) understates the spacing there;
+    in flat bodies the two agree. ``down_hole`` is the median gap between consecutive samples
     ordered along each hole's principal axis.
     Without hole ids the elevations are split into levels (see
     ``bench_tolerance``); with two or more well-filled levels the data are
@@ -393,7 +410,7 @@ def nominal_spacing(coords, holes=None, *, bench_tolerance: float = 1.0,
     if n < 2:
         raise InsufficientDataError("Spacing needs at least two samples.")
     nearest = _nn_median(c)
-    across = down = bench = None
+    across = down = bench = across_plan = None
     n_holes = n_levels = None
     levels: list = []
     reasons: dict = {}
@@ -405,8 +422,9 @@ def nominal_spacing(coords, holes=None, *, bench_tolerance: float = 1.0,
         codes, uniq = pd.factorize(pd.Series(h).astype(str), sort=False)
         n_holes = int(len(uniq))
         layout = "drill_holes"
-        cent = np.array([c[codes == k, :2].mean(axis=0) for k in range(n_holes)])
+        cent = np.array([c[codes == k].mean(axis=0) for k in range(n_holes)])
         across = _nn_median(cent)
+        across_plan = _nn_median(cent[:, :2])
         gaps = []
         for k in range(n_holes):
             p = c[codes == k]
@@ -438,7 +456,7 @@ def nominal_spacing(coords, holes=None, *, bench_tolerance: float = 1.0,
                 for k in range(n_lv):
                     pts = c[label == k, :2]
                     if len(pts) >= 2:
-                        d, _ = cKDTree(pts).query(pts, k=min(len(pts), 8))
+                        d, _ = cKDTree(pts).query(pts, k=min(len(pts), 4))
                         d = np.where(d > 0, d, np.inf)[:, 1:].min(axis=1)
                         nn.append(d[np.isfinite(d)])
                 nn = np.concatenate(nn) if nn else np.array([])
@@ -453,7 +471,7 @@ def nominal_spacing(coords, holes=None, *, bench_tolerance: float = 1.0,
 
     if layout == "drill_holes":
         put("along_hole", down, "about the down-hole sample spacing" if down else "down-hole spacing")
-        put("across_hole", across, "about the across-hole (hole-to-hole) spacing in plan"
+        put("across_hole", across, "about the across-hole (hole-to-hole centroid) spacing"
             if across else "across-hole spacing")
         put("vertical", down, "holes cross the vertical: about the down-hole spacing"
             if down else "down-hole spacing")
@@ -479,7 +497,8 @@ def nominal_spacing(coords, holes=None, *, bench_tolerance: float = 1.0,
     tol = {k: (v / 2.0 if v else None) for k, v in lags.items()}
     return Spacing(across_hole=across, down_hole=down, bench=bench, suggested_lag=lags,
                    reasons=reasons, nearest=nearest, layout=layout, lag_tolerance=tol,
-                   n_holes=n_holes, n_levels=n_levels, levels=levels)
+                   n_holes=n_holes, n_levels=n_levels, levels=levels,
+                   across_hole_plan=across_plan if layout == "drill_holes" else across)
 
 
 # ---------------------------------------------------------------------------
@@ -534,14 +553,26 @@ def detect_logprob_break(values, *, search_from: float = 0.75, min_tail: int | N
     cand = np.unique(np.linspace(lo, hi - 1, min(max_candidates, hi - lo)).astype(int))
     A1 = np.column_stack([np.ones_like(x), x])
     sse1 = float(np.sum((y - A1 @ np.linalg.lstsq(A1, y, rcond=None)[0]) ** 2))
+    # least squares by the normal equations, with the sums that do not depend on
+    # the break computed once (x is sorted, so the hinge is zero below index i)
+    m, sx, sxx = float(x.size), float(x.sum()), float(x @ x)
+    sy, sxy = float(y.sum()), float(x @ y)
     best = None
     for i in cand:
         x0 = x[i]
         if np.all(x[i:] == x0):
             continue
-        A = np.column_stack([np.ones_like(x), x, np.maximum(0.0, x - x0)])
-        coef, *_ = np.linalg.lstsq(A, y, rcond=None)
-        sse = float(np.sum((y - A @ coef) ** 2))
+        h = x[i:] - x0
+        sh, sxh, shh, shy = h.sum(), x[i:] @ h, h @ h, h @ y[i:]
+        G = np.array([[m, sx, sh], [sx, sxx, sxh], [sh, sxh, shh]])
+        r = np.array([sy, sxy, shy])
+        try:
+            coef = np.linalg.solve(G, r)
+        except np.linalg.LinAlgError:
+            continue
+        fit = coef[0] + coef[1] * x
+        fit[i:] += coef[2] * h
+        sse = float(np.sum((y - fit) ** 2))
         if best is None or sse < best[0]:
             best = (sse, i, coef)
     if best is None or sse1 <= 0:
@@ -823,7 +854,8 @@ class Exploration:
             f"{r.cell_size:.3g}: {r.mean:.4g}" for r in d.table.itertuples()))
         s = self.spacing
         L.append("")
-        L.append(f"Spacing ({s.layout.replace('_', ' ')}): across-hole {g(s.across_hole, '.3g')} m, "
+        L.append(f"Spacing ({s.layout.replace('_', ' ')}): across-hole {g(s.across_hole, '.3g')} m "
+                 f"(in plan {g(s.across_hole_plan, '.3g')} m), "
                  f"down-hole {g(s.down_hole, '.3g')} m, bench {g(s.bench, '.3g')} m, "
                  f"nearest neighbour {g(s.nearest, '.3g')} m")
         for k, lag in s.suggested_lag.items():
@@ -869,7 +901,11 @@ def explore(samples, values=None, *, holes=None, quantiles=DEFAULT_QUANTILES,
     quantiles : sequence of float
         Probabilities reported, keyed as strings like "0.975".
     cell_sizes, n_offsets, cell_shape, declustering_criterion
-        Passed to :func:`cell_declustering`.
+        Passed to :func:`cell_declustering`. Default sizes here: 24 sizes
+        spaced geometrically from half the nominal across-hole spacing (or
+        nearest-neighbour distance) to ten times it, capped at half the
+        largest extent (common practice: try sizes around and above the
+        nominal spacing).
     trend_threshold : float
         Passed to :func:`trend_check`.
     bench_tolerance : float
@@ -914,10 +950,15 @@ def explore(samples, values=None, *, holes=None, quantiles=DEFAULT_QUANTILES,
     skew = float(stats.skew(v)) if std > 0 else None
     qv = np.quantile(v, qs) if qs else []
     quant = {_qkey(q): float(x) for q, x in zip(qs, qv)}
+    spacing = nominal_spacing(c, holes, bench_tolerance=bench_tolerance)
+    if cell_sizes is None:
+        base = spacing.across_hole or spacing.nearest
+        extent = float(np.ptp(c, axis=0).max())
+        if base and extent > 0:
+            cell_sizes = np.geomspace(base / 2.0, max(base, min(10.0 * base, extent / 2.0)), 24)
     decl = cell_declustering(c, v, cell_sizes, n_offsets=n_offsets, cell_shape=cell_shape,
                              criterion=declustering_criterion)
-    warnings.extend(decl.notes[:1] if decl.notes and "end of the range" in decl.notes[0] else [])
-    spacing = nominal_spacing(c, holes, bench_tolerance=bench_tolerance)
+    warnings.extend(n for n in decl.notes if "end of the range" in n)
     topcut = topcut_candidates(v)
     strongly = bool(cv is not None and cv > STRONG_SKEW_CV)
     if strongly:

@@ -207,12 +207,28 @@ def test_spacing_drill_holes_known_collars_and_composites(rng):
     s = nominal_spacing(coords, holes)
     assert s.layout == "drill_holes" and s.n_holes == 30
     assert s.across_hole == pytest.approx(25.0)   # collar grid 25 x 40 m, by construction
+    assert s.across_hole_plan == pytest.approx(25.0)
     assert s.down_hole == pytest.approx(2.0)      # 2 m composites, by construction
     assert s.suggested_lag["along_hole"] == pytest.approx(2.0)
     assert s.suggested_lag["across_hole"] == pytest.approx(25.0)
     assert s.lag_tolerance["across_hole"] == pytest.approx(12.5)  # half the lag, common practice
     assert set(s.suggested_lag) == {"along_hole", "across_hole", "vertical", "omni"}
     assert all(s.reasons[k] for k in s.suggested_lag)
+
+
+def test_spacing_steep_body_measured_in_3d(rng):
+    # holes dipping 60 east from collar rows 30 m apart (x) and 40 m apart (y, jittered
+    # +-1 m), keeping only the samples inside a vertical slab 10 m wide: successive rows
+    # pierce the slab 30 tan 60 = 52 m apart in depth at nearly the same plan position
+    c, h = drill_layout(dx=30.0, dy=40.0, nx=5, ny=5, n_comp=120, comp=2.0, dip=60.0)
+    codes = np.unique(h, return_inverse=True)[1]
+    c[:, 1] += rng.uniform(-1, 1, codes.max() + 1)[codes]
+    keep = np.abs(c[:, 0] - 130.0) <= 5.0
+    s = nominal_spacing(c[keep], h[keep])
+    # by construction: nearest other pierce point is the next hole along y, 40 m (+-2 m)
+    assert s.across_hole == pytest.approx(40.0, abs=2.0)
+    assert s.across_hole_plan < 5.0   # plan distance understates it
+    assert s.down_hole == pytest.approx(2.0)
 
 
 def test_spacing_blast_holes_known_bench(rng):
