@@ -398,7 +398,11 @@ def read_table(path) -> pd.DataFrame:
         df.attrs["table"] = {"format": "parquet", "separator": None, "decimal": None}
         return df
 
-    raw = p.read_bytes()
+    try:
+        raw = p.read_bytes()
+    except OSError as exc:
+        raise InputError(f"Cannot read '{p}' ({exc.strerror or exc}). Check that the file is "
+                         "readable by you and not locked by another program.") from None
     if not raw.strip():
         raise InputError(f"'{p}' is empty. Give a table with a header line and one "
                          "row per sample.")

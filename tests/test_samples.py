@@ -471,3 +471,24 @@ def test_to_dict_is_json_ready():
     json.dumps(full, allow_nan=False)
     assert len(full["values"]) == 4
     assert isinstance(s, SampleSet) and "used" in s.summary()
+
+
+# ---------------------------------------------------------------------------
+# robustness: any text gives a SampleSet or one of our errors, never a crash
+# ---------------------------------------------------------------------------
+
+@settings(max_examples=150, deadline=None)
+@given(st.text(alphabet=list("xyzau,;\t \n0123456789.-eNA\"#"), max_size=200))
+def test_any_text_gives_samples_or_an_input_error(tmp_path_factory, text):
+    from anisotropy.errors import AnisotropyError
+
+    p = tmp_path_factory.mktemp("fuzz") / "t.csv"
+    p.write_text("x,y,z,au\n" + text, encoding="utf-8")
+    try:
+        s = read_samples(p, value="au")
+    except AnisotropyError as exc:
+        assert isinstance(exc, InputError) and str(exc)
+    else:
+        # brute-force invariant from the module docstring
+        assert s.n_read == s.n + sum(s.dropped.values())
+        assert np.all(np.isfinite(s.coords)) and np.all(np.isfinite(s.values))
