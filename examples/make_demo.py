@@ -51,6 +51,8 @@ BELOW_DETECTION_CODE = -0.01
 MISSING_CODE = -99.0
 ASSAY_PRECISION = 0.01
 MAX_HOLE_LENGTH = 800.0
+EXACT_MAX = 6000
+"""Domains with up to this many points are simulated exactly (Cholesky); larger ones spectrally."""
 
 COMPOSITE_COLUMNS = ["hole_id", "from_m", "to_m", "mid_x", "mid_y", "mid_z", "au_gpt", "domain"]
 BLASTHOLE_COLUMNS = ["blast_id", "bench", "x", "y", "z", "au_gpt", "domain"]
@@ -387,6 +389,10 @@ def _nested_model(spec):
     return NestedModel(float(spec["model"]["nugget"]), structures, frame)
 
 
+def _simulation_method(n_points):
+    return "cholesky" if n_points <= EXACT_MAX else "spectral"
+
+
 def _simulate_grades(layout):
     """Unconditional Gaussian field per domain, on all its points at once, to g/t."""
     from anisotropy.simulate import simulate_field
@@ -404,7 +410,8 @@ def _simulate_grades(layout):
             ]
         )
         y = np.asarray(
-            simulate_field(pts, _nested_model(spec), n_realisations=1, seed=layout["field_seeds"][name]),
+            simulate_field(pts, _nested_model(spec), n_realisations=1, seed=layout["field_seeds"][name],
+                           method=_simulation_method(len(pts))),
             float,
         ).reshape(-1)
         mu, sigma = _lognormal_parameters(spec["grade"]["mean_gpt"], spec["grade"]["cv"])
@@ -560,6 +567,12 @@ def _truth_domain(name, spec, layout, scale):
             "jitter": {k: _r(v) for k, v in HOLE_JITTER.items()},
         },
         "field_seed": int(layout["field_seeds"][name]),
+        "simulation": {
+            "function": "anisotropy.simulate.simulate_field",
+            "method": _simulation_method(n_comp + n_blast),
+            "points": n_comp + n_blast,
+            "conditioning": "none (unconditional; composites and blast holes of the domain simulated together)",
+        },
         "counts": {
             "holes": len(holes),
             "composites": n_comp + CODES["composites"]["duplicated_locations"],
