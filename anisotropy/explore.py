@@ -374,7 +374,8 @@ def nominal_spacing(coords, holes=None, *, bench_tolerance: float = 1.0,
     ----------
     coords : array_like, shape (n, 3)
     holes : array_like, shape (n,), optional
-        Hole or string identifier per sample.
+        Hole or string identifier per sample. When every id holds a single
+        sample (blast holes with ids) the samples are treated as unstrung.
     bench_tolerance : float, default 1.0
         Without hole ids: elevation gap (m) that separates two bench levels.
     min_per_level : int, default 10
@@ -415,19 +416,27 @@ def nominal_spacing(coords, holes=None, *, bench_tolerance: float = 1.0,
     levels: list = []
     reasons: dict = {}
     layout = "scattered"
+    codes = None
     if holes is not None:
         h = np.asarray(holes, dtype=object).ravel()
         if len(h) != n:
             raise InputError(f"{len(h)} hole ids for {n} samples; give one per sample.")
         codes, uniq = pd.factorize(pd.Series(h).astype(str), sort=False)
         n_holes = int(len(uniq))
+        if np.bincount(codes).max() < 2:
+            # one sample per id (blast holes with ids): treat as unstrung samples
+            codes = None
+    if codes is not None:
         layout = "drill_holes"
-        cent = np.array([c[codes == k].mean(axis=0) for k in range(n_holes)])
+        per_hole = np.bincount(codes, minlength=n_holes)
+        cent = np.column_stack([np.bincount(codes, weights=c[:, a], minlength=n_holes)
+                                for a in range(3)]) / per_hole[:, None]
         across = _nn_median(cent)
         across_plan = _nn_median(cent[:, :2])
         gaps = []
-        for k in range(n_holes):
-            p = c[codes == k]
+        order = np.argsort(codes, kind="stable")
+        for members in np.split(order, np.cumsum(per_hole)[:-1]):
+            p = c[members]
             if len(p) < 2:
                 continue
             q = p - p.mean(axis=0)
@@ -921,7 +930,8 @@ def explore(samples, values=None, *, holes=None, quantiles=DEFAULT_QUANTILES,
             raise InputError("explore() takes a SampleSet, or coordinates and values: "
                              "explore(coords, values, holes=None).")
         coords, vals = samples.coords, samples.values
-        holes = getattr(samples, "holes", None)
+        if holes is None:
+            holes = getattr(samples, "holes", None)
         cols = getattr(samples, "columns", None) or {}
         origin = getattr(samples, "origin", None)
         meta = dict(dropped=dict(getattr(samples, "dropped", {}) or {}),

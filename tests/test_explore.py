@@ -318,3 +318,20 @@ def test_logprob_break_found_in_a_mixture_and_not_in_a_lognormal():
     assert detect_logprob_break(np.random.default_rng(0).lognormal(0, 1.2, 1000)) is None
     cands = topcut_candidates(np.concatenate([main, high]))
     assert any(c["method"] == "logprob_break" for c in cands)
+
+
+def test_blast_holes_with_one_sample_per_id_are_unstrung(rng):
+    coords = blast_layout(rng, bench=10.0)
+    ids = np.array([f"GC-{i:05d}" for i in range(len(coords))], dtype=object)
+    s = nominal_spacing(coords, ids)
+    # one sample per id: no strings to follow, benches found as without ids
+    assert s.layout == "benches" and s.bench == pytest.approx(10.0, abs=0.3)
+
+
+def test_constant_grades_do_not_break_exploration():
+    c = np.random.default_rng(2).uniform(0, 50, (60, 3))
+    e = explore(c, np.full(60, 1.5))
+    assert e.std == 0 and e.skewness is None and e.cv == 0
+    assert not e.trend.material and e.trend.r2_linear is None
+    assert all(cand["n_capped"] == 0 for cand in e.topcut)
+    json.dumps(e.to_dict())

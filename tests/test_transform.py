@@ -165,3 +165,26 @@ def test_bad_input_raises_family_errors():
         NormalScore(weights=[1.0]).fit([1.0, 2.0])
     with pytest.raises(InputError):
         NormalScore(tails="cubic")
+
+
+from hypothesis import given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+from hypothesis.extra.numpy import arrays  # noqa: E402
+
+grades = arrays(np.float64, st.integers(2, 60),
+                elements=st.floats(0.0, 1e4, allow_nan=False, allow_infinity=False))
+
+
+@settings(max_examples=60, deadline=None)
+@given(grades, st.sampled_from([("linear", "linear"), ("power", "power"),
+                                ("linear", "exponential")]))
+def test_property_round_trip_and_monotone(z, tails):
+    ns = NormalScore(tails=tails, power=1.5).fit(z)
+    y = ns.transform(z)
+    # exact round trip of the fitted values (the table is interpolated both ways)
+    np.testing.assert_allclose(ns.back_transform(y), z, rtol=1e-9, atol=1e-9)
+    # order preserved: brute-force comparison of all pairs
+    assert np.all((z[:, None] < z[None, :]) <= (y[:, None] < y[None, :]))
+    assert np.all((z[:, None] == z[None, :]) == (y[:, None] == y[None, :]))
+    back = ns.back_transform(np.linspace(-8, 8, 401))
+    assert np.all(np.diff(back) >= -1e-9 * max(1.0, np.abs(back).max()))
