@@ -155,7 +155,8 @@ def vector_to_line(v):
         Trend in [0, 360) (horizontal lines in [0, 180)), plunge in [0, 90].
     """
     u = to_lower_hemisphere(_unit(v))
-    x, y, z = u[..., 0], u[..., 1], u[..., 2]
+    # "+ 0.0" turns -0.0 into 0.0 so that a vertical axis always gets trend 0
+    x, y, z = u[..., 0] + 0.0, u[..., 1] + 0.0, u[..., 2]
     trend = _wrap360(np.degrees(np.arctan2(x, y)))
     # a horizontal axis with x a rounding error above 0 can round to 180
     trend = np.where((z == 0) & (trend >= 180.0), trend - 180.0, trend)
@@ -351,20 +352,6 @@ def is_rotation(R, tol: float = 1e-6) -> bool:
     eye = np.eye(3)
     ortho = np.max(np.abs(np.swapaxes(R, -1, -2) @ R - eye)) <= tol
     return bool(ortho and np.all(np.linalg.det(R) > 0))
-
-
-def _check_frame(R, name="frame") -> np.ndarray:
-    R = np.asarray(R, dtype=float)
-    if R.shape[-2:] != (3, 3):
-        raise InputError(f"{name} must be a 3x3 matrix (columns major, semi-major, minor); "
-                         f"got shape {R.shape}.")
-    if not is_rotation(R):
-        raise InputError(
-            f"{name} is not a right-handed rotation matrix (columns must be orthonormal "
-            "unit vectors with determinant +1); build it with frame_from_angles or "
-            "frame_from_axes."
-        )
-    return R
 
 
 def angles_from_frame(R):

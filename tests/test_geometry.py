@@ -388,3 +388,9 @@ def test_equal_area_uniform_density():
     z = -np.abs(v[:, 2]) / np.linalg.norm(v, axis=1)
     theta = np.arccos(-z)
     assert stats.kstest(np.tan(theta / 2) ** 2, "uniform").pvalue < 1e-6
+
+
+def test_vertical_axis_trend_does_not_depend_on_sign_of_zero():
+    # (0, 0, 1) flipped is (-0., -0., -1); both must read as trend 0, plunge 90
+    assert g.vector_to_line([0.0, 0.0, 1.0]) == (0.0, 90.0)
+    assert g.vector_to_line([-0.0, -0.0, -1.0]) == (0.0, 90.0)
