@@ -321,7 +321,11 @@ def demo_layout(*, seed=DEFAULT_SEED, scale=1.0):
                     )
                 )
     collars = pd.DataFrame(collar_rows, columns=COLLAR_COLUMNS)
-    composites = pd.concat(composite_blocks, ignore_index=True)
+    composites = (
+        pd.concat(composite_blocks, ignore_index=True)
+        if composite_blocks
+        else pd.DataFrame(columns=["hole_id", "from_m", "to_m", "mid_x", "mid_y", "mid_z", "domain"])
+    )
 
     # grade-control blast holes over the blanket
     blocks, n_blast_outside = [], 0
@@ -356,6 +360,7 @@ def demo_layout(*, seed=DEFAULT_SEED, scale=1.0):
                 )
             )
     blastholes = pd.concat(blocks, ignore_index=True) if blocks else pd.DataFrame(columns=BLASTHOLE_COLUMNS)
+    _check_sizes(composites, blastholes, scale)
     return {
         "collars": collars,
         "composites": composites,
@@ -367,6 +372,25 @@ def demo_layout(*, seed=DEFAULT_SEED, scale=1.0):
         },
         "field_seeds": field_seeds,
     }
+
+
+def _check_sizes(composites, blastholes, scale):
+    """Every domain needs enough rows to carry its codes; say so if the scale is too small."""
+    from anisotropy.errors import InputError
+
+    for table, df, names in (
+        ("composites", composites, list(DOMAINS)),
+        ("blastholes", blastholes, [n for n, s in DOMAINS.items() if "blastholes" in s]),
+    ):
+        need = 2 * sum(CODES[table].values())
+        for name in names:
+            n = int(np.count_nonzero(df["domain"].to_numpy() == name)) if len(df) else 0
+            if n < need:
+                raise InputError(
+                    f"make_demo: at scale {scale:g} the {name} domain gets only {n} {table} "
+                    f"(at least {need} are needed to carry its assay codes); use a larger --scale "
+                    "(0.1 or more is safe)."
+                )
 
 
 # --------------------------------------------------------------------------- grades
@@ -437,9 +461,6 @@ def _apply_codes(df, au, counts, rng, *, id_column, duplicate_suffix):
         idx = np.flatnonzero(df["domain"].to_numpy() == name)
         if idx.size == 0:
             continue
-        need = sum(counts.values())
-        if idx.size < 2 * need:
-            raise RuntimeError(f"domain {name} has only {idx.size} rows; scale is too small for the codes")
         order = idx[np.argsort(au[idx], kind="stable")]
         bdl = order[: counts["below_detection"]]
         code[bdl] = "bdl"

@@ -253,6 +253,9 @@ def test_scale_and_seed_are_validated():
         md.demo_layout(seed=1, scale=0.0)
     with pytest.raises(InputError, match="seed"):
         md.demo_layout(seed=-3, scale=1.0)
+    # too small to carry the stated codes: a clear message, not a traceback deep inside
+    with pytest.raises(InputError, match="larger --scale"):
+        md.demo_layout(seed=1, scale=0.01)
 
 
 # ------------------------------------------------------------------ bundled files
