@@ -426,10 +426,15 @@ def read_table(path) -> pd.DataFrame:
         raise InputError(f"'{p}' holds no table. Give a table with a header line and "
                          "one row per sample.") from None
     except (pd.errors.ParserError, csv.Error, ValueError) as exc:
+        text_exc = " ".join(str(exc).split())
+        m = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", text_exc)
+        what = (f"line {m.group(2)} of the file has {m.group(3)} fields where the header line "
+                f"has {m.group(1)}" if m else text_exc)
         raise InputError(
             f"Could not read '{p}' as a table separated by {_SEPARATOR_NAMES[sep]}s: "
-            f"{exc}. Every line must have as many fields as the header line; check the "
-            "line named, for a stray separator or a missing field.") from None
+            f"{what}. Every line must have as many fields as the header line; look for a "
+            "stray separator, an unquoted separator inside a text cell, or a missing field."
+            ) from None
     df.columns = [str(c).strip() for c in df.columns]
     if len(df.columns) and all(_looks_numeric(c) for c in df.columns):
         raise InputError(f"The first line of '{p}' looks like data ({', '.join(df.columns[:4])}"
@@ -478,10 +483,11 @@ def _find_column(df, name, role: str, option: str, source: str) -> str:
         return folded[0]
     close = _closest(name, df)
     hint = f" The closest match is {close!r}." if close else ""
+    sep_hint = (" The table has a single column: check that the file uses a comma, "
+                "semicolon, tab or spaces between fields." if len(cols) == 1 else "")
     raise ColumnError(
         f"In '{source}': there is no column {name!r} for the {role}.{hint} "
-        f"Available columns: {_available(df)}. Give the right name with "
-        f"{option} (or check the separator if the columns look run together).")
+        f"Available columns: {_available(df)}. Give the right name with {option}.{sep_hint}")
 
 
 def detect_coordinate_columns(df, *, x=None, y=None, z=None, exclude=(), source="<table>") -> dict:
@@ -655,12 +661,17 @@ def _numeric(series: pd.Series, *, column: str, role: str, option: str, source: 
         vals[text_missing] = np.nan
     if bad.any():
         rows = data_rows[bad]
+        k = int(bad.sum())
+        lt = (" Results written as text such as '<0.01' must be entered as negative numbers "
+              "(-0.01) to be read as below-detection codes."
+              if any(t.lstrip().startswith("<") for t in texts) else "")
         raise DataError(
-            f"In '{source}': column {column!r} ({role}) has {int(bad.sum())} cell(s) that are "
-            f"not numbers, in data row {_rows_text(rows, texts[:_MAX_ROWS_SHOWN])} (data row 1 "
-            "is the first row under the header, row 2 in a spreadsheet). Correct these cells, "
+            f"In '{source}': column {column!r} ({role}) has {k} "
+            f"{_plural(k, 'cell that is not a number', 'cells that are not numbers')}, in data "
+            f"{_plural(k, 'row', 'rows')} {_rows_text(rows, texts[:_MAX_ROWS_SHOWN])} (data row "
+            "1 is the first row under the header, row 2 in a spreadsheet). Correct these cells, "
             "or blank them to have those samples left out and counted; check also that "
-            f"{option} names the right column.")
+            f"{option} names the right column.{lt}")
     return vals, blank, text_missing
 
 

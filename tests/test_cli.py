@@ -115,7 +115,7 @@ def test_duplicates_are_reported_under_each_policy(tmp_path, capsys):
 
 BAD_TABLES = {
     "text_in_grade": ("x,y,z,au\n0,0,0,1\n1,0,0,2\n2,0,0,<0.01\n3,1,1,n.s.\n",
-                      ["--value", "au"], ["'au'", "data row 3 ('<0.01')", "4 ('n.s.')"]),
+                      ["--value", "au"], ["'au'", "data rows 3 ('<0.01')", "4 ('n.s.')", "negative numbers"]),
     "missing_coordinate": ("Easting,Northing,Elevtn,au\n0,0,0,1\n1,0,0,2\n",
                            ["--value", "au"],
                            ["elevation (z)", "'Easting'", "'Northing'", "'Elevtn'",

@@ -122,8 +122,10 @@ def test_parquet_without_pyarrow_says_what_to_install(tmp_path, monkeypatch):
 ])
 def test_unreadable_tables_give_input_errors(tmp_path, text, needle):
     p = write(tmp_path, text)
-    with pytest.raises(InputError, match=needle):
+    with pytest.raises(InputError, match=needle) as info:
         read_table(p)
+    if needle == "line":  # counted by hand: line 3 has 6 fields, the header 4
+        assert "line 3 of the file has 6 fields where the header line has 4" in str(info.value)
 
 
 def test_missing_file_and_workbook(tmp_path):
@@ -269,6 +271,7 @@ def test_text_in_grade_column_names_column_rows_and_text(tmp_path):
     assert "'Au_gpt'" in msg and str(p) in msg
     assert "2 ('<0.01')" in msg and "4 ('NS')" in msg
     assert "first row under the header" in msg
+    assert "(-0.01)" in msg  # the '<0.01' text gets the hint to write -DL codes
 
 
 def test_text_in_coordinate_column(tmp_path):
