@@ -21,7 +21,7 @@ def texts(fig):
     out = [ax.get_title(), ax.get_xlabel(), ax.get_ylabel()]
     out += [t.get_text() for t in ax.texts]
     leg = ax.get_legend()
-    out += [t.get_text() for t in leg.get_texts()] if leg else []
+    out += [t.get_text() for t in leg.get_texts()] + [leg.get_title().get_text()] if leg else []
     return out
 
 
@@ -30,7 +30,8 @@ def test_histogram_written_as_png_with_labels(tmp_path, rng):
     v[:2] = np.nan
     n_open = len(plt.get_fignums())
     p = tmp_path / "sub" / "hist.png"
-    fig = histogram_figure(v, title="Fenwright Hollow - Au", units="g/t", topcut=[5.0, 9.0], path=p)
+    fig = histogram_figure(v, title="Fenwright Hollow - Au", units="g/t", topcut=[5.0, 9.0], path=p,
+                           log_scale=False)
     img = mpimg.imread(p)  # matplotlib decodes the PNG
     assert img.ndim == 3 and img.shape[0] > 100 and img.shape[1] > 100
     # size follows the 110 dpi setting: figure inches x DPI (matplotlib arithmetic)
@@ -42,6 +43,14 @@ def test_histogram_written_as_png_with_labels(tmp_path, rng):
     assert any(s.startswith("n = 498") for s in t) and any("2 blank" in s for s in t)
     assert sum("top-cut" in s for s in t) == 2
     assert len(plt.get_fignums()) == n_open  # nothing left open in pyplot
+
+
+def test_histogram_log_scale_auto_for_skewed_grades(rng):
+    skewed = rng.lognormal(0, 1.5, 400)          # skewness well above 2
+    assert stats.skew(skewed) > 2                  # scipy.stats.skew
+    assert histogram_figure(skewed, title="s").axes[0].get_xscale() == "log"
+    even = rng.normal(10, 1, 400)
+    assert histogram_figure(even, title="e").axes[0].get_xscale() == "linear"
 
 
 def test_histogram_log_scale_counts_non_positive(rng):

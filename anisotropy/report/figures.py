@@ -58,10 +58,17 @@ def with_units(name: str, units: str | None) -> str:
     return f"{name} ({units})" if units else name
 
 
-def count_note(ax, text: str) -> None:
-    """Sample count (and similar facts) in the upper-left corner."""
-    ax.text(0.02, 0.97, text, transform=ax.transAxes, va="top", ha="left", fontsize=9,
-            bbox={"boxstyle": "round,pad=0.3", "facecolor": "white", "edgecolor": "#bbbbbb"})
+def add_legend(ax, note: str, loc: str = "best") -> None:
+    """Legend whose title carries the sample count (and similar facts)."""
+    leg = ax.legend(loc=loc, fontsize=8, framealpha=0.9, title=note, title_fontsize=8)
+    leg.get_title().set_multialignment("left")
+
+
+def skewed_enough_for_log(v: np.ndarray) -> bool:
+    """True for mostly positive, right-skewed grades (skewness > 2, >= 95 % positive)."""
+    if v.size < 3 or np.mean(v > 0) < 0.95 or np.std(v) == 0:
+        return False
+    return bool(stats.skew(v) > 2.0)
 
 
 def save_figure(fig, path) -> None:
@@ -99,7 +106,7 @@ def _finite(values) -> tuple[np.ndarray, int]:
 # ---------------------------------------------------------------------------
 
 def histogram_figure(values, *, title: str, units: str = "", topcut=None, path=None,
-                     bins="auto", log_scale: bool = False, value_name: str = "Grade"):
+                     bins="auto", log_scale="auto", value_name: str = "Grade"):
     """Histogram of the grades with the mean, median and any top-cuts marked.
 
     Parameters
@@ -116,8 +123,10 @@ def histogram_figure(values, *, title: str, units: str = "", topcut=None, path=N
         Save the PNG there.
     bins : int, sequence or str, default "auto"
         Passed to :func:`numpy.histogram_bin_edges` (linear scale).
-    log_scale : bool, default False
-        Log-spaced bins over the positive grades and a log x-axis.
+    log_scale : bool or "auto", default "auto"
+        Log-spaced bins over the positive grades and a log x-axis. "auto"
+        uses it for mostly positive grades with skewness above 2, where a
+        linear histogram crowds nearly every sample into the first bars.
     value_name : str, default "Grade"
 
     Returns
@@ -127,6 +136,8 @@ def histogram_figure(values, *, title: str, units: str = "", topcut=None, path=N
     v, n_bad = _finite(values)
     fig, ax = new_figure()
     note = f"n = {v.size}"
+    if log_scale == "auto":
+        log_scale = skewed_enough_for_log(v)
     if log_scale:
         pos = v[v > 0]
         if n_left := v.size - pos.size:
@@ -152,9 +163,9 @@ def histogram_figure(values, *, title: str, units: str = "", topcut=None, path=N
     for k, (lab, val) in enumerate(marks_from(topcut)):
         ax.axvline(val, color=MARK_COLOURS[k % len(MARK_COLOURS)], linestyle="--", linewidth=1.2,
                    label=lab)
-    label_axes(ax, title=title, xlabel=with_units(value_name, units), ylabel="Number of samples")
-    count_note(ax, note)
-    ax.legend(loc="upper right", fontsize=8, framealpha=0.9)
+    xlabel = with_units(value_name, units) + (" (log scale)" if log_scale else "")
+    label_axes(ax, title=title, xlabel=xlabel, ylabel="Number of samples")
+    add_legend(ax, note, loc="best")
     save_figure(fig, path)
     return fig
 
@@ -213,8 +224,7 @@ def logprob_figure(values, *, title: str, units: str = "", candidates=None, path
                        linewidth=1.1, label=lab)
     label_axes(ax, title=title, xlabel="Cumulative probability (%, normal scale)",
                ylabel=with_units(value_name, units) + " (log scale)")
-    count_note(ax, note)
-    ax.legend(loc="lower right", fontsize=8, framealpha=0.9)
+    add_legend(ax, note, loc="lower right")
     save_figure(fig, path)
     return fig
 
