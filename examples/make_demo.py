@@ -524,10 +524,17 @@ def _truth_domain(name, spec, layout, scale):
     g = _geometry()
     R = _domain_frame(spec)
     dd, dip = spec["plane"]["dip_direction"], spec["plane"]["dip"]
+    # as in discovery.json: axes.<axis>.range is that of the longest-range structure
+    longest = max(spec["model"]["structures"], key=lambda s: s["ranges"][0])
     axes = {}
     for k, axis in enumerate(("major", "semi_major", "minor")):
         t, p = g.vector_to_line(R[:, k])
-        axes[axis] = {"vector": [_r(v, 12) for v in R[:, k]], "trend": _r(t, 3), "plunge": _r(p, 3)}
+        axes[axis] = {
+            "vector": [_r(v, 12) for v in R[:, k]],
+            "trend": _r(t, 3),
+            "plunge": _r(p, 3),
+            "range": _r(longest["ranges"][k]),
+        }
     az, pl, rot = g.angles_from_frame(R)
     pole_dd, pole_dip = g.pole_to_plane(R[:, 2])
     mu, sigma = _lognormal_parameters(spec["grade"]["mean_gpt"], spec["grade"]["cv"])

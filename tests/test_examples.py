@@ -232,6 +232,10 @@ def _truth_checks(truth):
         for s in m["structures"]:
             r = s["ranges"]
             assert r["major"] >= r["semi_major"] >= r["minor"] > 0
+        # design.md: axes.<axis>.range is the range of the longest-range structure along that axis
+        longest = max(m["structures"], key=lambda s: s["ranges"]["major"])
+        for axis in ("major", "semi_major", "minor"):
+            assert d["axes"][axis]["range"] == longest["ranges"][axis]
         # lognormal moments: mean exp(mu + sigma^2/2), CV sqrt(exp(sigma^2) - 1) (SciPy reference)
         gt = d["grade_transform"]
         dist = stats.lognorm(s=gt["sigma"], scale=np.exp(gt["mu"]))
