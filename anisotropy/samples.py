@@ -71,6 +71,8 @@ __all__ = [
     "read_samples",
     "domain_values",
     "detect_coordinate_columns",
+    "find_column",
+    "domain_codes",
     "MISSING_CODE_THRESHOLD",
     "DUPLICATE_TOLERANCE",
     "PLANAR_ABSOLUTE",
@@ -1033,6 +1035,50 @@ def _planarity(coords: np.ndarray, warnings: list) -> bool:
             "be studied, and only directions within it are meaningful.")
         return True
     return False
+
+
+def find_column(df, name, *, role: str = "column", option: str = "", source: str = "<table>") -> str:
+    """The column called ``name``: exactly, or case-insensitively when that is unique.
+
+    Parameters
+    ----------
+    df : pandas.DataFrame
+    name : str
+    role : str
+        What the column is for, for the message (``"grade"``, ``"domain"``).
+    option : str
+        The option that names it, for the message (``"--domain"``).
+    source : str
+        File name for the message.
+
+    Returns
+    -------
+    str
+        The column name as it is in ``df``.
+
+    Raises
+    ------
+    ColumnError
+        No such column; the message lists the columns and the closest match.
+    """
+    return _find_column(df, name, role, option or "the column option", source)
+
+
+def domain_codes(series) -> pd.Series:
+    """Domain (or hole) codes as text, the way :func:`domain_values` lists them.
+
+    Whole numbers lose their decimal point (``1.0`` -> ``"1"``), text is
+    stripped, blank cells become None.
+
+    Parameters
+    ----------
+    series : pandas.Series
+
+    Returns
+    -------
+    pandas.Series of object
+    """
+    return _domain_strings(pd.Series(series))
 
 
 def read_samples(path, **kwargs) -> SampleSet:

@@ -495,3 +495,13 @@ def test_any_text_gives_samples_or_an_input_error(tmp_path_factory, text):
         # brute-force invariant from the module docstring
         assert s.n_read == s.n + sum(s.dropped.values())
         assert np.all(np.isfinite(s.coords)) and np.all(np.isfinite(s.values))
+
+
+def test_public_helpers_for_other_modules():
+    from anisotropy.samples import domain_codes, find_column
+
+    assert find_column(GOOD, "DOMAIN") == "domain"
+    with pytest.raises(ColumnError, match="closest match is 'domain'"):
+        find_column(GOOD, "domian", role="domain", option="--domain")
+    # by hand: 1.0 -> "1", " a " -> "a", NaN -> None
+    assert domain_codes(pd.Series([1.0, " a ", np.nan])).tolist() == ["1", "a", None]
