@@ -188,6 +188,16 @@ def inside(root: str | os.PathLike, *parts: str) -> Path:
 # CSV
 # ---------------------------------------------------------------------------
 
+def _current_umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
+
+
+# files are created readable by others as an ordinary open() would make them
+# (mkstemp alone gives 0600, unreadable for a web server or a colleague)
+_FILE_MODE = 0o666 & ~_current_umask()
+
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r", "\n", "\uff1d", "\uff0b", "\uff0d", "\uff20")
 _PLAIN_NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
 
@@ -302,6 +312,7 @@ def atomic_write_bytes(path: str | os.PathLike, data: bytes) -> Path:
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=path.parent)
     try:
+        os.chmod(tmp, _FILE_MODE)
         with os.fdopen(fd, "wb") as fh:
             fh.write(data)
             fh.flush()

@@ -1,0 +1,678 @@
+"""The reviewer's report: one self-contained HTML file per discovery.
+
+:func:`render_report` writes ``report.html`` (every figure embedded as a
+base64 PNG data URI, inline style, no script, nothing fetched: it opens
+offline in any browser) and the same figures as PNG files in
+``figures/`` beside it.
+
+The sections follow what a reviewer has to see, in the order of the chain:
+the data and every sample dropped or changed, the grade distribution with
+the top-cut, spacing and lags, the transform, variogram-map slices with the
+fitted ellipse, the axes on a stereonet with their bootstrap uncertainty,
+directional variograms with pair counts, bands and the model, the model
+table to carry into estimation, the check of an interpretation, warnings,
+and the caution on automated suggestions.
+
+Every string that came from the input (file, column and domain names,
+warnings that quote them) is escaped.
+"""
+
+from __future__ import annotations
+
+import base64
+import math
+from pathlib import Path
+from typing import Any, Mapping
+
+import numpy as np
+
+from anisotropy import _safety as S
+from anisotropy.report.style import CAUTION, DOMAINING_NOTE, page
+
+__all__ = ["render_report", "REPORT_FIGURES"]
+
+#: figure key -> title, in the order they appear in the report
+REPORT_FIGURES = {
+    "histogram": "Histogram of the grade with the top-cut",
+    "log_probability": "Log-probability plot with the top-cut",
+    "map_plan": "Variogram map, horizontal plan",
+    "map_plane": "Variogram map in the plane of greatest continuity",
+    "map_across": "Variogram map across the plane of greatest continuity",
+    "stereonet": "Axes of continuity on a lower-hemisphere equal-area net",
+    "directional": "Directional variograms",
+    "model_table": "Nested model",
+}
+
+_AXES = ("major", "semi_major", "minor")
+_AXIS_WORD = {"major": "major", "semi_major": "semi-major", "minor": "minor"}
+
+
+# ---------------------------------------------------------------------------
+# small helpers
+# ---------------------------------------------------------------------------
+
+
+def _g(x, fmt=".4g", missing="n/a"):
+    if x is None:
+        return missing
+    try:
+        f = float(x)
+    except (TypeError, ValueError):
+        return S.escape(x)
+    if not math.isfinite(f):
+        return missing
+    if fmt.endswith("d"):
+        return S.escape(format(int(round(f)), fmt))
+    return S.escape(format(f, fmt))
+
+
+def _table(rows, columns=None, *, headers=None) -> str:
+    """An HTML table from a list of dicts (values escaped)."""
+    if not rows:
+        return "<p>none</p>"
+    columns = list(columns or rows[0].keys())
+    head = "".join(f"<th>{S.escape(h)}</th>" for h in (headers or columns))
+    body = "".join("<tr>" + "".join(f"<td>{S.escape(r.get(c, ''))}</td>" for c in columns) + "</tr>"
+                   for r in rows)
+    return f"<table class='grid'><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>"
+
+
+def _kv(pairs) -> str:
+    """Two-column table of (label, already-safe HTML value)."""
+    body = "".join(f"<tr><th>{S.escape(k)}</th><td>{v}</td></tr>" for k, v in pairs)
+    return f"<table class='grid'><tbody>{body}</tbody></table>"
+
+
+def _flat(d: Mapping, prefix="") -> list:
+    out = []
+    for k, v in (d or {}).items():
+        key = f"{prefix}{k}"
+        if isinstance(v, Mapping):
+            out.extend(_flat(v, key + "."))
+        elif isinstance(v, (list, tuple)) and len(v) > 12:
+            out.append((key, S.escape(f"[{len(v)} values]")))
+        else:
+            out.append((key, S.escape(v if not isinstance(v, float) else format(v, ".5g"))))
+    return out
+
+
+# ---------------------------------------------------------------------------
+# figures from the discovery
+# ---------------------------------------------------------------------------
+
+
+def _attr(obj, *names, default=None):
+    for n in names:
+        if obj is not None and hasattr(obj, n):
+            v = getattr(obj, n)
+            if v is not None:
+                return v
+    return default
+
+
+def _frame(disc) -> np.ndarray:
+    R = _attr(disc, "frame")
+    if R is None:
+        R = disc.model.frame
+    return np.asarray(R, float)
+
+
+def _longest_ranges(model) -> np.ndarray:
+    best = None
+    for s in model.structures:
+        r = np.asarray(s.ranges, float)
+        if best is None or r[0] > best[0]:
+            best = r
+    return best if best is not None else np.array([1.0, 1.0, 1.0])
+
+
+def _marks(disc, topcut):
+    """The applied top-cut, else the exploration's candidates (for the lines on the plots)."""
+    if topcut is not None:
+        return float(topcut)
+    ex = _attr(disc, "exploration")
+    if ex is not None:
+        cands = (ex.to_dict().get("topcut") or {}).get("candidates") or []
+        return cands or None
+    return None
+
+
+def _raw_grades(disc):
+    smp = disc.samples
+    return np.asarray(smp.values, float)
+
+
+def _fig_histogram(disc, path, topcut):
+    from anisotropy.report import figures as F
+
+    lab = _labels(disc)
+    return F.histogram_figure(_raw_grades(disc), title=f"Histogram of {lab['value_name']}"
+                              + (" (top-cut applied)" if topcut is not None else " (top-cut candidates)"),
+                              topcut=_marks(disc, topcut), path=path, **lab)
+
+
+def _fig_logprob(disc, path, topcut):
+    from anisotropy.report import figures as F
+
+    lab = _labels(disc)
+    return F.logprob_figure(_raw_grades(disc), title=f"Log-probability plot of {lab['value_name']}",
+                            candidates=_marks(disc, topcut), path=path, **lab)
+
+
+def _labels(disc) -> dict:
+    cols = getattr(disc.samples, "columns", {}) or {}
+    return {"value_name": str(cols.get("value") or "grade")}
+
+
+def _map_plane_basis(normal):
+    """Right-handed in-plane basis (u, v) for a plane with the given normal.
+
+    ``u`` is horizontal (the strike direction) unless the plane is
+    horizontal, then east; ``v`` completes the pair (up-dip for a dipping
+    plane, north for a horizontal one).
+    """
+    n = np.asarray(normal, float)
+    n = n / np.linalg.norm(n)
+    if n[2] > 0:
+        n = -n
+    up = np.array([0.0, 0.0, 1.0])
+    u = np.cross(up, n)
+    if np.linalg.norm(u) < 1e-8:
+        return np.array([1.0, 0.0, 0.0]), np.array([0.0, 1.0, 0.0])
+    u /= np.linalg.norm(u)
+    v = np.cross(n, u)
+    if v[2] < 0:
+        u, v = -u, -v
+    return u, v
+
+
+def _fig_map(disc, path, which):
+    from anisotropy.directional import variogram_map
+    from anisotropy.report import figures as F
+
+    R = _frame(disc)
+    plane_info = (disc.to_dict().get("plane") or {})
+    if which == "plan":
+        normal = np.array([0.0, 0.0, -1.0])
+        kw = {"plane": "horizontal"}
+        title = "Variogram map: horizontal plan"
+    elif which == "plane":
+        normal = R[:, 2]
+        kw = {"normal": normal}
+        title = (f"Variogram map in the plane of greatest continuity "
+                 f"({_num(plane_info.get('dip_direction'), '03.0f')}/"
+                 f"{_num(plane_info.get('dip'), '02.0f')})")
+    else:
+        normal = R[:, 1]
+        kw = {"normal": normal}
+        title = "Variogram map across the plane (major-minor section)"
+    estimator = _estimator(disc)
+    ms = variogram_map(disc.volume_, estimator=estimator, **kw)
+    # MapSlice arrays are indexed [u, v]; the figure wants rows along v
+    values = np.asarray(ms.value, float).T
+    pairs = np.asarray(ms.pairs, float).T
+    u_axis, v_axis = np.asarray(ms.e1, float), np.asarray(ms.e2, float)
+    half = 0.5 * float(ms.map_cell)
+    extent = (float(ms.u[0]) - half, float(ms.u[-1]) + half,
+              float(ms.v[0]) - half, float(ms.v[-1]) + half)
+    eu, ev = F.section_ellipse(R, _longest_ranges(disc.model), u_axis, v_axis)
+    marks = {}
+    for i, name in enumerate(_AXES):
+        a = R[:, i]
+        du, dv = float(a @ u_axis), float(a @ v_axis)
+        if math.hypot(du, dv) > 0.5:  # the axis lies near the slice plane
+            marks[name] = (du, dv)
+    return F.variogram_map_figure(values, extent, pairs, ellipse=(eu, ev), min_pairs=3,
+                                  title=title, xlabel=_axis_label(u_axis),
+                                  ylabel=_axis_label(v_axis),
+                                  value_label=f"{estimator} ({_units(disc)})",
+                                  axis_marks=marks, path=path)
+
+
+def _num(x, fmt):
+    try:
+        return format(float(x), fmt)
+    except (TypeError, ValueError):
+        return "?"
+
+
+def _axis_label(vec):
+    from anisotropy.geometry import vector_to_line
+
+    tr, pl = vector_to_line(np.asarray(vec, float))
+    return f"distance toward {float(tr):03.0f}/{float(pl):02.0f} (m)"
+
+
+def _units(disc) -> str:
+    kind = (_transform_record(disc).get("kind") or "raw")
+    return {"normal_score": "normal-score units", "log": "log units",
+            "indicator": "indicator units"}.get(kind, "grade units squared")
+
+
+def _transform_record(disc) -> dict:
+    t = _attr(disc, "transform")
+    rec = _attr(t, "record")
+    if isinstance(rec, Mapping):
+        out = dict(rec)
+        out.setdefault("kind", _attr(t, "kind"))
+        return out
+    return dict(disc.to_dict().get("transform") or {})
+
+
+def _estimator(disc) -> str:
+    d = disc.to_dict()
+    return (d.get("estimator") or (d.get("diagnostics") or {}).get("estimator")
+            or getattr(disc, "estimator", None) or "semivariogram")
+
+
+def _replicate_axes(disc):
+    unc = _attr(disc, "uncertainty")
+    axes = _attr(unc, "axes")
+    if axes is None:
+        return None
+    a = np.asarray(axes, float)
+    if a.ndim != 3 or a.shape[0] == 0:
+        return None
+    return {name: a[:, :, i] for i, name in enumerate(_AXES)}
+
+
+def _interpreted_axes(check) -> dict | None:
+    """Interpreted axis vectors of a CheckResult (``interpretation.axes``)."""
+    if check is None:
+        return None
+    interp = _attr(check, "interpretation")
+    axes = _attr(interp, "axes")
+    if not isinstance(axes, Mapping):
+        axes = {k: v.get("vector") for k, v in
+                ((check.to_dict().get("interpretation") or {}).get("axes") or {}).items()}
+    out = {k: np.asarray(v, float) for k, v in axes.items() if v is not None}
+    return out or None
+
+
+def _interpreted_pole(check):
+    if check is None:
+        return None
+    plane = _attr(_attr(check, "interpretation"), "plane")
+    if plane is None:
+        return None
+    from anisotropy.geometry import plane_to_pole
+
+    return np.asarray(plane_to_pole(float(plane[0]), float(plane[1])), float)
+
+
+def _fig_stereonet(disc, path, check):
+    from anisotropy.report import figures as F
+
+    R = _frame(disc)
+    d = disc.to_dict()
+    unc = d.get("uncertainty") or {}
+    cones = {a: (unc.get(a) or {}).get("cone_deg") for a in _AXES} if unc else None
+    conf = unc.get("confidence") if unc else None
+    return F.stereonet_figure({a: R[:, i] for i, a in enumerate(_AXES)},
+                              clouds=_replicate_axes(disc), cones=cones,
+                              interpreted=_interpreted_axes(check),
+                              interpreted_plane=_interpreted_pole(check), confidence=conf,
+                              path=path)
+
+
+def _fig_directional(disc, path):
+    from anisotropy.estimators import estimate
+    from anisotropy.geometry import line_to_vector, vector_to_line
+    from anisotropy.pairs import CHANNELS
+    from anisotropy.report import figures as F
+
+    vol = disc.volume_
+    R = _frame(disc)
+    lags = disc.lags or {}
+    tol = float(lags.get("angular_tolerance") or 22.5)
+    bw = lags.get("bandwidth")
+    estimator = _estimator(disc)
+    dirs = [(a, R[:, i], f"{_AXIS_WORD[a]} axis") for i, a in enumerate(_AXES)]
+    for tr, pl in ((0.0, 0.0), (90.0, 0.0), (0.0, 90.0)):
+        v = line_to_vector(tr, pl)
+        if min(float(np.degrees(np.arccos(min(1.0, abs(float(v @ R[:, i])))))) for i in range(3)) > 15:
+            dirs.append((None, v, f"{tr:03.0f}/{pl:02.0f}"))
+    i_count, i_dist = CHANNELS.index("count"), CHANNELS.index("dist")
+    dmax = float(vol.max_distance)
+    grid = np.linspace(0.0, dmax, 120)
+    bands = None
+    unc = _attr(disc, "uncertainty")
+    if unc is not None and getattr(unc, "n_replicates", 0) >= 2:
+        bands = unc.variogram_bands(np.stack([d[1] for d in dirs]), grid)
+    curves = []
+    for k, (axis, u, label) in enumerate(dirs):
+        sums = vol.aggregate(u, tol, bw) if bw else vol.aggregate(u, tol)
+        n = sums[:, i_count]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            dist = np.where(n > 0, sums[:, i_dist] / np.maximum(n, 1), np.nan)
+        val = np.asarray(estimate(sums, estimator), float)
+        tr, pl = vector_to_line(u)
+        name = label if axis is None else f"{label} {float(tr):03.0f}/{float(pl):02.0f}"
+        c = {"label": name, "axis": axis, "distance": dist, "value": val, "pairs": n,
+             "model_distance": grid, "model_value": disc.model.variogram_along(u, grid),
+             "model_label": "fitted model"}
+        if bands is not None:
+            c.update(lo=bands["lo"][k], hi=bands["hi"][k], band_distance=grid,
+                     band_label=f"bootstrap band of the model ({unc.confidence * 100:.0f} %)")
+        curves.append(c)
+    return F.directional_variograms_figure(
+        curves, sill=float(disc.model.total_sill), value_label=f"{estimator} ({_units(disc)})",
+        title=f"Directional variograms (angular tolerance {tol:g}°)", path=path)
+
+
+def _fig_table(disc, path):
+    from anisotropy.report import figures as F
+
+    d = disc.to_dict()
+    return F.model_table_figure(F.model_table_rows(d.get("model") or {}, d.get("axes") or {}),
+                                title=f"Nested model ({_units(disc)})", path=path)
+
+
+def _draw_all(disc, fig_dir: Path, check, topcut):
+    import matplotlib
+
+    matplotlib.use("Agg", force=False)
+    makers = {
+        "histogram": lambda p: _fig_histogram(disc, p, topcut),
+        "log_probability": lambda p: _fig_logprob(disc, p, topcut),
+        "map_plan": lambda p: _fig_map(disc, p, "plan"),
+        "map_plane": lambda p: _fig_map(disc, p, "plane"),
+        "map_across": lambda p: _fig_map(disc, p, "across"),
+        "stereonet": lambda p: _fig_stereonet(disc, p, check),
+        "directional": lambda p: _fig_directional(disc, p),
+        "model_table": lambda p: _fig_table(disc, p),
+    }
+    import io
+
+    from anisotropy.report import figures as F
+
+    out = {}
+    for key, make in makers.items():
+        path = fig_dir / f"{key}.png"
+        try:
+            fig = make(None)
+            buf = io.BytesIO()
+            fig.savefig(buf, format="png", dpi=F.DPI)
+            data = buf.getvalue()
+            S.atomic_write_bytes(path, data)
+            out[key] = (data, None)
+        except Exception as exc:  # noqa: BLE001 - a missing figure is reported, never fatal
+            out[key] = (None, f"{type(exc).__name__}: {exc}")
+    return out
+
+
+# ---------------------------------------------------------------------------
+# sections
+# ---------------------------------------------------------------------------
+
+
+def _figure_html(key, figs, caption):
+    data, err = figs.get(key, (None, "not drawn"))
+    title = REPORT_FIGURES[key]
+    if data is None:
+        return (f"<figure id='fig-{key}'><p class='warn'>{S.escape(title)}: the figure could "
+                f"not be drawn ({S.escape(err)}).</p></figure>")
+    b64 = base64.b64encode(data).decode("ascii")
+    return (f"<figure id='fig-{key}'><img alt='{S.escape(title)}' "
+            f"src='data:image/png;base64,{b64}'><figcaption><b>{S.escape(title)}.</b> "
+            f"{caption}</figcaption></figure>")
+
+
+def _topcut(disc):
+    rec = _transform_record(disc)
+    for k in ("cap", "topcut", "top_cut"):
+        if rec.get(k) is not None:
+            return float(rec[k])
+    return None
+
+
+def _section_data(disc, d) -> str:
+    inp = d.get("input") or {}
+    smp = disc.samples
+    parts = [("file", f"<code>{S.escape(inp.get('file'))}</code>"),
+             ("grade column", S.escape(inp.get("value"))),
+             ("domain", S.escape(inp.get("domain")) if inp.get("domain") is not None else "all samples"),
+             ("samples in the domain", _g(inp.get("n_samples"), "d")),
+             ("samples used", _g(inp.get("n_used"), "d"))]
+    html = [_kv(parts)]
+    rows = []
+    for reason, n in (inp.get("dropped") or getattr(smp, "dropped", {}) or {}).items():
+        rows.append({"what": "dropped", "reason": reason, "samples": int(n)})
+    for reason, n in (getattr(smp, "changed", {}) or {}).items():
+        rows.append({"what": "changed", "reason": reason, "samples": int(n)})
+    dup = getattr(smp, "duplicates", None) or {}
+    if dup.get("samples"):
+        rows.append({"what": f"duplicates ({dup.get('policy')})",
+                     "reason": f"{dup.get('locations')} shared locations", "samples": dup.get("samples")})
+    html.append("<h3>Samples dropped or changed, by reason</h3>")
+    html.append(_table(rows, ["what", "reason", "samples"]) if rows else
+                "<p>No sample was dropped or changed.</p>")
+    ex = _attr(disc, "exploration")
+    if ex is not None:
+        e = ex.to_dict()
+        stats = [("count", _g(e.get("count"), "d")), ("mean", _g(e.get("mean"))),
+                 ("standard deviation", _g(e.get("std"))), ("CV", _g(e.get("cv"), ".2f")),
+                 ("skewness", _g(e.get("skewness"), ".2f")), ("min", _g(e.get("min"))),
+                 ("max", _g(e.get("max")))]
+        for q, v in (e.get("quantiles") or {}).items():
+            stats.append((f"quantile {q}", _g(v)))
+        dc = e.get("declustered") or {}
+        if dc:
+            stats.append(("declustered mean", _g(dc.get("mean"))))
+            stats.append(("declustering cell (m)", _g(dc.get("cell_size"), ".3g")))
+        html.append("<h3>Statistics of the grade</h3>")
+        html.append(_kv(stats))
+    return "\n".join(html)
+
+
+def _section_topcut(disc, figs) -> str:
+    tc = _topcut(disc)
+    note = (f"The top-cut applied is {_g(tc)}." if tc is not None
+            else "No top-cut was applied.")
+    html = [f"<p>{note}</p>"]
+    ex = _attr(disc, "exploration")
+    if ex is not None:
+        cands = (ex.to_dict().get("topcut") or {}).get("candidates") or []
+        if cands:
+            rows = [{"candidate": _g(c.get("value")), "method": c.get("method"),
+                     "samples capped": c.get("n_capped"),
+                     "metal removed (%)": _g(c.get("metal_removed_pct"), ".1f")} for c in cands]
+            html.append("<p>Candidates from the exploration (the choice is the geologist's):</p>")
+            html.append(_table(rows))
+    html.append(_figure_html("histogram", figs, "Grade distribution; the dashed line marks the top-cut."))
+    html.append(_figure_html("log_probability", figs,
+                             "Cumulative probability on a log scale; a break in slope suggests "
+                             "a separate high-grade population."))
+    return "\n".join(html)
+
+
+def _section_lags(disc, d) -> str:
+    html = []
+    lags = d.get("lags") or {}
+    html.append(_kv(_flat(lags)))
+    ex = _attr(disc, "exploration")
+    if ex is not None:
+        sp = ex.to_dict().get("spacing") or {}
+        rows = []
+        for k, lag in (sp.get("suggested_lag") or {}).items():
+            rows.append({"direction class": k, "suggested lag (m)": _g(lag, ".3g"),
+                         "why": (sp.get("reasons") or {}).get(k, "")})
+        html.append("<p>Nominal spacing: across-hole "
+                    f"{_g(sp.get('across_hole'), '.3g')} m, down-hole {_g(sp.get('down_hole'), '.3g')} m, "
+                    f"bench {_g(sp.get('bench'), '.3g')} m.</p>")
+        if rows:
+            html.append(_table(rows))
+    diag = d.get("diagnostics") or {}
+    if diag.get("pairs") is not None:
+        html.append(f"<p>Pairs accumulated: {_g(diag.get('pairs'), ',.0f')}.</p>")
+    return "\n".join(html)
+
+
+def _section_model(disc, d) -> str:
+    from anisotropy.report import figures as F
+
+    rows = F.model_table_rows(d.get("model") or {}, d.get("axes") or {})
+    html = [f"<p>In {S.escape(_units(disc))}; ranges in metres along each structure's axes "
+            "(spherical: the range; exponential and Gaussian: the practical range, 95 % of the "
+            "sill). Axis orientations are trend/plunge in degrees.</p>",
+            _table(rows, list(F.MODEL_TABLE_COLUMNS))]
+    rot = d.get("rotation") or {}
+    ang = rot.get("angles") or {}
+    plane = d.get("plane") or {}
+    items = [("plane of greatest continuity (dip direction/dip)",
+              f"{_g(plane.get('dip_direction'), '05.1f')} / {_g(plane.get('dip'), '04.1f')}"),
+             ("strike (right-hand rule)", _g(plane.get("strike"), "05.1f")),
+             ("pitch of the major axis in that plane", _g(plane.get("pitch"), "05.1f"))]
+    for k, v in ang.items():
+        items.append((f"frame angle: {k}", _g(v, ".1f")))
+    html.append(_kv(items))
+    unc = d.get("uncertainty") or {}
+    if unc:
+        conf = unc.get("confidence")
+        rows = []
+        for a in _AXES:
+            u = unc.get(a) or {}
+            rows.append({"axis": _AXIS_WORD[a], "cone radius (°)": _g(u.get("cone_deg"), ".1f"),
+                         "trend interval": _pair(u.get("trend"), ".0f"),
+                         "plunge interval": _pair(u.get("plunge"), ".0f"),
+                         "range interval (m)": _pair(u.get("range"), ".0f")})
+        html.append(f"<p>Uncertainty: {S.escape(str(unc.get('method')).replace('_', ' '))}, "
+                    f"{_g(unc.get('replicates'), 'd')} replicates, {_g((conf or 0) * 100, '.0f')} % "
+                    f"intervals. Nugget {_pair(unc.get('nugget'), '.3g')}.</p>")
+        html.append(_table(rows))
+    else:
+        html.append("<p class='warn'>No bootstrap was run: the axes and ranges carry no "
+                    "confidence band. Run with bootstrap replicates before relying on them.</p>")
+    return "\n".join(html)
+
+
+def _pair(v, fmt):
+    if not isinstance(v, (list, tuple)) or len(v) != 2:
+        return "n/a"
+    return f"{_num(v[0], fmt)} – {_num(v[1], fmt)}"
+
+
+def _section_check(check) -> str:
+    if check is None:
+        return ("<p>No interpretation was given for this domain, so none was checked.</p>")
+    c = check.to_dict()
+    verdict = str(c.get("verdict"))
+    html = [f"<p>Verdict: <span class='verdict-{S.escape(verdict)}'>{S.escape(verdict)}</span></p>"]
+    summary = getattr(check, "summary", None)
+    if callable(summary):
+        html.append(f"<pre>{S.escape(summary())}</pre>")
+    else:
+        html.append(_kv(_flat({k: v for k, v in c.items() if k != "verdict"})))
+    return "\n".join(html)
+
+
+def _warnings(disc, d) -> list:
+    seen, out = set(), []
+    sources = [d.get("warnings"), (d.get("diagnostics") or {}).get("warnings"),
+               getattr(disc, "warnings", None), getattr(disc.samples, "warnings", None)]
+    unc = d.get("uncertainty") or {}
+    sources.append(unc.get("warnings"))
+    for src in sources:
+        for w in src or []:
+            w = str(w)
+            if w not in seen:
+                seen.add(w)
+                out.append(w)
+    return out
+
+
+# ---------------------------------------------------------------------------
+# the report
+# ---------------------------------------------------------------------------
+
+
+def render_report(discovery, out_dir, *, check=None, title=None) -> Path:
+    """Write the self-contained HTML report of one discovery.
+
+    Parameters
+    ----------
+    discovery : anisotropy.Discovery
+        The result (with its ``volume_`` for the variogram maps and
+        directional variograms).
+    out_dir : path-like
+        Folder to write into (created): ``report.html`` and ``figures/*.png``.
+    check : anisotropy.CheckResult, optional
+        An interpretation checked against this discovery; shown in its own
+        section and on the stereonet.
+    title : str, optional
+        Page title (default from the value column and domain).
+
+    Returns
+    -------
+    Path
+        The path of ``report.html``.
+    """
+    out_dir = Path(out_dir)
+    fig_dir = out_dir / "figures"
+    fig_dir.mkdir(parents=True, exist_ok=True)
+    d = S.json_ready(discovery.to_dict())
+    inp = d.get("input") or {}
+    if title is None:
+        title = f"Continuity of {inp.get('value') or 'grade'}"
+        if inp.get("domain") is not None:
+            title += f" in domain {inp.get('domain')}"
+    figs = _draw_all(discovery, fig_dir, check, _topcut(discovery))
+
+    sec = []
+    sec.append(f"<h1>{S.escape(title)}</h1>")
+    sec.append(f"<p class='meta'>Source <code>{S.escape(inp.get('file'))}</code>; result schema "
+               f"{S.escape(d.get('schema'))}; written by anisotropy "
+               f"{S.escape(_version())}.</p>")
+    sec.append(f"<p class='caution'>{S.escape(CAUTION)}</p>")
+    sec.append("<h2>1. Data</h2>" + _section_data(discovery, d))
+    sec.append("<h2>2. Grade distribution and top-cut</h2>" + _section_topcut(discovery, figs))
+    sec.append("<h2>3. Spacing and lags</h2>" + _section_lags(discovery, d))
+    sec.append("<h2>4. Transform</h2>" + _kv(_flat(_transform_record(discovery)))
+               + "<p>The variograms and the model below are in the transformed variable.</p>")
+    sec.append("<h2>5. Variogram maps</h2>"
+               "<p>Slices of the lag-vector volume through the origin; the black curve is the "
+               "fitted range ellipse of the longest structure cut by the same plane; dotted "
+               "lines are the axes lying in the slice.</p>"
+               + _figure_html("map_plan", figs, "Looking down; east to the right, north up.")
+               + _figure_html("map_plane", figs, "In the plane holding the major and semi-major axes.")
+               + _figure_html("map_across", figs, "In the plane holding the major and minor axes, "
+                              "across the plane of greatest continuity."))
+    sec.append("<h2>6. Axes and their uncertainty</h2>"
+               + _figure_html("stereonet", figs,
+                              "Filled markers: the proposed axes; small dots: bootstrap replicate "
+                              "axes; circles: confidence cones; open black markers: interpreted "
+                              "directions when an interpretation was checked."))
+    sec.append("<h2>7. Directional variograms</h2>"
+               + _figure_html("directional", figs,
+                              "Points sized by pair count (numbers beside them); shaded: bootstrap "
+                              "band of the fitted model; line: the fitted nested model."))
+    sec.append("<h2>8. Model for estimation</h2>" + _section_model(discovery, d)
+               + _figure_html("model_table", figs, "The same table as a figure."))
+    sec.append("<h2>9. Check of the interpretation</h2>" + _section_check(check))
+    warns = _warnings(discovery, d)
+    sec.append("<h2>10. Warnings</h2>" + (
+        "<ul>" + "".join(f"<li class='warn'>{S.escape(w)}</li>" for w in warns) + "</ul>"
+        if warns else "<p>None.</p>"))
+    failed = [k for k, (data, _) in figs.items() if data is None]
+    if failed:
+        sec.append(f"<p class='warn'>Figures not drawn: {S.escape(', '.join(failed))}.</p>")
+    cautions = d.get("cautions")
+    extra = ""
+    if isinstance(cautions, (list, tuple)):
+        extra = "".join(f"<p>{S.escape(c)}</p>" for c in cautions if str(c) != CAUTION)
+    elif cautions:
+        extra = f"<p>{S.escape(cautions)}</p>"
+    sec.append("<h2>11. Caution</h2>" + f"<p class='caution'>{S.escape(CAUTION)}</p>"
+               + f"<p>{S.escape(DOMAINING_NOTE)}</p>" + extra)
+    path = out_dir / "report.html"
+    S.atomic_write_text(path, page(title, "\n".join(sec)))
+    return path
+
+
+def _version() -> str:
+    try:
+        from anisotropy import __version__
+
+        return __version__
+    except ImportError:  # pragma: no cover
+        return "?"
