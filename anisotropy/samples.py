@@ -191,6 +191,9 @@ class SampleSet:
         The assay-code and duplicate policies that were applied.
     table : dict
         How the file was read (format, separator, decimal mark), if known.
+    dropped_rows, changed_rows : dict
+        Reason to the data row numbers of the samples left out or altered,
+        so that a reviewer can find each one in the table.
     """
 
     coords: np.ndarray
@@ -210,6 +213,8 @@ class SampleSet:
     rows: np.ndarray | None = None
     policies: dict = field(default_factory=dict)
     table: dict = field(default_factory=dict)
+    dropped_rows: dict = field(default_factory=dict)
+    changed_rows: dict = field(default_factory=dict)
 
     @property
     def n(self) -> int:
@@ -242,6 +247,8 @@ class SampleSet:
             "n_used": self.n,
             "dropped": {str(k): int(v) for k, v in self.dropped.items()},
             "changed": {str(k): int(v) for k, v in self.changed.items()},
+            "dropped_rows": {str(k): [int(r) for r in v] for k, v in self.dropped_rows.items()},
+            "changed_rows": {str(k): [int(r) for r in v] for k, v in self.changed_rows.items()},
             "duplicates": {"locations": int(self.duplicates.get("locations", 0)),
                            "samples": int(self.duplicates.get("samples", 0)),
                            "policy": str(self.duplicates.get("policy", "keep"))},
@@ -846,11 +853,15 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
     changed: dict[str, int] = {}
     alive = np.ones(n_read, dtype=bool)
 
+    dropped_rows: dict[str, list] = {}
+    changed_rows: dict[str, list] = {}
+
     def drop(mask, reason):
         m = mask & alive
         k = int(m.sum())
         if k:
             dropped[reason] = dropped.get(reason, 0) + k
+            dropped_rows.setdefault(reason, []).extend(int(r) for r in data_rows[m])
             alive[m] = False
         return m, k
 
@@ -891,6 +902,7 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
             example = float(v[bdl][0])
             v[bdl] = -v[bdl] / 2.0
             changed[R_BDL_HALF] = kb
+            changed_rows[R_BDL_HALF] = [int(r) for r in data_rows[bdl]]
             warnings.append(f"{kb} below-detection {_plural(kb, 'code', 'codes')} (negative "
                             f"grades -DL) {_plural(kb, 'was', 'were')} replaced by half the "
                             f"detection limit, DL/2 (common practice; {example:g} became "
@@ -951,12 +963,18 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
         else:
             keep_idx = np.sort(first)
             n_lost = len(values) - len(keep_idx)
+            lost = np.ones(len(values), dtype=bool)
+            lost[keep_idx] = False
+            lost_rows = [int(r) for r in rows[lost]]
             if duplicates == "average":
                 means = np.bincount(inverse, weights=values) / counts
                 group_of_kept = inverse[keep_idx]
                 new_values = means[group_of_kept]
                 changed[R_DUP_AVERAGE_CHANGED] = dup_locations
+                changed_rows[R_DUP_AVERAGE_CHANGED] = [
+                    int(r) for r in rows[keep_idx][counts[group_of_kept] > 1]]
                 dropped[R_DUP_AVERAGED] = n_lost
+                dropped_rows[R_DUP_AVERAGED] = lost_rows
                 warnings.append(
                     f"{dup_locations} {_plural(dup_locations, 'location holds', 'locations hold')} "
                     f"more than one sample ({dup_samples} samples); each was replaced by one "
@@ -964,6 +982,7 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
             else:
                 new_values = values[keep_idx]
                 dropped[R_DUP_DROPPED] = n_lost
+                dropped_rows[R_DUP_DROPPED] = lost_rows
                 warnings.append(
                     f"{dup_locations} {_plural(dup_locations, 'location holds', 'locations hold')} "
                     f"more than one sample ({dup_samples} samples); only the first in table "
@@ -997,6 +1016,8 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
         policies={"missing_codes": missing_codes, "below_detection": below_detection,
                   "duplicates": duplicates},
         table=table_info,
+        dropped_rows=dropped_rows,
+        changed_rows=changed_rows,
     )
 
 

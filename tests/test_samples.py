@@ -243,6 +243,11 @@ def test_blanks_codes_and_below_detection_are_counted(tmp_path):
     np.testing.assert_array_equal(s.values, [1.0, 0.01 / 2, 0.5 / 2, 4.0, 0.0])
     assert s.changed == {"below-detection code (-DL) set to DL/2": 2}
     np.testing.assert_array_equal(s.rows, [1, 5, 6, 9, 10])
+    # which rows, by hand from the table above
+    assert s.dropped_rows == {"blank coordinate": [8], "blank value": [2],
+                              "missing-value text (NA, N/A, ...)": [7],
+                              "missing-value code (<= -90)": [3, 4]}
+    assert s.changed_rows == {"below-detection code (-DL) set to DL/2": [5, 6]}
     text = " ".join(s.warnings)
     assert "blank coordinate" in text and "data row 8" in text
     assert "-999" in text and "-99" in text
@@ -310,6 +315,9 @@ def test_counts_match_brute_force(vals):
     assert s.changed.get("below-detection code (-DL) set to DL/2", 0) == len(bdl)
     assert s.n_read == n == s.n + sum(s.dropped.values())
     np.testing.assert_array_equal(s.values, kept)
+    # every row is accounted for exactly once: kept, or listed under one reason
+    listed = sorted([r for rs in s.dropped_rows.values() for r in rs] + list(s.rows))
+    assert listed == list(range(1, n + 1))
 
 
 # ---------------------------------------------------------------------------
@@ -379,6 +387,9 @@ def test_duplicates_average_matches_pandas_groupby():
     np.testing.assert_allclose(s.values, ref.to_numpy(), rtol=0, atol=1e-12)
     np.testing.assert_array_equal(s.world_coords, np.array(ref.index.tolist()))
     assert s.dropped == {"duplicate location, merged into the average": 3}
+    # by hand: rows 2, 4, 5 merge into rows 1 and 3
+    assert s.dropped_rows == {"duplicate location, merged into the average": [2, 4, 5]}
+    assert s.changed_rows == {"duplicate location, grade set to the average": [1, 3]}
     assert s.changed == {"duplicate location, grade set to the average": 2}
     assert s.n_read == s.n + sum(s.dropped.values())
 
