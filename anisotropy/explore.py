@@ -185,8 +185,9 @@ def _cell_weights(c0: np.ndarray, size: float, shape, n_offsets: int) -> np.ndar
             counts = np.bincount(key)          # direct cell counts (small grids)
             w += 1.0 / (np.count_nonzero(counts) * counts[key])
         else:
-            _, inv, counts = np.unique(key, return_inverse=True, return_counts=True)
-            w += 1.0 / (len(counts) * counts[inv])
+            inv, uniq = pd.factorize(key)      # hashing: linear time, no sort
+            counts = np.bincount(inv, minlength=len(uniq))
+            w += 1.0 / (len(uniq) * counts[inv])
     return w / n_offsets
 
 
@@ -560,19 +561,21 @@ def detect_logprob_break(values, *, search_from: float = 0.75, min_tail: int | N
     if hi - lo < 1:
         return None
     cand = np.unique(np.linspace(lo, hi - 1, min(max_candidates, hi - lo)).astype(int))
-    A1 = np.column_stack([np.ones_like(x), x])
-    sse1 = float(np.sum((y - A1 @ np.linalg.lstsq(A1, y, rcond=None)[0]) ** 2))
     # least squares by the normal equations, with the sums that do not depend on
-    # the break computed once (x is sorted, so the hinge is zero below index i)
-    m, sx, sxx = float(x.size), float(x.sum()), float(x @ x)
-    sy, sxy = float(y.sum()), float(x @ y)
+    # the break computed once (x is sorted, so the hinge is zero below index i).
+    # Element-wise sums rather than BLAS products: a threaded BLAS crawls on a
+    # busy machine for these thin 1-D products.
+    m, sx, sxx = float(x.size), float(x.sum()), float((x * x).sum())
+    sy, sxy = float(y.sum()), float((x * y).sum())
+    c1 = np.linalg.solve(np.array([[m, sx], [sx, sxx]]), np.array([sy, sxy]))
+    sse1 = float(((y - c1[0] - c1[1] * x) ** 2).sum())
     best = None
     for i in cand:
         x0 = x[i]
-        if np.all(x[i:] == x0):
+        if x[-1] == x0:
             continue
         h = x[i:] - x0
-        sh, sxh, shh, shy = h.sum(), x[i:] @ h, h @ h, h @ y[i:]
+        sh, sxh, shh, shy = h.sum(), (x[i:] * h).sum(), (h * h).sum(), (h * y[i:]).sum()
         G = np.array([[m, sx, sh], [sx, sxx, sxh], [sh, sxh, shh]])
         r = np.array([sy, sxy, shy])
         try:
@@ -740,18 +743,22 @@ def trend_check(coords, values, *, threshold: float = TREND_R2_THRESHOLD) -> Tre
         notes.append("No trend fitted: the samples have no spatial spread or the grade is constant.")
         return TrendCheck(None, None, [], None, None, None, None, False, threshold,
                           names[active].tolist(), None, notes)
+    from threadpoolctl import threadpool_limits
+
     X = (c[:, active] - c[:, active].mean(axis=0)) / spread[active]
-    lin = LinearRegression().fit(X, v)
-    r2_lin = float(lin.score(X, v))
-    grad = np.zeros(3)
-    grad[active] = lin.coef_ / spread[active]
     d = int(active.sum())
     n_quad = d + d * (d + 1) // 2
     r2_quad = None
-    if v.size >= 3 * (n_quad + 1):
-        Xq = PolynomialFeatures(degree=2, include_bias=False).fit_transform(X)
-        r2_quad = float(LinearRegression().fit(Xq, v).score(Xq, v))
-    else:
+    # a thin least-squares problem: one BLAS thread is faster, above all on a busy machine
+    with threadpool_limits(1):
+        lin = LinearRegression().fit(X, v)
+        r2_lin = float(lin.score(X, v))
+        if v.size >= 3 * (n_quad + 1):
+            Xq = PolynomialFeatures(degree=2, include_bias=False).fit_transform(X)
+            r2_quad = float(LinearRegression().fit(Xq, v).score(Xq, v))
+    grad = np.zeros(3)
+    grad[active] = lin.coef_ / spread[active]
+    if r2_quad is None:
         notes.append(f"Quadratic trend skipped: {v.size} samples for {n_quad + 1} coefficients.")
     g_trend = g_plunge = az = inc = None
     if np.linalg.norm(grad) > 0:
