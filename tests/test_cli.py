@@ -181,3 +181,17 @@ def test_python_dash_m_runs_explore(good_csv, tmp_path):
     assert rec["domain"] == "hangingwall"
     assert rec["count"] == 6 * 10  # 10 hanging-wall composites per hole, by construction
     assert "Reading the table" in proc.stdout
+
+
+def test_internal_error_exits_1_and_says_it_is_ours(good_csv, tmp_path, capsys, monkeypatch):
+    import anisotropy.explore
+
+    def broken(samples, **kw):
+        raise RuntimeError("simulated bug")
+
+    monkeypatch.setattr(anisotropy.explore, "explore", broken)
+    p, _ = good_csv
+    code, out, err = run(["explore", p, "--value", "Au_gpt", "--out", tmp_path / "o"], capsys)
+    assert code == 1
+    assert "internal error" in err and "simulated bug" in err
+    assert not (tmp_path / "o" / "explore.json").exists()
