@@ -44,6 +44,15 @@ methods:
     truncated mass, below 1e-5, is renormalised away) and sampled by
     tabulated inverse CDF.
 
+  Within each realisation the ``M`` frequencies of a structure are
+  *stratified*: one radial probability per stratum ``[k/M, (k+1)/M)`` and
+  directions from a randomly rotated Fibonacci lattice. Each frequency
+  keeps the spectral distribution (the covariance stays exact in
+  expectation) while every realisation covers the spectrum evenly; without
+  it, the heavy spectral tail of the spherical model makes short-lag
+  variograms of single realisations scatter about 25 % more than those of
+  exact Gaussian fields (measured against the Cholesky simulator).
+
   Neither turning bands nor an approximation of the spherical/cubic models
   by other models is used. The nugget is added as independent normal
   values per distinct location (coincident points share the same value,
@@ -124,10 +133,54 @@ def _uniform_directions(rng, size):
     return g / np.linalg.norm(g, axis=-1, keepdims=True)
 
 
-def sample_frequencies(kind: str, size, rng) -> np.ndarray:
+def _random_rotations(rng, size):
+    """Uniform random rotation matrices (normalised Gaussian quaternions)."""
+    q = rng.standard_normal(size + (4,))
+    q /= np.linalg.norm(q, axis=-1, keepdims=True)
+    w, x, y, z = q[..., 0], q[..., 1], q[..., 2], q[..., 3]
+    return np.stack([
+        np.stack([1 - 2 * (y * y + z * z), 2 * (x * y - z * w), 2 * (x * z + y * w)], -1),
+        np.stack([2 * (x * y + z * w), 1 - 2 * (x * x + z * z), 2 * (y * z - x * w)], -1),
+        np.stack([2 * (x * z - y * w), 2 * (y * z + x * w), 1 - 2 * (x * x + y * y)], -1),
+    ], -2)
+
+
+def _sphere_lattice(m):
+    """Fibonacci lattice of m nearly uniform directions on the whole sphere."""
+    i = np.arange(m, dtype=float)
+    z = 1.0 - (2.0 * i + 1.0) / m
+    lon = 2.0 * np.pi * np.mod(i * (math.sqrt(5.0) - 1.0) / 2.0, 1.0)
+    rho = np.sqrt(np.maximum(0.0, 1.0 - z * z))
+    return np.stack([rho * np.cos(lon), rho * np.sin(lon), z], axis=-1)
+
+
+def _radial_quantile(kind, u):
+    """|w| at probability u of the radial spectral distribution of a unit-range structure."""
+    from scipy import stats
+
+    if kind == "gaussian":
+        # w ~ N(0, 6 I): |w| / sqrt(6) has the chi distribution with 3 dof
+        return math.sqrt(6.0) * stats.chi.ppf(u, 3)
+    if kind == "exponential":
+        # w = 3 g / |c|: |w|^2 / 9 = chi2_3 / chi2_1 = 3 F(3, 1)
+        return 3.0 * np.sqrt(3.0 * stats.f.ppf(u, 3, 1))
+    if kind == "spherical":
+        x, cdf, p_body = _spherical_table()
+        body = np.interp(np.minimum(u / p_body, 1.0), cdf, x)
+        # tail x > xmax with density proportional to 1/x^2
+        v = (u - p_body) / (1.0 - p_body)
+        tail = _SPH_XMAX / np.maximum(1.0 - v, np.finfo(float).tiny)
+        return 2.0 * np.where(u < p_body, body, tail)
+    if kind == "cubic":
+        k, cdf = _cubic_table()
+        return np.interp(u, cdf, k)
+    raise InputError(f"no spectral sampler for structure kind {kind!r}.")
+
+
+def sample_frequencies(kind: str, size, rng, *, stratified: bool = False) -> np.ndarray:
     """Frequencies from the normalised spectral density of a unit-range structure.
 
-    ``E[cos(w . h)] = rho(|h|)`` for ``w`` drawn here and ``rho`` from
+    ``E[cos(w . h)] = rho(|h|)`` for each ``w`` drawn here and ``rho`` from
     :func:`anisotropy.models.correlation` (see the module notes for each
     kind).
 
@@ -138,6 +191,15 @@ def sample_frequencies(kind: str, size, rng) -> np.ndarray:
     size : int or tuple
         Number (shape) of frequency vectors.
     rng : numpy.random.Generator or int or None
+    stratified : bool, default False
+        If True, the frequencies along the last axis of ``size`` form one
+        stratified set: their radial probabilities are one per stratum
+        ``[k/M, (k+1)/M)`` in random order, and their directions a
+        Fibonacci lattice turned by a uniform random rotation. Each
+        frequency still has the spectral distribution (so the covariance
+        stays exact in expectation), but each set of ``M`` covers the
+        spectrum evenly, so single realisations vary like Gaussian fields
+        even where the spectrum has a heavy tail (spherical).
 
     Returns
     -------
@@ -145,28 +207,25 @@ def sample_frequencies(kind: str, size, rng) -> np.ndarray:
     """
     rng = np.random.default_rng(rng)
     size = (int(size),) if np.isscalar(size) else tuple(int(s) for s in size)
-    if kind == "gaussian":
-        return math.sqrt(6.0) * rng.standard_normal(size + (3,))
-    if kind == "exponential":
-        g = rng.standard_normal(size + (3,))
-        c = np.abs(rng.standard_normal(size))
-        c = np.where(c == 0.0, np.finfo(float).tiny, c)
-        return 3.0 * g / c[..., None]
-    if kind == "spherical":
-        x, cdf, p_body = _spherical_table()
+    if kind not in ("gaussian", "exponential", "spherical", "cubic"):
+        raise InputError(f"no spectral sampler for structure kind {kind!r}.")
+    if not stratified:
+        if kind == "gaussian":
+            return math.sqrt(6.0) * rng.standard_normal(size + (3,))
+        if kind == "exponential":
+            g = rng.standard_normal(size + (3,))
+            c = np.abs(rng.standard_normal(size))
+            c = np.where(c == 0.0, np.finfo(float).tiny, c)
+            return 3.0 * g / c[..., None]
         u = rng.uniform(size=size)
-        v = rng.uniform(size=size)
-        in_body = u < p_body
-        rad = np.interp(v, cdf, x)
-        # tail x > xmax with density proportional to 1/x^2: x = xmax / (1 - v)
-        tail = _SPH_XMAX / np.maximum(1.0 - v, np.finfo(float).tiny)
-        rad = np.where(in_body, rad, tail)
-        return (2.0 * rad)[..., None] * _uniform_directions(rng, size)
-    if kind == "cubic":
-        k, cdf = _cubic_table()
-        rad = np.interp(rng.uniform(size=size), cdf, k)
-        return rad[..., None] * _uniform_directions(rng, size)
-    raise InputError(f"no spectral sampler for structure kind {kind!r}.")
+        return _radial_quantile(kind, u)[..., None] * _uniform_directions(rng, size)
+    m = size[-1]
+    lead = size[:-1]
+    strata = rng.permuted(np.broadcast_to(np.arange(m, dtype=float), size), axis=-1)
+    u = (strata + rng.uniform(size=size)) / m
+    u = np.clip(u, 1e-300, 1.0 - 1e-16)
+    dirs = np.einsum("...ij,kj->...ki", _random_rotations(rng, lead), _sphere_lattice(m))
+    return _radial_quantile(kind, u)[..., None] * dirs
 
 
 # ---------------------------------------------------------------------------
@@ -208,7 +267,7 @@ def _simulate_spectral(coords, model, n_real, rng, n_features):
         pchunk = max(1, _CHUNK // M)             # points per chunk (large n)
         for r0 in range(0, n_real, batch):
             b = min(batch, n_real - r0)
-            w = sample_frequencies(s.kind, (b, M), rng)          # (b, M, 3)
+            w = sample_frequencies(s.kind, (b, M), rng, stratified=True)  # (b, M, 3)
             phi = rng.uniform(0.0, 2.0 * math.pi, size=(b, M))   # (b, M)
             for p0 in range(0, n, pchunk):
                 xp = xs[p0:p0 + pchunk]                          # (P, 3)
