@@ -629,6 +629,12 @@ def _rows_text(rows, texts=None) -> str:
     return ", ".join(parts) + more
 
 
+def _rows_phrase(rows) -> str:
+    """``"data row 4"`` or ``"data rows 4, 9 and 3 more"``."""
+    rows = list(rows)
+    return f"data {'row' if len(rows) == 1 else 'rows'} {_rows_text(rows)}"
+
+
 def _numeric(series: pd.Series, *, column: str, role: str, option: str, source: str,
              data_rows: np.ndarray, decimal: str = "."):
     """Parse one column to float64.
@@ -823,6 +829,9 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
                                 f"domain present, {present[0]!r}, was used.")
             df = df.loc[keep]
             data_rows = data_rows[keep]
+        elif not present:
+            warnings.append(f"The domain column {dcol!r} is blank in every row; all rows are "
+                            "studied together.")
         else:
             warnings.append(
                 f"No domain was selected, so all {len(present)} domains in column {dcol!r} "
@@ -870,15 +879,15 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
     m, k = drop(coord_blank, R_BLANK_COORD)
     if k:
         warnings.append(f"{k} {_plural(k, 'sample has', 'samples have')} a blank coordinate and "
-                        f"{_plural(k, 'was', 'were')} left out (data row {_rows_text(data_rows[m])}).")
+                        f"{_plural(k, 'was', 'were')} left out ({_rows_phrase(data_rows[m])}).")
     m, k = drop(v_blank, R_BLANK_VALUE)
     if k:
         warnings.append(f"{k} {_plural(k, 'sample has', 'samples have')} no grade (blank cell) "
-                        f"and {_plural(k, 'was', 'were')} left out (data row {_rows_text(data_rows[m])}).")
+                        f"and {_plural(k, 'was', 'were')} left out ({_rows_phrase(data_rows[m])}).")
     m, k = drop(v_text, R_MISSING_TEXT)
     if k:
         warnings.append(f"{k} {_plural(k, 'grade is', 'grades are')} missing-value text such as "
-                        f"NA and {_plural(k, 'was', 'were')} left out (data row {_rows_text(data_rows[m])}).")
+                        f"NA and {_plural(k, 'was', 'were')} left out ({_rows_phrase(data_rows[m])}).")
 
     codes = alive & (v <= MISSING_CODE_THRESHOLD)
     kc = int(codes.sum())
@@ -931,7 +940,7 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
             for i in np.flatnonzero(no_id):
                 hstr[i] = f"<no hole id, data row {rows[i]}>"
             warnings.append(f"{k} {_plural(k, 'sample has', 'samples have')} a blank hole id "
-                            f"(data row {_rows_text(rows[no_id])}); each is treated as a hole "
+                            f"({_rows_phrase(rows[no_id])}); each is treated as a hole "
                             "of its own.")
         holes = hstr.astype(object)
 
