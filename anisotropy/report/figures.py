@@ -408,8 +408,8 @@ def _net_frame(ax):
     ax.axis("off")
 
 
-def stereonet_figure(axes, *, clouds=None, cones=None, interpreted=None, confidence=None,
-                     title="Axes of continuity (lower hemisphere, equal area)", path=None):
+def stereonet_figure(axes, *, clouds=None, cones=None, interpreted=None, interpreted_plane=None,
+                     confidence=None, title="Axes of continuity (lower hemisphere, equal area)", path=None):
     """Lower-hemisphere equal-area net of the three axes with their uncertainty.
 
     Parameters
@@ -425,6 +425,9 @@ def stereonet_figure(axes, *, clouds=None, cones=None, interpreted=None, confide
     interpreted : dict, optional
         ``{name: v}`` interpreted directions, drawn as open black markers
         joined to the label; names as in ``axes`` (or any label).
+    interpreted_plane : (3,) vector, optional
+        Pole of an interpreted plane of greatest continuity, drawn as its
+        great circle in black dashes.
     confidence : float, optional
         Confidence level of the cones, for the legend (0.9 -> "90 %").
     title : str
@@ -460,6 +463,14 @@ def stereonet_figure(axes, *, clouds=None, cones=None, interpreted=None, confide
             tr, pl = vector_to_line(v)
             ax.plot([x], [y], marker=markers[name], ms=9, color=colour, markeredgecolor="black",
                     ls="none", label=f"{CONTINUITY_LABELS[name]} {float(tr):03.0f}/{float(pl):02.0f}")
+    if interpreted_plane is not None:
+        from anisotropy.geometry import pole_to_plane
+
+        pole = np.asarray(interpreted_plane, float)
+        dd, dip = pole_to_plane(pole)
+        for k, (xs, ys) in enumerate(_project_segments(_small_circle(pole, 90.0, n=361))):
+            ax.plot(xs, ys, lw=1.2, label=(f"interpreted plane {float(dd):03.0f}/{float(dip):02.0f}"
+                                            if k == 0 else None), **INTERPRETED_STYLE)
     if interpreted:
         for name, v in interpreted.items():
             if v is None:
@@ -489,7 +500,8 @@ def directional_variograms_figure(curves, *, sill=None, value_label="semivariogr
         percentiles) with optional ``band_distance`` when the band is on
         its own distances, optional ``model_distance``/``model_value`` (fitted
         nested model along this direction), optional ``axis`` (``major``,
-        ``semi_major``, ``minor``; others go on the last panel together).
+        ``semi_major``, ``minor``; others go on the last panel together,
+        with their model curves but without bands, to stay readable).
     sill : float, optional
         Total sill, drawn as a horizontal line.
     value_label, distance_label, title : str
@@ -522,7 +534,7 @@ def directional_variograms_figure(curves, *, sill=None, value_label="semivariogr
         g = np.asarray(c["value"], float)
         n = np.asarray(c.get("pairs", np.zeros_like(d)), float)
         ok = np.isfinite(d) & np.isfinite(g) & (n > 0)
-        if c.get("lo") is not None and c.get("hi") is not None:
+        if c.get("lo") is not None and c.get("hi") is not None and name in panels:
             lo, hi = np.asarray(c["lo"], float), np.asarray(c["hi"], float)
             if c.get("band_distance") is not None:
                 bd = np.asarray(c["band_distance"], float)
@@ -540,8 +552,10 @@ def directional_variograms_figure(curves, *, sill=None, value_label="semivariogr
                 ax.annotate(f"{int(ni)}", (di, gi), textcoords="offset points", xytext=(0, 6),
                             ha="center", fontsize=6, color="#444444")
         if c.get("model_distance") is not None:
-            ax.plot(c["model_distance"], c["model_value"], color=colour, lw=1.6,
-                    label=c.get("model_label", "fitted model"))
+            ax.plot(c["model_distance"], c["model_value"], color=colour,
+                    lw=1.6 if name in panels else 1.0,
+                    label=c.get("model_label", "fitted model") if name in panels or other_k == 1
+                    else None)
     for name, ax in list(panels.items()) + [("others", other_ax)]:
         if sill is not None and np.isfinite(sill):
             ax.axhline(sill, color="#888888", lw=0.8, ls=":", label="total sill")

@@ -465,8 +465,7 @@ def _section_data(disc, d) -> str:
     return "\n".join(html)
 
 
-def _section_topcut(disc, figs) -> str:
-    tc = _topcut(disc)
+def _section_topcut(disc, figs, tc) -> str:
     note = (f"The top-cut applied is {_g(tc)}." if tc is not None
             else "No top-cut was applied.")
     html = [f"<p>{note}</p>"]
@@ -586,7 +585,7 @@ def _warnings(disc, d) -> list:
 # ---------------------------------------------------------------------------
 
 
-def render_report(discovery, out_dir, *, check=None, title=None) -> Path:
+def render_report(discovery, out_dir, *, check=None, title=None, topcut=None) -> Path:
     """Write the self-contained HTML report of one discovery.
 
     Parameters
@@ -601,6 +600,10 @@ def render_report(discovery, out_dir, *, check=None, title=None) -> Path:
         section and on the stereonet.
     title : str, optional
         Page title (default from the value column and domain).
+    topcut : float, optional
+        A top-cut applied to the grades before discovery (by the caller, for
+        example the batch config), marked on the histogram and
+        log-probability plot; default: the transform record's cap, if any.
 
     Returns
     -------
@@ -616,7 +619,9 @@ def render_report(discovery, out_dir, *, check=None, title=None) -> Path:
         title = f"Continuity of {inp.get('value') or 'grade'}"
         if inp.get("domain") is not None:
             title += f" in domain {inp.get('domain')}"
-    figs = _draw_all(discovery, fig_dir, check, _topcut(discovery))
+    if topcut is None:
+        topcut = _topcut(discovery)
+    figs = _draw_all(discovery, fig_dir, check, topcut)
 
     sec = []
     sec.append(f"<h1>{S.escape(title)}</h1>")
@@ -625,7 +630,7 @@ def render_report(discovery, out_dir, *, check=None, title=None) -> Path:
                f"{S.escape(_version())}.</p>")
     sec.append(f"<p class='caution'>{S.escape(CAUTION)}</p>")
     sec.append("<h2>1. Data</h2>" + _section_data(discovery, d))
-    sec.append("<h2>2. Grade distribution and top-cut</h2>" + _section_topcut(discovery, figs))
+    sec.append("<h2>2. Grade distribution and top-cut</h2>" + _section_topcut(discovery, figs, topcut))
     sec.append("<h2>3. Spacing and lags</h2>" + _section_lags(discovery, d))
     sec.append("<h2>4. Transform</h2>" + _kv(_flat(_transform_record(discovery)))
                + "<p>The variograms and the model below are in the transformed variable.</p>")
