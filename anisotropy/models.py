@@ -184,7 +184,7 @@ def anisotropic_distance(lags, frame, ranges) -> np.ndarray:
     return np.linalg.norm(scaled_coordinates(lags, frame, ranges), axis=-1)
 
 
-@dataclass
+@dataclass(eq=False)
 class Structure:
     """One nested structure.
 
@@ -237,7 +237,11 @@ class Structure:
         u = u / np.linalg.norm(u, axis=-1, keepdims=True)
         return 1.0 / anisotropic_distance(u, F, self.ranges)
 
+    def __eq__(self, other):
+        return isinstance(other, Structure) and self.to_dict() == other.to_dict()
+
     def to_dict(self) -> dict:
+        """JSON-ready description: ``{type, sill, ranges{major, semi_major, minor}, frame?}``."""
         d = {
             "type": self.kind,
             "sill": float(self.sill),
@@ -249,6 +253,7 @@ class Structure:
 
     @classmethod
     def from_dict(cls, d: dict) -> "Structure":
+        """Rebuild from :meth:`to_dict` output (``kind`` accepted for ``type``; ranges as a mapping or a list)."""
         if not isinstance(d, dict):
             raise InputError(f"a structure must be a mapping with type, sill and ranges; got {d!r}.")
         kind = d.get("type", d.get("kind"))
@@ -268,7 +273,7 @@ class Structure:
         return cls(kind, d["sill"], r, d.get("frame"))
 
 
-@dataclass
+@dataclass(eq=False)
 class NestedModel:
     """Nugget plus nested structures sharing (by default) one frame.
 
@@ -418,6 +423,9 @@ class NestedModel:
         return C
 
     # -- serialisation -------------------------------------------------------
+
+    def __eq__(self, other):
+        return isinstance(other, NestedModel) and self.to_dict() == other.to_dict()
 
     def to_dict(self) -> dict:
         """JSON-ready description (plain floats and lists)."""

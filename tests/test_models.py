@@ -276,3 +276,10 @@ def test_bad_input_rejected(make, text):
 
 def test_kind_is_case_insensitive():
     assert Structure("Spherical", 1, 10).kind == "spherical"
+
+
+def test_equality_by_content():
+    a = NestedModel(0.1, [Structure("spherical", 0.9, (50, 20, 5))], frame_from_angles(10, 20, 30))
+    b = NestedModel.from_dict(a.to_dict())
+    assert a == b
+    assert a != NestedModel(0.1, [Structure("spherical", 0.9, (50, 20, 6))], frame_from_angles(10, 20, 30))
