@@ -158,6 +158,7 @@ def test_missing_file_and_workbook(tmp_path):
 def test_coordinate_names_geologists_use(names):
     df = pd.DataFrame({names[0]: [1.0, 2.0], "HoleID": ["a", "b"], names[1]: [3.0, 4.0],
                        names[2]: [5.0, 6.0], "Au_ppm": [1.0, 2.0]})
+    # expected by construction: the names issue 2 lists as the ones geologists use
     assert detect_coordinate_columns(df) == {"x": names[0], "y": names[1], "z": names[2]}
 
 
@@ -166,6 +167,7 @@ def test_overrides_win_over_detection():
                        "e_local": [5.0, 6.0], "n_local": [7.0, 8.0], "lvl": [9.0, 10.0],
                        "au": [1.0, 2.0]})
     s = samples_from_frame(df, value="au", x="e_local", y="n_local", z="lvl")
+    # the numbers written in the frame above (exact)
     np.testing.assert_array_equal(s.world_coords, [[5, 7, 9], [6, 8, 10]])
     assert s.columns["x"] == "e_local" and s.columns["z"] == "lvl"
     # one override, the other two detected
@@ -178,6 +180,7 @@ def test_ambiguous_detection_names_the_candidates():
     with pytest.raises(ColumnError) as info:
         detect_coordinate_columns(df, source="holes.csv")
     msg = str(info.value)
+    # both candidates written in the frame above must be named
     assert "'X'" in msg and "'MIDX'" in msg and "--x" in msg and "holes.csv" in msg
 
 
@@ -338,6 +341,7 @@ def test_nonexistent_domain_lists_the_existing_ones():
         samples_from_frame(GOOD, value="au", domain="domain", domain_value="shoot",
                            source="fh.csv")
     msg = str(info.value)
+    # the domains written in GOOD, by hand
     assert "'shoot'" in msg and "'blanket'" in msg and "'vein'" in msg and "fh.csv" in msg
 
 
@@ -345,7 +349,7 @@ def test_numeric_domain_codes_compare_as_text():
     df = GOOD.assign(domain=[1, 1, 2, 2, np.nan, 1, 2, 1])
     assert domain_values(df, "domain") == ["1", "2"]
     s = samples_from_frame(df, value="au", domain="domain", domain_value="2")
-    assert s.n == 3
+    assert s.n == 3  # counted by hand in the list above
 
 
 def test_pooled_domains_warn():
@@ -375,6 +379,7 @@ DUPS = pd.DataFrame({
 
 def test_duplicates_keep():
     s = samples_from_frame(DUPS, value="v")
+    # by hand: rows 1-2 share (0,0,0), rows 3-5 share (5,1,2)
     assert s.duplicates == {"locations": 2, "samples": 5, "policy": "keep"}
     assert s.n == 7 and s.dropped == {}
     assert any("more than one sample" in w for w in s.warnings)
@@ -406,7 +411,7 @@ def test_locations_a_tenth_of_a_millimetre_apart_are_duplicates():
     df = DUPS.copy()
     df.loc[1, "x"] = 0.0001
     s = samples_from_frame(df, value="v")
-    assert s.duplicates["locations"] == 2
+    assert s.duplicates["locations"] == 2  # 0.1 mm rounds to the same millimetre
 
 
 # ---------------------------------------------------------------------------
@@ -439,7 +444,7 @@ def test_single_bench_is_planar(rng):
     df = pd.DataFrame({"x": rng.uniform(0, 100, n), "y": rng.uniform(0, 100, n),
                        "z": np.full(n, 415.0), "v": rng.lognormal(size=n)})
     s = samples_from_frame(df, value="v")
-    assert s.planar
+    assert s.planar  # by construction: every z is 415
     assert any("one elevation" in w for w in s.warnings)
 
 
