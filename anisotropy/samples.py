@@ -801,6 +801,9 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
             want = str(domain_value).strip()
             if isinstance(domain_value, float) and float(domain_value).is_integer():
                 want = str(int(domain_value))
+            if want not in present and _looks_numeric(want) and float(want).is_integer() \
+                    and str(int(float(want))) in present:
+                want = str(int(float(want)))  # "1.0" names domain code 1
             if want not in present:
                 ci = [v for v in present if v.lower() == want.lower()]
                 if len(ci) == 1:

@@ -350,6 +350,7 @@ def test_numeric_domain_codes_compare_as_text():
     assert domain_values(df, "domain") == ["1", "2"]
     s = samples_from_frame(df, value="au", domain="domain", domain_value="2")
     assert s.n == 3  # counted by hand in the list above
+    assert samples_from_frame(df, value="au", domain="domain", domain_value="2.0").n == 3
 
 
 def test_pooled_domains_warn():
