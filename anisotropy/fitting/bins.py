@@ -117,7 +117,8 @@ def bins_from_sums(sums, directions=None, *, estimator="semivariogram",
         ``anisotropy.pairs.CHANNELS``.  Counts may be fractional (re-weighted
         blocks).
     directions : ndarray (n_dir, 3), optional
-        The cell directions; only used to check the shape.
+        The cell directions (strongly advised: used where a cell's mean lag
+        vector has cancelled, see the notes in the code).
     estimator : str
         One of ``anisotropy.estimators.ESTIMATORS``.
     min_pairs : float
@@ -153,6 +154,24 @@ def bins_from_sums(sums, directions=None, *, estimator="semivariogram",
     n = count[keep]
     lags = np.stack([sums[..., CHANNEL_INDEX[c]][keep] / n for c in ("dx", "dy", "dz")], axis=1)
     distance = sums[..., CHANNEL_INDEX["dist"]][keep] / n
-    return FitBins(lags=lags, distance=distance, gamma=gamma[keep], pairs=n.copy(),
-                   direction_index=dir_index[keep].astype(int),
-                   lag_index=lag_index[keep].astype(int), excluded=excluded)
+    # The mean lag vector is shorter than the mean distance when the cell's
+    # pairs point different ways; at the rim of the hemisphere a cell holds
+    # near-horizontal lags of both senses (canonical orientation keeps z <= 0),
+    # which cancel.  The bin's lag is the mean vector's direction at the mean
+    # distance, or the cell direction where the mean vector has shrunk below
+    # 90 % of the distance (counted in ``rim_bins``).
+    norm = np.linalg.norm(lags, axis=1)
+    shrunk = norm < 0.9 * distance
+    rim = 0
+    if directions is not None:
+        cell = np.asarray(directions, float)[dir_index[keep]]
+        lags = np.where(shrunk[:, None], cell * distance[:, None],
+                        lags * (distance / np.maximum(norm, 1e-300))[:, None])
+        rim = int(shrunk.sum())
+    else:
+        lags = lags * (distance / np.maximum(norm, 1e-300))[:, None]
+    out = FitBins(lags=lags, distance=distance, gamma=gamma[keep], pairs=n.copy(),
+                  direction_index=dir_index[keep].astype(int),
+                  lag_index=lag_index[keep].astype(int), excluded=excluded)
+    out.rim_bins = rim
+    return out

@@ -30,6 +30,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.optimize import least_squares
 from scipy.spatial.transform import Rotation
+from threadpoolctl import threadpool_limits
 
 from anisotropy.errors import FitError
 
@@ -125,7 +126,8 @@ class _Problem:
     """Parameter packing and residuals for one fit configuration."""
 
     def __init__(self, bins, kinds, *, fixed_frame=None, fixed_nugget=None,
-                 total_sill=None, weights=None, min_range=None, max_range=None):
+                 total_sill=None, weights=None, min_range=None, max_range=None,
+                 planar=False, base_frame=None):
         self.lags = np.asarray(bins.lags, dtype=float)
         self.gamma = np.asarray(bins.gamma, dtype=float)
         w = np.asarray(bins.weight if weights is None else weights, dtype=float)
@@ -135,11 +137,17 @@ class _Problem:
         self.fixed_frame = None if fixed_frame is None else np.asarray(fixed_frame, float)
         self.fixed_nugget = fixed_nugget
         self.total = total_sill
+        # planar data: the frame turns about the vertical only (minor axis
+        # vertical), and the minor range is tied to the semi-major range
+        self.planar = bool(planar) and self.fixed_frame is None
+        self.base = None if base_frame is None else np.asarray(base_frame, float)
+        self.nr = 2 if self.planar else 3
         d = np.asarray(bins.distance, dtype=float)
         self.lo = np.log(min_range if min_range is not None else 0.02 * max(d.min(), 1e-9))
         self.hi = np.log(max_range if max_range is not None else 50.0 * d.max())
         self.scale = float(np.nanmax(self.gamma)) if total_sill is None else float(total_sill)
         self.floor = 1e-6 * self.scale
+        self.gw = None  # fixed Cressie denominators (fixed-point form), or None
 
     # layout: [rotvec(3)?] [log ranges (3K)] [sill params]
     def n_sill_params(self):
@@ -149,13 +157,19 @@ class _Problem:
 
     def unpack(self, p):
         i = 0
-        if self.fixed_frame is None:
+        if self.planar:
+            c, s_ = np.cos(p[0]), np.sin(p[0])
+            frame = np.array([[c, -s_, 0.0], [s_, c, 0.0], [0.0, 0.0, 1.0]]) @ self.base
+            i = 1
+        elif self.fixed_frame is None:
             frame = Rotation.from_rotvec(p[:3]).as_matrix()
             i = 3
         else:
             frame = self.fixed_frame
-        ranges = np.exp(p[i:i + 3 * self.K]).reshape(self.K, 3)
-        i += 3 * self.K
+        ranges = np.exp(p[i:i + self.nr * self.K]).reshape(self.K, self.nr)
+        if self.planar:
+            ranges = np.column_stack([ranges, ranges[:, 1]])
+        i += self.nr * self.K
         s = p[i:]
         if self.total is not None:
             if self.fixed_nugget is not None:
@@ -180,14 +194,17 @@ class _Problem:
 
     def pack(self, frame, nugget, sills, ranges):
         p = []
-        if self.fixed_frame is None:
+        if self.planar:
+            self.base = np.asarray(frame, float)
+            p.append(0.0)
+        elif self.fixed_frame is None:
             fr = np.asarray(frame, float)
             if np.linalg.det(fr) < 0:
                 fr = fr.copy()
                 fr[:, 2] *= -1
             p.extend(Rotation.from_matrix(fr).as_rotvec())
         r = np.clip(np.log(np.asarray(ranges, float).reshape(self.K, 3)), self.lo + 1e-6,
-                    self.hi - 1e-6)
+                    self.hi - 1e-6)[:, :self.nr]
         p.extend(r.ravel())
         sills = np.maximum(np.asarray(sills, float), 1e-9 * self.scale)
         nugget = max(float(nugget), 1e-9 * self.scale)
@@ -203,11 +220,14 @@ class _Problem:
 
     def bounds(self):
         lo, hi = [], []
-        if self.fixed_frame is None:
+        if self.planar:
+            lo += [-np.inf]
+            hi += [np.inf]
+        elif self.fixed_frame is None:
             lo += [-np.inf] * 3
             hi += [np.inf] * 3
-        lo += [self.lo] * (3 * self.K)
-        hi += [self.hi] * (3 * self.K)
+        lo += [self.lo] * (self.nr * self.K)
+        hi += [self.hi] * (self.nr * self.K)
         ns = self.n_sill_params()
         if self.total is not None:
             lo += [-12.0] * ns
@@ -224,6 +244,8 @@ class _Problem:
         return np.maximum(g, self.floor)
 
     def residuals(self, p):
+        if self.gw is not None:
+            return self.sw * (self.gamma - self.gamma_model(p)) / self.gw
         return self.sw * (self.gamma / self.gamma_model(p) - 1.0)
 
 
@@ -246,7 +268,8 @@ def _from_model(model):
 
 def fit_nested(bins, start, *, n_structures=None, kinds=None, fixed_frame=None,
                fixed_nugget=None, total_sill=None, loss="soft_l1", f_scale=0.25,
-               max_nfev=None, min_range=None, max_range=None, make_model=True) -> NestedFit:
+               max_nfev=None, min_range=None, max_range=None, planar=False,
+               ftol=1e-8, weighting="fixed_point", outer=3, make_model=True) -> NestedFit:
     """Fit a nested geometric-anisotropy model to all fit bins at once.
 
     Parameters
@@ -272,6 +295,22 @@ def fit_nested(bins, start, *, n_structures=None, kinds=None, fixed_frame=None,
         ``f_scale`` is in units of the weighted relative residual.
     max_nfev : int, optional
         Cap on function evaluations (warm-started refits use a small cap).
+    ftol : float
+        Relative cost tolerance of the optimiser (looser for quick screening).
+    weighting : {"fixed_point", "cressie"}
+        "cressie" minimises ``sum N (gamma_hat / gamma - 1)^2`` directly, which
+        is biased upwards where bins hold few pairs (the minimiser of
+        ``E (g / gamma - 1)^2`` is ``E g (1 + CV^2)``); "fixed_point" (default)
+        holds the denominators at the previous iterate's model,
+        ``sum N ((gamma_hat - gamma) / gamma_prev)^2``, and repeats (iteratively
+        re-weighted least squares; Cressie 1985 discusses both forms).
+    outer : int
+        Outer re-weighting iterations of the fixed-point form (stops early
+        when the denominators change by under 2 %).
+    planar : bool
+        Planar data (one bench): the frame only turns about the vertical
+        from the start frame (whose minor axis must be vertical) and the
+        minor range is tied to the semi-major one (it is not resolved).
     make_model : bool
         Build the :class:`~anisotropy.models.NestedModel` (set False in inner
         loops that only need the parameters).
@@ -313,22 +352,39 @@ def fit_nested(bins, start, *, n_structures=None, kinds=None, fixed_frame=None,
         if s > 0:
             nug0, sills0 = nug0 * total_sill / s, sills0 * total_sill / s
     prob = _Problem(bins, kinds, fixed_frame=fixed_frame, fixed_nugget=fixed_nugget,
-                    total_sill=total_sill, min_range=min_range, max_range=max_range)
+                    total_sill=total_sill, min_range=min_range, max_range=max_range,
+                    planar=planar)
     p0 = prob.pack(frame0, nug0 if fixed_nugget is None else fixed_nugget, sills0, ranges0)
     lo, hi = prob.bounds()
     p0 = np.clip(p0, lo + 1e-9, hi - 1e-9)
-    try:
-        res = least_squares(prob.residuals, p0, bounds=(lo, hi), loss=loss, f_scale=f_scale,
-                            method="trf", x_scale="jac", max_nfev=max_nfev)
-    except Exception as exc:  # pragma: no cover - numerical failure inside SciPy
-        raise FitError(f"the nested-model fit failed numerically: {exc}") from exc
+    n_outer = 1 if weighting == "cressie" else max(int(outer), 1)
+    nfev = 0
+    x = p0
+    with threadpool_limits(1):
+        # one BLAS thread: the problem is small (m x p with p <= 15) and a
+        # threaded SVD per iteration is many times slower on a shared machine
+        for it in range(n_outer):
+            if weighting != "cressie":
+                prob.gw = np.maximum(prob.gamma_model(x), 1e-3 * prob.scale)
+            try:
+                res = least_squares(prob.residuals, x, bounds=(lo, hi), loss=loss,
+                                    f_scale=f_scale, method="trf", x_scale="jac",
+                                    max_nfev=max_nfev, ftol=ftol, xtol=1e-8, gtol=1e-8)
+            except Exception as exc:  # pragma: no cover - numerical failure inside SciPy
+                raise FitError(f"the nested-model fit failed numerically: {exc}") from exc
+            nfev += res.nfev
+            change = np.max(np.abs(prob.gamma_model(res.x) / prob.gw - 1.0)) \
+                if prob.gw is not None else 0.0
+            x = res.x
+            if change < 0.02:
+                break
     frame, nug, sills, ranges = prob.unpack(res.x)
     gm = prob.gamma_model(res.x)
     rel = prob.gamma / gm - 1.0
-    resid = prob.sw * rel
+    resid = prob.sw * rel  # Cressie (1985) residuals at the optimum
     model = _to_model(frame, nug, sills, ranges, kinds) if make_model else None
     return NestedFit(model=model, objective=float(res.cost), residuals=resid,
                      n_params=len(res.x), wrss=float(np.sum(resid ** 2)), relative=rel,
                      frame=frame, nugget=float(nug), sills=sills, ranges=ranges, kinds=kinds,
-                     success=bool(res.status > 0), nfev=int(res.nfev),
+                     success=bool(res.status > 0), nfev=int(nfev),
                      info={"x": res.x, "message": str(res.message)})

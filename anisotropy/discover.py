@@ -1,0 +1,1025 @@
+"""The discovery chain for one domain and variable, and the ``Discovery`` result.
+
+``discover(data, value=...)`` runs, in one direction and without going back:
+
+1. intake (:mod:`anisotropy.samples`) and exploration (:mod:`anisotropy.explore`);
+2. the transform (normal scores by default for skewed grades);
+3. the lags, chosen from the nominal spacing (each choice recorded with its
+   reason and overridable);
+4. one pass of the pair engine into the lag-vector volume
+   (:func:`anisotropy.pairs.build_volume`);
+5. the fit bins (one per distance class and coarse direction cell), with
+   drill-hole information weights;
+6. the nugget: from the down-hole variogram where there are holes, from the
+   shortest lags otherwise;
+7. the fan of directional variograms (about 5 degree spacing) and a range
+   per direction under the shared nugget and sill, thin directions marked;
+8. the robust ellipsoid fitted to the reliable ranges, and the principal
+   axes of the volume's low-variability region (starting frames);
+9. the joint nested fit over all bins from several starts (the best kept),
+   then 1..3 structures chosen by a penalised criterion;
+10. the axes in the geologist's terms, the checks of what the sampling can
+    resolve, and the result record (schema ``anisotropy.discovery/1``).
+
+Drill-hole strings (documented choice).  Most pairs of a drill-hole data set
+lie inside one hole, so a bin's pair count overstates its information.  The
+within-hole pairs of every bin are counted exactly (per hole, in NumPy), and
+the bin's information weight is ``N_between + H_within``: the pairs between
+different holes plus the number of distinct holes contributing within-hole
+pairs (each hole an independent look at that lag).  The weights enter the
+Cressie (1985) objective in place of the pair counts.  The nugget is taken
+from the down-hole variogram at the composite spacing (extrapolated to zero
+from the first lags) and held in the joint fit.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from anisotropy.errors import AnisotropyError, FitError, InputError, InsufficientDataError
+
+__all__ = ["discover", "Discovery", "SCHEMA", "CAUTION"]
+
+SCHEMA = "anisotropy.discovery/1"
+
+CAUTION = ("Automated continuity suggestions support, and do not replace, the judgement of "
+           "the competent or qualified person responsible under the public reporting code "
+           "that applies (JORC, NI 43-101, SAMREC, PERC or the local equivalent). The result "
+           "depends on the domaining: a domain that mixes populations or styles of "
+           "mineralisation gives a mixed answer.")
+
+AXES = ("major", "semi_major", "minor")
+
+# --- defaults (each one is reported with its reason when used) ------------
+DEFAULT_FAN_SPACING = 5.0       # degrees between fan directions
+DEFAULT_ANGULAR_TOLERANCE = 15.0  # degrees (common practice: 15-22.5)
+WIDE_ANGULAR_TOLERANCE = 30.0   # degrees, for directions thin at the default
+MIN_LAGS, MAX_LAGS_AUTO = 12, 20
+MIN_SAMPLES = 30
+N_RANDOM_STARTS = 3
+
+
+def _f(x):
+    if x is None:
+        return None
+    x = float(x)
+    return x if math.isfinite(x) else None
+
+
+def _plain(obj):
+    """JSON-ready plain Python types."""
+    if isinstance(obj, dict):
+        return {str(k): _plain(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_plain(v) for v in obj]
+    if isinstance(obj, np.ndarray):
+        return _plain(obj.tolist())
+    if isinstance(obj, (np.bool_, bool)):
+        return bool(obj)
+    if isinstance(obj, (np.integer,)):
+        return int(obj)
+    if isinstance(obj, (float, np.floating)):
+        return _f(obj)
+    return obj
+
+
+# ---------------------------------------------------------------------------
+# the result
+# ---------------------------------------------------------------------------
+
+@dataclass
+class Discovery:
+    """The continuity proposal for one domain and variable.
+
+    Attributes
+    ----------
+    model : anisotropy.models.NestedModel
+        Nugget and structures in the transformed variable's units (normal
+        scores: unit variance); frame columns major, semi-major, minor.
+    frame : ndarray (3, 3)
+        Right-handed, canonical (major and minor pointing down or horizontal).
+    samples : SampleSet
+    exploration : Exploration or None
+    transform : TransformResult
+    lags : dict
+        unit_lag, n_lags, lag_tolerance, max_distance and the reasons.
+    uncertainty : BootstrapResult or None
+    diagnostics : dict
+        pairs, directions, selection, residuals per direction, seconds, ...
+    warnings : list of str
+    volume_, fan_, bins_ : the lag volume, the fan and the fit bins.
+    ranges_ : DirectionRanges
+    ellipsoid_ : EllipsoidFit
+    fit_ : NestedFit
+    """
+
+    model: object
+    frame: np.ndarray
+    samples: object
+    exploration: object
+    transform: object
+    lags: dict
+    uncertainty: object = None
+    diagnostics: dict = field(default_factory=dict)
+    warnings: list = field(default_factory=list)
+    choices: list = field(default_factory=list)
+    estimator: str = "semivariogram"
+    planar: bool = False
+    volume_: object = field(default=None, repr=False)
+    fan_: object = field(default=None, repr=False)
+    bins_: object = field(default=None, repr=False)
+    ranges_: object = field(default=None, repr=False)
+    ellipsoid_: object = field(default=None, repr=False)
+    fit_: object = field(default=None, repr=False)
+    _refit_state: dict = field(default_factory=dict, repr=False)
+
+    # -- derived geometry ------------------------------------------------------
+    def axes(self) -> dict:
+        """Axis vectors, trend/plunge and range (longest-range structure)."""
+        from anisotropy.geometry import vector_to_line
+
+        out = {}
+        longest = self._longest()
+        for i, name in enumerate(AXES):
+            v = self.frame[:, i]
+            t, p = vector_to_line(v)
+            out[name] = {"vector": [float(x) for x in v], "trend": float(t), "plunge": float(p),
+                         "range": float(longest.ranges[i])}
+        return out
+
+    def _longest(self):
+        st = self.model.structures
+        return max(st, key=lambda s: s.ranges[0])
+
+    def plane(self) -> dict:
+        """Plane of greatest continuity (pole = minor axis) and the major axis's pitch."""
+        from anisotropy.geometry import pitch_of, pole_to_plane, strike_of
+
+        dd, dip = pole_to_plane(self.frame[:, 2])
+        dd, dip = float(dd), float(dip)
+        pitch = float(pitch_of(self.frame[:, 0], dd, dip))
+        return {"dip_direction": dd, "dip": dip, "strike": float(strike_of(dd)),
+                "pitch": pitch}
+
+    def angles(self) -> dict:
+        from anisotropy.geometry import angles_from_frame
+
+        a, p, r = angles_from_frame(self.frame)
+        return {"azimuth": float(a), "plunge": float(p), "rotation": float(r),
+                "convention": "azimuth and plunge of the major axis, then rotation of the "
+                              "semi-major axis about the major axis away from horizontal "
+                              "(anisotropy.geometry.frame_from_angles)"}
+
+    # -- record ------------------------------------------------------------------
+    def to_dict(self) -> dict:
+        """The result record, schema ``anisotropy.discovery/1`` (design.md)."""
+        s = self.samples
+        cols = getattr(s, "columns", {}) or {}
+        structures = []
+        for st in self.model.structures:
+            structures.append({"type": st.kind, "sill": float(st.sill),
+                               "ranges": {"major": float(st.ranges[0]),
+                                          "semi_major": float(st.ranges[1]),
+                                          "minor": float(st.ranges[2])}})
+        units = self.diagnostics.get("units", "")
+        unc = {}
+        if self.uncertainty is not None:
+            unc = self.uncertainty.to_dict() if hasattr(self.uncertainty, "to_dict") \
+                else dict(self.uncertainty)
+        d = {
+            "schema": SCHEMA,
+            "input": {"file": str(getattr(s, "source", "<table>")), "value": cols.get("value"),
+                      "domain": getattr(s, "domain", None), "n_samples": getattr(s, "n_read", None),
+                      "n_used": int(s.n), "dropped": dict(getattr(s, "dropped", {}) or {}),
+                      "changed": dict(getattr(s, "changed", {}) or {}),
+                      "columns": dict(cols), "origin": list(getattr(s, "origin", []) or [])},
+            "transform": dict(self.transform.record) if self.transform is not None else {},
+            "estimator": self.estimator,
+            "lags": {k: v for k, v in self.lags.items()},
+            "axes": self.axes(),
+            "plane": self.plane(),
+            "rotation": {"matrix": self.frame.tolist(), "angles": self.angles()},
+            "model": {"nugget": float(self.model.nugget), "structures": structures,
+                      "total_sill": float(self.model.total_sill), "units": units},
+            "uncertainty": unc,
+            "diagnostics": dict(self.diagnostics, warnings=list(self.warnings),
+                                choices=list(self.choices)),
+            "planar": bool(self.planar),
+            "cautions": [CAUTION] + ([PLANAR_CAUTION] if self.planar else []),
+        }
+        return _plain(d)
+
+    def to_json(self, path) -> "Path":
+        """Write :meth:`to_dict` as JSON, atomically."""
+        from pathlib import Path
+
+        from anisotropy._safety import atomic_write_json
+
+        path = Path(path)
+        atomic_write_json(path, self.to_dict())
+        return path
+
+    def summary(self) -> str:
+        """The proposal in the geologist's words."""
+        return _summary(self)
+
+    # -- refit for replicates ----------------------------------------------------
+    def refit_function(self):
+        """``refit(coarse_sums, *, fixed_frame=None, start=None) -> (NestedModel, objective)``.
+
+        Rebuilds the fit bins from (re-weighted) coarse sums, re-applies the
+        main fit's information weights (per bin, as a ratio to the pair
+        count), and refits the same number and kinds of structures,
+        warm-started from ``start`` (default: the main fit), with the same
+        nugget policy; ``fixed_frame`` holds the frame (for checking an
+        interpretation).  No pass over the pairs.  The returned model's frame
+        is ordered and canonical like the main one.
+        """
+        st = dict(self._refit_state)
+        main = self.model
+
+        def refit(coarse_sums, *, fixed_frame=None, start=None):
+            from anisotropy.fitting import bins_from_sums, fit_nested
+
+            bins = bins_from_sums(coarse_sums, estimator=st["estimator"],
+                                  min_pairs=st["min_pairs"])
+            bins.weight = _information_weight(bins, st["weight_ratio"])
+            if bins.n < 3:
+                raise FitError("a replicate has fewer than 3 fit bins with enough pairs")
+            s0 = start if start is not None else main
+            f = fit_nested(bins, s0, n_structures=len(main.structures),
+                           kinds=tuple(x.kind for x in main.structures),
+                           fixed_frame=fixed_frame, fixed_nugget=st["fixed_nugget"],
+                           total_sill=st["total_sill"], max_nfev=st["max_nfev"],
+                           min_range=st["min_range"], max_range=st["max_range"],
+                           planar=st["planar"], make_model=False)
+            model = _ordered_model(f, keep_frame=fixed_frame is not None)
+            return model, float(f.objective)
+
+        return refit
+
+
+def _information_weight(bins, ratio):
+    """Information weight of each bin: drill-hole-corrected pairs per metre of lag."""
+    r = ratio[bins.lag_index, bins.direction_index]
+    r = np.where(np.isfinite(r), r, 1.0)
+    return bins.pairs * r / np.maximum(bins.distance, 1e-9)
+
+
+PLANAR_CAUTION = ("The samples lie in one plane (one bench or level): only the azimuths of "
+                  "continuity within that plane are resolved; the axis across the plane and "
+                  "its range are not, and are reported only to complete the frame.")
+
+
+def _ordered_model(fit, keep_frame=False):
+    """NestedModel with frame columns ordered by the longest structure, canonical."""
+    from anisotropy.geometry import canonical_frame
+    from anisotropy.models import NestedModel, Structure
+
+    ranges = np.asarray(fit.ranges, float)
+    frame = np.asarray(fit.frame, float)
+    if not keep_frame:
+        j = int(np.argmax(ranges.max(axis=1)))
+        order = np.argsort(-ranges[j], kind="stable")
+        frame = frame[:, order]
+        ranges = ranges[:, order]
+        if np.linalg.det(frame) < 0:
+            frame = frame.copy()
+            frame[:, 2] *= -1
+        frame = canonical_frame(frame)
+    structs = [Structure(kind=k, sill=float(c), ranges=tuple(float(x) for x in r))
+               for k, c, r in zip(fit.kinds, fit.sills, ranges)]
+    order = np.argsort([max(s.ranges) for s in structs], kind="stable")
+    structs = [structs[i] for i in order]
+    return NestedModel(nugget=float(fit.nugget), structures=structs, frame=frame)
+
+
+# ---------------------------------------------------------------------------
+# pieces of the chain
+# ---------------------------------------------------------------------------
+
+def _intake(data, value, x, y, z, domain, domain_value, hole, intake):
+    from anisotropy.samples import SampleSet, read_samples, samples_from_frame
+
+    if isinstance(data, SampleSet):
+        return data
+    try:
+        import pandas as pd
+    except ImportError:  # pragma: no cover
+        pd = None
+    kw = dict(value=value, x=x, y=y, z=z, domain=domain, domain_value=domain_value, hole=hole,
+              **intake)
+    if pd is not None and isinstance(data, pd.DataFrame):
+        return samples_from_frame(data, **kw)
+    return read_samples(data, **kw)
+
+
+def _skew(v):
+    v = np.asarray(v, float)
+    m = v.mean()
+    s = v.std()
+    if s == 0:
+        return 0.0, 0.0
+    cv = s / abs(m) if m != 0 else np.inf
+    sk = float(np.mean(((v - m) / s) ** 3))
+    return float(cv), sk
+
+
+def _choose_transform(values, transform, weights, choices, threshold=None):
+    from anisotropy.transform import apply_transform
+
+    cv, sk = _skew(values)
+    kind = transform
+    if transform == "auto":
+        if (cv > 1.0 or sk > 1.0) and np.all(values >= 0):
+            kind = "normal_score"
+            why = []
+            if cv > 1.0:
+                why.append(f"CV {cv:.2f} > 1")
+            if sk > 1.0:
+                why.append(f"skewness {sk:.2f} > 1")
+            choices.append({"choice": "transform", "value": "normal_score",
+                            "reason": "grades are skewed (" + ", ".join(why) + "): normal "
+                                      "scores keep a few high grades from dominating the "
+                                      "variogram (Goovaerts 1997); sills are reported in "
+                                      "normal-score units (total sill 1)"})
+        else:
+            kind = "raw"
+            choices.append({"choice": "transform", "value": "raw",
+                            "reason": f"grades are not strongly skewed (CV {cv:.2f}, "
+                                      f"skewness {sk:.2f}, both <= 1 or negative values "
+                                      "present): raw values, sills in grade units squared"})
+    else:
+        choices.append({"choice": "transform", "value": kind, "reason": "as requested"})
+    kw = {}
+    if kind == "normal_score" and weights is not None:
+        kw["weights"] = weights
+    if kind == "indicator":
+        if threshold is None:
+            kw["quantile"] = 0.5
+        else:
+            kw["threshold"] = threshold
+    return apply_transform(values, kind, **kw)
+
+
+def _choose_lags(samples, spacing, lag, n_lags, choices):
+    c = samples.coords
+    ext = c.max(axis=0) - c.min(axis=0)
+    extent = float(np.max(ext))
+    if extent <= 0:
+        raise InsufficientDataError("all samples sit at one location: no lag can be formed")
+    max_d = 0.5 * extent
+    holes = samples.holes is not None and getattr(spacing, "n_holes", None)
+    sl = dict(getattr(spacing, "suggested_lag", {}) or {})
+    if lag is not None:
+        lag = float(lag)
+        if not lag > 0:
+            raise InputError(f"the lag must be positive; got {lag}")
+        choices.append({"choice": "unit lag", "value": lag, "reason": "as requested"})
+        if n_lags is None:
+            n_lags = int(np.clip(round(max_d / lag), 4, 200))
+            choices.append({"choice": "number of lags", "value": n_lags,
+                            "reason": f"half the largest extent of the domain ({extent:.0f} m, "
+                                      "common practice) divided by the lag"})
+        else:
+            choices.append({"choice": "number of lags", "value": int(n_lags),
+                            "reason": "as requested"})
+        n_lags = int(n_lags)
+    else:
+        base_key = "across_hole" if holes and sl.get("across_hole") else "omni"
+        base = sl.get(base_key) or spacing.nearest or max_d / MIN_LAGS
+        reason = (f"the nominal {'across-hole' if base_key == 'across_hole' else 'sample'} "
+                  f"spacing {base:.3g} m (common practice: unit lag about the nominal spacing)")
+        lag = float(base)
+        if max_d / lag > MAX_LAGS_AUTO:
+            lag = max_d / MAX_LAGS_AUTO
+            reason += (f", lengthened to keep {MAX_LAGS_AUTO} lags out to half the domain "
+                       f"extent ({max_d:.0f} m): the fit bins stay few enough for a fast fit")
+        if max_d / lag < MIN_LAGS:
+            lag = max_d / MIN_LAGS
+            reason += (f", shortened so that at least {MIN_LAGS} lags reach half the "
+                       f"domain extent ({max_d:.0f} m)")
+        lag = float(f"{lag:.3g}")
+        choices.append({"choice": "unit lag", "value": lag, "reason": reason})
+        n_lags = int(n_lags) if n_lags is not None else int(max(4, round(max_d / lag)))
+        choices.append({"choice": "number of lags", "value": n_lags,
+                        "reason": ("as requested" if n_lags is None else
+                                   f"lags out to half the largest extent of the domain "
+                                   f"({extent:.0f} m, common practice)")})
+    choices.append({"choice": "lag tolerance", "value": lag / 2,
+                    "reason": "half the lag (common practice; classes are contiguous)"})
+    return {"unit_lag": lag, "n_lags": n_lags, "lag_tolerance": lag / 2,
+            "max_distance": (n_lags + 0.5) * lag}
+
+
+def _within_hole_pairs(coords, holes, lag, n_lags, coarse_dirs):
+    """Exact within-hole pair counts and distinct holes per (class, coarse cell).
+
+    Also the down-hole variogram at the composite spacing for the nugget.
+    Returns (within_pairs, within_holes, downhole dict) or None without holes.
+    """
+    from anisotropy.geometry import to_lower_hemisphere
+
+    if holes is None:
+        return None
+    max_d = (n_lags + 0.5) * lag
+    codes, inv = np.unique(np.asarray(holes).astype(str), return_inverse=True)
+    n_c = coarse_dirs.shape[0]
+    within = np.zeros((n_lags + 1, n_c))
+    seen = np.zeros((n_lags + 1, n_c, len(codes)), dtype=bool) if len(codes) * n_c * (n_lags + 1) < 5e7 else None
+    dh_d, dh_g = [], []
+    order = np.argsort(inv, kind="stable")
+    bounds = np.flatnonzero(np.diff(inv[order])) + 1
+    groups = np.split(order, bounds)
+    for gi, idx in enumerate(groups):
+        if len(idx) < 2:
+            continue
+        p = coords[idx]
+        # order along the hole's principal direction
+        cen = p - p.mean(axis=0)
+        _, _, vt = np.linalg.svd(cen, full_matrices=False)
+        o = np.argsort(cen @ vt[0])
+        p = p[o]
+        i, j = np.triu_indices(len(p), 1)
+        v = p[j] - p[i]
+        d = np.linalg.norm(v, axis=1)
+        keep = (d <= max_d) & (d > 0)
+        i, j, v, d = i[keep], j[keep], v[keep], d[keep]
+        if d.size == 0:
+            continue
+        k = np.ceil(d / lag - 0.5).astype(int)
+        ok = k <= n_lags
+        k, v, d = k[ok], v[ok], d[ok]
+        u = to_lower_hemisphere(v / d[:, None])
+        cell = np.argmax(np.abs(u @ coarse_dirs.T), axis=1)
+        np.add.at(within, (k, cell), 1.0)
+        if seen is not None:
+            seen[k, cell, gi] = True
+        step = j[ok] - i[ok]
+        vals_idx = idx[o]
+        dh_d.append(d[step <= 6])
+        dh_g.append(np.stack([vals_idx[i[ok]][step <= 6], vals_idx[j[ok]][step <= 6]], axis=1))
+    within_holes = seen.sum(axis=2).astype(float) if seen is not None else np.minimum(within, 1.0)
+    return within, within_holes, (np.concatenate(dh_d) if dh_d else np.empty(0),
+                                  np.concatenate(dh_g) if dh_g else np.empty((0, 2), int))
+
+
+def _downhole_nugget(dh, values, composite, total, estimator):
+    """Nugget from the first down-hole lags: linear extrapolation to zero."""
+    d, ij = dh
+    if d.size < 30 or not composite or estimator not in ("semivariogram", "robust",
+                                                          "correlogram"):
+        return None, None
+    cls = np.round(d / composite).astype(int)
+    pts = []
+    for k in (1, 2, 3):
+        m = cls == k
+        if m.sum() >= 20:
+            diff = values[ij[m, 1]] - values[ij[m, 0]]
+            if estimator == "correlogram":
+                a, b = values[ij[m, 0]], values[ij[m, 1]]
+                r = np.corrcoef(a, b)[0, 1]
+                g = 1.0 - r
+            else:
+                g = 0.5 * np.mean(diff ** 2)
+            pts.append((float(np.mean(d[m])), float(g), int(m.sum())))
+    if len(pts) < 2:
+        return None, pts
+    x = np.array([p[0] for p in pts])
+    y = np.array([p[1] for p in pts])
+    slope, icpt = np.polyfit(x[:2], y[:2], 1)
+    nug = float(np.clip(icpt, 0.0, min(y[0], 0.95 * total if total else y[0])))
+    return nug, pts
+
+
+def _iso_fit(bins, total, kind, fixed_nugget=None):
+    """Isotropic 1-structure fit over all bins: nugget, sill, range (for starts)."""
+    from anisotropy.fitting import fit_nested
+
+    a0 = float(np.median(bins.distance))
+    start = (np.eye(3), 0.1 * (total or np.nanmax(bins.gamma)),
+             [0.9 * (total or np.nanmax(bins.gamma))], [[a0, a0, a0]], (kind,))
+    # isotropy: three equal ranges is reached by a fixed frame and a fit whose
+    # anisotropy is free; we only need nugget and sill here
+    f = fit_nested(bins, start, fixed_frame=np.eye(3), fixed_nugget=fixed_nugget,
+                   total_sill=total, make_model=False, max_nfev=200)
+    return f
+
+
+def _resolution_warnings(bins, fit_model, frame, lag_info, spacing, holes, warnings, min_pairs):
+    """Say which axes the sampling cannot resolve (no short lags along them)."""
+    st = max(fit_model.structures, key=lambda s: s.ranges[0])
+    L = bins.lags
+    d = np.linalg.norm(L, axis=1)
+    u = L / np.maximum(d, 1e-12)[:, None]
+    unresolved = []
+    for i, name in enumerate(AXES):
+        r = st.ranges[i]
+        cos = np.abs(u @ frame[:, i])
+        near = (cos > np.cos(np.radians(25))) & (d < 0.8 * r) & (bins.pairs >= min_pairs)
+        if near.sum() < 2:
+            shortest = float(d[cos > np.cos(np.radians(25))].min()) if np.any(
+                cos > np.cos(np.radians(25))) else float("nan")
+            unresolved.append(name)
+            msg = (f"the {name.replace('_', '-')} axis is not resolved by the sampling: its "
+                   f"fitted range ({r:.3g} m) is shorter than the shortest lag seen near that "
+                   f"axis ({shortest:.3g} m)")
+            if holes and spacing is not None and getattr(spacing, "across_hole", None):
+                msg += (f"; the across-hole spacing is {spacing.across_hole:.3g} m. Closer "
+                        "holes, or holes drilled along this axis, would resolve it; until then "
+                        "treat this axis and its range as a guess bounded by the spacing")
+            else:
+                msg += "; closer samples along this axis would resolve it"
+            warnings.append(msg)
+    return unresolved
+
+
+def _summary(D: "Discovery") -> str:
+    a = D.axes()
+    pl = D.plane()
+    m = D.model
+    t = D.transform.kind if D.transform is not None else "raw"
+    units = D.diagnostics.get("units", "")
+    s = D.samples
+    head = f"Continuity proposal for {getattr(s, 'columns', {}).get('value', 'grade')}"
+    if getattr(s, "domain", None) is not None:
+        head += f", domain {s.domain}"
+    L = [head, "=" * len(head)]
+    L.append(f"samples used: {s.n} of {getattr(s, 'n_read', s.n)} ({getattr(s, 'source', '')})")
+    L.append(f"transform: {t}; estimator: {D.estimator}; values in {units}")
+    L.append("")
+    if D.planar:
+        L.append("PLANAR DATA: only the azimuths within the plane are resolved.")
+    L.append(f"Plane of greatest continuity: dip direction {pl['dip_direction']:05.1f}, "
+             f"dip {pl['dip']:4.1f} (strike {pl['strike']:05.1f}, right-hand rule)")
+    L.append(f"Major axis:      trend {a['major']['trend']:05.1f}, plunge "
+             f"{a['major']['plunge']:4.1f}, pitch {pl['pitch']:5.1f} in the plane; "
+             f"range {a['major']['range']:.4g} m")
+    L.append(f"Semi-major axis: trend {a['semi_major']['trend']:05.1f}, plunge "
+             f"{a['semi_major']['plunge']:4.1f}; range {a['semi_major']['range']:.4g} m")
+    L.append(f"Minor axis:      trend {a['minor']['trend']:05.1f}, plunge "
+             f"{a['minor']['plunge']:4.1f} (pole to the plane); range {a['minor']['range']:.4g} m")
+    L.append("")
+    L.append(f"Model ({units}): nugget {m.nugget:.3g} of total sill {m.total_sill:.3g} "
+             f"({100 * m.nugget / max(m.total_sill, 1e-300):.0f} %)")
+    for i, st in enumerate(m.structures, 1):
+        L.append(f"  structure {i}: {st.kind}, sill {st.sill:.3g}, ranges "
+                 f"{st.ranges[0]:.4g} / {st.ranges[1]:.4g} / {st.ranges[2]:.4g} m "
+                 "(major / semi-major / minor"
+                 + ("; practical range" if st.kind in ("exponential", "gaussian") else "") + ")")
+    dg = D.diagnostics
+    L.append("")
+    L.append(f"pairs: {dg.get('pairs', 0):,}; fan directions: {dg.get('directions', {}).get('n', 0)}"
+             f" ({dg.get('directions', {}).get('thin', 0)} too thin to use); "
+             f"fit bins: {dg.get('bins', {}).get('bins', 0)}; run time {dg.get('seconds', 0):.1f} s")
+    if D.uncertainty is not None and hasattr(D.uncertainty, "to_dict"):
+        u = D.uncertainty.to_dict()
+        for ax in AXES:
+            if ax in u and isinstance(u[ax], dict) and u[ax].get("cone_deg") is not None:
+                L.append(f"  {ax.replace('_', '-')} axis within {u[ax]['cone_deg']:.1f} degrees "
+                         f"({100 * u.get('confidence', 0.9):.0f} % of replicates)")
+    L.append("")
+    L.append("Choices made (override with the options named):")
+    for c in D.choices:
+        v = c["value"]
+        v = f"{v:.4g}" if isinstance(v, float) else str(v)
+        L.append(f"  - {c['choice']}: {v} - {c['reason']}")
+    if D.warnings:
+        L.append("")
+        L.append("Warnings:")
+        for w in D.warnings:
+            L.append(f"  ! {w}")
+    L.append("")
+    L.append("Caution: " + CAUTION)
+    if D.planar:
+        L.append(PLANAR_CAUTION)
+    return "\n".join(L)
+
+
+# ---------------------------------------------------------------------------
+# the chain
+# ---------------------------------------------------------------------------
+
+def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_value=None,
+             hole=None, transform="auto", estimator="semivariogram", structures="auto",
+             lag=None, n_lags=None, angular_tolerance=None, bandwidth=None, bootstrap=0,
+             confidence=0.9, seed=0, n_jobs=1, scheduler=None, progress=False,
+             kinds=None, sill="variance", threshold=None, fan_spacing=DEFAULT_FAN_SPACING,
+             coarse_spacing=None, min_pairs=None, **intake) -> Discovery:
+    """Discover the 3D continuity of one grade in one domain.
+
+    Parameters
+    ----------
+    data : str, path, pandas.DataFrame or SampleSet
+        The sample table (or samples already read).
+    value, x, y, z, domain, domain_value, hole : str, optional
+        Columns (see :func:`anisotropy.samples.samples_from_frame`).
+    transform : {"auto", "normal_score", "raw", "log", "indicator"}
+        "auto" = normal scores when the grades are skewed (CV > 1 or skewness > 1).
+    estimator : str
+        One of ``anisotropy.estimators.ESTIMATORS``.
+    structures : "auto" or int
+        Number of nested structures (auto: 1..3 by the criterion of
+        :func:`anisotropy.fitting.select_structures`).
+    lag, n_lags : optional
+        Unit lag (m) and number of lags (default: from the spacing).
+    angular_tolerance : float, optional
+        Half-angle (degrees) of the fan's direction cones (default 15,
+        widened to 30 for directions thin at 15).
+    bandwidth : float, optional
+        Fan bandwidth (m).
+    bootstrap : int
+        Block-bootstrap replicates (0 = none; needs ``anisotropy.uncertainty``).
+    confidence : float
+        Confidence of the bootstrap cones and intervals.
+    seed : int
+        Seed of every random step (random starts, bootstrap).
+    n_jobs, scheduler : parallel settings of the bootstrap.
+    progress : bool
+        Progress messages on stderr.
+    kinds : sequence of str, optional
+        Structure kinds (default: the better of spherical and exponential).
+    sill : "variance", "free" or float
+        Total sill constraint: the variance of the transformed variable
+        (default; 1 for normal scores and the correlogram), free, or a value.
+    threshold : float, optional
+        Indicator threshold (``transform="indicator"``; default the median).
+    fan_spacing : float
+        Degrees between fan directions.
+    coarse_spacing : float, optional
+        Degrees between the coarse direction cells of the fit (default: the
+        pair engine's).
+    min_pairs : float, optional
+        Fewest pairs for a fit bin (default 10) and a fan lag (default 30).
+    **intake
+        Passed to the sample reader (missing_codes, below_detection, duplicates).
+
+    Returns
+    -------
+    Discovery
+
+    Raises
+    ------
+    InputError, InsufficientDataError
+        Bad input, or too few samples or pairs for a 3D answer.
+    FitError
+        The fit failed.
+    """
+    t0 = time.perf_counter()
+    from anisotropy.explore import explore as _explore
+    from anisotropy.fitting import (bins_from_sums, direction_ranges, ellipsoid_range,
+                                    fit_ellipsoid, fit_nested, inertia_frame, linear_ellipsoid,
+                                    select_structures)
+    from anisotropy.geometry import fan_for_spacing, fibonacci_hemisphere
+
+    choices: list = []
+    warnings: list = []
+    samples = _intake(data, value, x, y, z, domain, domain_value, hole, intake)
+    warnings.extend(getattr(samples, "warnings", []) or [])
+    if samples.n < MIN_SAMPLES:
+        raise InsufficientDataError(
+            f"{samples.source}: only {samples.n} usable samples"
+            + (f" in domain {samples.domain}" if samples.domain is not None else "")
+            + f"; a 3D continuity model needs at least {MIN_SAMPLES} (in practice a few "
+              "hundred). Merge similar domains, add holes, or study the domain with fewer "
+              "parameters by hand.")
+    vals = np.asarray(samples.values, float)
+    if np.nanstd(vals) == 0:
+        raise InsufficientDataError(
+            f"{samples.source}: every value of {samples.columns.get('value', 'the grade')} "
+            f"is {vals[0]:g} in the {samples.n} samples used: there is no variability to "
+            "study. Check the column and the domain selection.")
+    try:
+        exploration = _explore(samples)
+    except AnisotropyError:
+        raise
+    spacing = exploration.spacing
+    decl_w = getattr(exploration.declustering, "weights", None)
+    planar = bool(getattr(samples, "planar", False))
+    if planar:
+        warnings.append("the samples lie in one plane: the result is azimuth-only "
+                        "(directions within the plane); see the cautions")
+
+    # transform
+    tr = _choose_transform(vals, transform, decl_w, choices, threshold=threshold)
+    tv = np.asarray(tr.values, float)
+    if np.nanstd(tv) == 0:
+        raise InsufficientDataError("the transformed values are all equal (e.g. an indicator "
+                                    "threshold outside the range of the grades): choose "
+                                    "another threshold or transform")
+    from anisotropy.estimators import ESTIMATORS
+
+    if estimator not in ESTIMATORS:
+        raise InputError(f"unknown estimator {estimator!r}; choose one of {', '.join(ESTIMATORS)}")
+    var = float(np.var(tv))
+    if isinstance(sill, (int, float)) and not isinstance(sill, bool):
+        total = float(sill)
+        choices.append({"choice": "total sill", "value": total, "reason": "as requested"})
+    elif sill == "free" or estimator in ("pairwise_relative", "madogram"):
+        total = None
+        choices.append({"choice": "total sill", "value": "free",
+                        "reason": "as requested" if sill == "free" else
+                        f"the {estimator} has no variance to sum to"})
+    elif estimator == "correlogram":
+        total = 1.0
+        choices.append({"choice": "total sill", "value": 1.0,
+                        "reason": "the correlogram (1 - rho) rises to 1"})
+    else:
+        total = var
+        choices.append({"choice": "total sill", "value": total,
+                        "reason": "nugget and sills sum to the variance of the "
+                                  + ("normal scores" if tr.kind == "normal_score" else
+                                     f"{tr.kind} values")})
+    units = ("normal-score units (variance 1)" if tr.kind == "normal_score" else
+             {"raw": "grade units squared", "log": "log-grade units squared",
+              "indicator": "indicator units (0-1 variance)"}.get(tr.kind, tr.kind))
+    if estimator in ("correlogram",):
+        units = "correlogram units (1 - rho)"
+    elif estimator in ("pairwise_relative",):
+        units = "pairwise relative units"
+
+    # lags
+    lag_info = _choose_lags(samples, spacing, lag, n_lags, choices)
+    lag_u, nl = lag_info["unit_lag"], lag_info["n_lags"]
+
+    # pair engine
+    from anisotropy import pairs as _pairs
+
+    bw_kw = {}
+    if coarse_spacing is not None:
+        coarse = fan_for_spacing(coarse_spacing)
+    else:
+        from anisotropy.pairs._lattice import DEFAULT_COARSE_SPACING
+        coarse = fan_for_spacing(DEFAULT_COARSE_SPACING)
+    n_est = None
+    volume = _pairs.build_volume(samples.coords, tv, lag=lag_u, n_lags=nl,
+                                 coarse_directions=coarse, progress=progress, **bw_kw)
+    coarse = np.asarray(volume.coarse_directions, float)
+    n_pairs = int(volume.n_pairs)
+    if n_pairs < 100:
+        raise InsufficientDataError(
+            f"{samples.source}: only {n_pairs} pairs of samples within "
+            f"{lag_info['max_distance']:.3g} m; a 3D variogram needs thousands. Use a longer "
+            "lag (--lag) or more lags (--n-lags), or add samples.")
+
+    # bins and information weights
+    mp_bin = 10 if min_pairs is None else float(min_pairs)
+    mp_fan = 30 if min_pairs is None else float(min_pairs)
+    csums = volume.coarse_sums()
+    bins = bins_from_sums(csums, coarse, estimator=estimator, min_pairs=mp_bin)
+    if bins.n < 12:
+        raise InsufficientDataError(
+            f"{samples.source}: only {bins.n} lag-direction bins have {mp_bin:g} pairs or more "
+            f"({n_pairs} pairs in all): too few for a 3D answer, which needs pairs in many "
+            "directions. Add samples or holes in other directions, widen the lag, or fit "
+            "a 2D or omnidirectional model by hand.")
+    holes = samples.holes
+    ratio = np.ones(csums.shape[:2])
+    downhole = None
+    fixed_nugget = None
+    if holes is not None and spacing.n_holes and spacing.n_holes > 1:
+        wh = _within_hole_pairs(samples.coords, holes, lag_u, nl, coarse)
+        within, within_h, dh = wh
+        N = csums[..., 0]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            eff = np.maximum(N - within, 0.0) + within_h
+            ratio = np.where(N > 0, eff / N, 1.0)
+        choices.append({"choice": "drill-hole weights", "value": "between-hole pairs + holes",
+                        "reason": f"{int(within.sum()):,} of {n_pairs:,} pairs lie inside one "
+                                  "hole; each bin counts its between-hole pairs plus one per "
+                                  "hole contributing within-hole pairs, so the along-hole "
+                                  "direction does not dominate the fit"})
+        composite = spacing.down_hole
+        nug, pts = _downhole_nugget(dh, tv, composite, total, estimator)
+        downhole = {"composite": composite, "points": pts, "nugget": nug}
+        if nug is not None and composite and composite < 0.5 * lag_u:
+            fixed_nugget = nug
+            choices.append({"choice": "nugget", "value": nug,
+                            "reason": f"from the first down-hole lags ({composite:.3g} m "
+                                      "composites), extrapolated to zero and held in the fit "
+                                      "(the joint fit's shortest lag is "
+                                      f"{lag_u:.3g} m)"})
+    bins.weight = _information_weight(bins, ratio)
+    choices.append({"choice": "bin weights", "value": "pairs / distance",
+                    "reason": "the pairs of a 3D lag bin grow with the square of the distance, "
+                              "so bins near the sill would outvote the short lags that carry "
+                              "the shape; weights are pair counts per metre of lag, inside the "
+                              "Cressie (1985) form"})
+    if fixed_nugget is None:
+        choices.append({"choice": "nugget", "value": "fitted",
+                        "reason": "fitted jointly, pinned by the shortest lags of the volume"})
+
+    # kind and isotropic start
+    if kinds is not None:
+        kinds = tuple(kinds)
+        kind_list = [kinds[0]]
+    else:
+        kind_list = ["spherical", "exponential"]
+    iso = _iso_fit(bins, total, kind_list[0], fixed_nugget)
+    nug0 = iso.nugget if fixed_nugget is None else fixed_nugget
+    sill0 = float(np.sum(iso.sills))
+
+    # fan of directions and per-direction ranges
+    from anisotropy.directional import variogram_fan
+
+    fan_dirs = fan_for_spacing(fan_spacing)
+    tol = DEFAULT_ANGULAR_TOLERANCE if angular_tolerance is None else float(angular_tolerance)
+    fan = variogram_fan(volume, fan_dirs, angular_tolerance=tol, bandwidth=bandwidth,
+                        estimator=estimator)
+    choices.append({"choice": "direction fan", "value": f"{len(fan_dirs)} directions",
+                    "reason": f"Fibonacci lattice on the lower hemisphere (Gonzalez 2010), "
+                              f"about {fan_spacing:g} degrees apart"})
+    choices.append({"choice": "angular tolerance", "value": tol,
+                    "reason": "as requested" if angular_tolerance is not None else
+                    "common practice (15-22.5 degrees); directions thin at this tolerance "
+                    f"are re-read at {WIDE_ANGULAR_TOLERANCE:g} degrees"})
+    dist, gval, npairs = (np.asarray(fan.distance, float), np.asarray(fan.value, float),
+                          np.asarray(fan.pairs, float))
+    dr = direction_ranges(fan_dirs, dist, gval, npairs, nugget=nug0, sill=sill0,
+                          kind=kind_list[0], min_pairs=mp_fan)
+    widened = 0
+    if angular_tolerance is None and dr.n_thin > 0:
+        thin = np.array([f == "thin" for f in dr.flag])
+        fan_w = variogram_fan(volume, fan_dirs[thin], angular_tolerance=WIDE_ANGULAR_TOLERANCE,
+                              bandwidth=bandwidth, estimator=estimator)
+        dist[thin] = fan_w.distance
+        gval[thin] = fan_w.value
+        npairs[thin] = fan_w.pairs
+        widened = int(thin.sum())
+        dr = direction_ranges(fan_dirs, dist, gval, npairs, nugget=nug0, sill=sill0,
+                              kind=kind_list[0], min_pairs=mp_fan)
+    usable = dr.usable
+    if usable.sum() < 6 and not planar:
+        warnings.append(f"only {int(usable.sum())} fan directions have enough pairs for a "
+                        "range; the ellipsoid start is weak and the joint fit carries the "
+                        "orientation alone")
+
+    # starting frames
+    starts = []
+    ell = None
+    try:
+        ell = fit_ellipsoid(fan_dirs[usable], dr.range[usable], dr.reliability[usable],
+                            seed=seed, n_starts=4)
+        starts.append(("ellipsoid of directional ranges", ell.frame))
+    except ValueError:
+        ell = None
+    try:
+        lin = linear_ellipsoid(fan_dirs[usable], dr.range[usable])
+        starts.append(("linear ellipsoid (baseline)", lin.frame))
+    except ValueError:
+        lin = None
+    in_frame, _ = inertia_frame(bins.lags, bins.gamma, nug0 + sill0, fraction=0.6)
+    starts.append(("inertia axes of the low-variability region", in_frame))
+    from scipy.spatial.transform import Rotation
+
+    rng = np.random.default_rng(seed)
+    for R in Rotation.random(N_RANDOM_STARTS, random_state=rng).as_matrix():
+        starts.append(("seeded random rotation", R))
+
+    def start_ranges(F):
+        if ell is not None:
+            r = ellipsoid_range(F.T, ell.frame, ell.ranges)
+        else:
+            r = np.full(3, iso.ranges[0].mean())
+        return np.clip(r, 0.5 * lag_u, 3 * lag_info["max_distance"])
+
+    tried = []
+    lo_r, hi_r = 0.05 * lag_u, 20.0 * lag_info["max_distance"]
+    common = dict(fixed_nugget=fixed_nugget, total_sill=total, min_range=lo_r, max_range=hi_r,
+                  planar=planar, make_model=False)
+    # screening: every start, one structure, a loose tolerance
+    screened = []
+    for name, F in starts:
+        F = np.asarray(F, float)
+        r0 = start_ranges(F)
+        if planar:
+            F = _planar_start(F)
+        f = fit_nested(bins, (F, nug0, [sill0], [r0], (kind_list[0],)), ftol=1e-4, outer=1,
+                       max_nfev=300, **common)
+        tried.append({"start": name, "kind": kind_list[0], "objective": f.objective})
+        screened.append(f)
+    screened.sort(key=lambda f: f.objective)
+    # polish the two best, then try the other kinds from the best frame
+    best = None
+    for f0 in screened[:2]:
+        f = fit_nested(bins, (f0.frame, f0.nugget, f0.sills, f0.ranges, f0.kinds), **common)
+        if best is None or f.objective < best.objective:
+            best = f
+    kind_table = [{"kind": best.kinds[0], "wrss": best.wrss}]
+    for kind in kind_list[1:]:
+        f = fit_nested(bins, (best.frame, best.nugget, best.sills, best.ranges, (kind,)),
+                       **common)
+        kind_table.append({"kind": kind, "wrss": f.wrss})
+        if f.wrss < best.wrss:
+            best = f
+    # nested structures
+    n_str = None if structures in ("auto", None) else int(structures)
+    if n_str is not None and not 1 <= n_str <= 3:
+        raise InputError(f"structures must be 1, 2, 3 or 'auto'; got {structures!r}")
+    sel = select_structures(bins, (best.frame, best.nugget, best.sills, best.ranges, best.kinds),
+                            max_structures=3, n_structures=n_str,
+                            kinds=kinds if kinds is not None else best.kinds,
+                            total_sill=total, fixed_nugget=fixed_nugget, min_range=lo_r,
+                            max_range=hi_r, planar=planar, ftol=1e-6)
+    fit = sel.best
+    if n_str is None:
+        choices.append({"choice": "structures", "value": len(fit.sills),
+                        "reason": "chosen by BIC with a minimum gain (see diagnostics."
+                                  "selection)"})
+    else:
+        choices.append({"choice": "structures", "value": n_str, "reason": "as requested"})
+    model = _ordered_model(fit)
+    frame = np.asarray(model.frame, float)
+
+    # final direction ranges under the fitted nugget and sill (for the report)
+    longest = max(model.structures, key=lambda s: s.ranges[0])
+    dr_final = direction_ranges(fan_dirs, dist, gval, npairs, nugget=model.nugget,
+                                sill=float(sum(s.sill for s in model.structures)),
+                                kind=longest.kind, min_pairs=mp_fan)
+
+    # residuals per fan direction (nearest coarse cell of each bin)
+    res_dir = []
+    for c in range(coarse.shape[0]):
+        m = bins.direction_index == c
+        if m.any():
+            res_dir.append({"direction": [float(v) for v in coarse[c]], "bins": int(m.sum()),
+                            "pairs": int(bins.pairs[m].sum()),
+                            "mean_relative_residual": float(np.mean(fit.relative[m])),
+                            "rms_relative_residual": float(np.sqrt(np.mean(fit.relative[m] ** 2)))})
+
+    unresolved = _resolution_warnings(bins, model, frame, lag_info, spacing,
+                                      holes is not None, warnings, mp_bin)
+    if planar:
+        unresolved = sorted(set(unresolved) | {"minor"})
+    major_r = longest.ranges[0]
+    if major_r > lag_info["max_distance"]:
+        warnings.append(f"the major range ({major_r:.3g} m) is longer than the longest lag "
+                        f"({lag_info['max_distance']:.3g} m): it is an extrapolation; a larger "
+                        "domain or longer lags (--n-lags) would show whether the variogram "
+                        "levels off")
+    if dr.n_thin:
+        warnings.append(f"{dr.n_thin} of {len(fan_dirs)} fan directions have too few pairs "
+                        f"for a range even at {WIDE_ANGULAR_TOLERANCE:g} degrees; they are "
+                        "marked thin and not used")
+    if tr.kind == "normal_score":
+        warnings.append("sills are in normal-score units (total 1); back-transformed grade "
+                        "variograms differ in shape near the sill")
+
+    seconds = time.perf_counter() - t0
+    diagnostics = {
+        "pairs": n_pairs, "pairs_estimated": n_est,
+        "directions": {"n": int(len(fan_dirs)), "thin": int(dr.n_thin), "widened": widened,
+                       "angular_tolerance": tol, "usable": int(usable.sum())},
+        "bins": bins.to_dict(),
+        "units": units,
+        "unresolved_axes": unresolved,
+        "selection": sel.to_dict(),
+        "starts": tried,
+        "kinds": kind_table,
+        "ellipsoid": None if ell is None else ell.to_dict(),
+        "direction_ranges": dr_final.to_dict(),
+        "residuals_by_direction": res_dir,
+        "downhole": downhole,
+        "volume": {"seconds": float(getattr(volume, "seconds", 0.0)),
+                   "memory_bytes": int(getattr(volume, "memory_bytes", 0) or 0),
+                   "coarse_directions": int(coarse.shape[0])},
+        "seconds": seconds,
+    }
+    D = Discovery(model=model, frame=frame, samples=samples, exploration=exploration,
+                  transform=tr, lags=dict(lag_info), uncertainty=None, diagnostics=diagnostics,
+                  warnings=warnings, choices=choices, estimator=estimator, planar=planar,
+                  volume_=volume, fan_=fan, bins_=bins, ranges_=dr_final, ellipsoid_=ell,
+                  fit_=fit)
+    D._refit_state = {"estimator": estimator, "min_pairs": mp_bin, "weight_ratio": ratio,
+                      "fixed_nugget": fixed_nugget, "total_sill": total,
+                      "max_nfev": 60 * (fit.n_params + 1), "min_range": lo_r,
+                      "max_range": hi_r, "planar": planar}
+
+    if bootstrap and int(bootstrap) > 0:
+        try:
+            from anisotropy.uncertainty import block_bootstrap
+        except ImportError:
+            warnings.append("bootstrap requested but the uncertainty module is not available; "
+                            "no bands computed")
+        else:
+            D.uncertainty = block_bootstrap(volume, D.refit_function(), model,
+                                            n_replicates=int(bootstrap), confidence=confidence,
+                                            seed=seed, n_jobs=n_jobs, scheduler=scheduler,
+                                            progress=progress, estimator=estimator)
+        D.diagnostics["seconds"] = time.perf_counter() - t0
+    return D
+
+
+def _planar_start(F):
+    """Nearest frame with a vertical minor axis (planar data)."""
+    from anisotropy.geometry import frame_from_axes
+
+    major = np.asarray(F[:, 0], float).copy()
+    major[2] = 0.0
+    if np.linalg.norm(major) < 1e-9:
+        major = np.array([1.0, 0.0, 0.0])
+    return frame_from_axes(major, minor=np.array([0.0, 0.0, -1.0]))
