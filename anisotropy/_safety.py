@@ -111,7 +111,8 @@ def safe_folder_name(name: Any) -> str:
     text = "" if name is None else str(name)
     ascii_text = unicodedata.normalize("NFKD", text).encode("ascii", "ignore").decode("ascii")
     clean = _ALLOWED.sub("_", ascii_text)
-    clean = clean.lstrip(".-").rstrip(". ")
+    clean = re.sub(r"\.{2,}", "_", clean)  # no ".." anywhere, even inside a name
+    clean = clean.lstrip("._-").rstrip(". ")
     clean = re.sub(r"_+", "_", clean)
     if clean.split(".")[0].upper() in _RESERVED:
         clean = "_" + clean

@@ -1,0 +1,635 @@
+"""Batch: the whole chain for every domain of a sample table.
+
+For each domain: read its samples, discover the continuity (with bootstrap
+bands), check the interpretation the config gives for that domain, and write
+the result, the check and the HTML report into a folder of its own. A domain
+that is too small or fails is recorded with its reason and never stops the
+others. The run ends with ``summary.csv``, ``summary.json`` and
+``index.html`` in the output folder.
+
+Every file is written atomically (temporary file in the same folder, then
+rename), and a domain's completion marker is written last, so an interrupted
+batch leaves no half-written file and ``resume=True`` picks up where it
+stopped.
+
+The config file (TOML) has this layout (all keys optional)::
+
+    [options]              # discover options for every domain
+    bootstrap = 100
+    transform = "normal_score"
+
+    [domain."oxide"]       # overrides for one domain (name quoted as in the table)
+    transform = "log"
+    topcut = 25.0          # grade cap applied before the transform
+    lag = 10.0
+    n_lags = 12
+    estimator = "correlogram"
+    skip = false           # true: record the domain as skipped
+
+    [domain."oxide".interpretation]
+    plane = "150/70"       # dip direction / dip of the plane of greatest continuity
+    pitch = 35             # optional pitch of the major axis in that plane
+    # or: major = "045/20" (trend/plunge) and optionally minor = "..."
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import time
+import traceback
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Mapping, Sequence
+
+from anisotropy import _safety as S
+from anisotropy.errors import AnisotropyError, InputError, InsufficientDataError
+
+__all__ = ["run_batch", "BatchResult", "load_config", "SUMMARY_COLUMNS", "MIN_SAMPLES"]
+
+#: fewest samples a domain needs before discovery is attempted (common practice:
+#: a few hundred pairs per lag need at least ~30-50 samples; below 30 it is noise)
+MIN_SAMPLES = 30
+
+MARKER = ".complete"
+ROW_FILE = "row.json"
+
+SUMMARY_COLUMNS = (
+    "domain", "status", "reason", "folder",
+    "n_samples", "n_used",
+    "plane_dip_direction", "plane_dip", "plane_pitch",
+    "major_trend", "major_plunge", "semi_major_trend", "semi_major_plunge",
+    "minor_trend", "minor_plunge",
+    "range_major", "range_semi_major", "range_minor",
+    "nugget", "total_sill", "n_structures", "transform", "estimator", "topcut", "n_capped",
+    "cone_major", "cone_semi_major", "cone_minor", "replicates",
+    "verdict", "warnings", "seconds",
+)
+
+_AXES = ("major", "semi_major", "minor")
+# config keys that are ours, not discover's
+_OWN_KEYS = {"skip", "interpretation", "topcut", "min_samples"}
+
+
+# ---------------------------------------------------------------------------
+# config
+# ---------------------------------------------------------------------------
+
+
+def load_config(config: str | os.PathLike | Mapping | None) -> dict:
+    """Read a batch config (TOML path or an already-parsed mapping).
+
+    Parameters
+    ----------
+    config : path-like, mapping or None
+
+    Returns
+    -------
+    dict
+        ``{"options": {...}, "domain": {name: {...}}}``.
+
+    Raises
+    ------
+    InputError
+        The file cannot be read or parsed, or has unknown top-level tables.
+    """
+    if config is None:
+        return {"options": {}, "domain": {}}
+    if isinstance(config, Mapping):
+        data = dict(config)
+        source = "<config>"
+    else:
+        try:
+            import tomllib
+        except ImportError:  # pragma: no cover - Python 3.10
+            import tomli as tomllib
+        source = str(config)
+        try:
+            with open(config, "rb") as fh:
+                data = tomllib.load(fh)
+        except FileNotFoundError:
+            raise InputError(f"config file '{source}' does not exist; check the --config path") from None
+        except tomllib.TOMLDecodeError as exc:
+            raise InputError(f"config file '{source}' is not valid TOML: {exc}; fix the line named") from None
+    unknown = set(data) - {"options", "domain"}
+    if unknown:
+        raise InputError(
+            f"config '{source}': unknown section(s) {sorted(unknown)}; only [options] and "
+            "[domain.\"NAME\"] tables are read")
+    options = data.get("options", {}) or {}
+    domains = data.get("domain", {}) or {}
+    if not isinstance(options, Mapping) or not isinstance(domains, Mapping):
+        raise InputError(f"config '{source}': [options] and [domain.\"NAME\"] must be tables")
+    for name, over in domains.items():
+        if not isinstance(over, Mapping):
+            raise InputError(f"config '{source}': [domain.\"{name}\"] must be a table of options")
+        interp = over.get("interpretation")
+        if interp is not None and not isinstance(interp, Mapping):
+            raise InputError(f"config '{source}': [domain.\"{name}\".interpretation] must be a table")
+    return {"options": dict(options), "domain": {str(k): dict(v) for k, v in domains.items()},
+            "source": source}
+
+
+def _interpretation(spec: Mapping, domain: str):
+    """An Interpretation from a config table."""
+    from anisotropy.check import Interpretation, parse_orientation
+
+    where = f"[domain.\"{domain}\".interpretation]"
+    try:
+        if "plane" in spec:
+            dd, dip = parse_orientation(str(spec["plane"]))
+            pitch = spec.get("pitch")
+            return Interpretation.from_plane(dd, dip, None if pitch is None else float(pitch))
+        if "major" in spec:
+            major = parse_orientation(str(spec["major"]))
+            minor = spec.get("minor")
+            return Interpretation.from_axes(major, None if minor is None else parse_orientation(str(minor)))
+    except AnisotropyError as exc:
+        raise type(exc)(f"{where}: {exc}") from None
+    raise InputError(f"{where} needs plane = \"DIPDIR/DIP\" (optionally pitch) or "
+                     "major = \"TREND/PLUNGE\" (optionally minor)")
+
+
+# ---------------------------------------------------------------------------
+# one domain
+# ---------------------------------------------------------------------------
+
+
+def _fingerprint(task: Mapping) -> str:
+    """Hash of what determines a domain's result (for resume)."""
+    keys = {k: task[k] for k in ("domain", "value", "columns", "options", "interpretation",
+                                 "n_rows", "min_samples", "report", "topcut", "skip")}
+    text = json.dumps(S.json_ready(keys), sort_keys=True, default=str)
+    return hashlib.sha256(text.encode()).hexdigest()[:16]
+
+
+def _empty_row(domain: str, folder: str) -> dict:
+    row = {c: None for c in SUMMARY_COLUMNS}
+    row.update(domain=domain, folder=folder, reason="", warnings=0)
+    return row
+
+
+def _row_from_result(row: dict, d: Mapping, check: Mapping | None) -> dict:
+    """Fill a summary row from discovery.json (schema anisotropy.discovery/1) and check.json."""
+    inp = d.get("input", {})
+    row["n_samples"] = inp.get("n_samples")
+    row["n_used"] = inp.get("n_used")
+    plane = d.get("plane", {}) or {}
+    row["plane_dip_direction"] = plane.get("dip_direction")
+    row["plane_dip"] = plane.get("dip")
+    row["plane_pitch"] = plane.get("pitch")
+    axes = d.get("axes", {}) or {}
+    for a in _AXES:
+        ax = axes.get(a, {}) or {}
+        row[f"{a}_trend"] = ax.get("trend")
+        row[f"{a}_plunge"] = ax.get("plunge")
+        row[f"range_{a}"] = ax.get("range")
+    model = d.get("model", {}) or {}
+    row["nugget"] = model.get("nugget")
+    row["total_sill"] = model.get("total_sill")
+    row["n_structures"] = len(model.get("structures", []) or [])
+    row["transform"] = (d.get("transform", {}) or {}).get("kind")
+    row["estimator"] = d.get("estimator") or (d.get("diagnostics", {}) or {}).get("estimator")
+    unc = d.get("uncertainty") or {}
+    for a in _AXES:
+        row[f"cone_{a}"] = (unc.get(a) or {}).get("cone_deg")
+    row["replicates"] = unc.get("replicates")
+    row["warnings"] = len((d.get("diagnostics", {}) or {}).get("warnings", []) or [])
+    if check is not None:
+        row["verdict"] = check.get("verdict")
+    for k, v in list(row.items()):
+        if isinstance(v, float):
+            row[k] = round(v, 4)
+    return row
+
+
+def _run_domain(task: Mapping) -> dict:
+    """Run the chain for one domain; never raises (the row says what happened).
+
+    ``task`` is a plain dict (picklable for joblib and Dask): the domain's
+    rows, the column names, discover options, the interpretation spec, and
+    the folder to write into.
+    """
+    start = time.perf_counter()
+    domain, folder = task["domain"], task["folder"]
+    dom_dir = Path(task["dom_dir"])
+    row = _empty_row(domain, folder)
+    dom_dir.mkdir(parents=True, exist_ok=True)
+    marker = dom_dir / MARKER
+    if marker.exists():
+        marker.unlink()  # being re-run: not complete until the marker is written again
+    try:
+        if task.get("skip"):
+            row.update(status="skipped", reason="skipped by the config (skip = true)",
+                       n_samples=task["n_rows"])
+        elif task["n_rows"] < task["min_samples"]:
+            row.update(status="skipped", n_samples=task["n_rows"],
+                       reason=f"too small: {task['n_rows']} samples, at least "
+                              f"{task['min_samples']} needed")
+        else:
+            if task.get("interpretation"):
+                # read before the expensive part, so a typo fails in a second
+                _interpretation(task["interpretation"], domain)
+            row = _discover_domain(task, row, dom_dir)
+    except InsufficientDataError as exc:
+        row.update(status="skipped", reason=f"too small: {exc}")
+    except AnisotropyError as exc:
+        row.update(status="failed", reason=str(exc))
+    except Exception as exc:  # noqa: BLE001 - one domain's bug must not stop the others
+        row.update(status="failed", reason=f"internal error: {type(exc).__name__}: {exc}")
+        S.atomic_write_text(dom_dir / "error.txt", traceback.format_exc())
+    row["seconds"] = round(time.perf_counter() - start, 2)
+    S.atomic_write_json(dom_dir / ROW_FILE, row)
+    if row["status"] in ("ok", "skipped"):
+        # written last: the domain is done only once everything else is on disk
+        S.atomic_write_json(marker, {"fingerprint": task["fingerprint"], "status": row["status"]})
+    return row
+
+
+def _discover_domain(task: Mapping, row: dict, dom_dir: Path) -> dict:
+    import pandas as pd
+
+    from anisotropy.discover import discover
+
+    df = task["frame"]
+    if not isinstance(df, pd.DataFrame):
+        df = pd.DataFrame(df)
+    source = task.get("source", "<table>")
+    notes = []
+    if task.get("topcut") is not None:
+        df, n_capped = _apply_topcut(df, task["value"], task["topcut"], source)
+        row["topcut"], row["n_capped"] = task["topcut"], n_capped
+        notes.append(f"top-cut {task['topcut']:g} from the batch config: {n_capped} grade(s) "
+                     "above it were set to it before discovery")
+    df.attrs["source"] = source
+    opts = dict(task["options"])
+    cols = task["columns"]
+    opts.setdefault("source", source)
+    disc = discover(df, value=task["value"], domain=task["domain_column"],
+                    domain_value=task["domain"], **cols, **opts)
+    if notes:
+        disc.warnings.extend(notes)
+    d = disc.to_dict()
+    S.atomic_write_json(dom_dir / "discovery.json", d)
+    check = None
+    check_dict = None
+    if task.get("interpretation"):
+        from anisotropy.check import check_interpretation
+
+        check = check_interpretation(disc, _interpretation(task["interpretation"], task["domain"]))
+        check_dict = check.to_dict()
+        S.atomic_write_json(dom_dir / "check.json", check_dict)
+    if task.get("report", True):
+        from anisotropy.report.html import render_report
+
+        render_report(disc, dom_dir, check=check, topcut=task.get("topcut"))
+    row["status"] = "ok"
+    return _row_from_result(row, d, check_dict)
+
+
+# ---------------------------------------------------------------------------
+# the batch
+# ---------------------------------------------------------------------------
+
+
+@dataclass
+class BatchResult:
+    """What a batch did.
+
+    Attributes
+    ----------
+    rows : list of dict
+        One summary row per domain (keys :data:`SUMMARY_COLUMNS`), in the
+        order of the domains.
+    out : Path
+        The output folder.
+    index : Path
+        ``out/index.html``.
+    ran : list of str
+        Domains run in this call.
+    resumed : list of str
+        Domains found complete on disk and not re-run.
+    seconds : float
+    """
+
+    rows: list
+    out: Path
+    index: Path
+    ran: list = field(default_factory=list)
+    resumed: list = field(default_factory=list)
+    seconds: float = 0.0
+
+    @property
+    def statuses(self) -> dict:
+        """``{domain: status}``."""
+        return {r["domain"]: r["status"] for r in self.rows}
+
+    def to_dict(self) -> dict:
+        """JSON-ready form (the content of ``summary.json``)."""
+        return S.json_ready({"schema": "anisotropy.batch/1", "out": str(self.out),
+                             "domains": self.rows, "ran": self.ran, "resumed": self.resumed,
+                             "seconds": round(self.seconds, 2)})
+
+    def to_frame(self):
+        """The summary as a pandas DataFrame."""
+        import pandas as pd
+
+        return pd.DataFrame(self.rows, columns=list(SUMMARY_COLUMNS))
+
+    def summary(self) -> str:
+        """A few lines for the terminal."""
+        counts = {}
+        for r in self.rows:
+            counts[r["status"]] = counts.get(r["status"], 0) + 1
+        text = ", ".join(f"{v} {k}" for k, v in sorted(counts.items()))
+        lines = [f"{len(self.rows)} domains: {text} ({len(self.ran)} run, "
+                 f"{len(self.resumed)} already done) in {self.seconds:.1f} s"]
+        for r in self.rows:
+            if r["status"] != "ok":
+                lines.append(f"  {r['domain']}: {r['status']} - {r['reason']}")
+        lines.append(f"index: {self.index}")
+        return "\n".join(lines)
+
+
+def _load_done(dom_dir: Path, fingerprint: str):
+    """The saved row of a complete domain with the same inputs, else None."""
+    try:
+        marker = json.loads((dom_dir / MARKER).read_text(encoding="utf-8"))
+        if marker.get("fingerprint") != fingerprint:
+            return None
+        return json.loads((dom_dir / ROW_FILE).read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return None
+
+
+def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None, config=None,
+              resume=False, min_samples=MIN_SAMPLES, report=True, progress=False,
+              x=None, y=None, z=None, hole=None, **discover_options) -> BatchResult:
+    """Discover (and check) the continuity of every domain of a sample table.
+
+    Parameters
+    ----------
+    data : path-like or pandas.DataFrame
+        The sample table (CSV or Parquet path, or a DataFrame).
+    value : str
+        Grade column.
+    domain : str
+        Domain column.
+    out : path-like
+        Output folder (created). Each domain gets a sub-folder with a safe
+        name (see :func:`anisotropy._safety.folder_names`).
+    domains : sequence of str, optional
+        Only these domains (as text, as in the table). Default: all.
+    jobs : int
+        Domains run at the same time on local processes (joblib); 1 runs
+        them one after another in this process.
+    scheduler : str or dask.distributed.Client, optional
+        Address of an existing Dask scheduler (or a client): the domains run
+        on that cluster instead of local processes.
+    config : path-like or mapping, optional
+        TOML config with per-domain overrides and interpretations (layout
+        in the module docstring).
+    resume : bool
+        Skip domains already complete in ``out`` with the same inputs and
+        options (a failed domain is always run again).
+    min_samples : int
+        Domains with fewer rows are recorded as skipped without running.
+    report : bool
+        Write ``report.html`` (and its PNGs) for every domain.
+    progress : bool
+        Print one line per finished domain.
+    x, y, z, hole : str, optional
+        Column names (detected when omitted, as in :func:`anisotropy.discover`).
+    **discover_options
+        Passed to :func:`anisotropy.discover` for every domain (for example
+        ``bootstrap=100``, ``transform="log"``, ``lag=10``, ``seed=1``);
+        config values override them.
+
+    Returns
+    -------
+    BatchResult
+
+    Raises
+    ------
+    InputError
+        The table, columns, domain names or config cannot be used.
+    """
+    import pandas as pd
+
+    from anisotropy.samples import domain_values, read_table
+
+    t0 = time.perf_counter()
+    if isinstance(data, pd.DataFrame):
+        df = data
+        source = df.attrs.get("source", "<table>")
+    else:
+        source = str(data)
+        df = read_table(data)
+    cfg = load_config(config)
+    all_domains = domain_values(df, domain)
+    if not all_domains:
+        raise InputError(f"'{source}': the domain column '{domain}' has no values; "
+                         "check the --domain column name")
+    col = _domain_column(df, domain, source)
+    codes = _domain_codes(df[col])
+    if domains is None:
+        selected = list(all_domains)
+    else:
+        selected = [str(d) for d in domains]
+        missing = [d for d in selected if d not in all_domains]
+        if missing:
+            raise InputError(
+                f"'{source}': domain(s) {missing} are not in column '{col}'; "
+                f"the domains are: {', '.join(all_domains[:30])}")
+    unknown_cfg = sorted(set(cfg["domain"]) - set(all_domains))
+    folders = S.folder_names(all_domains)
+    out = Path(out)
+    out.mkdir(parents=True, exist_ok=True)
+    columns = {k: v for k, v in {"x": x, "y": y, "z": z, "hole": hole}.items() if v is not None}
+
+    tasks, rows, resumed = [], {}, []
+    for name in selected:
+        over = dict(cfg["domain"].get(name, {}))
+        options = {**dict(discover_options), **cfg["options"],
+                   **{k: v for k, v in over.items() if k not in _OWN_KEYS}}
+        for k in ("skip", "interpretation", "min_samples"):
+            over.setdefault(k, cfg["options"].get(k))
+        topcut = over.get("topcut", cfg["options"].get("topcut"))
+        options.pop("topcut", None)
+        options.pop("skip", None)
+        options.pop("interpretation", None)
+        options.pop("min_samples", None)
+        options.setdefault("n_jobs", 1)
+        sub = df.loc[codes == name]
+        folder = folders[name]
+        task = {
+            "domain": name, "folder": folder, "dom_dir": str(S.inside(out, folder)),
+            "frame": sub, "value": value, "domain_column": col, "columns": columns,
+            "options": options, "interpretation": over.get("interpretation"),
+            "skip": bool(over.get("skip") or False), "n_rows": int(len(sub)),
+            "min_samples": int(over.get("min_samples") or min_samples), "report": bool(report),
+            "source": source, "topcut": None if topcut is None else float(topcut),
+        }
+        task["fingerprint"] = _fingerprint(task)
+        if resume:
+            done = _load_done(Path(task["dom_dir"]), task["fingerprint"])
+            if done is not None:
+                rows[name] = done
+                resumed.append(name)
+                continue
+        tasks.append(task)
+
+    for row in _execute(tasks, jobs=jobs, scheduler=scheduler, progress=progress):
+        rows[row["domain"]] = row
+
+    ordered = [rows[n] for n in selected]
+    result = BatchResult(rows=ordered, out=out, index=out / "index.html",
+                         ran=[t["domain"] for t in tasks], resumed=resumed,
+                         seconds=time.perf_counter() - t0)
+    summary = result.to_dict()
+    summary.update(source=source, value=value, domain_column=col,
+                   config=cfg.get("source"), config_domains_not_in_table=unknown_cfg)
+    S.atomic_write_csv(out / "summary.csv", ordered, SUMMARY_COLUMNS)
+    S.atomic_write_json(out / "summary.json", summary)
+    from anisotropy.report.index import render_index
+
+    render_index(ordered, out / "index.html", source=source, value=value,
+                 domain_column=col, notes=_notes(unknown_cfg))
+    return result
+
+
+def _notes(unknown_cfg):
+    if not unknown_cfg:
+        return []
+    return [f"the config names domain(s) not in the table, ignored: {', '.join(unknown_cfg)}"]
+
+
+def _domain_column(df, domain, source):
+    from anisotropy.samples import find_column
+
+    return find_column(df, domain, role="domain", option="--domain", source=source)
+
+
+def _domain_codes(series):
+    """Domain codes as text, compared the way :func:`anisotropy.samples.domain_values` lists them."""
+    from anisotropy.samples import domain_codes
+
+    return domain_codes(series)
+
+
+def _apply_topcut(df, value, topcut, source):
+    """Cap the grade column of one domain's rows at ``topcut``; returns (frame, n_capped)."""
+    import pandas as pd
+
+    from anisotropy.samples import find_column
+
+    col = find_column(df, value, role="grade", option="--value", source=source)
+    grades = pd.to_numeric(df[col], errors="coerce")
+    over = grades > topcut
+    n = int(over.sum())
+    if n:
+        df = df.copy()
+        df.loc[over, col] = topcut
+    return df, n
+
+
+def _execute(tasks: Sequence[Mapping], *, jobs, scheduler, progress):
+    if not tasks:
+        return []
+
+    def say(row):
+        if progress:
+            print(f"  {row['domain']}: {row['status']}"
+                  + (f" ({row['reason']})" if row["reason"] else "")
+                  + f" [{row['seconds']} s]", flush=True)
+        return row
+
+    if scheduler is not None:
+        return _execute_dask(tasks, scheduler, say)
+    if jobs is None or int(jobs) == 1 or len(tasks) == 1:
+        return [say(_run_domain(t)) for t in tasks]
+    from joblib import Parallel, delayed
+
+    n = int(jobs)
+    if n == 0:
+        raise InputError("--jobs must be a positive number of processes (or -1 for all cores)")
+    results = Parallel(n_jobs=n, backend="loky", return_as="generator_unordered")(
+        delayed(_run_domain)(t) for t in tasks)
+    return [say(r) for r in results]
+
+
+def _execute_dask(tasks, scheduler, say):
+    try:
+        from dask.distributed import Client, as_completed
+    except ImportError:
+        raise InputError("--scheduler needs dask.distributed: pip install 'anisotropy[distributed]'") from None
+    own = False
+    if isinstance(scheduler, Client):
+        client = scheduler
+    else:
+        try:
+            client = Client(scheduler, timeout="20s", set_as_default=False)
+        except (OSError, TimeoutError) as exc:
+            raise InputError(f"cannot reach the Dask scheduler at '{scheduler}': {exc}; "
+                             "check the address (tcp://host:8786) and that it is running") from None
+        own = True
+    try:
+        futures = [client.submit(_run_domain, t, pure=False, key=f"anisotropy-domain-{i}")
+                   for i, t in enumerate(tasks)]
+        return [say(f.result()) for f in as_completed(futures)]
+    finally:
+        if own:
+            client.close()
+
+
+# ---------------------------------------------------------------------------
+# the demo
+# ---------------------------------------------------------------------------
+
+DEMO_TABLE = "fenwright_composites.csv"
+DEMO_CONFIG = "demo_config.toml"
+
+
+def demo_paths() -> dict:
+    """Paths of the bundled invented deposit: composites, truth, demo config."""
+    here = Path(__file__).resolve().parent / "data"
+    return {"composites": here / DEMO_TABLE, "truth": here / "truth.json",
+            "config": here / DEMO_CONFIG}
+
+
+def run_demo(out="fenwright_demo", *, jobs=2, bootstrap=None, resume=False, progress=False,
+             **options) -> BatchResult:
+    """Batch over every domain of the invented Fenwright Hollow deposit.
+
+    Runs discover with bootstrap for each domain of the bundled composites
+    and checks the interpretations stated in the bundled config
+    (``anisotropy/data/demo_config.toml``).
+
+    Parameters
+    ----------
+    out : path-like
+        Output folder.
+    jobs : int
+        Local processes (domains at once).
+    bootstrap : int, optional
+        Replicates per domain (default: the config's).
+    resume : bool
+    progress : bool
+    **options
+        Further discover options.
+
+    Returns
+    -------
+    BatchResult
+    """
+    paths = demo_paths()
+    cfg = load_config(paths["config"])
+    if bootstrap is not None:
+        cfg["options"]["bootstrap"] = int(bootstrap)
+        for over in cfg["domain"].values():
+            over.pop("bootstrap", None)
+    cfg.pop("source", None)
+    return run_batch(paths["composites"], value="au_gpt", domain="domain", out=out,
+                     hole="hole_id", jobs=jobs, config=cfg, resume=resume, progress=progress,
+                     **options)

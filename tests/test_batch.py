@@ -1,0 +1,250 @@
+"""End-to-end tests of anisotropy.batch on a multi-domain table built from a simulated field.
+
+Domains: "alpha" (drill-hole strings through a simulated anisotropic
+field, with an interpretation to check), a hostile name (path traversal +
+markup), "tiny" (too small), "flat" (no variability), "broken" (an
+impossible interpretation). References outside the project: the standard
+library's ``csv`` and ``json`` readers, ``html.parser`` (what a browser
+sees), ``os.path.commonpath`` (containment), and the batch run on a Dask
+``LocalCluster`` (same rows as on local processes).
+"""
+
+import csv
+import json
+import os
+from html.parser import HTMLParser
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from anisotropy.batch import SUMMARY_COLUMNS, load_config, run_batch
+from anisotropy.errors import InputError
+
+HOSTILE = "../../<script>alert(1)</script>"
+ALL = ["alpha", HOSTILE, "tiny", "flat", "broken"]
+OPTIONS = {"bootstrap": 3, "fan_spacing": 12, "seed": 7}
+CONFIG = {
+    "options": dict(OPTIONS),
+    "domain": {
+        "alpha": {"interpretation": {"plane": "020/70", "pitch": 25}},
+        "broken": {"interpretation": {"plane": "200/95"}},  # a dip of 95 is impossible
+        "not_in_table": {"transform": "log"},
+    },
+}
+
+
+def _strings(rng, n_holes, per_hole, origin):
+    from anisotropy.geometry import line_to_vector
+
+    cx = origin[0] + rng.uniform(0, 140, n_holes)
+    cy = origin[1] + rng.uniform(0, 140, n_holes)
+    d = line_to_vector(rng.uniform(0, 360, n_holes), rng.uniform(55, 75, n_holes))
+    pts, holes = [], []
+    for h in range(n_holes):
+        for j in range(per_hole):
+            pts.append(np.array([cx[h], cy[h], 100.0]) + (4.0 * j + 2.0) * d[h])
+            holes.append(f"{origin[0]:.0f}-{h}")
+    return np.array(pts), holes
+
+
+def _table():
+    from anisotropy.geometry import frame_from_angles
+    from anisotropy.models import NestedModel, Structure
+    from anisotropy.simulate import simulate_field
+
+    rng = np.random.default_rng(11)
+    model = NestedModel(0.1, [Structure("spherical", 0.9, (80.0, 40.0, 15.0))],
+                        frame_from_angles(60, 20, 30))
+    parts = []
+    for k, (name, holes, per) in enumerate([("alpha", 12, 10), (HOSTILE, 12, 10), ("tiny", 2, 6),
+                                            ("flat", 4, 10), ("broken", 4, 10)]):
+        pts, hid = _strings(rng, holes, per, (1000.0 * k, 0.0))
+        if name == "flat":
+            grade = np.full(len(pts), 1.25)
+        else:
+            grade = np.round(np.exp(0.3 + 0.8 * simulate_field(pts, model, seed=k)), 3)
+        parts.append(pd.DataFrame({"hole": hid, "x": pts[:, 0], "y": pts[:, 1], "z": pts[:, 2],
+                                   "au": grade, "zone": name}))
+    return pd.concat(parts, ignore_index=True)
+
+
+@pytest.fixture(scope="module")
+def table():
+    return _table()
+
+
+@pytest.fixture(scope="module")
+def batch(tmp_path_factory, table):
+    root = tmp_path_factory.mktemp("batch")
+    out = root / "out"
+    res = run_batch(table, value="au", domain="zone", hole="hole", out=out, config=CONFIG, jobs=2)
+    return root, out, res
+
+
+def _rows(res):
+    return {r["domain"]: r for r in res.rows}
+
+
+def test_every_domain_has_a_row_with_the_right_status(batch):
+    root, out, res = batch
+    rows = _rows(res)
+    assert sorted(rows) == sorted(ALL)
+    assert rows["alpha"]["status"] == "ok" and rows[HOSTILE]["status"] == "ok"
+    assert rows["tiny"]["status"] == "skipped"
+    assert "too small" in rows["tiny"]["reason"] and "12 samples" in rows["tiny"]["reason"]
+    assert rows["flat"]["status"] == "skipped" and "no variability" in rows["flat"]["reason"]
+    assert rows["broken"]["status"] == "failed" and "interpretation" in rows["broken"]["reason"]
+    assert rows["alpha"]["verdict"] in ("consistent", "uncertain", "contradicted")
+    assert rows[HOSTILE]["verdict"] is None
+    for name in ("alpha", HOSTILE):
+        r = rows[name]
+        assert r["n_used"] == 120 and r["replicates"] and r["replicates"] >= 1
+        for key in ("plane_dip", "major_trend", "range_major", "nugget", "cone_major"):
+            assert r[key] is not None and np.isfinite(r[key])
+
+
+def test_summary_files_match_and_read_back(batch):
+    root, out, res = batch
+    # reference: the standard library csv and json readers
+    with open(out / "summary.csv", newline="", encoding="utf-8") as fh:
+        reader = csv.DictReader(fh)
+        assert tuple(reader.fieldnames) == SUMMARY_COLUMNS
+        csv_rows = list(reader)
+    js = json.loads((out / "summary.json").read_text(encoding="utf-8"))
+    assert [r["domain"] for r in csv_rows] == [r["domain"] for r in js["domains"]] \
+        == [r["domain"] for r in res.rows]
+    assert js["config_domains_not_in_table"] == ["not_in_table"]
+    for c, j in zip(csv_rows, js["domains"]):
+        assert c["status"] == j["status"] and c["reason"] == (j["reason"] or "")
+        if j["range_major"] is not None:
+            assert float(c["range_major"]) == pytest.approx(j["range_major"])
+    alpha = json.loads((out / "alpha" / "check.json").read_text())
+    assert alpha["verdict"] == _rows(res)["alpha"]["verdict"]
+    disc = json.loads((out / "alpha" / "discovery.json").read_text())
+    assert disc["schema"] == "anisotropy.discovery/1"
+    assert disc["axes"]["major"]["trend"] == pytest.approx(_rows(res)["alpha"]["major_trend"], abs=1e-3)
+
+
+def test_nothing_written_outside_out_and_folders_contained(batch):
+    root, out, res = batch
+    # everything under root is under out (reference: os.path.commonpath)
+    base = str(out.resolve())
+    for dirpath, dirnames, filenames in os.walk(root):
+        for f in filenames:
+            p = str((Path(dirpath) / f).resolve())
+            assert os.path.commonpath([base, p]) == base, p
+    folders = [r["folder"] for r in res.rows]
+    assert len(set(folders)) == len(folders)
+    assert sorted(p.name for p in out.iterdir() if p.is_dir()) == sorted(folders)
+    hostile = _rows(res)[HOSTILE]["folder"]
+    assert "/" not in hostile and ".." not in hostile and "<" not in hostile
+    assert (out / hostile / "report.html").is_file()
+    # no temporary files left behind by the atomic writes
+    assert not [p for p in out.rglob("*.part")]
+
+
+class _Scan(HTMLParser):
+    def __init__(self):
+        super().__init__()
+        self.tags, self.text, self.hrefs = [], [], []
+
+    def handle_starttag(self, tag, attrs):
+        self.tags.append(tag)
+        self.hrefs += [v for k, v in attrs if k in ("href", "src")]
+
+    def handle_data(self, data):
+        self.text.append(data)
+
+
+def _scan(path):
+    p = _Scan()
+    p.feed(Path(path).read_text(encoding="utf-8"))
+    p.close()
+    return p
+
+
+def test_hostile_name_is_text_in_every_page(batch):
+    root, out, res = batch
+    folder = _rows(res)[HOSTILE]["folder"]
+    for page in (out / "index.html", out / folder / "report.html"):
+        scan = _scan(page)
+        # reference: html.parser sees no script element, and the name as plain text
+        assert "script" not in scan.tags
+        assert any(HOSTILE in t for t in scan.text)
+    index = _scan(out / "index.html")
+    links = [h for h in index.hrefs if h.endswith("report.html")]
+    assert sorted(links) == sorted(f"{r['folder']}/report.html" for r in res.rows if r["status"] == "ok")
+    for h in index.hrefs:
+        assert not h.startswith(("http:", "https:", "/", "..")), h
+        assert (out / h).exists(), h
+
+
+def test_resume_reruns_nothing_then_only_what_changed(batch, table):
+    root, out, res = batch
+    before = {p: p.stat().st_mtime_ns for p in out.rglob("discovery.json")}
+    again = run_batch(table, value="au", domain="zone", hole="hole", out=out, config=CONFIG,
+                      jobs=2, resume=True)
+    # the failed domain is always tried again; the complete ones are not
+    assert again.ran == ["broken"]
+    assert sorted(again.resumed) == sorted(set(ALL) - {"broken"})
+    assert {p: p.stat().st_mtime_ns for p in out.rglob("discovery.json")} == before
+    assert [r["status"] for r in again.rows] == [r["status"] for r in res.rows]
+    # changing one domain's options re-runs that domain only
+    cfg = json.loads(json.dumps(CONFIG))
+    cfg["domain"]["tiny"] = {"skip": True}
+    third = run_batch(table, value="au", domain="zone", hole="hole", out=out, config=cfg,
+                      resume=True)
+    assert sorted(third.ran) == ["broken", "tiny"]
+    assert _rows(third)["tiny"]["reason"].startswith("skipped by the config")
+
+
+def test_dask_local_cluster_gives_the_same_summary(batch, table, tmp_path):
+    distributed = pytest.importorskip("dask.distributed")
+    root, out, res = batch
+    with distributed.LocalCluster(n_workers=1, threads_per_worker=2, processes=False,
+                                  dashboard_address=None) as cluster, \
+            distributed.Client(cluster) as client:
+        dres = run_batch(table, value="au", domain="zone", hole="hole", out=tmp_path / "dask",
+                         config=CONFIG, scheduler=client, report=False)
+    # same rows (the timing column aside) as the run on local processes (joblib)
+    strip = [{k: v for k, v in r.items() if k != "seconds"} for r in res.rows]
+    dstrip = [{k: v for k, v in r.items() if k != "seconds"} for r in dres.rows]
+    assert dstrip == strip
+
+
+def test_domain_selection_and_errors(table, tmp_path):
+    with pytest.raises(InputError, match="not in column"):
+        run_batch(table, value="au", domain="zone", out=tmp_path / "x", domains=["nope"])
+    with pytest.raises(InputError):
+        load_config({"option": {}})
+    bad = tmp_path / "bad.toml"
+    bad.write_text("[options\nbootstrap = 3\n")
+    with pytest.raises(InputError, match="not valid TOML"):
+        load_config(bad)
+    res = run_batch(table, value="au", domain="zone", hole="hole", out=tmp_path / "sel",
+                    domains=["tiny", "flat"])
+    assert [r["domain"] for r in res.rows] == ["tiny", "flat"]
+    assert sorted(p.name for p in (tmp_path / "sel").iterdir() if p.is_dir()) == ["flat", "tiny"]
+
+
+def test_cli_batch_and_resume(table, tmp_path, capsys):
+    from anisotropy.cli import main
+
+    src = tmp_path / "table.csv"
+    table.to_csv(src, index=False)
+    cfg = tmp_path / "cfg.toml"
+    cfg.write_text('[options]\nbootstrap = 2\n\n[domain."tiny"]\nmin_samples = 50\n')
+    out = tmp_path / "cli_out"
+    argv = [str(src), "--value", "au", "--domain", "zone", "--hole", "hole", "--out", str(out),
+            "--domains", "tiny,flat", "--config", str(cfg)]
+    code = main(["batch", *argv])
+    assert code == 1  # no domain ok: exit code says so
+    text = capsys.readouterr().out
+    assert "2 domains" in text and "index:" in text
+    rows = list(csv.DictReader(open(out / "summary.csv", newline="")))
+    assert {r["domain"]: r["status"] for r in rows} == {"tiny": "skipped", "flat": "skipped"}
+    assert "at least 50" in rows[[r["domain"] for r in rows].index("tiny")]["reason"]
+    main(["batch", *argv, "--resume"])
+    assert "(0 run, 2 already done)" in capsys.readouterr().out

@@ -1,0 +1,242 @@
+"""Tests of the report figures and the self-contained HTML report.
+
+References outside the project: the quadratic form of an ellipsoid (exact
+algebra) and NumPy's eigen-decomposition for the section ellipses; the
+angle between unit vectors (``numpy.arccos``) for the confidence cones;
+the PNG file structure (signature, IHDR chunk and its CRC-32, checked with
+``zlib.crc32`` from the standard library, and decoded by matplotlib's
+Pillow reader); ``html.parser`` for what a browser sees; headless Chromium
+when it is installed.
+"""
+
+import base64
+import io
+import shutil
+import struct
+import subprocess
+import zlib
+from html.parser import HTMLParser
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from anisotropy.geometry import equal_area, frame_from_angles, line_to_vector
+from anisotropy.report import figures as F
+
+PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # the PNG specification (ISO/IEC 15948), section 5.2
+
+
+def _assert_png(data: bytes):
+    assert data[:8] == PNG_SIGNATURE
+    length, kind = struct.unpack(">I4s", data[8:16])
+    assert kind == b"IHDR" and length == 13
+    body = data[12:16 + length]
+    crc = struct.unpack(">I", data[16 + length:20 + length])[0]
+    # chunk CRC-32 over type + data (PNG specification, section 5.3), via zlib
+    assert zlib.crc32(body) & 0xFFFFFFFF == crc
+    width, height = struct.unpack(">II", data[16:24])
+    import matplotlib.image as mpimg
+
+    img = mpimg.imread(io.BytesIO(data), format="png")
+    assert img.shape[:2] == (height, width) and width > 100 and height > 100
+    # not a blank image
+    assert float(np.ptp(img[..., :3])) > 0.2
+
+
+# ---------------------------------------------------------------------------
+# figure functions on plain arrays
+# ---------------------------------------------------------------------------
+
+
+def test_section_ellipse_lies_on_the_ellipsoid():
+    R = frame_from_angles(35, 25, 40)
+    r = np.array([120.0, 50.0, 12.0])
+    e_u, e_v = np.array([1.0, 0, 0]), np.array([0, 1.0, 0])
+    u, v = F.section_ellipse(R, r, e_u, e_v, n=73)
+    pts = u[:, None] * e_u + v[:, None] * e_v
+    # exact algebra: x^T R diag(1/r^2) R^T x = 1 on the ellipsoid surface
+    Q = R @ np.diag(1 / r ** 2) @ R.T
+    assert np.allclose(np.einsum("ni,ij,nj->n", pts, Q, pts), 1.0)
+    # the section's semi-axes are 1/sqrt of the eigenvalues of the 2x2 restriction (NumPy eigh)
+    B = np.stack([e_u, e_v], axis=1)
+    lam = np.linalg.eigvalsh(B.T @ Q @ B)
+    rad = np.hypot(u, v)
+    assert rad.max() == pytest.approx(1 / np.sqrt(lam[0]), rel=1e-3)
+    assert rad.min() == pytest.approx(1 / np.sqrt(lam[1]), rel=1e-2)
+
+
+def test_section_of_a_flat_lying_ellipsoid_in_plan_is_major_by_semi():
+    # major horizontal toward 030, minor vertical: the plan section has semi-axes
+    # equal to the major and semi-major ranges (exact geometry)
+    R = frame_from_angles(30, 0, 0)
+    u, v = F.section_ellipse(R, [100.0, 40.0, 5.0], [1, 0, 0], [0, 1, 0], n=721)
+    rad = np.hypot(u, v)
+    assert rad.max() == pytest.approx(100.0, rel=1e-4)
+    assert rad.min() == pytest.approx(40.0, rel=1e-4)
+    k = int(np.argmax(rad))
+    az = np.degrees(np.arctan2(u[k], v[k])) % 180
+    assert az == pytest.approx(30.0, abs=0.5)
+
+
+def test_small_circle_is_at_the_cone_radius():
+    axis = line_to_vector(120.0, 35.0)
+    pts = F._small_circle(axis, 17.0, n=50)
+    ang = np.degrees(np.arccos(np.clip(pts @ axis, -1, 1)))
+    assert np.allclose(ang, 17.0)
+
+
+def test_figures_return_figures_and_write_pngs(tmp_path):
+    rng = np.random.default_rng(3)
+    R = frame_from_angles(50, 20, 10)
+    axes = {k: R[:, i] for i, k in enumerate(("major", "semi_major", "minor"))}
+    vals = rng.random((21, 25))
+    fig = F.variogram_map_figure(vals, (-125, 125, -105, 105), np.full((21, 25), 4),
+                                 ellipse=F.section_ellipse(R, [90, 40, 10], [1, 0, 0], [0, 1, 0]),
+                                 path=tmp_path / "map.png", title="plan",
+                                 xlabel="east (m)", ylabel="north (m)")
+    ax = fig.axes[0]
+    assert ax.get_xlabel() == "east (m)" and "100 pairs" in ax.get_title().replace(",", "")
+    clouds = {k: v + 0.05 * rng.standard_normal((30, 3)) for k, v in axes.items()}
+    fig = F.stereonet_figure(axes, clouds=clouds, cones={"major": 8, "semi_major": 20, "minor": 85},
+                             interpreted={"major": line_to_vector(55, 25)},
+                             interpreted_plane=R[:, 2], confidence=0.9, path=tmp_path / "net.png")
+    labels = [t.get_text() for t in fig.axes[0].get_legend().get_texts()]
+    assert any(lab.startswith("major 050/20") for lab in labels)
+    assert any("interpreted major 055/25" in lab for lab in labels)
+    assert any("90 % cone" in lab for lab in labels)
+    # the major marker sits at the equal-area projection of the axis (geometry.equal_area)
+    x, y = equal_area(R[:, 0])
+    lines = [ln for ln in fig.axes[0].get_lines() if ln.get_label().startswith("major 050")]
+    assert np.allclose(lines[0].get_xydata()[0], [x, y])
+    d = np.arange(1, 9) * 10.0
+    curves = [{"label": k, "axis": k, "distance": d, "value": 1 - np.exp(-d / 30),
+               "pairs": np.full(8, 40), "lo": 0.8 * (1 - np.exp(-d / 30)), "hi": 1 - np.exp(-d / 40),
+               "model_distance": d, "model_value": 1 - np.exp(-d / 30)} for k in axes]
+    curves.append({"label": "000/00", "distance": d, "value": 1 - np.exp(-d / 20),
+                   "pairs": np.full(8, 9)})
+    fig = F.directional_variograms_figure(curves, sill=1.0, path=tmp_path / "dir.png")
+    assert len(fig.axes) == 4 and all(a.get_xlabel() == "lag distance (m)" for a in fig.axes)
+    rows = F.model_table_rows({"nugget": 0.2, "structures": [
+        {"type": "spherical", "sill": 0.8, "ranges": {"major": 120, "semi_major": 60, "minor": 9}}]},
+        {"major": {"trend": 50, "plunge": 20}})
+    assert rows[0]["type"] == "nugget" and rows[0]["sill"] == "0.2"
+    assert rows[1]["range major (m)"] == "120.0" and rows[1]["major trend/plunge"] == "050.0/20.0"
+    F.model_table_figure(rows, path=tmp_path / "table.png")
+    for name in ("map", "net", "dir", "table"):
+        _assert_png((tmp_path / f"{name}.png").read_bytes())
+
+
+# ---------------------------------------------------------------------------
+# the HTML report of a real (small) discovery
+# ---------------------------------------------------------------------------
+
+EVIL_VALUE = "au<script>x</script>"
+EVIL_DOMAIN = "<img src=x onerror=alert(1)>"
+
+
+def _small_table():
+    from anisotropy.models import NestedModel, Structure
+    from anisotropy.simulate import simulate_field
+
+    rng = np.random.default_rng(5)
+    n_holes, per = 14, 10
+    cx, cy = rng.uniform(0, 150, n_holes), rng.uniform(0, 150, n_holes)
+    d = line_to_vector(rng.uniform(0, 360, n_holes), rng.uniform(55, 75, n_holes))
+    pts = np.array([[cx[h], cy[h], 100.0] + (4.0 * j + 2.0) * d[h]
+                    for h in range(n_holes) for j in range(per)])
+    model = NestedModel(0.1, [Structure("spherical", 0.9, (90.0, 40.0, 15.0))],
+                        frame_from_angles(60, 20, 30))
+    g = np.round(np.exp(0.3 + 0.8 * simulate_field(pts, model, seed=2)), 3)
+    return pd.DataFrame({"hole": [f"H{h}" for h in range(n_holes) for _ in range(per)],
+                         "x": pts[:, 0], "y": pts[:, 1], "z": pts[:, 2], EVIL_VALUE: g,
+                         "zone": EVIL_DOMAIN})
+
+
+@pytest.fixture(scope="module")
+def report(tmp_path_factory):
+    from anisotropy.check import Interpretation, check_interpretation
+    from anisotropy.discover import discover
+    from anisotropy.report.html import render_report
+
+    df = _small_table()
+    disc = discover(df, value=EVIL_VALUE, domain="zone", domain_value=EVIL_DOMAIN, hole="hole",
+                    bootstrap=3, fan_spacing=12, seed=1)
+    chk = check_interpretation(disc, Interpretation.from_plane(20, 70, 25))
+    out = tmp_path_factory.mktemp("report")
+    path = render_report(disc, out, check=chk, topcut=float(np.quantile(df[EVIL_VALUE], 0.98)))
+    return path
+
+
+class _Page(HTMLParser):
+    def __init__(self):
+        super().__init__()
+        self.tags, self.imgs, self.ids, self.text, self.refs = [], [], set(), [], []
+
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs)
+        self.tags.append(tag)
+        if "id" in a:
+            self.ids.add(a["id"])
+        if tag == "img":
+            self.imgs.append(a)
+        self.refs += [v for k, v in attrs if k in ("href", "src")]
+
+    def handle_data(self, data):
+        self.text.append(data)
+
+
+def _parse(path):
+    p = _Page()
+    p.feed(Path(path).read_text(encoding="utf-8"))
+    p.close()
+    return p
+
+
+def test_report_parses_and_every_figure_is_an_embedded_png(report):
+    from anisotropy.report.html import REPORT_FIGURES
+
+    page = _parse(report)
+    assert page.tags[0] == "html" and "body" in page.tags
+    for key in REPORT_FIGURES:
+        assert f"fig-{key}" in page.ids, key
+    assert len(page.imgs) == len(REPORT_FIGURES)
+    for img in page.imgs:
+        src = img["src"]
+        assert src.startswith("data:image/png;base64,")
+        data = base64.b64decode(src.split(",", 1)[1], validate=True)
+        _assert_png(data)
+    # the PNG files beside the report are the same images
+    for key in REPORT_FIGURES:
+        _assert_png((report.parent / "figures" / f"{key}.png").read_bytes())
+    # self-contained: nothing fetched from elsewhere
+    assert all(r.startswith("data:") for r in page.refs)
+    assert "could not be drawn" not in report.read_text()
+
+
+def test_report_content_and_escaping(report):
+    page = _parse(report)
+    text = " ".join(page.text)
+    # html.parser sees the hostile value and domain names only as text
+    assert "script" not in page.tags and page.tags.count("img") == len(page.imgs)
+    assert all(img.get("onerror") is None for img in page.imgs)
+    assert EVIL_VALUE in text and EVIL_DOMAIN in text
+    for needed in ("JORC", "NI 43-101", "SAMREC", "PERC", "competent or qualified person",
+                   "domaining", "Samples dropped or changed", "top-cut", "Transform",
+                   "Model for estimation", "range major (m)", "Verdict", "Warnings",
+                   "bootstrap"):
+        assert needed in text, needed
+
+
+@pytest.mark.skipif(not (shutil.which("chromium") or Path("/usr/bin/chromium").exists()),
+                    reason="Chromium is not installed")
+def test_report_draws_in_headless_chromium(report, tmp_path):
+    exe = shutil.which("chromium") or "/usr/bin/chromium"
+    shot = tmp_path / "shot.png"
+    proc = subprocess.run([exe, "--headless", "--no-sandbox", "--disable-gpu",
+                           "--disable-background-networking", f"--screenshot={shot}",
+                           "--window-size=1200,3000", report.resolve().as_uri()],
+                          capture_output=True, timeout=120)
+    assert proc.returncode == 0, proc.stderr.decode(errors="replace")[-2000:]
+    _assert_png(shot.read_bytes())
