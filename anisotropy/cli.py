@@ -312,7 +312,7 @@ def _add_demo(p: argparse.ArgumentParser) -> None:
 
 def _cmd_demo(args) -> int:
     """Run the whole chain on the invented Fenwright Hollow deposit and print where the index is."""
-    from anisotropy.demo import run_demo
+    from anisotropy.batch import run_demo
 
     res = run_demo(args.out, jobs=args.jobs, bootstrap=args.bootstrap, resume=args.resume,
                    progress=True)
