@@ -76,6 +76,7 @@ __all__ = [
     "model_bootstrap",
     "choose_block_grouping",
     "resample_weights",
+    "engine_block_side",
     "reweighted_sums",
     "percentile_interval",
     "bca_interval",
@@ -87,6 +88,7 @@ __all__ = [
     "match_frame",
     "match_frames",
     "trend_plunge_intervals",
+    "fixed_frame_objectives",
 ]
 
 AXIS_NAMES = ("major", "semi_major", "minor")
@@ -584,6 +586,46 @@ def choose_block_grouping(volume, major_range=None, *, min_blocks=MIN_BLOCKS):
     return BlockGrouping(factor, [float(s) for s in side], gob, n, reason, warnings)
 
 
+def engine_block_side(coords, *, target_blocks=4 * MIN_BLOCKS, max_side=None):
+    """Block side for the pair engine so that the block bootstrap has room to work.
+
+    The pair engine's blocks are the smallest units the bootstrap can
+    resample; :func:`choose_block_grouping` later groups them into blocks as
+    large as the fitted range allows. This picks the largest cube side
+    (shrinking by 20 % steps from half the largest extent) that puts the
+    samples in at least ``target_blocks`` occupied cubes (default 100, four
+    times :data:`MIN_BLOCKS`, so that grouping still leaves 25 or more).
+
+    Parameters
+    ----------
+    coords : array_like, shape (n, 3)
+    target_blocks : int
+    max_side : float, optional
+        Never return more than this (e.g. the longest lag).
+
+    Returns
+    -------
+    float
+        Side in metres, to pass as ``blocks=`` to
+        :func:`anisotropy.pairs.build_volume`.
+    """
+    c = np.asarray(coords, dtype=float)
+    c = c[np.all(np.isfinite(c), axis=1)]
+    if len(c) < 2:
+        raise InsufficientDataError("fewer than 2 located samples: no blocks to resample")
+    lo = c.min(axis=0)
+    ext = float(np.max(c.max(axis=0) - lo))
+    if ext <= 0:
+        raise InsufficientDataError("all samples share one location: no blocks to resample")
+    side = ext / 2.0 if max_side is None else min(ext / 2.0, float(max_side))
+    for _ in range(60):
+        occ = len(np.unique(np.floor((c - lo) / side).astype(np.int64), axis=0))
+        if occ >= target_blocks or occ >= len(c) // 4:
+            break
+        side *= 0.8
+    return float(side)
+
+
 def resample_weights(n_groups, n_replicates, seed=0):
     """Multinomial block counts for every replicate, drawn up front from one generator.
 
@@ -700,6 +742,7 @@ class BootstrapResult:
     seconds: float = 0.0
     warnings: list = field(default_factory=list)
     calibration: float = 1.0
+    group_of_block: np.ndarray | None = None
 
     # -- derived -----------------------------------------------------------
     @property
@@ -833,7 +876,7 @@ class BootstrapResult:
 
     def summary(self) -> str:
         d = self.to_dict()
-        lines = [f"uncertainty: {d['method']} bootstrap, {d['replicates']} replicates "
+        lines = [f"uncertainty: {d['method'].replace('_', ' ')}, {d['replicates']} replicates "
                  f"({d['failed']} failed), {100 * d['confidence']:.0f} % bands"]
         for name in AXIS_NAMES:
             a = d[name]
@@ -1096,13 +1139,69 @@ def block_bootstrap(volume, refit: Callable, reference, *, n_replicates=DEFAULT_
                           distances=lags, n_requested=int(n_replicates), n_failed=n_failed,
                           failures=failures, blocks=grouping.to_dict(),
                           seed=seed if isinstance(seed, int) else None,
-                          warnings=warnings, calibration=float(calibration), **arrays)
+                          warnings=warnings, calibration=float(calibration),
+                          group_of_block=grouping.group_of_block, **arrays)
     if not keep_experimental:
         res.experimental = None
     res.seconds = time.perf_counter() - t0
     if progress:
         print(f"bootstrap blocks: {grouping.reason}", file=sys.stderr)
     return res
+
+
+def _fixed_chunk(block_sums, weights, refit, frame, start):
+    out = []
+    for w in weights:
+        try:
+            _, obj = refit(reweighted_sums(block_sums, w), fixed_frame=frame, start=start)
+            out.append(float(obj))
+        except Exception:  # noqa: BLE001 - counted by the caller as NaN
+            out.append(math.nan)
+    return out
+
+
+def fixed_frame_objectives(result, volume, refit, frame, *, max_replicates=100, n_jobs=1,
+                           scheduler=None, progress=False):
+    """Refit block-bootstrap replicates with the frame held fixed.
+
+    Used by :mod:`anisotropy.check` to place the objective ratio of an
+    interpretation (fixed-frame fit over free fit) in the distribution of the
+    same ratio when the frame is fixed to the reported one in every
+    replicate.
+
+    Parameters
+    ----------
+    result : BootstrapResult
+        A block bootstrap (it keeps the block counts of every replicate).
+    volume : LagVolume
+        The volume the bootstrap resampled.
+    refit : callable
+        As for :func:`block_bootstrap`.
+    frame : array_like, shape (3, 3)
+        The frame to hold fixed.
+    max_replicates : int
+        Use the first this many replicates (the fits are the expensive part).
+
+    Returns
+    -------
+    fixed : ndarray, shape (m,)
+        Fixed-frame objectives (NaN where the fit failed).
+    free : ndarray, shape (m,)
+        The replicates' own (free) objectives.
+    """
+    if result.counts is None or result.group_of_block is None:
+        raise InputError("only a block bootstrap keeps the block counts needed to refit its "
+                         "replicates; run the block bootstrap")
+    m = min(int(max_replicates), result.n_replicates)
+    weights = block_weights_from_groups(result.counts[:m], result.group_of_block)
+    block_sums = np.ascontiguousarray(volume.block_sums, dtype=float)
+    n_chunks = 1 if (n_jobs == 1 and scheduler is None) else max(1, min(m, 8))
+    chunks = [c for c in np.array_split(np.arange(m), n_chunks) if len(c)]
+    frame = np.asarray(frame, dtype=float)
+    payloads = [(block_sums, weights[c], refit, frame, result.reference) for c in chunks]
+    res = _run_replicates(_fixed_chunk, payloads, n_jobs=n_jobs, scheduler=scheduler,
+                          progress=progress, label="fixed-frame refits")
+    return np.asarray([o for r in res for o in r], dtype=float), result.objectives[:m].copy()
 
 
 def _model_chunk(coords, fields, transform, build_kwargs, refit, start, estimator):

@@ -1,0 +1,216 @@
+"""Tests of anisotropy.check: structural notation, impossible interpretations, verdicts.
+
+Outside references:
+* the structural-geology conventions of design.md (pole of a plane dipping d
+  towards D has trend D + 180, plunge 90 - d; a line with pitch p lies in the
+  plane) checked by brute force with numpy (dot products, cross products);
+* scipy.spatial.transform.Rotation to rotate a known frame by 40 degrees;
+* a simulated Gaussian field with a known model (anisotropy.simulate, itself
+  tested against the covariance it is built from) for the verdicts.
+"""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pytest
+from scipy.spatial.transform import Rotation
+
+from anisotropy.check import (DEFAULT_THRESHOLDS, Interpretation, check_interpretation,
+                              parse_orientation)
+from anisotropy.errors import InputError, InterpretationError
+from anisotropy.geometry import axis_angle, frame_from_angles, line_to_vector
+
+
+# ---------------------------------------------------------------------------
+# notation and geometry (fast)
+# ---------------------------------------------------------------------------
+
+@pytest.mark.parametrize("text,expected", [("150/70", (150.0, 70.0)), ("060/20", (60.0, 20.0)),
+                                           (" 5.5 / 0 ", (5.5, 0.0))])
+def test_parse_orientation(text, expected):
+    assert parse_orientation(text) == expected
+
+
+@pytest.mark.parametrize("bad", ["150", "150-70", "a/b", "150/70/3", ""])
+def test_parse_orientation_refuses(bad):
+    with pytest.raises(InterpretationError):
+        parse_orientation(bad)
+
+
+def test_plane_pole_by_hand():
+    it = Interpretation.from_plane(150.0, 70.0)
+    assert it.kind == "plane" and it.frame is None
+    # design.md: pole trend = dip direction + 180, plunge = 90 - dip
+    pole = line_to_vector(330.0, 20.0)
+    assert axis_angle(it.axes["minor"], pole) < 1e-9
+
+
+def test_plane_with_pitch_lies_in_plane():
+    it = Interpretation.from_plane(150.0, 70.0, pitch=35.0)
+    F = it.frame
+    # brute force: orthonormal, right-handed, major and semi-major in the plane
+    assert np.allclose(F.T @ F, np.eye(3), atol=1e-12)
+    assert np.linalg.det(F) == pytest.approx(1.0)
+    n = line_to_vector(330.0, 20.0)
+    assert abs(F[:, 0] @ n) < 1e-9 and abs(F[:, 1] @ n) < 1e-9
+    # pitch 35 from the strike (060, horizontal) towards the dip direction:
+    # cos(angle to strike) = cos 35
+    strike = line_to_vector(60.0, 0.0)
+    assert abs(F[:, 0] @ strike) == pytest.approx(np.cos(np.radians(35.0)))
+
+
+def test_axes_interpretation_frame():
+    it = Interpretation.from_axes("060/20", "240/70")
+    # 060/20 and 240/70 are perpendicular (dot product zero, brute force)
+    assert abs(line_to_vector(60, 20) @ line_to_vector(240, 70)) < 1e-12
+    assert axis_angle(it.frame[:, 0], line_to_vector(60, 20)) < 1e-9
+    assert axis_angle(it.frame[:, 2], line_to_vector(240, 70)) < 1e-9
+
+
+def test_non_perpendicular_pair_refused_with_its_angle():
+    # 060/20 and 150/70 are 71.3 degrees apart (arccos of the dot product,
+    # brute force), so they cannot be a major and a minor axis
+    ang = np.degrees(np.arccos(abs(line_to_vector(60, 20) @ line_to_vector(150, 70))))
+    with pytest.raises(InterpretationError, match=f"{ang:.1f} degrees"):
+        Interpretation.from_axes("060/20", "150/70")
+
+
+@pytest.mark.parametrize("call,fragment", [
+    (lambda: Interpretation.from_plane(150, 95), "between 0 and 90"),
+    (lambda: Interpretation.from_plane(150, -5), "between 0 and 90"),
+    (lambda: Interpretation.from_plane(150, 70, pitch=200), "pitch"),
+    (lambda: Interpretation.from_plane(150, 70, major="150/10"), "out of the plane"),
+    (lambda: Interpretation.from_plane(150, 70, pitch=10, major="060/00"), "not both"),
+    (lambda: Interpretation.from_axes("060/20", "080/70"), "perpendicular"),
+    (lambda: Interpretation.from_axes("060/120"), "between 0 and 90"),
+    (lambda: Interpretation.from_axes("060/20", "060/20"), "perpendicular"),
+])
+def test_impossible_interpretations_refused(call, fragment):
+    with pytest.raises(InterpretationError, match=fragment):
+        call()
+
+
+def test_major_within_plane_tolerance_accepted():
+    # strike line of plane 150/70 is 060/00; 3 degrees of plunge is within 5
+    it = Interpretation.from_plane(150, 70, major="060/03")
+    assert it.kind == "plane+pitch" and it.pitch is not None
+    # the 060 strike direction of a plane dipping SE: pitch close to 0 or 180
+    assert min(it.pitch, 180 - it.pitch) < 10
+
+
+def test_minor_tolerance_boundary():
+    maj = line_to_vector(60, 0)
+    ok = Rotation.from_rotvec(np.radians(4.0) * maj).apply(line_to_vector(150, 0))
+    tilt = np.cross(maj, [0, 0, 1.0])
+    near = Rotation.from_rotvec(np.radians(4.0) * tilt / np.linalg.norm(tilt)).apply(
+        line_to_vector(150, 0))
+    far = Rotation.from_rotvec(np.radians(8.0) * np.array([0, 0, 1.0])).apply(
+        line_to_vector(150, 0))
+    Interpretation.from_axes(maj, ok)        # rotated about the major: still perpendicular
+    Interpretation.from_axes(maj, near)      # 4 deg from perpendicular: within 5
+    with pytest.raises(InterpretationError):
+        Interpretation.from_axes(maj, far)   # 8 deg from perpendicular
+
+
+def test_thresholds_validated():
+    with pytest.raises(InputError):
+        check_interpretation(object(), Interpretation.from_plane(0, 10), thresholds={"nope": 1})
+
+
+# ---------------------------------------------------------------------------
+# verdicts on a simulated field (the lean chain: pair engine + joint fit)
+# ---------------------------------------------------------------------------
+
+class _Chain:
+    """Discovery-like object: pair engine volume, joint fit, refit_function()."""
+
+    def __init__(self, n=1500, seed=1):
+        from anisotropy.fitting import bins_from_sums, fit_nested
+        from anisotropy.geometry import fan_for_spacing
+        from anisotropy.models import NestedModel, Structure
+        from anisotropy.pairs import build_volume
+        from anisotropy.simulate import simulate_field
+        from anisotropy.uncertainty import block_bootstrap, engine_block_side
+
+        rng = np.random.default_rng(seed)
+        coords = rng.uniform(0, (300, 300, 120), size=(n, 3))
+        self.truth_frame = frame_from_angles(60.0, 20.0, 10.0)
+        truth = NestedModel(nugget=0.1, structures=[Structure("spherical", 0.9,
+                                                              (150.0, 80.0, 40.0))],
+                            frame=self.truth_frame)
+        v = simulate_field(coords, truth, seed=3)
+        self.volume_ = build_volume(coords, v, lag=10.0, n_lags=12,
+                                    coarse_directions=fan_for_spacing(20.0),
+                                    blocks=engine_block_side(coords), progress=False,
+                                    map_cell=False)
+        total = float(np.var(v))
+
+        def refit(sums, *, fixed_frame=None, start=None):
+            f = fit_nested(bins_from_sums(sums, min_pairs=10), start, fixed_frame=fixed_frame,
+                           total_sill=total, max_nfev=200)
+            return f.model, float(f.objective)
+
+        self._refit = refit
+        start = NestedModel(nugget=0.3, structures=[Structure("spherical", 0.7,
+                                                              (100.0, 80.0, 60.0))],
+                            frame=np.eye(3))
+        self.model, _ = refit(self.volume_.coarse_sums(), start=start)
+        self.frame = np.asarray(self.model.frame)
+        self.uncertainty = block_bootstrap(self.volume_, refit, self.model, n_replicates=40,
+                                           seed=0)
+
+    def refit_function(self):
+        return self._refit
+
+
+@pytest.fixture(scope="module")
+def chain():
+    return _Chain()
+
+
+@pytest.mark.slow
+def test_correct_interpretation_is_consistent(chain):
+    F = chain.truth_frame
+    assert axis_angle(chain.frame[:, 0], F[:, 0]) < 15  # the fit itself found the truth
+    it = Interpretation.from_axes(F[:, 0], F[:, 2])
+    res = check_interpretation(chain, it, thresholds={"max_ratio_replicates": 30})
+    assert res.verdict == "consistent", res.summary()
+    d = json.loads(json.dumps(res.to_dict()))
+    assert d["verdict"] == "consistent"
+    assert set(d["angles"]) == {"major", "semi_major", "minor"}
+    assert d["fit"]["ratio"] >= 0.99  # a fixed frame cannot fit better than the free one
+    assert "thresholds" in res.summary()
+
+
+@pytest.mark.slow
+def test_interpretation_40_degrees_off_is_contradicted(chain):
+    F = chain.truth_frame
+    # rotate the true frame 40 degrees about its semi-major axis (scipy Rotation):
+    # major and minor axes both move 40 degrees
+    R = Rotation.from_rotvec(np.radians(40.0) * F[:, 1]).as_matrix() @ F
+    assert axis_angle(R[:, 0], F[:, 0]) == pytest.approx(40.0)
+    it = Interpretation.from_axes(R[:, 0], R[:, 2])
+    res = check_interpretation(chain, it, thresholds={"max_ratio_replicates": 30})
+    assert res.verdict == "contradicted", res.summary()
+    assert res.support["major"]["outside"] and res.fit["worse"]
+
+
+@pytest.mark.slow
+def test_plane_only_checks_the_pole(chain):
+    from anisotropy.geometry import pole_to_plane
+
+    dd, dip = pole_to_plane(chain.truth_frame[:, 2])
+    res = check_interpretation(chain, Interpretation.from_plane(dd, dip),
+                               thresholds={"max_ratio_replicates": 20})
+    assert set(res.angles) == {"minor"}
+    assert res.verdict in ("consistent", "uncertain")
+    assert any("plane only" in r for r in res.reasons)
+
+
+def test_default_thresholds_documented():
+    import anisotropy.check as C
+
+    for key in ("confidence", "practical_deg", "ratio_share", "swap_rate"):
+        assert key in DEFAULT_THRESHOLDS and key in C.__doc__
