@@ -205,9 +205,178 @@ def _cmd_explore(args) -> int:
 # <<< explore
 
 # >>> discover
+def _add_discover(p: argparse.ArgumentParser) -> None:
+    """Options of ``anisotropy discover``."""
+    _add_input_options(p)
+    g = p.add_argument_group("variography")
+    g.add_argument("--transform", default="auto",
+                   choices=["auto", "normal_score", "raw", "log", "indicator"],
+                   help="transform before variography (default auto: normal scores when the "
+                        "grades are skewed, CV > 1 or skewness > 1)")
+    g.add_argument("--threshold", type=float, metavar="GRADE",
+                   help="indicator threshold (with --transform indicator; default the median)")
+    g.add_argument("--estimator", default="semivariogram",
+                   choices=["semivariogram", "correlogram", "pairwise_relative", "madogram",
+                            "robust"],
+                   help="experimental estimator (default semivariogram)")
+    g.add_argument("--structures", default="auto", choices=["auto", "1", "2", "3"],
+                   help="number of nested structures (default auto: chosen by a penalised "
+                        "criterion)")
+    g.add_argument("--kind", action="append", metavar="KIND",
+                   choices=["spherical", "exponential", "gaussian", "cubic"],
+                   help="structure kind (repeat per structure; default the better of "
+                        "spherical and exponential)")
+    g.add_argument("--lag", type=float, metavar="M", help="unit lag in metres (default from "
+                   "the sample spacing)")
+    g.add_argument("--n-lags", type=int, metavar="N", help="number of lags (default: out to "
+                   "half the domain extent)")
+    g.add_argument("--angular-tolerance", type=float, metavar="DEG",
+                   help="half-angle of the fan's direction cones (default 15, widened to 30 "
+                        "where pairs are thin)")
+    g.add_argument("--bandwidth", type=float, metavar="M", help="fan bandwidth in metres")
+    g.add_argument("--seed", type=int, default=0, help="seed of every random step (default 0)")
+    g = p.add_argument_group("uncertainty")
+    g.add_argument("--bootstrap", type=int, default=0, metavar="N",
+                   help="block-bootstrap replicates for confidence cones (default 0 = none; "
+                        "200 is common practice)")
+    g.add_argument("--confidence", type=float, default=0.9, metavar="P",
+                   help="confidence of the cones and intervals (default 0.9)")
+    g.add_argument("--jobs", type=int, default=1, metavar="N",
+                   help="processes for the bootstrap (default 1; -1 = every core)")
+    _add_output_option(p, "discovery")
+
+
+def _cmd_discover(args) -> int:
+    """Propose the 3D continuity model of one grade in one domain."""
+    from pathlib import Path
+
+    from anisotropy.discover import discover
+
+    if args.bootstrap < 0:
+        raise InputError(f"--bootstrap must be zero or a positive number; got {args.bootstrap}")
+    if not 0 < args.confidence < 1:
+        raise InputError(f"--confidence must lie between 0 and 1; got {args.confidence}")
+    samples = _read_samples_from_args(args)
+    structures = "auto" if args.structures == "auto" else int(args.structures)
+    result = discover(samples, transform=args.transform, estimator=args.estimator,
+                      structures=structures, kinds=args.kind, lag=args.lag, n_lags=args.n_lags,
+                      angular_tolerance=args.angular_tolerance, bandwidth=args.bandwidth,
+                      bootstrap=args.bootstrap, confidence=args.confidence, seed=args.seed,
+                      n_jobs=args.jobs, threshold=args.threshold, progress=True)
+    print(result.summary())
+    out = Path(args.out)
+    out.mkdir(parents=True, exist_ok=True)
+    path = result.to_json(out / "discovery.json")
+    print(f"\nwritten: {path}")
+    return EXIT_OK
 # <<< discover
 
 # >>> check
+#: Replicates by default when a command asks for bands: enough for stable 90 %
+#: percentile bands at a refit per replicate (common practice; Efron &
+#: Tibshirani 1993, ch. 19, ask for more for very precise intervals).
+DEFAULT_BOOTSTRAP = 200
+
+
+def _add_bootstrap_options(p: argparse.ArgumentParser, *, default: int = DEFAULT_BOOTSTRAP) -> None:
+    """The bootstrap option group (``--bootstrap``, ``--confidence``, ``--jobs``, ``--scheduler``)."""
+    g = p.add_argument_group("uncertainty")
+    g.add_argument("--bootstrap", type=int, default=default, metavar="N",
+                   help=f"block-bootstrap replicates for the confidence cones and intervals "
+                        f"(default {default}: enough for stable 90 %% bands, common practice; "
+                        "0 = off)")
+    g.add_argument("--confidence", type=float, default=0.9, metavar="P",
+                   help="confidence of the cones and intervals (default 0.9)")
+    g.add_argument("--jobs", type=int, default=1, metavar="N",
+                   help="processes for the bootstrap (default 1; -1 = every core)")
+    g.add_argument("--scheduler", metavar="ADDRESS",
+                   help="run the bootstrap replicates on the Dask cluster at this address "
+                        "(e.g. tcp://10.0.0.5:8786)")
+
+
+def _add_check(p: argparse.ArgumentParser) -> None:
+    """Options of ``anisotropy check``: the discover options plus the interpretation."""
+    _add_discover(p)
+    have = {a.dest: a for a in p._actions}
+    if "bootstrap" not in have:
+        _add_bootstrap_options(p)
+    else:  # the discover command's own group: the check needs replicates by default
+        have["bootstrap"].default = DEFAULT_BOOTSTRAP
+        have["bootstrap"].help = (f"block-bootstrap replicates the check weighs the "
+                                  f"interpretation against (default {DEFAULT_BOOTSTRAP}, "
+                                  "common practice; at least 20)")
+        if "scheduler" not in have:
+            p.add_argument("--scheduler", metavar="ADDRESS",
+                           help="run the bootstrap replicates on the Dask cluster at this "
+                                "address")
+    if "out" in have:
+        have["out"].default = "check"
+        have["out"].help = "folder for discovery.json and check.json (default: check)"
+    g = p.add_argument_group("interpretation (structural notation, degrees)")
+    g.add_argument("--plane", metavar="DIPDIR/DIP",
+                   help="plane of greatest continuity, e.g. 150/70")
+    g.add_argument("--pitch", type=float, metavar="DEG",
+                   help="pitch of the major axis in the plane, from the strike (right-hand "
+                        "rule) towards the dip direction, 0-180")
+    g.add_argument("--major", metavar="TREND/PLUNGE",
+                   help="major axis, e.g. 060/20 (with --plane: must lie in the plane)")
+    g.add_argument("--minor", metavar="TREND/PLUNGE",
+                   help="minor axis (with --major; must be perpendicular to it)")
+
+
+def _interpretation_from_args(args):
+    from anisotropy.check import Interpretation, parse_orientation
+
+    if args.plane is None and args.major is None:
+        raise InputError("give the interpretation: --plane DIPDIR/DIP [--pitch DEG] or "
+                         "--major TREND/PLUNGE [--minor TREND/PLUNGE]")
+    if args.plane is not None:
+        if args.minor is not None:
+            raise InputError("--minor goes with --major, not with --plane (the plane's pole "
+                             "is the minor axis)")
+        dd, dip = parse_orientation(args.plane)
+        return Interpretation.from_plane(dd, dip, pitch=args.pitch, major=args.major)
+    if args.pitch is not None:
+        raise InputError("--pitch needs --plane (a pitch is measured inside a plane)")
+    return Interpretation.from_axes(args.major, args.minor)
+
+
+def _cmd_check(args) -> int:
+    """Hold an interpreted continuity orientation against the data."""
+    from pathlib import Path
+
+    from anisotropy._safety import atomic_write_json
+    from anisotropy.check import check_interpretation
+    from anisotropy.discover import discover
+
+    interpretation = _interpretation_from_args(args)   # refuse before the long run
+    if args.bootstrap < 20:
+        raise InputError(f"the check needs bootstrap replicates to weigh the interpretation "
+                         f"against (--bootstrap {args.bootstrap} given; use at least 20, "
+                         f"default {DEFAULT_BOOTSTRAP})")
+    if not 0 < args.confidence < 1:
+        raise InputError(f"--confidence must lie between 0 and 1; got {args.confidence}")
+    samples = _read_samples_from_args(args)
+    structures = "auto" if args.structures == "auto" else int(args.structures)
+    scheduler = getattr(args, "scheduler", None)
+    result = discover(samples, transform=args.transform, estimator=args.estimator,
+                      structures=structures, kinds=args.kind, lag=args.lag, n_lags=args.n_lags,
+                      angular_tolerance=args.angular_tolerance, bandwidth=args.bandwidth,
+                      bootstrap=args.bootstrap, confidence=args.confidence, seed=args.seed,
+                      n_jobs=args.jobs, scheduler=scheduler, threshold=args.threshold,
+                      progress=True)
+    checked = check_interpretation(result, interpretation,
+                                   thresholds={"confidence": args.confidence},
+                                   n_jobs=args.jobs, scheduler=scheduler, progress=True)
+    print(result.summary())
+    print()
+    print(checked.summary())
+    out = Path(args.out)
+    out.mkdir(parents=True, exist_ok=True)
+    p1 = result.to_json(out / "discovery.json")
+    p2 = atomic_write_json(out / "check.json", checked.to_dict())
+    print(f"\nwritten: {p1}\nwritten: {p2}")
+    return EXIT_OK
 # <<< check
 
 # >>> batch

@@ -214,3 +214,35 @@ def test_default_thresholds_documented():
 
     for key in ("confidence", "practical_deg", "ratio_share", "swap_rate"):
         assert key in DEFAULT_THRESHOLDS and key in C.__doc__
+
+
+# ---------------------------------------------------------------------------
+# command line (argument handling; the long run is exercised by hand)
+# ---------------------------------------------------------------------------
+
+def test_cli_refuses_impossible_interpretation_before_reading(capsys, tmp_path):
+    from anisotropy.cli import EXIT_BAD_INPUT, main
+
+    missing = str(tmp_path / "not_there.csv")
+    # dip over 90: refused (exit 2, the InputError family) before the file is read
+    assert main(["check", missing, "--value", "g", "--plane", "150/95"]) == EXIT_BAD_INPUT
+    assert "between 0 and 90" in capsys.readouterr().err
+    assert main(["check", missing, "--value", "g", "--major", "060/20",
+                 "--minor", "150/70"]) == EXIT_BAD_INPUT
+    assert "perpendicular" in capsys.readouterr().err
+    assert main(["check", missing, "--value", "g"]) == EXIT_BAD_INPUT
+    assert "--plane" in capsys.readouterr().err
+    assert main(["check", missing, "--value", "g", "--major", "060/20",
+                 "--pitch", "30"]) == EXIT_BAD_INPUT
+    assert main(["check", missing, "--value", "g", "--plane", "150/70",
+                 "--bootstrap", "0"]) == EXIT_BAD_INPUT
+    assert "at least 20" in capsys.readouterr().err
+
+
+def test_cli_check_options():
+    from anisotropy.cli import DEFAULT_BOOTSTRAP, build_parser
+
+    a = build_parser().parse_args(["check", "f.csv", "--value", "g", "--plane", "150/70",
+                                   "--pitch", "35"])
+    assert a.bootstrap == DEFAULT_BOOTSTRAP and a.confidence == 0.9 and a.out == "check"
+    assert a.plane == "150/70" and a.pitch == 35.0 and a.scheduler is None
