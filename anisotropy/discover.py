@@ -196,7 +196,10 @@ class Discovery:
                       "domain": getattr(s, "domain", None), "n_samples": getattr(s, "n_read", None),
                       "n_used": int(s.n), "dropped": dict(getattr(s, "dropped", {}) or {}),
                       "changed": dict(getattr(s, "changed", {}) or {}),
-                      "columns": dict(cols), "origin": list(getattr(s, "origin", []) or [])},
+                      "columns": dict(cols),
+                      "origin": [float(o) for o in np.ravel(getattr(s, "origin", None)
+                                                            if getattr(s, "origin", None)
+                                                            is not None else [])]},
             "transform": dict(self.transform.record) if self.transform is not None else {},
             "estimator": self.estimator,
             "lags": {k: v for k, v in self.lags.items()},
