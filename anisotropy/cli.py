@@ -243,6 +243,8 @@ def _add_discover(p: argparse.ArgumentParser) -> None:
                    help="confidence of the cones and intervals (default 0.9)")
     g.add_argument("--jobs", type=int, default=1, metavar="N",
                    help="processes for the bootstrap (default 1; -1 = every core)")
+    g.add_argument("--scheduler", metavar="ADDRESS",
+                   help="run the bootstrap replicates on the Dask cluster at this address")
     _add_output_option(p, "discovery")
 
 
@@ -262,7 +264,8 @@ def _cmd_discover(args) -> int:
                       structures=structures, kinds=args.kind, lag=args.lag, n_lags=args.n_lags,
                       angular_tolerance=args.angular_tolerance, bandwidth=args.bandwidth,
                       bootstrap=args.bootstrap, confidence=args.confidence, seed=args.seed,
-                      n_jobs=args.jobs, threshold=args.threshold, progress=True)
+                      n_jobs=args.jobs, scheduler=args.scheduler, threshold=args.threshold,
+                      progress=True)
     print(result.summary())
     out = Path(args.out)
     out.mkdir(parents=True, exist_ok=True)
