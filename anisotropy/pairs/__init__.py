@@ -228,7 +228,7 @@ class RunPlan:
     ----------
     n_samples, estimated_pairs, candidate_pairs : int
     batches : list of (int, int)
-        Ranges of occupied cells processed one after the other.
+        Ranges of search-stencil offsets processed one after the other.
     cell : float
         Cell side of the search grid, metres.
     accumulator_bytes : int
@@ -260,7 +260,7 @@ class RunPlan:
 
 
 def _plan_batches(work: np.ndarray, target: float) -> list:
-    """Split consecutive occupied cells into batches of about ``target`` candidates."""
+    """Split consecutive work items (stencil offsets or cells) into batches of about ``target`` candidates."""
     if len(work) == 0:
         return []
     cum = np.cumsum(work)
@@ -274,9 +274,11 @@ def _plan_batches(work: np.ndarray, target: float) -> list:
 
 
 def _grid_and_plan(coords, radius, divisions, batch_candidates):
+    """Search grid, stencil (self offset first), candidate pairs per offset, batches."""
     grid = _cells.make_grid(coords, radius, divisions=divisions)
-    off = _cells.half_stencil(grid.cell, radius, grid.dims)
-    work = _kernels.cell_work(grid.start, grid.dims, grid.occupied, off)
+    off = np.vstack([np.zeros((1, 3), dtype=np.int64),
+                     _cells.half_stencil(grid.cell, radius, grid.dims)])
+    work = _kernels.offset_work(grid.start, grid.dims, grid.occupied, off)
     batches = _plan_batches(work, batch_candidates)
     return grid, off, work, batches
 
@@ -539,6 +541,9 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
     hi = cl.max(axis=0) if n else np.zeros(3)
 
     fine = _lattice.lattice(fine_directions, _lattice.DEFAULT_FINE_SPACING)
+    if fine_directions is None or np.isscalar(fine_directions):
+        # generated lattice: number it along a Z-order curve for cache locality
+        fine = np.ascontiguousarray(fine[_lattice.spatial_order(fine)])
     coarse = _lattice.lattice(coarse_directions, _lattice.DEFAULT_COARSE_SPACING)
     f2c = _lattice.nearest_axis(fine, coarse)
     table = _lattice.lambert_table(fine)

@@ -26,7 +26,7 @@ import numpy as np
 __all__ = ["CellGrid", "make_grid", "half_stencil", "DEFAULT_CELL_DIVISIONS"]
 
 #: Cells per search radius (cell side = R / this), from the benchmark.
-DEFAULT_CELL_DIVISIONS = 4
+DEFAULT_CELL_DIVISIONS = 6
 
 
 @dataclass

@@ -36,102 +36,46 @@ _SQRT2 = math.sqrt(2.0)
 
 
 @njit(cache=True)
-def _add(acc, c, base, d, h, t, dx, dy, dz):
-    """Add one pair (head ``h``, tail ``t``, distance ``d``) at ``acc[c, base:base+15]``."""
+def _pair_values(vals, d, h, t, dx, dy, dz):
+    """Fill ``vals`` (15,) with one pair's channel contributions."""
     delta = h - t
     sq = delta * delta
     ad = abs(delta)
-    acc[c, base + 0] += 1.0
-    acc[c, base + 1] += d
-    acc[c, base + 2] += sq
-    acc[c, base + 3] += ad
-    acc[c, base + 4] += math.sqrt(ad)
-    acc[c, base + 5] += h
-    acc[c, base + 6] += t
-    acc[c, base + 7] += h * h
-    acc[c, base + 8] += t * t
-    acc[c, base + 9] += h * t
+    vals[0] = 1.0
+    vals[1] = d
+    vals[2] = sq
+    vals[3] = ad
+    vals[4] = math.sqrt(ad)
+    vals[5] = h
+    vals[6] = t
+    vals[7] = h * h
+    vals[8] = t * t
+    vals[9] = h * t
     s = h + t
     if s != 0.0:
-        acc[c, base + 10] += 4.0 * sq / (s * s)
-        acc[c, base + 11] += 1.0
-    acc[c, base + 12] += dx
-    acc[c, base + 13] += dy
-    acc[c, base + 14] += dz
-
-
-@njit(cache=True)
-def _volume_pair(c, xi, yi, zi, vi, xj, yj, zj, vj, maxd2, lag, n_lags,
-                 table, tsize, inv_pix, n_fine, f2c, n_coarse,
-                 do_blocks, borig, binv, bshape, do_map, minv, mhalf, mny, mnz,
-                 acc_fine, acc_blk, acc_map, stats):
-    dx = xj - xi
-    dy = yj - yi
-    dz = zj - zi
-    d2 = dx * dx + dy * dy + dz * dz
-    if d2 > maxd2:
-        return
-    d = math.sqrt(d2)
-    kf = math.ceil(d / lag - 0.5)
-    if kf > n_lags:
-        return
-    k = int(kf)
-    if k < 0:
-        k = 0
-    # canonical orientation (geometry.to_lower_hemisphere): head = tail + v
-    if dz > 0.0 or (dz == 0.0 and (dx < 0.0 or (dx == 0.0 and dy < 0.0))):
-        dx = -dx
-        dy = -dy
-        dz = -dz
-        h = vi
-        t = vj
+        vals[10] = 4.0 * sq / (s * s)
+        vals[11] = 1.0
     else:
-        h = vj
-        t = vi
-    if d2 > 0.0:
-        s = math.sqrt(2.0 / (d * (d - dz)))
-        ix = int(math.floor((dx * s + _SQRT2) * inv_pix))
-        iy = int(math.floor((dy * s + _SQRT2) * inv_pix))
-        if ix < 0:
-            ix = 0
-        elif ix >= tsize:
-            ix = tsize - 1
-        if iy < 0:
-            iy = 0
-        elif iy >= tsize:
-            iy = tsize - 1
-        f = np.int64(table[ix, iy])
-    else:
-        f = np.int64(0)  # coincident points: class 0, first cell
-    stats[c, 1] += 1
-    _add(acc_fine, c, (k * n_fine + f) * NCH, d, h, t, dx, dy, dz)
-    if do_blocks:
-        bx = int(math.floor((0.5 * (xi + xj) - borig[0]) * binv[0]))
-        by = int(math.floor((0.5 * (yi + yj) - borig[1]) * binv[1]))
-        bz = int(math.floor((0.5 * (zi + zj) - borig[2]) * binv[2]))
-        bx = min(max(bx, 0), bshape[0] - 1)
-        by = min(max(by, 0), bshape[1] - 1)
-        bz = min(max(bz, 0), bshape[2] - 1)
-        b = (bx * bshape[1] + by) * bshape[2] + bz
-        _add(acc_blk, c, ((b * (n_lags + 1) + k) * n_coarse + f2c[f]) * NCH, d, h, t, dx, dy, dz)
-    if do_map:
-        mx = int(math.floor(dx * minv + 0.5)) + mhalf
-        my = int(math.floor(dy * minv + 0.5)) + mhalf
-        mz = int(math.floor(dz * minv + 0.5)) + mhalf
-        mx = min(max(mx, 0), mny - 1)
-        my = min(max(my, 0), mny - 1)
-        mz = min(max(mz, 0), mnz - 1)
-        _add(acc_map, c, ((mx * mny + my) * mnz + mz) * NCH, d, h, t, dx, dy, dz)
+        vals[10] = 0.0
+        vals[11] = 0.0
+    vals[12] = dx
+    vals[13] = dy
+    vals[14] = dz
 
 
 @njit(cache=True, parallel=True)
-def volume_pass(x, y, z, v, start, dims, occupied, offsets, q0, q1, n_chunks,
+def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                 maxd2, lag, n_lags, table, inv_pix, f2c, n_coarse,
                 do_blocks, borig, binv, bshape, do_map, minv, mhalf,
                 acc_fine, acc_blk, acc_map, stats):
-    """Accumulate all pairs of occupied cells ``q0 <= q < q1`` (see module doc).
+    """Accumulate the pairs of stencil offsets ``g0 <= g < g1`` over all occupied cells.
 
-    ``stats[c, 0]`` counts candidate pairs looked at, ``stats[c, 1]`` pairs kept.
+    ``offsets[0]`` must be (0, 0, 0): the pairs inside a cell (j > i). The loop
+    runs offset by offset (outer) over all cells (inner): for one offset the
+    lag vectors of all its cell pairs lie in a small box, so the bins they
+    touch stay in cache. Chunk ``c`` takes the offsets ``g`` with
+    ``g % n_chunks == c``. ``stats[c, 0]`` counts candidate pairs looked at,
+    ``stats[c, 1]`` pairs kept.
     """
     tsize = table.shape[0]
     n_fine = f2c.shape[0]
@@ -139,33 +83,27 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, q0, q1, n_chunks,
     mnz = mhalf + 1
     ny = dims[1]
     nz = dims[2]
-    n_off = offsets.shape[0]
+    n_occ = occupied.shape[0]
     for c in prange(n_chunks):
-        first = q0 + ((c - q0) % n_chunks)
-        for q in range(first, q1, n_chunks):
-            a = occupied[q]
-            ax = a // (ny * nz)
-            ay = (a // nz) % ny
-            az = a % nz
-            a0 = start[a]
-            a1 = start[a + 1]
-            # pairs inside the cell
-            stats[c, 0] += (a1 - a0) * (a1 - a0 - 1) // 2
-            for i in range(a0, a1):
-                xi = x[i]
-                yi = y[i]
-                zi = z[i]
-                vi = v[i]
-                for j in range(i + 1, a1):
-                    _volume_pair(c, xi, yi, zi, vi, x[j], y[j], z[j], v[j], maxd2, lag, n_lags,
-                                 table, tsize, inv_pix, n_fine, f2c, n_coarse,
-                                 do_blocks, borig, binv, bshape, do_map, minv, mhalf, mny, mnz,
-                                 acc_fine, acc_blk, acc_map, stats)
-            # pairs with the half neighbourhood
-            for o in range(n_off):
-                bx = ax + offsets[o, 0]
-                by = ay + offsets[o, 1]
-                bz = az + offsets[o, 2]
+        af = acc_fine[c]
+        ab = acc_blk[c]
+        am = acc_map[c]
+        cand = 0
+        kept = 0
+        first = g0 + ((c - g0) % n_chunks)
+        for g in range(first, g1, n_chunks):
+            ox = offsets[g, 0]
+            oy = offsets[g, 1]
+            oz = offsets[g, 2]
+            self_pairs = ox == 0 and oy == 0 and oz == 0
+            for q in range(n_occ):
+                a = occupied[q]
+                ax = a // (ny * nz)
+                ay = (a // nz) % ny
+                az = a % nz
+                bx = ax + ox
+                by = ay + oy
+                bz = az + oz
                 if bx < 0 or bx >= dims[0] or by < 0 or by >= ny or bz < 0 or bz >= nz:
                     continue
                 b = (bx * ny + by) * nz + bz
@@ -173,60 +111,152 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, q0, q1, n_chunks,
                 b1 = start[b + 1]
                 if b1 == b0:
                     continue
-                stats[c, 0] += (a1 - a0) * (b1 - b0)
+                a0 = start[a]
+                a1 = start[a + 1]
                 for i in range(a0, a1):
                     xi = x[i]
                     yi = y[i]
                     zi = z[i]
                     vi = v[i]
-                    for j in range(b0, b1):
-                        _volume_pair(c, xi, yi, zi, vi, x[j], y[j], z[j], v[j], maxd2, lag, n_lags,
-                                     table, tsize, inv_pix, n_fine, f2c, n_coarse,
-                                     do_blocks, borig, binv, bshape, do_map, minv, mhalf, mny, mnz,
-                                     acc_fine, acc_blk, acc_map, stats)
+                    jstart = i + 1 if self_pairs else b0
+                    cand += b1 - jstart
+                    for j in range(jstart, b1):
+                        dx = x[j] - xi
+                        dy = y[j] - yi
+                        dz = z[j] - zi
+                        d2 = dx * dx + dy * dy + dz * dz
+                        if d2 > maxd2:
+                            continue
+                        d = math.sqrt(d2)
+                        kf = math.ceil(d / lag - 0.5)
+                        if kf > n_lags:
+                            continue
+                        k = int(kf)
+                        if k < 0:
+                            k = 0
+                        # canonical orientation (geometry.to_lower_hemisphere): head = tail + v
+                        if dz > 0.0 or (dz == 0.0 and (dx < 0.0 or (dx == 0.0 and dy < 0.0))):
+                            dx = -dx
+                            dy = -dy
+                            dz = -dz
+                            h = vi
+                            t = v[j]
+                        else:
+                            h = v[j]
+                            t = vi
+                        if d2 > 0.0:
+                            s = math.sqrt(2.0 / (d * (d - dz)))
+                            ix = int(math.floor((dx * s + _SQRT2) * inv_pix))
+                            iy = int(math.floor((dy * s + _SQRT2) * inv_pix))
+                            ix = min(max(ix, 0), tsize - 1)
+                            iy = min(max(iy, 0), tsize - 1)
+                            f = np.int64(table[ix, iy])
+                        else:
+                            f = np.int64(0)  # coincident points: class 0, first cell
+                        kept += 1
+                        delta = h - t
+                        sq = delta * delta
+                        ad = abs(delta)
+                        sr = math.sqrt(ad)
+                        hh = h * h
+                        tt = t * t
+                        ht = h * t
+                        ssum = h + t
+                        if ssum != 0.0:
+                            rel = 4.0 * sq / (ssum * ssum)
+                            reln = 1.0
+                        else:
+                            rel = 0.0
+                            reln = 0.0
+                        base = (k * n_fine + f) * NCH
+                        af[base + 0] += 1.0
+                        af[base + 1] += d
+                        af[base + 2] += sq
+                        af[base + 3] += ad
+                        af[base + 4] += sr
+                        af[base + 5] += h
+                        af[base + 6] += t
+                        af[base + 7] += hh
+                        af[base + 8] += tt
+                        af[base + 9] += ht
+                        af[base + 10] += rel
+                        af[base + 11] += reln
+                        af[base + 12] += dx
+                        af[base + 13] += dy
+                        af[base + 14] += dz
+                        if do_blocks:
+                            bx = int(math.floor((0.5 * (xi + x[j]) - borig[0]) * binv[0]))
+                            by = int(math.floor((0.5 * (yi + y[j]) - borig[1]) * binv[1]))
+                            bz = int(math.floor((0.5 * (zi + z[j]) - borig[2]) * binv[2]))
+                            bx = min(max(bx, 0), bshape[0] - 1)
+                            by = min(max(by, 0), bshape[1] - 1)
+                            bz = min(max(bz, 0), bshape[2] - 1)
+                            bb = (bx * bshape[1] + by) * bshape[2] + bz
+                            base = ((bb * (n_lags + 1) + k) * n_coarse + f2c[f]) * NCH
+                            ab[base + 0] += 1.0
+                            ab[base + 1] += d
+                            ab[base + 2] += sq
+                            ab[base + 3] += ad
+                            ab[base + 4] += sr
+                            ab[base + 5] += h
+                            ab[base + 6] += t
+                            ab[base + 7] += hh
+                            ab[base + 8] += tt
+                            ab[base + 9] += ht
+                            ab[base + 10] += rel
+                            ab[base + 11] += reln
+                            ab[base + 12] += dx
+                            ab[base + 13] += dy
+                            ab[base + 14] += dz
+                        if do_map:
+                            mx = int(math.floor(dx * minv + 0.5)) + mhalf
+                            my = int(math.floor(dy * minv + 0.5)) + mhalf
+                            mz = int(math.floor(dz * minv + 0.5)) + mhalf
+                            mx = min(max(mx, 0), mny - 1)
+                            my = min(max(my, 0), mny - 1)
+                            mz = min(max(mz, 0), mnz - 1)
+                            base = ((mx * mny + my) * mnz + mz) * NCH
+                            am[base + 0] += 1.0
+                            am[base + 1] += d
+                            am[base + 2] += sq
+                            am[base + 3] += ad
+                            am[base + 4] += sr
+                            am[base + 5] += h
+                            am[base + 6] += t
+                            am[base + 7] += hh
+                            am[base + 8] += tt
+                            am[base + 9] += ht
+                            am[base + 10] += rel
+                            am[base + 11] += reln
+                            am[base + 12] += dx
+                            am[base + 13] += dy
+                            am[base + 14] += dz
+        stats[c, 0] += cand
+        stats[c, 1] += kept
 
 
 @njit(cache=True)
-def _exact_pair(c, xi, yi, zi, vi, xj, yj, zj, vj, maxd2, lag, tol, n_lags,
-                omni, ux, uy, uz, cos_tol, use_band, band2, acc, stats):
-    dx = xj - xi
-    dy = yj - yi
-    dz = zj - zi
-    d2 = dx * dx + dy * dy + dz * dz
-    if d2 > maxd2:
-        return
-    if not omni:
-        if d2 == 0.0:
-            return
-        dot = dx * ux + dy * uy + dz * uz
-        d = math.sqrt(d2)
-        if abs(dot) < d * cos_tol:
-            return
-        if use_band and d2 - dot * dot > band2:
-            return
-    else:
-        d = math.sqrt(d2)
-    kmin = int(math.floor((d - tol) / lag))
-    kmax = int(math.ceil((d + tol) / lag))
-    if kmin < 1:
-        kmin = 1
-    if kmax > n_lags:
-        kmax = n_lags
-    if kmin > kmax:
-        return
-    if dz > 0.0 or (dz == 0.0 and (dx < 0.0 or (dx == 0.0 and dy < 0.0))):
-        dx = -dx
-        dy = -dy
-        dz = -dz
-        h = vi
-        t = vj
-    else:
-        h = vj
-        t = vi
-    for k in range(kmin, kmax + 1):
-        if k * lag - tol < d and d <= k * lag + tol:
-            stats[c, 1] += 1
-            _add(acc, c, k * NCH, d, h, t, dx, dy, dz)
+def offset_work(start, dims, occupied, offsets):
+    """Candidate pairs per stencil offset (``offsets[0]`` = self), for planning batches."""
+    ny = dims[1]
+    nz = dims[2]
+    out = np.zeros(offsets.shape[0], dtype=np.float64)
+    for q in range(occupied.shape[0]):
+        a = occupied[q]
+        na = start[a + 1] - start[a]
+        ax = a // (ny * nz)
+        ay = (a // nz) % ny
+        az = a % nz
+        out[0] += na * (na - 1) / 2.0
+        for o in range(1, offsets.shape[0]):
+            bx = ax + offsets[o, 0]
+            by = ay + offsets[o, 1]
+            bz = az + offsets[o, 2]
+            if bx < 0 or bx >= dims[0] or by < 0 or by >= ny or bz < 0 or bz >= nz:
+                continue
+            b = (bx * ny + by) * nz + bz
+            out[o] += na * (start[b + 1] - start[b])
+    return out
 
 
 @njit(cache=True, parallel=True)
@@ -238,6 +268,9 @@ def exact_pass(x, y, z, v, start, dims, occupied, offsets, q0, q1, n_chunks,
     nz = dims[2]
     n_off = offsets.shape[0]
     for c in prange(n_chunks):
+        vals = np.empty(NCH)
+        cand = 0
+        kept = 0
         first = q0 + ((c - q0) % n_chunks)
         for q in range(first, q1, n_chunks):
             a = occupied[q]
@@ -246,28 +279,73 @@ def exact_pass(x, y, z, v, start, dims, occupied, offsets, q0, q1, n_chunks,
             az = a % nz
             a0 = start[a]
             a1 = start[a + 1]
-            stats[c, 0] += (a1 - a0) * (a1 - a0 - 1) // 2
-            for i in range(a0, a1):
-                for j in range(i + 1, a1):
-                    _exact_pair(c, x[i], y[i], z[i], v[i], x[j], y[j], z[j], v[j], maxd2, lag, tol,
-                                n_lags, omni, ux, uy, uz, cos_tol, use_band, band2, acc, stats)
-            for o in range(n_off):
-                bx = ax + offsets[o, 0]
-                by = ay + offsets[o, 1]
-                bz = az + offsets[o, 2]
-                if bx < 0 or bx >= dims[0] or by < 0 or by >= ny or bz < 0 or bz >= nz:
-                    continue
-                b = (bx * ny + by) * nz + bz
-                b0 = start[b]
-                b1 = start[b + 1]
-                if b1 == b0:
-                    continue
-                stats[c, 0] += (a1 - a0) * (b1 - b0)
+            for o in range(-1, n_off):
+                if o < 0:
+                    b0 = a0
+                    b1 = a1
+                else:
+                    bx = ax + offsets[o, 0]
+                    by = ay + offsets[o, 1]
+                    bz = az + offsets[o, 2]
+                    if bx < 0 or bx >= dims[0] or by < 0 or by >= ny or bz < 0 or bz >= nz:
+                        continue
+                    b = (bx * ny + by) * nz + bz
+                    b0 = start[b]
+                    b1 = start[b + 1]
+                    if b1 == b0:
+                        continue
                 for i in range(a0, a1):
-                    for j in range(b0, b1):
-                        _exact_pair(c, x[i], y[i], z[i], v[i], x[j], y[j], z[j], v[j], maxd2, lag,
-                                    tol, n_lags, omni, ux, uy, uz, cos_tol, use_band, band2, acc,
-                                    stats)
+                    xi = x[i]
+                    yi = y[i]
+                    zi = z[i]
+                    vi = v[i]
+                    jstart = i + 1 if o < 0 else b0
+                    cand += b1 - jstart
+                    for j in range(jstart, b1):
+                        dx = x[j] - xi
+                        dy = y[j] - yi
+                        dz = z[j] - zi
+                        d2 = dx * dx + dy * dy + dz * dz
+                        if d2 > maxd2:
+                            continue
+                        d = math.sqrt(d2)
+                        if not omni:
+                            if d2 == 0.0:
+                                continue
+                            dot = dx * ux + dy * uy + dz * uz
+                            if abs(dot) < d * cos_tol:
+                                continue
+                            if use_band and d2 - dot * dot > band2:
+                                continue
+                        kmin = int(math.floor((d - tol) / lag))
+                        kmax = int(math.ceil((d + tol) / lag))
+                        if kmin < 1:
+                            kmin = 1
+                        if kmax > n_lags:
+                            kmax = n_lags
+                        if kmin > kmax:
+                            continue
+                        if dz > 0.0 or (dz == 0.0 and (dx < 0.0 or (dx == 0.0 and dy < 0.0))):
+                            dx = -dx
+                            dy = -dy
+                            dz = -dz
+                            h = vi
+                            t = v[j]
+                        else:
+                            h = v[j]
+                            t = vi
+                        filled = False
+                        for k in range(kmin, kmax + 1):
+                            if k * lag - tol < d and d <= k * lag + tol:
+                                if not filled:
+                                    _pair_values(vals, d, h, t, dx, dy, dz)
+                                    filled = True
+                                kept += 1
+                                base = k * NCH
+                                for ch in range(NCH):
+                                    acc[c, base + ch] += vals[ch]
+        stats[c, 0] += cand
+        stats[c, 1] += kept
 
 
 @njit(cache=True)

@@ -203,3 +203,23 @@ def lookup(vectors, table) -> np.ndarray:
     i = np.clip(np.floor((XY[:, 0] + _SQRT2) * inv_pix), 0, t - 1).astype(np.int64)
     j = np.clip(np.floor((XY[:, 1] + _SQRT2) * inv_pix), 0, t - 1).astype(np.int64)
     return table[i, j].astype(np.int64)
+
+
+def _morton2(i, j, bits=12):
+    code = np.zeros_like(i, dtype=np.int64)
+    for b in range(bits):
+        code |= ((i >> b) & 1) << (2 * b + 1)
+        code |= ((j >> b) & 1) << (2 * b)
+    return code
+
+
+def spatial_order(directions) -> np.ndarray:
+    """Permutation that numbers lattice directions along a Z-order curve of
+    their Lambert coordinates, so that neighbouring directions have nearby
+    indices (and nearby accumulator memory). The Fibonacci numbering puts
+    consecutive indices a golden angle apart, which scatters the bins a
+    group of similar lag vectors touches; renumbering keeps them in cache.
+    """
+    XY = lambert_coordinates(directions)
+    q = np.clip(((XY + _SQRT2) / (2 * _SQRT2) * 4096).astype(np.int64), 0, 4095)
+    return np.argsort(_morton2(q[:, 0], q[:, 1]), kind="stable")
