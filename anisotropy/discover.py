@@ -731,6 +731,12 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
         total = 1.0
         choices.append({"choice": "total sill", "value": 1.0,
                         "reason": "the correlogram (1 - rho) rises to 1"})
+    elif tr.kind == "normal_score":
+        total = 1.0
+        choices.append({"choice": "total sill", "value": 1.0,
+                        "reason": "nugget and sills sum to 1, the variance of normal scores "
+                                  "by construction (the plain variance of the scores is "
+                                  f"{var:.3f} because the scores carry declustering weights)"})
     else:
         total = var
         choices.append({"choice": "total sill", "value": total,
