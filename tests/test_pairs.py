@@ -1,0 +1,291 @@
+"""Tests of the pair engine (anisotropy.pairs) against exact brute force.
+
+Brute force here means: all n(n-1)/2 pairs from numpy.triu_indices (the same
+set scipy.spatial.distance.pdist enumerates), with the conventions written
+out again in NumPy: canonical lag orientation as geometry.to_lower_hemisphere,
+class k = ceil(d / lag - 1/2), head = tail + canonical lag.
+"""
+
+import math
+
+import numpy as np
+import pytest
+from scipy.spatial.distance import pdist
+
+from anisotropy import geometry
+from anisotropy.errors import DataError, InputError
+from anisotropy.pairs import (CHANNELS, build_volume, estimate_pair_count, plan_run,
+                              _lattice, _plan_batches)
+import anisotropy.pairs as pairs_mod
+
+
+def brute_pairs(c, v):
+    """Every unordered pair once: canonical lag, distance, head, tail."""
+    i, j = np.triu_indices(len(c), 1)
+    V = c[j] - c[i]
+    flip = (V[:, 2] > 0) | ((V[:, 2] == 0) & ((V[:, 0] < 0) | ((V[:, 0] == 0) & (V[:, 1] < 0))))
+    V = np.where(flip[:, None], -V, V)
+    h = np.where(flip, v[i], v[j])
+    t = np.where(flip, v[j], v[i])
+    d = np.sqrt(V[:, 0] * V[:, 0] + V[:, 1] * V[:, 1] + V[:, 2] * V[:, 2])
+    return i, j, V, d, h, t
+
+
+def channel_rows(V, d, h, t):
+    """(m, 15) per-pair channel contributions, channels as CHANNELS."""
+    delta = h - t
+    s = h + t
+    nz = s != 0
+    rel = np.where(nz, 4 * delta**2 / np.where(nz, s, 1) ** 2, 0.0)
+    return np.column_stack([np.ones_like(d), d, delta**2, np.abs(delta), np.sqrt(np.abs(delta)),
+                            h, t, h * h, t * t, h * t, rel, nz.astype(float),
+                            V[:, 0], V[:, 1], V[:, 2]])
+
+
+def binned(rows, idx, n):
+    out = np.zeros((n, rows.shape[1]))
+    np.add.at(out, idx, rows)
+    return out
+
+
+@pytest.fixture(scope="module")
+def data():
+    rng = np.random.default_rng(7)
+    c = rng.random((260, 3)) * [60.0, 50.0, 25.0]
+    c -= c.min(axis=0)  # the engine shifts to the minimum; make that a no-op
+    v = rng.lognormal(0.0, 0.8, len(c))
+    return c, v
+
+
+@pytest.fixture(scope="module")
+def volume(data):
+    c, v = data
+    return build_volume(c, v, lag=5.0, n_lags=6, blocks=20.0, map_cell=4.0, progress=False)
+
+
+def test_channels_order_is_the_contract():
+    # CONTRIBUTING.md, pairs/ contract
+    assert CHANNELS == ("count", "dist", "sq", "abs", "sqrt", "head", "tail", "head2", "tail2",
+                        "cross", "rel", "rel_n", "dx", "dy", "dz")
+
+
+def test_class_sums_equal_brute_force(data, volume):
+    # exact brute force over all pairs: omnidirectional aggregation over every cell is exact
+    c, v = data
+    i, j, V, d, h, t = brute_pairs(c, v)
+    k = np.ceil(d / 5.0 - 0.5).astype(int)
+    keep = k <= 6
+    want = binned(channel_rows(V, d, h, t)[keep], k[keep], 7)
+    got = volume.sums.sum(axis=1)
+    np.testing.assert_array_equal(got[:, 0], want[:, 0])
+    np.testing.assert_allclose(got, want, rtol=1e-10, atol=1e-9)
+    assert volume.n_pairs == keep.sum()
+    # the same count as scipy's pdist within max_distance
+    assert volume.n_pairs == np.count_nonzero(pdist(c) <= volume.max_distance)
+
+
+def test_fine_cell_is_nearest_axis(data, volume):
+    c, v = data
+    i, j, V, d, h, t = brute_pairs(c, v)
+    k = np.ceil(d / 5.0 - 0.5).astype(int)
+    keep = (k <= 6) & (d > 0)
+    cell = _lattice.lookup(V[keep], _lattice.lambert_table(volume.directions))
+    # the kernel's cells are the table rule exactly (same arithmetic in NumPy)
+    want = np.zeros((7, len(volume.directions)))
+    np.add.at(want, (k[keep], cell), 1.0)
+    np.testing.assert_array_equal(volume.sums[..., 0], want)
+    # brute-force nearest axis (k-d tree over lattice and antipodes)
+    near = _lattice.nearest_axis(V[keep], volume.directions)
+    a_got = geometry.axis_angle(V[keep], volume.directions[cell])
+    a_best = geometry.axis_angle(V[keep], volume.directions[near])
+    # pixel-centre rounding: the only misassignments are pairs within a pixel of a
+    # cell boundary, and then the axis is at most one pixel's angle farther
+    bound = _lattice.pixel_angle(_lattice.lambert_table(volume.directions).shape[0])
+    assert np.all(a_got - a_best <= bound + 1e-9)
+    assert np.mean(cell != near) < 0.10
+
+
+def test_rim_horizontal_lags_same_axis_both_ways():
+    # v and -v are one axis; the table must agree with the brute-force nearest axis
+    # (up to the pixel bound) on both sides of the rim.
+    dirs = _lattice.lattice(None, 2.0)
+    table = _lattice.lambert_table(dirs)
+    az = np.linspace(0, 2 * np.pi, 721)
+    hv = np.column_stack([np.sin(az), np.cos(az), np.zeros_like(az)])
+    near = _lattice.nearest_axis(hv, dirs)
+    bound = _lattice.pixel_angle(table.shape[0])
+    for vec in (hv, -hv, hv + [0, 0, -1e-9], hv + [0, 0, 1e-9]):
+        cell = _lattice.lookup(vec, table)
+        extra = geometry.axis_angle(hv, dirs[cell]) - geometry.axis_angle(hv, dirs[near])
+        assert np.all(extra <= bound + 1e-9)
+
+
+def test_block_sums_aggregate_to_fine_sums(volume):
+    # sums over blocks equal the fine sums aggregated by fine_to_coarse (exact bookkeeping)
+    agg = np.zeros((volume.n_lags + 1, len(volume.coarse_directions), len(CHANNELS)))
+    np.add.at(agg, (slice(None), volume.fine_to_coarse), volume.sums)
+    np.testing.assert_allclose(volume.block_sums.sum(axis=0), agg, rtol=1e-12, atol=1e-10)
+    np.testing.assert_allclose(volume.coarse_sums(), agg, rtol=1e-12, atol=1e-10)
+    np.testing.assert_allclose(volume.coarse_sums(np.ones(volume.n_blocks)), agg,
+                               rtol=1e-12, atol=1e-10)
+
+
+def test_fine_to_coarse_is_nearest_axis(volume):
+    # brute force: argmax of |cos| over the coarse lattice
+    cosm = np.abs(volume.directions @ volume.coarse_directions.T)
+    best = cosm.max(axis=1)
+    got = cosm[np.arange(len(cosm)), volume.fine_to_coarse]
+    np.testing.assert_allclose(got, best, rtol=0, atol=1e-12)
+
+
+def test_block_of_pair_is_block_of_midpoint(data, volume):
+    # brute force: block of each pair's midpoint on the documented grid
+    c, v = data
+    i, j, V, d, h, t = brute_pairs(c, v)
+    k = np.ceil(d / 5.0 - 0.5).astype(int)
+    keep = k <= 6
+    mid = 0.5 * (c[i] + c[j])[keep]
+    shape = np.array(volume.block_shape)
+    b = np.minimum(np.floor((mid - volume.block_origin) / volume.block_size).astype(int), shape - 1)
+    flat = (b[:, 0] * shape[1] + b[:, 1]) * shape[2] + b[:, 2]
+    want = np.bincount(flat, minlength=volume.n_blocks)
+    np.testing.assert_array_equal(volume.block_sums[..., 0].sum(axis=(1, 2)), want)
+    # each sample's own block on the same grid
+    bs = np.minimum(np.floor((c - volume.block_origin) / volume.block_size).astype(int), shape - 1)
+    np.testing.assert_array_equal(volume.block_of_sample,
+                                  (bs[:, 0] * shape[1] + bs[:, 1]) * shape[2] + bs[:, 2])
+
+
+def test_map_cells_equal_brute_force(data, volume):
+    c, v = data
+    i, j, V, d, h, t = brute_pairs(c, v)
+    k = np.ceil(d / 5.0 - 0.5).astype(int)
+    keep = k <= 6
+    m = (volume.map_sums.shape[0] - 1) // 2
+    idx = np.floor(V[keep] / 4.0 + 0.5).astype(int) + m
+    want = np.zeros(volume.map_sums.shape[:3])
+    np.add.at(want, (idx[:, 0], idx[:, 1], idx[:, 2]), 1.0)
+    np.testing.assert_array_equal(volume.map_sums[..., 0], want)
+    centres, full = volume.full_map()
+    # symmetrised: cell c and -c hold the same sums; every pair twice except the centre
+    np.testing.assert_array_equal(full[..., 0], full[::-1, ::-1, ::-1, 0])
+    assert full[..., 0].sum() == 2 * keep.sum() - want[m, m, m]
+
+
+def test_batches_give_identical_sums(data, volume):
+    c, v = data
+    messages = []
+    small = build_volume(c, v, lag=5.0, n_lags=6, blocks=20.0, map_cell=4.0,
+                         progress=messages.append, batch_candidates=2000)
+    assert small.stats["batches"] > 3
+    # chunks take the same offsets in the same order whatever the batching
+    np.testing.assert_array_equal(small.sums, volume.sums)
+    np.testing.assert_array_equal(small.block_sums, volume.block_sums)
+    np.testing.assert_array_equal(small.map_sums, volume.map_sums)
+    assert "pairs" in messages[0] and any("batch" in m for m in messages[1:])
+
+
+def test_plan_batches_cover_everything_once():
+    work = np.array([5.0, 1, 1, 8, 0, 3, 2, 2, 9, 1])
+    for target in (1, 4, 10, 100):
+        b = _plan_batches(work, target)
+        covered = np.concatenate([np.arange(q0, q1) for q0, q1 in b])
+        np.testing.assert_array_equal(covered, np.arange(len(work)))
+    assert _plan_batches(work, 100) == [(0, len(work))]
+
+
+def test_pair_count_estimate_close_to_pdist():
+    # brute-force count with scipy pdist; the estimate assumes uniformity within cells
+    rng = np.random.default_rng(3)
+    c = rng.random((1500, 3)) * [200.0, 150.0, 40.0]
+    for r in (10.0, 30.0, 80.0):
+        exact = np.count_nonzero(pdist(c) <= r)
+        est = estimate_pair_count(c, r)
+        assert abs(est - exact) <= 0.1 * exact
+
+
+def test_billions_of_pairs_are_estimated_and_chunked():
+    # 100k samples and a distance spanning the whole cube: ~5e9 pairs. Nothing is
+    # binned here; the plan must see them and split the run into many batches.
+    rng = np.random.default_rng(5)
+    c = rng.random((100_000, 3)) * 100.0
+    plan = plan_run(c, 200.0)
+    n = len(c)
+    assert abs(plan.estimated_pairs - n * (n - 1) / 2) <= 0.01 * n * (n - 1) / 2
+    assert plan.candidate_pairs >= n * (n - 1) / 2
+    assert plan.n_batches >= plan.candidate_pairs / pairs_mod.BATCH_CANDIDATES - 1
+    assert plan.n_batches > 5
+
+
+def test_long_run_announces_estimate(data, capsys, monkeypatch):
+    c, v = data
+    monkeypatch.setattr(pairs_mod, "ANNOUNCE_PAIRS", 0)
+    vol = build_volume(c, v, lag=5.0, n_lags=6, progress=True, batch_candidates=5000)
+    err = capsys.readouterr().err
+    assert "pair engine: about" in err and "batch" in err
+    assert vol.stats["estimated_pairs"] > 0
+
+
+def test_block_memory_is_bounded(data):
+    c, v = data
+    vol = build_volume(c, v, lag=5.0, n_lags=6, blocks=1.0, progress=False, block_memory=2**20)
+    per = vol.block_sums[0].nbytes * (vol.stats["chunks"] + 1)
+    assert vol.n_blocks * per <= 2**20 or vol.n_blocks == 1
+    assert vol.block_size[0] > 1.0
+    assert vol.memory_bytes >= vol.sums.nbytes + vol.block_sums.nbytes
+
+
+def test_blocks_and_map_can_be_turned_off(data, volume):
+    c, v = data
+    vol = build_volume(c, v, lag=5.0, n_lags=6, blocks=False, map_cell=False, progress=False)
+    assert vol.n_blocks == 0 and vol.map_cell is None
+    np.testing.assert_array_equal(vol.sums, volume.sums)
+    agg = np.zeros((7, len(vol.coarse_directions), len(CHANNELS)))
+    np.add.at(agg, (slice(None), vol.fine_to_coarse), vol.sums)
+    np.testing.assert_allclose(vol.coarse_sums(), agg)
+
+
+def test_coincident_points_sit_in_class_zero():
+    c = np.array([[0.0, 0, 0], [0.0, 0, 0], [3.0, 0, 0]])
+    v = np.array([1.0, 3.0, 2.0])
+    vol = build_volume(c, v, lag=2.0, n_lags=2, progress=False)
+    # by hand: pair (0,1) at d=0 -> class 0; pairs (0,2), (1,2) at d=3 -> ceil(3/2-0.5)=1
+    np.testing.assert_array_equal(vol.sums[..., 0].sum(axis=1), [1, 2, 0])
+    # zero lag keeps head = second sample: delta = 3 - 1 = 2 -> sq 4
+    assert vol.sums[0, :, CHANNELS.index("sq")].sum() == 4.0
+
+
+def test_single_sample_and_empty():
+    vol = build_volume([[1.0, 2.0, 3.0]], [5.0], lag=1.0, n_lags=3, progress=False)
+    assert vol.n_pairs == 0 and not vol.sums.any()
+
+
+def test_validation_errors():
+    c = np.zeros((4, 3))
+    c[2, 1] = np.nan
+    with pytest.raises(DataError, match="rows 2"):
+        build_volume(c, np.ones(4), lag=1.0, n_lags=2, progress=False)
+    with pytest.raises(InputError, match="values"):
+        build_volume(np.zeros((4, 3)), np.ones(3), lag=1.0, n_lags=2, progress=False)
+    with pytest.raises(InputError, match="lag"):
+        build_volume(np.zeros((4, 3)), np.ones(4), lag=0.0, n_lags=2, progress=False)
+    with pytest.raises(InputError, match="n_lags"):
+        build_volume(np.zeros((4, 3)), np.ones(4), lag=1.0, n_lags=0, progress=False)
+    with pytest.raises(DataError, match="values"):
+        build_volume(np.zeros((2, 3)), [1.0, np.nan], lag=1.0, n_lags=2, progress=False)
+
+
+def test_aggregate_matches_cell_rule(data, volume):
+    # a direction's aggregate = the sums of the pairs whose table cell axis is within tolerance
+    c, v = data
+    i, j, V, d, h, t = brute_pairs(c, v)
+    k = np.ceil(d / 5.0 - 0.5).astype(int)
+    keep = (k <= 6) & (d > 0)
+    cell = _lattice.lookup(V[keep], _lattice.lambert_table(volume.directions))
+    u = geometry.line_to_vector(40.0, 30.0)
+    ok = np.abs(volume.directions[cell] @ u) >= math.cos(math.radians(25.0))
+    rows = channel_rows(V[keep], d[keep], h[keep], t[keep])
+    want = binned(rows[ok], k[keep][ok], 7)
+    np.testing.assert_allclose(volume.aggregate((40.0, 30.0), 25.0), want, rtol=1e-10, atol=1e-9)
+    d_to = volume.to_dict()
+    assert d_to["n_pairs"] == volume.n_pairs and isinstance(d_to["memory_bytes"], int)
