@@ -660,7 +660,9 @@ def reweighted_sums(block_sums, block_weights):
     """``sum_b w_b * block_sums[b]`` -> shape (n_lags+1, n_coarse, n_ch)."""
     bs = np.asarray(block_sums, dtype=float)
     w = np.asarray(block_weights, dtype=float)
-    return np.tensordot(w, bs, axes=(0, 0))
+    # einsum's own loop (no BLAS): the same summation order in every process,
+    # so replicates do not depend on how many threads a worker's BLAS uses
+    return np.einsum("b,b...->...", w, bs)
 
 
 # ---------------------------------------------------------------------------
