@@ -210,7 +210,21 @@ def _run_domain(task: Mapping) -> dict:
     ``task`` is a plain dict (picklable for joblib and Dask): the domain's
     rows, the column names, discover options, the interpretation spec, and
     the folder to write into.
+
+    BLAS runs on one thread inside a domain: the domains themselves are the
+    parallel unit, and the fitted numbers then do not depend on where the
+    domain ran (the summation order of a multi-threaded BLAS moves the last
+    digits of a fit, which a bootstrap with few replicates can amplify).
     """
+    try:
+        from threadpoolctl import threadpool_limits
+    except ImportError:  # pragma: no cover - threadpoolctl comes with scikit-learn
+        return _run_domain_inner(task)
+    with threadpool_limits(limits=1):
+        return _run_domain_inner(task)
+
+
+def _run_domain_inner(task: Mapping) -> dict:
     start = time.perf_counter()
     domain, folder = task["domain"], task["folder"]
     dom_dir = Path(task["dom_dir"])

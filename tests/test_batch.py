@@ -200,6 +200,7 @@ def test_resume_reruns_nothing_then_only_what_changed(batch, table):
     assert _rows(third)["tiny"]["reason"].startswith("skipped by the config")
 
 
+@pytest.mark.slow
 def test_dask_local_cluster_gives_the_same_summary(batch, table, tmp_path):
     distributed = pytest.importorskip("dask.distributed")
     root, out, res = batch
