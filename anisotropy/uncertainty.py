@@ -102,6 +102,11 @@ MIN_BLOCKS = 25
 #: for a refit per replicate).
 DEFAULT_REPLICATES = 200
 
+#: Default widening of the block bootstrap's cone radii and range intervals
+#: (log scale), from the coverage study in benchmarks/RESULTS.md.
+CONE_CALIBRATION = 1.0
+RANGE_CALIBRATION = 1.0
+
 
 # ---------------------------------------------------------------------------
 # small vector helpers (undirected axes)
@@ -743,7 +748,9 @@ class BootstrapResult:
     seed: object = 0
     seconds: float = 0.0
     warnings: list = field(default_factory=list)
-    calibration: float = 1.0
+    cone_calibration: float = 1.0
+    range_calibration: float = 1.0
+    interval_method: str = "percentile"
     group_of_block: np.ndarray | None = None
 
     # -- derived -----------------------------------------------------------
@@ -793,10 +800,9 @@ class BootstrapResult:
         ref = self.reference_frame[:, i]
         reps = self.axes[:, :, i]
         mean, cone = axis_cone(reps, ref, conf)
-        cone = min(90.0, cone * self.calibration)
+        cone = min(90.0, cone * self.cone_calibration)
         trend, plunge, note = trend_plunge_intervals(reps, ref, conf, cone_deg=cone)
-        rng, how = _scalar_interval(self.ranges[:, i], self.reference_ranges[i], conf,
-                                    self.counts)
+        rng, how = self._interval(self.ranges[:, i], self.reference_ranges[i], conf)
         rng = self._calibrate(rng, self.reference_ranges[i])
         mt, mp = _trend_plunge(mean)
         out = {"cone_deg": float(cone), "trend": trend, "plunge": plunge, "range": rng,
@@ -807,25 +813,29 @@ class BootstrapResult:
             out["trend_note"] = note
         return out
 
+    def _interval(self, replicates, estimate, conf):
+        return _scalar_interval(replicates, estimate, conf, self.counts,
+                                prefer_bca=self.interval_method == "bca")
+
     def _calibrate(self, interval, estimate):
-        if self.calibration == 1.0 or not np.all(np.isfinite(interval)):
+        """Widen a range interval by ``range_calibration`` on the log scale around the estimate."""
+        c = self.range_calibration
+        if c == 1.0 or not np.all(np.isfinite(interval)) or not estimate > 0 \
+                or min(interval) <= 0:
             return interval
         lo, hi = interval
-        c = self.calibration
-        return [float(estimate - c * (estimate - lo)), float(estimate + c * (hi - estimate))]
+        return [float(estimate * (lo / estimate) ** c), float(estimate * (hi / estimate) ** c)]
 
     def interval(self, name, confidence=None):
         """Interval of "nugget", "total_sill", "sill0", "sill1", ... or an axis range."""
         conf = self.confidence if confidence is None else confidence
         if name == "nugget":
-            return _scalar_interval(self.nugget, self.reference.nugget, conf, self.counts)[0]
+            return self._interval(self.nugget, self.reference.nugget, conf)[0]
         if name == "total_sill":
-            return _scalar_interval(self.total_sill, self.reference.total_sill, conf,
-                                    self.counts)[0]
+            return self._interval(self.total_sill, self.reference.total_sill, conf)[0]
         if name.startswith("sill"):
             k = int(name[4:])
-            return _scalar_interval(self.sills[:, k], self.reference.structures[k].sill, conf,
-                                    self.counts)[0]
+            return self._interval(self.sills[:, k], self.reference.structures[k].sill, conf)[0]
         if name in AXIS_NAMES:
             return self.axis_summary(AXIS_NAMES.index(name), conf)["range"]
         raise InputError(f"no interval called {name!r}")
@@ -907,14 +917,19 @@ class BootstrapResult:
         for i, name in enumerate(AXIS_NAMES):
             out[name] = self.axis_summary(i, conf)
         out["nugget"] = self.interval("nugget", conf)
-        out["sills"] = [_scalar_interval(self.sills[:, k], s.sill, conf, self.counts)[0]
+        out["sills"] = [self._interval(self.sills[:, k], s.sill, conf)[0]
                         for k, s in enumerate(self.reference.structures)]
         out["total_sill"] = self.interval("total_sill", conf)
         out["swap_rate"] = self.swap_rates()
-        out["interval_method"] = ("BCa where the bias correction is finite (Efron & "
-                                  "Tibshirani 1993, ch. 14), percentile otherwise; cones: "
-                                  "confidence quantile of replicate-to-reported angles")
-        out["calibration"] = float(self.calibration)
+        out["interval_method"] = self.interval_method
+        out["interval_note"] = (
+            ("BCa (Efron & Tibshirani 1993, ch. 14) where the bias correction is finite, "
+             "percentile otherwise" if self.interval_method == "bca" else
+             "percentile (Efron & Tibshirani 1993, ch. 13)")
+            + "; cones: the confidence quantile of replicate-to-reported axis angles")
+        out["calibration"] = {"cone": float(self.cone_calibration),
+                              "range_log": float(self.range_calibration),
+                              "source": "benchmarks/RESULTS.md, uncertainty coverage study"}
         if self.blocks is not None:
             out["blocks"] = self.blocks
         out["seconds"] = float(self.seconds)
@@ -1061,6 +1076,12 @@ def _collect(reference, outcomes):
                 experimental=exp_arr), np.asarray(keep, dtype=int), n_failed, failures
 
 
+def _check_interval(interval):
+    if interval not in ("percentile", "bca"):
+        raise InputError(f"interval must be 'percentile' or 'bca' (got {interval!r})")
+    return interval
+
+
 def _check_common(n_replicates, confidence, n_jobs):
     if int(n_replicates) < 2:
         raise InputError(f"the bootstrap needs at least 2 replicates (got {n_replicates}); "
@@ -1073,7 +1094,8 @@ def _check_common(n_replicates, confidence, n_jobs):
 def block_bootstrap(volume, refit: Callable, reference, *, n_replicates=DEFAULT_REPLICATES,
                     confidence=0.9, seed=0, n_jobs=1, scheduler=None, progress=False,
                     min_blocks=MIN_BLOCKS, estimator="semivariogram",
-                    keep_experimental=True, calibration=1.0) -> BootstrapResult:
+                    keep_experimental=True, interval="percentile",
+                    cone_calibration=None, range_calibration=None) -> BootstrapResult:
     """Block bootstrap of the fitted model from the lag volume's per-block sums.
 
     Parameters
@@ -1104,9 +1126,16 @@ def block_bootstrap(volume, refit: Callable, reference, *, n_replicates=DEFAULT_
     estimator : str
         Estimator for the experimental bands kept per replicate.
     keep_experimental : bool
-    calibration : float
-        Factor by which cone radii and interval half-widths are widened
-        (1.0 = none); see benchmarks/RESULTS.md for the coverage study.
+    interval : {"percentile", "bca"}
+        Interval for ranges, nugget and sills. Percentile is the default: in
+        the coverage study (benchmarks/RESULTS.md) BCa under-covered the
+        ranges, because the bias correction follows the replicates' own
+        bias (resampled blocks make the variogram noisier and the fit more
+        anisotropic) rather than the estimator's.
+    cone_calibration, range_calibration : float, optional
+        Factors widening the cone radii and (on the log scale around the
+        estimate) the range intervals; default :data:`CONE_CALIBRATION` and
+        :data:`RANGE_CALIBRATION`, set from the coverage study; 1.0 = none.
 
     Returns
     -------
@@ -1141,7 +1170,11 @@ def block_bootstrap(volume, refit: Callable, reference, *, n_replicates=DEFAULT_
                           distances=lags, n_requested=int(n_replicates), n_failed=n_failed,
                           failures=failures, blocks=grouping.to_dict(),
                           seed=seed if isinstance(seed, int) else None,
-                          warnings=warnings, calibration=float(calibration),
+                          warnings=warnings, interval_method=_check_interval(interval),
+                          cone_calibration=float(CONE_CALIBRATION if cone_calibration is None
+                                                 else cone_calibration),
+                          range_calibration=float(RANGE_CALIBRATION if range_calibration is None
+                                                  else range_calibration),
                           group_of_block=grouping.group_of_block, **arrays)
     if not keep_experimental:
         res.experimental = None
@@ -1226,7 +1259,8 @@ def _model_chunk(coords, fields, transform, build_kwargs, refit, start, estimato
 
 def model_bootstrap(coords, model, refit: Callable, *, volume, transform=None,
                     n_replicates=50, confidence=0.9, seed=0, n_jobs=1, scheduler=None,
-                    progress=False, method="auto", calibration=1.0) -> BootstrapResult:
+                    progress=False, method="auto", interval="percentile", cone_calibration=1.0,
+                    range_calibration=1.0) -> BootstrapResult:
     """Parametric bootstrap: simulate with the fitted model, rebuild the volume, refit.
 
     Parameters
@@ -1246,9 +1280,12 @@ def model_bootstrap(coords, model, refit: Callable, *, volume, transform=None,
         on the simulated grades, so the replicates see what the data saw.
     n_replicates : int
         Default 50: each replicate costs a full pass over the pairs.
-    confidence, seed, n_jobs, scheduler, progress, calibration
+    confidence, seed, n_jobs, scheduler, progress, interval
         As for :func:`block_bootstrap`; the fields are simulated up front
         from ``seed``.
+    cone_calibration, range_calibration : float
+        Default 1.0 (none): the model bootstrap was not part of the
+        calibration study.
     method : str
         Simulation method for :func:`anisotropy.simulate.simulate_field`.
 
@@ -1285,6 +1322,8 @@ def model_bootstrap(coords, model, refit: Callable, *, volume, transform=None,
                           distances=np.arange(volume.n_lags + 1) * float(volume.lag),
                           n_requested=int(n_replicates), n_failed=n_failed, failures=failures,
                           seed=seed if isinstance(seed, int) else None, warnings=warnings,
-                          calibration=float(calibration), **arrays)
+                          interval_method=_check_interval(interval),
+                          cone_calibration=float(cone_calibration),
+                          range_calibration=float(range_calibration), **arrays)
     res.seconds = time.perf_counter() - t0
     return res

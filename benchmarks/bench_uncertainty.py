@@ -21,7 +21,7 @@ Speed: 200 replicates with the refit of the real ``discover`` chain on
 Usage::
 
     python benchmarks/bench_uncertainty.py coverage [--sims 20] [--reps 60] [--jobs 2]
-    python benchmarks/bench_uncertainty.py speed [--reps 200] [--jobs 2]
+    python benchmarks/bench_uncertainty.py speed [--reps 200] [--jobs 2] [--only composites]
 """
 
 from __future__ import annotations
@@ -72,7 +72,7 @@ def lean_refit(total):
     return refit
 
 
-def one(name, sim, reps, calibration=1.0):
+def one(name, sim, reps, cone_cal=1.0, range_cal=1.0):
     sc = SCENARIOS[name]
     rng = np.random.default_rng(1000 * sim + 7)
     coords = rng.uniform(0, sc["box"], size=(sc["n"], 3))
@@ -102,7 +102,8 @@ def one(name, sim, reps, calibration=1.0):
         if best is None or obj < best[1]:
             best = (m, obj)
     ref = best[0]
-    res = U.block_bootstrap(vol, refit, ref, n_replicates=reps, seed=sim, n_jobs=1)
+    res = U.block_bootstrap(vol, refit, ref, n_replicates=reps, seed=sim, n_jobs=1,
+                            cone_calibration=cone_cal, range_calibration=range_cal)
     secs = time.perf_counter() - t0
     d = res.to_dict()
     out = {"scenario": name, "sim": sim, "seconds": secs, "n_blocks": d["blocks"]["n_blocks"],
@@ -118,10 +119,18 @@ def one(name, sim, reps, calibration=1.0):
         out[f"{ax}_need"] = err / max(cone, 1e-9)
         lo, hi = d[ax]["range"]
         out[f"{ax}_range_in"] = bool(lo <= sc["ranges"][i] <= hi)
-        # percentile interval too, for comparison with BCa
-        plo, phi = U.percentile_interval(res.ranges[:, i], 0.9)
-        out[f"{ax}_range_pct_in"] = bool(plo <= sc["ranges"][i] <= phi)
-        out[f"{ax}_range_est"] = float(res.reference_ranges[i])
+        # BCa too, for comparison with the percentile default
+        est = float(res.reference_ranges[i])
+        blo, bhi = U.bca_interval(res.ranges[:, i], est, 0.9, acceleration=U.influence_acceleration(
+            res.ranges[:, i], res.counts))
+        out[f"{ax}_range_bca_in"] = bool(blo <= sc["ranges"][i] <= bhi)
+        out[f"{ax}_range_est"] = est
+        out[f"{ax}_range_lo"], out[f"{ax}_range_hi"] = float(lo), float(hi)
+        t = sc["ranges"][i]
+        bound = lo if t < est else hi
+        with np.errstate(all="ignore"):
+            out[f"{ax}_range_need"] = float(abs(np.log(t / est)) / max(abs(np.log(bound / est)),
+                                                                       1e-12))
         # share of replicate axes closer than the truth (for calibration curves)
         out[f"{ax}_rank"] = float(np.mean(ang_all[:, i] <= err))
     return out
@@ -130,9 +139,10 @@ def one(name, sim, reps, calibration=1.0):
 def coverage(args):
     from joblib import Parallel, delayed
 
-    tasks = [(name, s) for name in SCENARIOS for s in range(args.sims)]
+    tasks = [(name, s) for name in SCENARIOS for s in range(args.offset, args.offset + args.sims)]
     t0 = time.perf_counter()
-    rows = Parallel(n_jobs=args.jobs, verbose=5)(delayed(one)(n, s, args.reps)
+    rows = Parallel(n_jobs=args.jobs, verbose=5)(delayed(one)(n, s, args.reps, args.cone_cal,
+                                                              args.range_cal)
                                                  for n, s in tasks)
     wall = time.perf_counter() - t0
     Path(args.out).write_text(json.dumps(rows, indent=1))
@@ -150,7 +160,7 @@ def summarise(rows):
         for ax in U.AXIS_NAMES:
             r[f"cone_{ax}"] = float(np.mean(g[f"{ax}_need"] <= 1.0))
             r[f"range_{ax}"] = float(np.mean(g[f"{ax}_range_in"]))
-            r[f"rpct_{ax}"] = float(np.mean(g[f"{ax}_range_pct_in"]))
+            r[f"rbca_{ax}"] = float(np.mean(g[f"{ax}_range_bca_in"]))
         r["median_cone_major"] = float(g["major_cone"].median())
         r["median_err_major"] = float(g["major_err"].median())
         r["swap"] = float(g["swap"].mean())
@@ -161,32 +171,74 @@ def summarise(rows):
     # calibration factor: the 90th percentile of err/cone over all sims and axes
     need = np.concatenate([df[f"{ax}_need"].to_numpy() for ax in ("major", "minor")])
     print(f"cone factor for 90 % coverage (major+minor): {np.quantile(need, 0.9):.2f}")
+    rneed = np.concatenate([df[f"{ax}_range_need"].to_numpy() for ax in U.AXIS_NAMES])
+    print(f"range factor (log scale) for 90 % coverage (3 axes): "
+          f"{np.nanquantile(rneed, 0.9):.2f}")
     return out
 
 
-def speed(args):
+def _speed_data():
+    """The two speed data sets of benchmarks/bench_discover.py (same seeds and layouts)."""
     import pandas as pd
 
+    sys.path.insert(0, str(Path(__file__).parent))
+    from bench_discover import drill_holes, frame
+
+    rng = np.random.default_rng(1)
+    nx = 122
+    gx, gy = np.meshgrid(np.arange(nx) * 4.0, np.arange(nx) * 4.0)
+    pts = []
+    for b in range(6):
+        p = np.column_stack([gx.ravel(), gy.ravel(), np.full(gx.size, -4.0 * b)])
+        p[:, :2] += rng.normal(0, 0.4, (len(p), 2))
+        pts.append(p)
+    coords = np.concatenate(pts)
+    model = NestedModel(0.2, [Structure("spherical", 0.8, (80, 40, 15))], frame(60, 10, 0))
+    y = simulate_field(coords, model, seed=2, method="spectral")
+    blast = (pd.DataFrame({"x": coords[:, 0], "y": coords[:, 1], "z": coords[:, 2],
+                           "au": np.exp(0.8 * y)}), {})
+    rng = np.random.default_rng(3)
+    coords, holes = drill_holes(rng, spacing=20.0, n=(10, 10), length=100.0, composite=2.0,
+                                trend=300.0, plunge=60.0)
+    model = NestedModel(0.15, [Structure("spherical", 0.85, (110, 60, 20))], frame(120, 30, 0))
+    y = simulate_field(coords, model, seed=4, method="spectral")
+    comp = (pd.DataFrame({"x": coords[:, 0], "y": coords[:, 1], "z": coords[:, 2],
+                          "au": np.exp(0.8 * y), "hole": holes}), {"hole": "hole"})
+    return {"5,000 composites": comp, "90k blast holes": blast}
+
+
+def speed(args):
+    """200 replicates with the real discover refit; the volume rebuilt with bootstrap blocks."""
     from anisotropy.discover import discover
 
     rows = []
-    for label, path in (("5k composites", args.composites), ("90k blast holes", args.blast)):
-        if not path or not Path(path).exists():
-            print(f"{label}: file {path!r} not found, skipped")
+    for label, (df, kw) in _speed_data().items():
+        if args.only and args.only not in label:
             continue
-        df = pd.read_csv(path)
         t0 = time.perf_counter()
-        D = discover(df, value=args.value, bootstrap=0, seed=0)
+        D = discover(df, value="au", bootstrap=0, seed=0, **kw)
         t_disc = time.perf_counter() - t0
-        vol = D.volume_
+        v0 = D.volume_
+        occ = int(np.count_nonzero(U._occupied_blocks(v0)))
+        t0 = time.perf_counter()
+        vol = build_volume(D.samples.coords, D.transform.values, lag=v0.lag, n_lags=v0.n_lags,
+                           fine_directions=v0.directions, coarse_directions=v0.coarse_directions,
+                           blocks=U.engine_block_side(D.samples.coords), progress=False,
+                           map_cell=False)
+        t_vol = time.perf_counter() - t0
+        same = bool(np.allclose(vol.coarse_sums(), v0.coarse_sums(), rtol=1e-9, atol=1e-9))
         refit = D.refit_function()
         t0 = time.perf_counter()
         res = U.block_bootstrap(vol, refit, D.model, n_replicates=args.reps, seed=0,
                                 n_jobs=args.jobs, progress=True)
         t_boot = time.perf_counter() - t0
-        rows.append((label, len(df), t_disc, t_boot, res.n_failed, res.blocks["n_blocks"]))
-        print(f"{label}: discover {t_disc:.1f} s, {args.reps} replicates {t_boot:.1f} s "
-              f"({res.n_failed} failed, {res.blocks['n_blocks']} blocks)")
+        row = {"case": label, "n": len(df), "discover_s": t_disc, "rebuild_s": t_vol,
+               "engine_blocks_default": occ, "sums_identical": same,
+               "bootstrap_s": t_boot, "replicates": args.reps, "failed": res.n_failed,
+               "blocks": res.blocks, "jobs": args.jobs,
+               "major_cone": res.to_dict()["major"]["cone_deg"]}
+        rows.append(row)
+        print(json.dumps(row, default=float), flush=True)
     return rows
 
 
@@ -197,9 +249,10 @@ if __name__ == "__main__":
     p.add_argument("--reps", type=int, default=60)
     p.add_argument("--jobs", type=int, default=2)
     p.add_argument("--out", default="/tmp/bench_uncertainty_coverage.json")
-    p.add_argument("--composites", default=None)
-    p.add_argument("--blast", default=None)
-    p.add_argument("--value", default=None)
+    p.add_argument("--offset", type=int, default=0, help="first simulation seed")
+    p.add_argument("--cone-cal", type=float, default=1.0)
+    p.add_argument("--range-cal", type=float, default=1.0)
+    p.add_argument("--only", default=None, help="speed: only the case containing this text")
     a = p.parse_args()
     if a.what == "coverage":
         coverage(a)
