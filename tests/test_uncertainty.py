@@ -336,6 +336,21 @@ def test_same_seed_same_bands_any_n_jobs(rng):
     assert np.array_equal(a.counts, b.counts)
 
 
+@pytest.mark.slow
+def test_dask_scheduler_gives_the_same_bands(rng):
+    distributed = pytest.importorskip("distributed")
+    vol = _StandInVolume((8, 8, 1), (10, 10, 10), rng, _truth())
+    ref = _reference(vol)
+    a = U.block_bootstrap(vol, _stand_in_refit, ref, n_replicates=20, seed=11)
+    with distributed.Client(processes=False, n_workers=1, threads_per_worker=2,
+                            dashboard_address=None) as client:
+        b = U.block_bootstrap(vol, _stand_in_refit, ref, n_replicates=20, seed=11,
+                              scheduler=client)
+    da, db = a.to_dict(), b.to_dict()
+    da.pop("seconds"), db.pop("seconds")
+    assert da == db
+
+
 def test_bands_shrink_with_more_blocks():
     # 4x more blocks of the same signal: the sampling spread of the stand-in
     # estimate falls roughly as 1/sqrt(blocks) (exact for a mean of iid blocks)
