@@ -60,6 +60,7 @@ DEFAULT_ANGULAR_TOLERANCE = 15.0  # degrees (common practice: 15-22.5)
 WIDE_ANGULAR_TOLERANCE = 30.0   # degrees, for directions thin at the default
 MIN_LAGS, MAX_LAGS_AUTO = 12, 20
 MIN_SAMPLES = 30
+PAIR_BUDGET = 1.5e8             # pairs in the one pass, for automatic lags
 N_RANDOM_STARTS = 3
 
 
@@ -378,6 +379,7 @@ def _choose_lags(samples, spacing, lag, n_lags, choices):
     max_d = 0.5 * extent
     holes = samples.holes is not None and getattr(spacing, "n_holes", None)
     sl = dict(getattr(spacing, "suggested_lag", {}) or {})
+    user_set = lag is not None
     if lag is not None:
         lag = float(lag)
         if not lag > 0:
@@ -413,62 +415,97 @@ def _choose_lags(samples, spacing, lag, n_lags, choices):
                         "reason": ("as requested" if n_lags is None else
                                    f"lags out to half the largest extent of the domain "
                                    f"({extent:.0f} m, common practice)")})
+    est = None
+    if not user_set:
+        # pair budget: shorten the maximum distance (keeping the number of lags)
+        # until the estimated pair count is within PAIR_BUDGET
+        from anisotropy.pairs import estimate_pair_count
+
+        d0 = (n_lags + 0.5) * lag
+        est = estimate_pair_count(c, d0)
+        d = d0
+        for _ in range(4):
+            if est <= PAIR_BUDGET:
+                break
+            d = d * (PAIR_BUDGET / est) ** (1.0 / 2.5)
+            est = estimate_pair_count(c, d)
+        if d < d0:
+            lag = float(f"{d / (n_lags + 0.5):.3g}")
+            choices.append({"choice": "maximum distance", "value": (n_lags + 0.5) * lag,
+                            "reason": f"shortened from {d0:.0f} m to keep the single pass "
+                                      f"over pairs near {PAIR_BUDGET:.0e} pairs (about "
+                                      f"{est:.2e} estimated); the unit lag becomes {lag:.3g} m."
+                                      " Give --lag and --n-lags to override"})
     choices.append({"choice": "lag tolerance", "value": lag / 2,
                     "reason": "half the lag (common practice; classes are contiguous)"})
     return {"unit_lag": lag, "n_lags": n_lags, "lag_tolerance": lag / 2,
-            "max_distance": (n_lags + 0.5) * lag}
+            "max_distance": (n_lags + 0.5) * lag, "pairs_estimated": est}
 
 
 def _within_hole_pairs(coords, holes, lag, n_lags, coarse_dirs):
     """Exact within-hole pair counts and distinct holes per (class, coarse cell).
 
-    Also the down-hole variogram at the composite spacing for the nugget.
-    Returns (within_pairs, within_holes, downhole dict) or None without holes.
+    Samples are sorted by hole and, inside a hole, along its principal
+    direction; pairs ``(a, a + step)`` of the same hole are formed for every
+    step (vectorised over holes).  Also returns the down-hole pairs of the
+    first six steps (distances and sample indices) for the nugget.
     """
     from anisotropy.geometry import to_lower_hemisphere
 
-    if holes is None:
-        return None
     max_d = (n_lags + 0.5) * lag
     codes, inv = np.unique(np.asarray(holes).astype(str), return_inverse=True)
     n_c = coarse_dirs.shape[0]
-    within = np.zeros((n_lags + 1, n_c))
-    seen = np.zeros((n_lags + 1, n_c, len(codes)), dtype=bool) if len(codes) * n_c * (n_lags + 1) < 5e7 else None
-    dh_d, dh_g = [], []
+    # position along each hole's principal direction
+    pos = np.zeros(len(coords))
     order = np.argsort(inv, kind="stable")
-    bounds = np.flatnonzero(np.diff(inv[order])) + 1
-    groups = np.split(order, bounds)
-    for gi, idx in enumerate(groups):
-        if len(idx) < 2:
-            continue
-        p = coords[idx]
-        # order along the hole's principal direction
-        cen = p - p.mean(axis=0)
-        _, _, vt = np.linalg.svd(cen, full_matrices=False)
-        o = np.argsort(cen @ vt[0])
-        p = p[o]
-        i, j = np.triu_indices(len(p), 1)
-        v = p[j] - p[i]
+    starts = np.r_[0, np.flatnonzero(np.diff(inv[order])) + 1, len(order)]
+    for a0, a1 in zip(starts[:-1], starts[1:]):
+        idx = order[a0:a1]
+        if len(idx) > 1:
+            p = coords[idx] - coords[idx].mean(axis=0)
+            _, _, vt = np.linalg.svd(p, full_matrices=False)
+            pos[idx] = p @ vt[0]
+    order = np.lexsort((pos, inv))
+    h_sorted = inv[order]
+    c_sorted = coords[order]
+    within = np.zeros((n_lags + 1, n_c))
+    keys = []
+    dh_d, dh_i, dh_j = [], [], []
+    n = len(order)
+    for step in range(1, n):
+        same = h_sorted[step:] == h_sorted[:-step]
+        if not same.any():
+            break
+        ia = np.flatnonzero(same)
+        ja = ia + step
+        v = c_sorted[ja] - c_sorted[ia]
         d = np.linalg.norm(v, axis=1)
-        keep = (d <= max_d) & (d > 0)
-        i, j, v, d = i[keep], j[keep], v[keep], d[keep]
-        if d.size == 0:
+        ok = (d > 0) & (d <= max_d)
+        if step <= 6:
+            dh_d.append(d[d > 0])
+            dh_i.append(order[ia[d > 0]])
+            dh_j.append(order[ja[d > 0]])
+        if not ok.any():
+            if step > 6:
+                break
             continue
+        ia, v, d = ia[ok], v[ok], d[ok]
         k = np.ceil(d / lag - 0.5).astype(int)
-        ok = k <= n_lags
-        k, v, d = k[ok], v[ok], d[ok]
+        m = k <= n_lags
+        k, v, d, ia = k[m], v[m], d[m], ia[m]
         u = to_lower_hemisphere(v / d[:, None])
         cell = np.argmax(np.abs(u @ coarse_dirs.T), axis=1)
         np.add.at(within, (k, cell), 1.0)
-        if seen is not None:
-            seen[k, cell, gi] = True
-        step = j[ok] - i[ok]
-        vals_idx = idx[o]
-        dh_d.append(d[step <= 6])
-        dh_g.append(np.stack([vals_idx[i[ok]][step <= 6], vals_idx[j[ok]][step <= 6]], axis=1))
-    within_holes = seen.sum(axis=2).astype(float) if seen is not None else np.minimum(within, 1.0)
-    return within, within_holes, (np.concatenate(dh_d) if dh_d else np.empty(0),
-                                  np.concatenate(dh_g) if dh_g else np.empty((0, 2), int))
+        keys.append((k * n_c + cell) * len(codes) + h_sorted[ia])
+    within_holes = np.zeros((n_lags + 1) * n_c)
+    if keys:
+        uk = np.unique(np.concatenate(keys))
+        np.add.at(within_holes, uk // len(codes), 1.0)
+    within_holes = within_holes.reshape(n_lags + 1, n_c)
+    dh = (np.concatenate(dh_d) if dh_d else np.empty(0),
+          np.column_stack([np.concatenate(dh_i), np.concatenate(dh_j)]) if dh_i
+          else np.empty((0, 2), int))
+    return within, within_holes, dh
 
 
 def _downhole_nugget(dh, values, composite, total, estimator):
@@ -764,7 +801,7 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
     else:
         from anisotropy.pairs._lattice import DEFAULT_COARSE_SPACING
         coarse = fan_for_spacing(DEFAULT_COARSE_SPACING)
-    n_est = None
+    n_est = lag_info.pop("pairs_estimated", None)
     volume = _pairs.build_volume(samples.coords, tv, lag=lag_u, n_lags=nl,
                                  coarse_directions=coarse, progress=progress, **bw_kw)
     coarse = np.asarray(volume.coarse_directions, float)

@@ -10,7 +10,10 @@ four parameters; Schwarz 1978 for the criterion, the factor is our choice).
 A further structure is kept only if it also lowers the WRSS by at least
 ``min_gain`` (default 3 %) and its sill share is at least 5 % of the total
 and its ranges differ from the neighbouring structure's by a factor of at
-least 1.5 (otherwise the two structures are the same structure split).
+least 1.5 (otherwise the two structures are the same structure split), and
+no structure's range exceeds three times the longest lag (such a structure
+stands for a drift).  When a structure brings less than the minimum gain,
+more structures are not tried.
 """
 
 from __future__ import annotations
@@ -55,9 +58,12 @@ class Selection:
                 "candidates": self.table}
 
 
-def _distinct(fit: NestedFit, total: float) -> tuple[bool, str]:
+def _distinct(fit: NestedFit, total: float, drift_range=None) -> tuple[bool, str]:
     if fit.sills is None or len(fit.sills) < 2:
         return True, ""
+    if drift_range is not None and np.any(fit.ranges.max(axis=1) > drift_range):
+        return False, (f"a structure's range exceeds {drift_range:.3g} m (three times the "
+                       "longest lag): it models a drift, not a structure")
     tot = total if total else float(fit.nugget + np.sum(fit.sills))
     if np.min(fit.sills) < 0.05 * tot:
         return False, "a structure holds under 5 % of the sill"
@@ -70,7 +76,7 @@ def _distinct(fit: NestedFit, total: float) -> tuple[bool, str]:
 
 def select_structures(bins, start, *, max_structures=3, n_structures=None, kinds=None,
                       total_sill=None, min_gain=0.03, fixed_frame=None, m_eff_fraction=0.25,
-                      **fit_options) -> Selection:
+                      drift_factor=3.0, **fit_options) -> Selection:
     """Fit 1..``max_structures`` structures warm-started from ``start`` and choose.
 
     Parameters
@@ -88,6 +94,10 @@ def select_structures(bins, start, *, max_structures=3, n_structures=None, kinds
         Passed to :func:`fit_nested`.
     min_gain : float
         Relative WRSS gain an extra structure must bring.
+    drift_factor : float
+        A candidate with more than one structure is rejected when a structure's
+        range exceeds this many times the longest bin distance (it then fits
+        a drift).
     fixed_frame, fit_options
         Passed to :func:`fit_nested`.
 
@@ -96,6 +106,7 @@ def select_structures(bins, start, *, max_structures=3, n_structures=None, kinds
     Selection
     """
     counts = [int(n_structures)] if n_structures else list(range(1, int(max_structures) + 1))
+    drift_range = None if drift_factor is None else drift_factor * float(np.max(bins.distance))
     fits = {}
     table = []
     prev = start
@@ -104,11 +115,16 @@ def select_structures(bins, start, *, max_structures=3, n_structures=None, kinds
                        fixed_frame=fixed_frame, **fit_options)
         fits[K] = f
         prev = (f.frame, f.nugget, f.sills, f.ranges, f.kinds)
+        if K > 1 and n_structures is None and f.wrss > (1.0 - min_gain) * fits[K - 1].wrss:
+            # no real gain from this structure: a further one is not tried
+            break
     best_k = counts[0]
     reasons = {counts[0]: "first candidate"}
     for K in counts[1:]:
+        if K not in fits:
+            continue
         cur, new = fits[best_k], fits[K]
-        ok, why = _distinct(new, total_sill)
+        ok, why = _distinct(new, total_sill, drift_range)
         gain = 1.0 - new.wrss / max(cur.wrss, 1e-300)
         if not ok:
             reasons[K] = f"rejected: {why}"
@@ -120,6 +136,10 @@ def select_structures(bins, start, *, max_structures=3, n_structures=None, kinds
             reasons[K] = f"accepted: BIC lower and WRSS gain {gain:.1%}"
             best_k = K
     for K in counts:
+        if K not in fits:
+            table.append({"structures": K, "chosen": False,
+                          "reason": f"not tried: {K - 1} structures gained too little"})
+            continue
         f = fits[K]
         table.append({"structures": K, "kinds": list(f.kinds), "parameters": f.n_params,
                       "wrss": float(f.wrss), "bic": bic(f, m_eff_fraction),
