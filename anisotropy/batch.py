@@ -644,6 +644,11 @@ def run_demo(out="fenwright_demo", *, jobs=2, bootstrap=None, resume=False, prog
         for over in cfg["domain"].values():
             over.pop("bootstrap", None)
     cfg.pop("source", None)
-    return run_batch(paths["composites"], value="au_gpt", domain="domain", out=out,
+    from anisotropy.samples import read_table
+
+    table = read_table(paths["composites"])
+    # a stable, machine-independent name in every record and page
+    table.attrs["source"] = f"anisotropy/data/{DEMO_TABLE}"
+    return run_batch(table, value="au_gpt", domain="domain", out=out,
                      hole="hole_id", jobs=jobs, config=cfg, resume=resume, progress=progress,
                      **options)

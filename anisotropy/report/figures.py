@@ -330,9 +330,12 @@ def variogram_map_figure(values, extent, pairs=None, *, ellipse=None, min_pairs=
     fig = _blank_figure((5.6, 4.8))
     ax = fig.add_subplot()
     ax.set_facecolor("#eeeeee")
+    finite = vals[np.isfinite(vals)]
+    # colour scale from 0 to the 98th percentile, so a few thin, noisy cells do not wash it out
+    vmax = float(np.percentile(finite, 98)) if finite.size else 1.0
     im = ax.imshow(vals, origin="lower", extent=extent, cmap="viridis", aspect="equal",
-                   interpolation="nearest")
-    cb = fig.colorbar(im, ax=ax, shrink=0.85)
+                   interpolation="nearest", vmin=0.0, vmax=vmax if vmax > 0 else None)
+    cb = fig.colorbar(im, ax=ax, shrink=0.85, extend="max")
     cb.set_label(value_label)
     if ellipse is not None:
         items = ellipse if isinstance(ellipse, list) else [(ellipse[0], ellipse[1], "fitted range")]

@@ -324,7 +324,10 @@ def _fig_directional(disc, path):
     vol = disc.volume_
     R = _frame(disc)
     lags = disc.lags or {}
-    tol = float(lags.get("angular_tolerance") or 22.5)
+    dirs_diag = (getattr(disc, "diagnostics", {}) or {}).get("directions") or {}
+    tol = float(lags.get("angular_tolerance")
+                or (dirs_diag.get("angular_tolerance") if isinstance(dirs_diag, Mapping) else None)
+                or 22.5)
     bw = lags.get("bandwidth")
     estimator = _estimator(disc)
     dirs = [(a, R[:, i], f"{_AXIS_WORD[a]} axis") for i, a in enumerate(_AXES)]
