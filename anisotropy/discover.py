@@ -239,7 +239,8 @@ class Discovery:
         main fit's information weights (per bin, as a ratio to the pair
         count), and refits the same number and kinds of structures,
         warm-started from ``start`` (default: the main fit), with the same
-        nugget policy; ``fixed_frame`` holds the frame (for checking an
+        nugget policy, one re-weighting pass (the Cressie denominators of the
+        warm start) and a relative cost tolerance of 1e-5; ``fixed_frame`` holds the frame (for checking an
         interpretation).  No pass over the pairs.  The returned model's frame
         is ordered and canonical like the main one.
         """
@@ -260,7 +261,7 @@ class Discovery:
                            fixed_frame=fixed_frame, fixed_nugget=st["fixed_nugget"],
                            total_sill=st["total_sill"], max_nfev=st["max_nfev"],
                            min_range=st["min_range"], max_range=st["max_range"],
-                           planar=st["planar"], make_model=False)
+                           planar=st["planar"], ftol=1e-5, outer=1, make_model=False)
             model = _ordered_model(f, keep_frame=fixed_frame is not None)
             return model, float(f.objective)
 
