@@ -9,9 +9,9 @@ with a :class:`~anisotropy.discover.Discovery` three ways:
 1. **Angles** between each interpreted axis and the discovered one
    (:func:`anisotropy.geometry.axis_angle`).
 2. **Bootstrap support**: the share of bootstrap replicates whose matched
-   axis lies within that angle of the discovered axis. A share above the
-   confidence level means the interpretation lies outside the confidence
-   cone of that axis.
+   axis lies within that angle of the discovered axis (a share above the
+   confidence level means the interpretation lies beyond most replicates),
+   and the reported confidence cone of that axis.
 3. **Fit**: the model refitted with its frame held fixed at the
    interpretation against the free fit (objective ratio, >= 1), and where
    that ratio falls among the same ratios in the block-bootstrap replicates
@@ -29,10 +29,11 @@ one with that major axis.
 The verdict and its thresholds (:data:`DEFAULT_THRESHOLDS`, printed with
 every result):
 
-* an axis is **outside** when the share of replicates within its angle
-  exceeds ``confidence`` (0.9) and the angle exceeds ``practical_deg`` (10
-  degrees: differences below this are within what careful practitioners
-  disagree by, common practice, and never count against an interpretation);
+* an axis is **outside** when its angle exceeds the radius of the
+  ``confidence`` (0.9) cone of that axis (the cone as reported, i.e. with the
+  bootstrap's calibration factor) and exceeds ``practical_deg`` (10 degrees:
+  differences below this are within what careful practitioners disagree by,
+  common practice, and never count against an interpretation);
 * the fit is **worse** when the share of bootstrap ratios at least as large
   as the interpretation's is below ``ratio_share`` (0.1);
 * **consistent**: no axis outside and the fit not worse; **contradicted**:
@@ -347,8 +348,8 @@ class CheckResult:
         for r in self.reasons:
             lines.append(f"  - {r}")
         t = self.thresholds
-        lines.append(f"  thresholds: axis outside when > {100 * t['confidence']:.0f} % of "
-                     f"replicates are within its angle and the angle > {t['practical_deg']:g} "
+        lines.append(f"  thresholds: axis outside when its angle exceeds the "
+                     f"{100 * t['confidence']:.0f} % cone and {t['practical_deg']:g} "
                      f"deg; fit worse when < {100 * t['ratio_share']:.0f} % of bootstrap "
                      f"ratios are as large; major/semi-major unresolved when they swap in > "
                      f"{100 * t['swap_rate']:.0f} % of replicates")
@@ -425,7 +426,8 @@ def check_interpretation(discovery, interpretation: Interpretation, *, threshold
         reps = rep_angles[:, j]
         within = float(np.mean(reps <= ang))
         _, cone = unc.axis_cone(boot.axes[:, :, j], D[:, j], th["confidence"])
-        outside = bool(within > th["confidence"] and ang > th["practical_deg"])
+        cone = min(90.0, cone * float(getattr(boot, "cone_calibration", 1.0)))
+        outside = bool(ang > cone and ang > th["practical_deg"])
         angles[k] = ang
         support[k] = {"replicates_within": within, "cone_deg": float(cone),
                       "outside": outside, "compared_with": AXIS_NAMES[j]}
