@@ -499,9 +499,12 @@ def _section_lags(disc, d) -> str:
         for k, lag in (sp.get("suggested_lag") or {}).items():
             rows.append({"direction class": k, "suggested lag (m)": _g(lag, ".3g"),
                          "why": (sp.get("reasons") or {}).get(k, "")})
-        html.append("<p>Nominal spacing: across-hole "
-                    f"{_g(sp.get('across_hole'), '.3g')} m, down-hole {_g(sp.get('down_hole'), '.3g')} m, "
-                    f"bench {_g(sp.get('bench'), '.3g')} m.</p>")
+        def metres(x):
+            text = _g(x, ".3g")
+            return text if text == "n/a" else f"{text} m"
+
+        html.append(f"<p>Nominal spacing: across-hole {metres(sp.get('across_hole'))}, "
+                    f"down-hole {metres(sp.get('down_hole'))}, bench {metres(sp.get('bench'))}.</p>")
         if rows:
             html.append(_table(rows))
     diag = d.get("diagnostics") or {}
