@@ -30,6 +30,8 @@ CONFIG = {
     "domain": {
         "alpha": {"interpretation": {"plane": "020/70", "pitch": 25}},
         "broken": {"interpretation": {"plane": "200/95"}},  # a dip of 95 is impossible
+        HOSTILE: {"transform": "log", "lag": 8.0, "n_lags": 10, "estimator": "robust",
+                  "topcut": 5.0},
         "not_in_table": {"transform": "log"},
     },
 }
@@ -103,6 +105,38 @@ def test_every_domain_has_a_row_with_the_right_status(batch):
         assert r["n_used"] == 120 and r["replicates"] and r["replicates"] >= 1
         for key in ("plane_dip", "major_trend", "range_major", "nugget", "cone_major"):
             assert r[key] is not None and np.isfinite(r[key])
+
+
+def test_per_domain_overrides_reach_that_domain_only(batch, table):
+    root, out, res = batch
+    rows = _rows(res)
+    hostile = json.loads((out / rows[HOSTILE]["folder"] / "discovery.json").read_text())
+    alpha = json.loads((out / "alpha" / "discovery.json").read_text())
+    assert hostile["transform"]["kind"] == "log" and alpha["transform"]["kind"] != "log"
+    assert hostile["estimator"] == "robust" and alpha["estimator"] == "semivariogram"
+    assert hostile["lags"]["unit_lag"] == 8.0 and hostile["lags"]["n_lags"] == 10
+    assert alpha["lags"]["unit_lag"] != 8.0
+    # top-cut: the count of capped grades is the brute-force count in the table
+    grades = table.loc[table["zone"] == HOSTILE, "au"]
+    assert rows[HOSTILE]["topcut"] == 5.0
+    assert rows[HOSTILE]["n_capped"] == int((grades > 5.0).sum()) > 0
+    assert rows["alpha"]["topcut"] is None
+    assert any("top-cut 5" in w for w in hostile["diagnostics"]["warnings"])
+
+
+def test_demo_config_matches_the_bundled_deposit():
+    from anisotropy.batch import _interpretation, demo_paths
+    from anisotropy.samples import domain_values, read_table
+
+    paths = demo_paths()
+    cfg = load_config(paths["config"])
+    names = domain_values(read_table(paths["composites"]), "domain")
+    truth = json.loads(paths["truth"].read_text())
+    assert sorted(cfg["domain"]) == sorted(names) == sorted(truth["domains"])
+    checked = [n for n, over in cfg["domain"].items() if over.get("interpretation")]
+    assert len(checked) >= 1
+    for n in checked:
+        _interpretation(cfg["domain"][n]["interpretation"], n)  # parses
 
 
 def test_summary_files_match_and_read_back(batch):
