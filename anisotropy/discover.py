@@ -61,7 +61,7 @@ WIDE_ANGULAR_TOLERANCE = 30.0   # degrees, for directions thin at the default
 MIN_LAGS, MAX_LAGS_AUTO = 12, 20
 MIN_SAMPLES = 30
 PAIR_BUDGET = 1.5e8             # pairs in the one pass, for automatic lags
-N_RANDOM_STARTS = 3
+N_RANDOM_STARTS = 8
 
 
 def _f(x):
@@ -371,7 +371,8 @@ def _choose_transform(values, transform, weights, choices, threshold=None):
     return apply_transform(values, kind, **kw)
 
 
-def _choose_lags(samples, spacing, lag, n_lags, choices):
+def _choose_lags(samples, spacing, lag, n_lags, choices, pair_budget=None):
+    budget = PAIR_BUDGET if pair_budget is None else float(pair_budget)
     c = samples.coords
     ext = c.max(axis=0) - c.min(axis=0)
     extent = float(np.max(ext))
@@ -426,17 +427,31 @@ def _choose_lags(samples, spacing, lag, n_lags, choices):
         est = estimate_pair_count(c, d0)
         d = d0
         for _ in range(4):
-            if est <= PAIR_BUDGET:
+            if est <= budget:
                 break
-            d = d * (PAIR_BUDGET / est) ** (1.0 / 2.5)
+            d = d * (budget / est) ** (1.0 / 2.5)
             est = estimate_pair_count(c, d)
         if d < d0:
-            lag = float(f"{d / (n_lags + 0.5):.3g}")
+            # fewer lags first (the unit lag stays at the spacing), then a shorter lag
+            n_new = int(math.floor(d / lag - 0.5))
+            if n_new >= MIN_LAGS:
+                how = f"the number of lags becomes {n_new} (unit lag kept at {lag:.3g} m)"
+                n_lags = n_new
+            else:
+                n_lags = min(MIN_LAGS, n_lags)
+                lag = float(f"{d / (n_lags + 0.5):.3g}")
+                how = (f"{n_lags} lags of {lag:.3g} m (shorter than the nominal spacing: "
+                       "the first lags hold few pairs)")
+            for row in choices:
+                if row["choice"] == "unit lag":
+                    row["value"] = lag
+                if row["choice"] == "number of lags":
+                    row["value"] = n_lags
             choices.append({"choice": "maximum distance", "value": (n_lags + 0.5) * lag,
                             "reason": f"shortened from {d0:.0f} m to keep the single pass "
-                                      f"over pairs near {PAIR_BUDGET:.0e} pairs (about "
-                                      f"{est:.2e} estimated); the unit lag becomes {lag:.3g} m."
-                                      " Give --lag and --n-lags to override"})
+                                      f"over pairs near {budget:.1e} pairs (about "
+                                      f"{est:.2e} estimated at the new distance): {how}. "
+                                      "Give --lag and --n-lags to override"})
     choices.append({"choice": "lag tolerance", "value": lag / 2,
                     "reason": "half the lag (common practice; classes are contiguous)"})
     return {"unit_lag": lag, "n_lags": n_lags, "lag_tolerance": lag / 2,
@@ -561,7 +576,7 @@ def _resolution_warnings(bins, fit_model, frame, lag_info, spacing, holes, warni
     for i, name in enumerate(AXES):
         r = st.ranges[i]
         cos = np.abs(u @ frame[:, i])
-        near = (cos > np.cos(np.radians(25))) & (d < 0.8 * r) & (bins.pairs >= min_pairs)
+        near = (cos > np.cos(np.radians(25))) & (d < r) & (bins.pairs >= min_pairs)
         if near.sum() < 2:
             shortest = float(d[cos > np.cos(np.radians(25))].min()) if np.any(
                 cos > np.cos(np.radians(25))) else float("nan")
@@ -650,7 +665,7 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
              lag=None, n_lags=None, angular_tolerance=None, bandwidth=None, bootstrap=0,
              confidence=0.9, seed=0, n_jobs=1, scheduler=None, progress=False,
              kinds=None, sill="variance", threshold=None, fan_spacing=DEFAULT_FAN_SPACING,
-             coarse_spacing=None, min_pairs=None, **intake) -> Discovery:
+             coarse_spacing=None, min_pairs=None, pair_budget=None, **intake) -> Discovery:
     """Discover the 3D continuity of one grade in one domain.
 
     Parameters
@@ -696,6 +711,9 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
         pair engine's).
     min_pairs : float, optional
         Fewest pairs for a fit bin (default 10) and a fan lag (default 30).
+    pair_budget : float, optional
+        With automatic lags, the maximum distance is shortened until the
+        estimated pair count is within this (default ``PAIR_BUDGET``, 1.5e8).
     **intake
         Passed to the sample reader (missing_codes, below_detection, duplicates).
 
@@ -790,13 +808,25 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
         units = "pairwise relative units"
 
     # lags
-    lag_info = _choose_lags(samples, spacing, lag, n_lags, choices)
+    lag_info = _choose_lags(samples, spacing, lag, n_lags, choices, pair_budget)
     lag_u, nl = lag_info["unit_lag"], lag_info["n_lags"]
 
     # pair engine
     from anisotropy import pairs as _pairs
 
     bw_kw = {}
+    if bootstrap and int(bootstrap) > 0:
+        try:
+            from anisotropy.uncertainty import engine_block_side
+        except ImportError:  # pragma: no cover - uncertainty not installed
+            pass
+        else:
+            side = float(engine_block_side(samples.coords, max_side=lag_info["max_distance"]))
+            bw_kw["blocks"] = side
+            choices.append({"choice": "bootstrap blocks", "value": side,
+                            "reason": "block side giving about 100 occupied blocks, so that "
+                                      "the block bootstrap has room to resample "
+                                      "(anisotropy.uncertainty.engine_block_side)"})
     if coarse_spacing is not None:
         coarse = fan_for_spacing(coarse_spacing)
     else:
@@ -952,10 +982,26 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
     screened.sort(key=lambda f: f.objective)
     # polish the two best, then try the other kinds from the best frame
     best = None
-    for f0 in screened[:2]:
+    for f0 in screened[:3]:
         f = fit_nested(bins, (f0.frame, f0.nugget, f0.sills, f0.ranges, f0.kinds), **common)
         if best is None or f.objective < best.objective:
             best = f
+    # swapped-axis restarts: the usual local optima exchange two axes (major and
+    # semi-major above all); start again from the best frame with each pair of
+    # axes exchanged and keep what fits better
+    for a, b_ in ((0, 1), (1, 2), (0, 2)):
+        perm = [0, 1, 2]
+        perm[a], perm[b_] = perm[b_], perm[a]
+        rr = np.asarray(best.ranges, float).copy()
+        F = np.asarray(best.frame, float)
+        f = fit_nested(bins, (F, best.nugget, best.sills, rr[:, perm], best.kinds),
+                       ftol=1e-4, outer=1, max_nfev=300, **common)
+        tried.append({"start": f"best frame, axes {a + 1} and {b_ + 1} exchanged",
+                      "kind": best.kinds[0], "objective": f.objective})
+        if f.objective < best.objective - 1e-6:
+            f = fit_nested(bins, (f.frame, f.nugget, f.sills, f.ranges, f.kinds), **common)
+            if f.objective < best.objective:
+                best = f
     kind_table = [{"kind": best.kinds[0], "wrss": best.wrss}]
     for kind in kind_list[1:]:
         f = fit_nested(bins, (best.frame, best.nugget, best.sills, best.ranges, (kind,)),
