@@ -608,6 +608,7 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
     y = np.ascontiguousarray(cl[order, 1])
     z = np.ascontiguousarray(cl[order, 2])
     vv = np.ascontiguousarray(v[order])
+    occ_index, cell_lo, cell_hi = _cells.cell_bounds(grid, np.column_stack([x, y, z]))
     maxd2 = (max_distance * (1 + 1e-12)) ** 2
     inv_pix = table.shape[0] / (2.0 * math.sqrt(2.0))
     binv = np.where(size > 0, 1.0 / np.where(size > 0, size, 1.0), 0.0)
@@ -617,7 +618,7 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
                              n_chunks, maxd2, lag, n_lags, table, inv_pix, f2c, n_coarse,
                              do_blocks, borig, binv, bshape, do_map,
                              (1.0 / mc) if do_map else 0.0, mhalf,
-                             acc_fine, acc_blk, acc_map, stats)
+                             acc_fine, acc_blk, acc_map, stats, occ_index, cell_lo, cell_hi)
         if loud and len(batches) > 1:
             done = float(work[:q1].sum() / max(work.sum(), 1))
             _announce(progress, f"pair engine: batch {bi + 1}/{len(batches)} done "

@@ -23,7 +23,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["CellGrid", "make_grid", "half_stencil", "DEFAULT_CELL_DIVISIONS"]
+__all__ = ["CellGrid", "make_grid", "half_stencil", "cell_bounds", "DEFAULT_CELL_DIVISIONS"]
 
 #: Cells per search radius (cell side = R / this), from the benchmark.
 DEFAULT_CELL_DIVISIONS = 6
@@ -113,3 +113,28 @@ def half_stencil(cell: float, radius: float, dims=None) -> np.ndarray:
     keep = (gap * gap).sum(axis=1) <= (radius * radius) * (1 + 1e-9) + 1e-300
     pos = (off[:, 0] > 0) | ((off[:, 0] == 0) & ((off[:, 1] > 0) | ((off[:, 1] == 0) & (off[:, 2] > 0))))
     return np.ascontiguousarray(off[keep & pos].astype(np.int64))
+
+
+def cell_bounds(grid: CellGrid, sorted_coords: np.ndarray):
+    """Bounding boxes of the samples of each occupied cell.
+
+    Parameters
+    ----------
+    grid : CellGrid
+    sorted_coords : ndarray (n, 3)
+        Coordinates already in ``grid.order``.
+
+    Returns
+    -------
+    occ_index : ndarray (n_cells,) int64
+        Position of each cell in ``grid.occupied`` (-1 when empty).
+    lo, hi : ndarray (n_occupied, 3)
+    """
+    occ_index = np.full(grid.n_cells, -1, dtype=np.int64)
+    occ_index[grid.occupied] = np.arange(len(grid.occupied))
+    if len(grid.occupied) == 0:
+        return occ_index, np.zeros((0, 3)), np.zeros((0, 3))
+    starts = grid.start[grid.occupied]
+    lo = np.minimum.reduceat(sorted_coords, starts, axis=0)
+    hi = np.maximum.reduceat(sorted_coords, starts, axis=0)
+    return occ_index, np.ascontiguousarray(lo), np.ascontiguousarray(hi)

@@ -67,7 +67,7 @@ def _pair_values(vals, d, h, t, dx, dy, dz):
 def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                 maxd2, lag, n_lags, table, inv_pix, f2c, n_coarse,
                 do_blocks, borig, binv, bshape, do_map, minv, mhalf,
-                acc_fine, acc_blk, acc_map, stats):
+                acc_fine, acc_blk, acc_map, stats, occ_index, cell_lo, cell_hi):
     """Accumulate the pairs of stencil offsets ``g0 <= g < g1`` over all occupied cells.
 
     ``offsets[0]`` must be (0, 0, 0): the pairs inside a cell (j > i). The loop
@@ -76,6 +76,13 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
     touch stay in cache. Chunk ``c`` takes the offsets ``g`` with
     ``g % n_chunks == c``. ``stats[c, 0]`` counts candidate pairs looked at,
     ``stats[c, 1]`` pairs kept.
+
+    Blocks: when the midpoints of every pair of a cell pair fall in one block
+    (tested on the cells' bounding boxes: the rounded midpoint, shift, scale,
+    floor and clamp are all monotone, so the block of the two corners bounds
+    every pair's), the block is computed once for the cell pair.
+    ``occ_index[cell]`` is the position of a cell in ``occupied`` and
+    ``cell_lo``/``cell_hi`` (n_occupied, 3) the bounding boxes of its samples.
     """
     tsize = table.shape[0]
     n_fine = f2c.shape[0]
@@ -88,6 +95,22 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
         af = acc_fine[c]
         ab = acc_blk[c]
         am = acc_map[c]
+        bcur = -1
+        bq0 = 0.0
+        bq1 = 0.0
+        bq2 = 0.0
+        bq3 = 0.0
+        bq4 = 0.0
+        bq5 = 0.0
+        bq6 = 0.0
+        bq7 = 0.0
+        bq8 = 0.0
+        bq9 = 0.0
+        bq10 = 0.0
+        bq11 = 0.0
+        bq12 = 0.0
+        bq13 = 0.0
+        bq14 = 0.0
         cand = 0
         kept = 0
         first = g0 + ((c - g0) % n_chunks)
@@ -113,6 +136,24 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                     continue
                 a0 = start[a]
                 a1 = start[a + 1]
+                bconst = -1
+                if do_blocks:
+                    qa = occ_index[a]
+                    qb = occ_index[b]
+                    same = True
+                    bl = 0
+                    for ax_ in range(3):
+                        lo = int(math.floor((0.5 * (cell_lo[qa, ax_] + cell_lo[qb, ax_]) - borig[ax_])
+                                            * binv[ax_]))
+                        hi = int(math.floor((0.5 * (cell_hi[qa, ax_] + cell_hi[qb, ax_]) - borig[ax_])
+                                            * binv[ax_]))
+                        lo = min(max(lo, 0), bshape[ax_] - 1)
+                        hi = min(max(hi, 0), bshape[ax_] - 1)
+                        if lo != hi:
+                            same = False
+                        bl = bl * bshape[ax_] + lo
+                    if same:
+                        bconst = bl
                 for i in range(a0, a1):
                     xi = x[i]
                     yi = y[i]
@@ -185,29 +226,67 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                         af[base + 13] += dy
                         af[base + 14] += dz
                         if do_blocks:
-                            bx = int(math.floor((0.5 * (xi + x[j]) - borig[0]) * binv[0]))
-                            by = int(math.floor((0.5 * (yi + y[j]) - borig[1]) * binv[1]))
-                            bz = int(math.floor((0.5 * (zi + z[j]) - borig[2]) * binv[2]))
-                            bx = min(max(bx, 0), bshape[0] - 1)
-                            by = min(max(by, 0), bshape[1] - 1)
-                            bz = min(max(bz, 0), bshape[2] - 1)
-                            bb = (bx * bshape[1] + by) * bshape[2] + bz
+                            if bconst >= 0:
+                                bb = bconst
+                            else:
+                                bx = int(math.floor((0.5 * (xi + x[j]) - borig[0]) * binv[0]))
+                                by = int(math.floor((0.5 * (yi + y[j]) - borig[1]) * binv[1]))
+                                bz = int(math.floor((0.5 * (zi + z[j]) - borig[2]) * binv[2]))
+                                bx = min(max(bx, 0), bshape[0] - 1)
+                                by = min(max(by, 0), bshape[1] - 1)
+                                bz = min(max(bz, 0), bshape[2] - 1)
+                                bb = (bx * bshape[1] + by) * bshape[2] + bz
+                            # consecutive pairs mostly share a block bin: sum in registers, store on change
                             base = ((bb * (n_lags + 1) + k) * n_coarse + f2c[f]) * NCH
-                            ab[base + 0] += 1.0
-                            ab[base + 1] += d
-                            ab[base + 2] += sq
-                            ab[base + 3] += ad
-                            ab[base + 4] += sr
-                            ab[base + 5] += h
-                            ab[base + 6] += t
-                            ab[base + 7] += hh
-                            ab[base + 8] += tt
-                            ab[base + 9] += ht
-                            ab[base + 10] += rel
-                            ab[base + 11] += reln
-                            ab[base + 12] += dx
-                            ab[base + 13] += dy
-                            ab[base + 14] += dz
+                            if base != bcur:
+                                if bcur >= 0:
+                                    ab[bcur + 0] += bq0
+                                    ab[bcur + 1] += bq1
+                                    ab[bcur + 2] += bq2
+                                    ab[bcur + 3] += bq3
+                                    ab[bcur + 4] += bq4
+                                    ab[bcur + 5] += bq5
+                                    ab[bcur + 6] += bq6
+                                    ab[bcur + 7] += bq7
+                                    ab[bcur + 8] += bq8
+                                    ab[bcur + 9] += bq9
+                                    ab[bcur + 10] += bq10
+                                    ab[bcur + 11] += bq11
+                                    ab[bcur + 12] += bq12
+                                    ab[bcur + 13] += bq13
+                                    ab[bcur + 14] += bq14
+                                bcur = base
+                                bq0 = 1.0
+                                bq1 = d
+                                bq2 = sq
+                                bq3 = ad
+                                bq4 = sr
+                                bq5 = h
+                                bq6 = t
+                                bq7 = hh
+                                bq8 = tt
+                                bq9 = ht
+                                bq10 = rel
+                                bq11 = reln
+                                bq12 = dx
+                                bq13 = dy
+                                bq14 = dz
+                            else:
+                                bq0 += 1.0
+                                bq1 += d
+                                bq2 += sq
+                                bq3 += ad
+                                bq4 += sr
+                                bq5 += h
+                                bq6 += t
+                                bq7 += hh
+                                bq8 += tt
+                                bq9 += ht
+                                bq10 += rel
+                                bq11 += reln
+                                bq12 += dx
+                                bq13 += dy
+                                bq14 += dz
                         if do_map:
                             mx = int(math.floor(dx * minv + 0.5)) + mhalf
                             my = int(math.floor(dy * minv + 0.5)) + mhalf
@@ -231,6 +310,22 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                             am[base + 12] += dx
                             am[base + 13] += dy
                             am[base + 14] += dz
+        if bcur >= 0:
+            ab[bcur + 0] += bq0
+            ab[bcur + 1] += bq1
+            ab[bcur + 2] += bq2
+            ab[bcur + 3] += bq3
+            ab[bcur + 4] += bq4
+            ab[bcur + 5] += bq5
+            ab[bcur + 6] += bq6
+            ab[bcur + 7] += bq7
+            ab[bcur + 8] += bq8
+            ab[bcur + 9] += bq9
+            ab[bcur + 10] += bq10
+            ab[bcur + 11] += bq11
+            ab[bcur + 12] += bq12
+            ab[bcur + 13] += bq13
+            ab[bcur + 14] += bq14
         stats[c, 0] += cand
         stats[c, 1] += kept
 
