@@ -204,12 +204,14 @@ def _row_from_result(row: dict, d: Mapping, check: Mapping | None) -> dict:
     return row
 
 
-def _run_domain(task: Mapping) -> dict:
+def _run_domain(task: Mapping, frame=None) -> dict:
     """Run the chain for one domain; never raises (the row says what happened).
 
-    ``task`` is a plain dict (picklable for joblib and Dask): the domain's
-    rows, the column names, discover options, the interpretation spec, and
-    the folder to write into.
+    ``task`` is a plain dict (picklable for joblib and Dask): the column
+    names, discover options, the interpretation spec, and the folder to
+    write into; ``frame`` is the whole table (the domain is selected from it
+    by discover, so that the data row numbers in every record and warning
+    are those of the file).
 
     BLAS runs on one thread inside a domain: the domains themselves are the
     parallel unit, and the fitted numbers then do not depend on where the
@@ -219,12 +221,12 @@ def _run_domain(task: Mapping) -> dict:
     try:
         from threadpoolctl import threadpool_limits
     except ImportError:  # pragma: no cover - threadpoolctl comes with scikit-learn
-        return _run_domain_inner(task)
+        return _run_domain_inner(task, frame)
     with threadpool_limits(limits=1):
-        return _run_domain_inner(task)
+        return _run_domain_inner(task, frame)
 
 
-def _run_domain_inner(task: Mapping) -> dict:
+def _run_domain_inner(task: Mapping, frame) -> dict:
     start = time.perf_counter()
     domain, folder = task["domain"], task["folder"]
     dom_dir = Path(task["dom_dir"])
@@ -245,7 +247,7 @@ def _run_domain_inner(task: Mapping) -> dict:
             if task.get("interpretation"):
                 # read before the expensive part, so a typo fails in a second
                 _interpretation(task["interpretation"], domain)
-            row = _discover_domain(task, row, dom_dir)
+            row = _discover_domain(task, frame, row, dom_dir)
     except InsufficientDataError as exc:
         row.update(status="skipped", reason=f"too small: {exc}")
     except AnisotropyError as exc:
@@ -261,22 +263,21 @@ def _run_domain_inner(task: Mapping) -> dict:
     return row
 
 
-def _discover_domain(task: Mapping, row: dict, dom_dir: Path) -> dict:
+def _discover_domain(task: Mapping, df, row: dict, dom_dir: Path) -> dict:
     import pandas as pd
 
     from anisotropy.discover import discover
 
-    df = task["frame"]
     if not isinstance(df, pd.DataFrame):
         df = pd.DataFrame(df)
     source = task.get("source", "<table>")
     notes = []
     if task.get("topcut") is not None:
-        df, n_capped = _apply_topcut(df, task["value"], task["topcut"], source)
+        mask = (_domain_codes(df[task["domain_column"]]) == task["domain"]).to_numpy()
+        df, n_capped = _apply_topcut(df, mask, task["value"], task["topcut"], source)
         row["topcut"], row["n_capped"] = task["topcut"], n_capped
         notes.append(f"top-cut {task['topcut']:g} from the batch config: {n_capped} grade(s) "
                      "above it were set to it before discovery")
-    df.attrs["source"] = source
     opts = dict(task["options"])
     cols = task["columns"]
     opts.setdefault("source", source)
@@ -475,13 +476,13 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
         options.pop("interpretation", None)
         options.pop("min_samples", None)
         options.setdefault("n_jobs", 1)
-        sub = df.loc[codes == name]
+        n_rows = int((codes == name).sum())
         folder = folders[name]
         task = {
             "domain": name, "folder": folder, "dom_dir": str(S.inside(out, folder)),
-            "frame": sub, "value": value, "domain_column": col, "columns": columns,
+            "value": value, "domain_column": col, "columns": columns,
             "options": options, "interpretation": over.get("interpretation"),
-            "skip": bool(over.get("skip") or False), "n_rows": int(len(sub)),
+            "skip": bool(over.get("skip") or False), "n_rows": n_rows,
             "min_samples": int(over.get("min_samples") or min_samples), "report": bool(report),
             "source": source, "topcut": None if topcut is None else float(topcut),
         }
@@ -494,7 +495,7 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
                 continue
         tasks.append(task)
 
-    for row in _execute(tasks, jobs=jobs, scheduler=scheduler, progress=progress):
+    for row in _execute(tasks, df, jobs=jobs, scheduler=scheduler, progress=progress):
         rows[row["domain"]] = row
 
     ordered = [rows[n] for n in selected]
@@ -532,15 +533,15 @@ def _domain_codes(series):
     return domain_codes(series)
 
 
-def _apply_topcut(df, value, topcut, source):
-    """Cap the grade column of one domain's rows at ``topcut``; returns (frame, n_capped)."""
+def _apply_topcut(df, mask, value, topcut, source):
+    """Cap the grade column of one domain's rows (``mask``) at ``topcut``; returns (frame, n_capped)."""
     import pandas as pd
 
     from anisotropy.samples import find_column
 
     col = find_column(df, value, role="grade", option="--value", source=source)
     grades = pd.to_numeric(df[col], errors="coerce")
-    over = grades > topcut
+    over = (grades > topcut).to_numpy() & mask
     n = int(over.sum())
     if n:
         df = df.copy()
@@ -548,7 +549,7 @@ def _apply_topcut(df, value, topcut, source):
     return df, n
 
 
-def _execute(tasks: Sequence[Mapping], *, jobs, scheduler, progress):
+def _execute(tasks: Sequence[Mapping], frame, *, jobs, scheduler, progress):
     if not tasks:
         return []
 
@@ -560,20 +561,20 @@ def _execute(tasks: Sequence[Mapping], *, jobs, scheduler, progress):
         return row
 
     if scheduler is not None:
-        return _execute_dask(tasks, scheduler, say)
+        return _execute_dask(tasks, frame, scheduler, say)
     if jobs is None or int(jobs) == 1 or len(tasks) == 1:
-        return [say(_run_domain(t)) for t in tasks]
+        return [say(_run_domain(t, frame)) for t in tasks]
     from joblib import Parallel, delayed
 
     n = int(jobs)
     if n == 0:
         raise InputError("--jobs must be a positive number of processes (or -1 for all cores)")
     results = Parallel(n_jobs=n, backend="loky", return_as="generator_unordered")(
-        delayed(_run_domain)(t) for t in tasks)
+        delayed(_run_domain)(t, frame) for t in tasks)
     return [say(r) for r in results]
 
 
-def _execute_dask(tasks, scheduler, say):
+def _execute_dask(tasks, frame, scheduler, say):
     try:
         from dask.distributed import Client, as_completed
     except ImportError:
@@ -589,7 +590,9 @@ def _execute_dask(tasks, scheduler, say):
                              "check the address (tcp://host:8786) and that it is running") from None
         own = True
     try:
-        futures = [client.submit(_run_domain, t, pure=False, key=f"anisotropy-domain-{i}")
+        # the table goes to the workers once, not once per domain
+        shared = client.scatter(frame, broadcast=True)
+        futures = [client.submit(_run_domain, t, shared, pure=False, key=f"anisotropy-domain-{i}")
                    for i, t in enumerate(tasks)]
         return [say(f.result()) for f in as_completed(futures)]
     finally:

@@ -429,6 +429,17 @@ def _topcut(disc):
     return None
 
 
+def _row_list(rows, limit=60) -> str:
+    """Row numbers as text, the first ``limit`` of them and how many more."""
+    if not rows:
+        return ""
+    rows = [int(r) for r in rows]
+    text = ", ".join(str(r) for r in rows[:limit])
+    if len(rows) > limit:
+        text += f" ... and {len(rows) - limit} more"
+    return text
+
+
 def _section_data(disc, d) -> str:
     inp = d.get("input") or {}
     smp = disc.samples
@@ -439,16 +450,23 @@ def _section_data(disc, d) -> str:
              ("samples used", _g(inp.get("n_used"), "d"))]
     html = [_kv(parts)]
     rows = []
+    dropped_rows = getattr(smp, "dropped_rows", None) or {}
+    changed_rows = getattr(smp, "changed_rows", None) or {}
     for reason, n in (inp.get("dropped") or getattr(smp, "dropped", {}) or {}).items():
-        rows.append({"what": "dropped", "reason": reason, "samples": int(n)})
+        rows.append({"what": "dropped", "reason": reason, "samples": int(n),
+                     "data rows": _row_list(dropped_rows.get(reason))})
     for reason, n in (getattr(smp, "changed", {}) or {}).items():
-        rows.append({"what": "changed", "reason": reason, "samples": int(n)})
+        rows.append({"what": "changed", "reason": reason, "samples": int(n),
+                     "data rows": _row_list(changed_rows.get(reason))})
     dup = getattr(smp, "duplicates", None) or {}
     if dup.get("samples"):
         rows.append({"what": f"duplicates ({dup.get('policy')})",
-                     "reason": f"{dup.get('locations')} shared locations", "samples": dup.get("samples")})
+                     "reason": f"{dup.get('locations')} shared locations", "samples": dup.get("samples"),
+                     "data rows": _row_list(dup.get("rows"))})
     html.append("<h3>Samples dropped or changed, by reason</h3>")
-    html.append(_table(rows, ["what", "reason", "samples"]) if rows else
+    html.append("<p>Data rows count from 1 at the first row under the header of the file.</p>"
+                if any(r["data rows"] for r in rows) else "")
+    html.append(_table(rows, ["what", "reason", "samples", "data rows"]) if rows else
                 "<p>No sample was dropped or changed.</p>")
     ex = _attr(disc, "exploration")
     if ex is not None:
