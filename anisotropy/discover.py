@@ -262,7 +262,8 @@ class Discovery:
                            total_sill=st["total_sill"], max_nfev=st["max_nfev"],
                            min_range=st["min_range"], max_range=st["max_range"],
                            planar=st["planar"], ftol=1e-5, outer=1, make_model=False)
-            model = _ordered_model(f, keep_frame=fixed_frame is not None)
+            model = _ordered_model(f, keep_frame=fixed_frame is not None,
+                                   planar=st["planar"])
             return model, float(f.objective)
 
         return refit
@@ -280,8 +281,12 @@ PLANAR_CAUTION = ("The samples lie in one plane (one bench or level): only the a
                   "its range are not, and are reported only to complete the frame.")
 
 
-def _ordered_model(fit, keep_frame=False):
-    """NestedModel with frame columns ordered by the longest structure, canonical."""
+def _ordered_model(fit, keep_frame=False, planar=False):
+    """NestedModel with frame columns ordered by the longest structure, canonical.
+
+    For planar data the column nearest the vertical stays last (minor): its
+    range is tied to the semi-major one and not resolved.
+    """
     from anisotropy.geometry import canonical_frame
     from anisotropy.models import NestedModel, Structure
 
@@ -289,9 +294,17 @@ def _ordered_model(fit, keep_frame=False):
     frame = np.asarray(fit.frame, float)
     if not keep_frame:
         j = int(np.argmax(ranges.max(axis=1)))
-        order = np.argsort(-ranges[j], kind="stable")
+        if planar:
+            v = int(np.argmax(np.abs(frame[2])))
+            h = [i for i in range(3) if i != v]
+            h = sorted(h, key=lambda i: -ranges[j, i])
+            order = np.array(h + [v])
+        else:
+            order = np.argsort(-ranges[j], kind="stable")
         frame = frame[:, order]
         ranges = ranges[:, order]
+        if planar:  # not resolved: reported equal to the semi-major range
+            ranges[:, 2] = ranges[:, 1]
         if np.linalg.det(frame) < 0:
             frame = frame.copy()
             frame[:, 2] *= -1
@@ -1025,7 +1038,7 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
                                   "selection)"})
     else:
         choices.append({"choice": "structures", "value": n_str, "reason": "as requested"})
-    model = _ordered_model(fit)
+    model = _ordered_model(fit, planar=planar)
     frame = np.asarray(model.frame, float)
 
     # final direction ranges under the fitted nugget and sill (for the report)

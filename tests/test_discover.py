@@ -136,16 +136,17 @@ def test_geometry_is_self_consistent(steep_vein):
     assert np.isclose(np.linalg.det(F), 1.0)                    # right-handed
     pl = D.plane()
     pole = plane_to_pole(pl["dip_direction"], pl["dip"])
-    assert axis_err(pole, F[:, 2]) < 1e-6                       # pole = minor axis
+    # 1e-4 degrees: arccos near 1 resolves no better than about 1e-6 degrees
+    assert axis_err(pole, F[:, 2]) < 1e-4                       # pole = minor axis
     assert axis_err(line_from_pitch(pl["dip_direction"], pl["dip"], pl["pitch"]),
-                    F[:, 0]) < 1e-6                             # pitch gives the major axis
+                    F[:, 0]) < 1e-4                             # pitch gives the major axis
     assert math.isclose((pl["dip_direction"] - 90.0) % 360.0, pl["strike"])  # right-hand rule
     a = D.angles()
     assert np.allclose(frame_from_angles(a["azimuth"], a["plunge"], a["rotation"]), F,
                        atol=1e-9)                               # three angles = matrix
     for name, ax in D.axes().items():
         assert axis_err(line_to_vector(ax["trend"], ax["plunge"]), np.array(ax["vector"])) \
-            < 1e-6
+            < 1e-4
         assert ax["plunge"] >= 0
 
 
@@ -322,3 +323,26 @@ def test_unresolvable_minor_axis_is_said():
                             transform="raw")
     assert D.diagnostics["unresolved_axes"]
     assert any("not resolved" in w for w in D.warnings)
+
+
+def test_planar_bench_gives_an_azimuth_only_result():
+    # one bench of blast holes (5 m pattern): only azimuths can be resolved
+    rng = np.random.default_rng(1)
+    g = np.stack(np.meshgrid(np.arange(30) * 5.0, np.arange(30) * 5.0), -1).reshape(-1, 2)
+    coords = np.c_[g + rng.normal(0, 0.5, g.shape), np.zeros(len(g))]
+    F = frame_from_trend_plunge(60.0, 0.0, 0.0)
+    v = simulate(coords, F, 0.1, [("spherical", 0.9, (60, 25, 10))], seed=3)
+    D = anisotropy.discover(table(coords, v + 10), value="grade", transform="raw",
+                            structures=1)
+    assert D.planar and any("one plane" in c for c in D.to_dict()["cautions"])
+    assert abs(D.frame[2, 2]) == pytest.approx(1.0)         # minor = vertical pole
+    # 900 samples, one bench 150 m across, range 60 m: 15 degrees on the azimuth
+    assert axis_err(D.frame[:, 0], F[:, 0]) < 15.0
+    assert "minor" in D.diagnostics["unresolved_axes"]
+
+
+def test_correlogram_sums_to_one(steep_vein):
+    D = steep_vein
+    D2 = anisotropy.discover(D.samples, estimator="correlogram", structures=1)
+    assert D2.model.total_sill == pytest.approx(1.0)        # 1 - rho rises to 1
+    assert axis_err(D2.frame[:, 2], D.frame[:, 2]) < 10.0

@@ -12,7 +12,8 @@ A further structure is kept only if it also lowers the WRSS by at least
 and its ranges differ from the neighbouring structure's by a factor of at
 least 1.5 (otherwise the two structures are the same structure split), and
 no structure's range exceeds three times the longest lag (such a structure
-stands for a drift).  When a structure brings less than the minimum gain,
+stands for a drift), and all structures agree on which axis is longest and
+which shortest (they share one ellipsoid, as geometric anisotropy assumes).  When a structure brings less than the minimum gain,
 more structures are not tried.
 """
 
@@ -67,6 +68,9 @@ def _distinct(fit: NestedFit, total: float, drift_range=None) -> tuple[bool, str
     tot = total if total else float(fit.nugget + np.sum(fit.sills))
     if np.min(fit.sills) < 0.05 * tot:
         return False, "a structure holds under 5 % of the sill"
+    if len(set(np.argmax(fit.ranges, axis=1))) > 1 or len(set(np.argmin(fit.ranges, axis=1))) > 1:
+        return False, ("the structures disagree on which axis is longest or shortest: they "
+                       "do not share one continuity ellipsoid")
     g = np.exp(np.mean(np.log(fit.ranges), axis=1))
     g = np.sort(g)
     if np.any(g[1:] / g[:-1] < 1.5):
