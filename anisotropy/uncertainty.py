@@ -104,8 +104,8 @@ DEFAULT_REPLICATES = 200
 
 #: Default widening of the block bootstrap's cone radii and range intervals
 #: (log scale), from the coverage study in benchmarks/RESULTS.md.
-CONE_CALIBRATION = 1.15
-RANGE_CALIBRATION = 1.05
+CONE_CALIBRATION = 1.2
+RANGE_CALIBRATION = 1.25
 
 
 # ---------------------------------------------------------------------------
