@@ -5,7 +5,9 @@ bench height, values lognormal), about 90,000 samples. Workloads:
 
 * ``omni``: one pass to ~60 m (lag 4 m, 15 lags) and the omnidirectional
   variogram read from it;
-* ``fan``: the same pass and a 400-direction fan (22.5 degree tolerance).
+* ``fan``: the same pass and a 400-direction fan (22.5 degree tolerance);
+* ``omni_fine``: as ``omni`` without block sums and map (``blocks=False,
+  map_cell=False``), to show what the two extra accumulators cost.
 
 The engine runs ``build_volume`` with its defaults (fine ~2 degree lattice,
 coarse ~10 degree lattice, blocks, map). The reference is the plain way:
@@ -73,13 +75,15 @@ def run_engine(n, workload, divisions=None):
 
     c, v = blast_holes(n)
     kw = {} if divisions is None else {"cell_divisions": int(divisions)}
+    if workload == "omni_fine":  # fine bins only: no block sums, no map
+        kw.update(blocks=False, map_cell=False)
     # compile (cached on disk after the first run) on a tiny problem first
     build_volume(c[:500], v[:500], lag=LAG, n_lags=N_LAGS, progress=False, **kw)
     base_mb = _peak_mb()
     t0, p0 = time.perf_counter(), time.process_time()
     vol = build_volume(c, v, lag=LAG, n_lags=N_LAGS, progress=False, **kw)
     t1 = time.perf_counter()
-    if workload == "omni":
+    if workload in ("omni", "omni_fine"):
         out = estimate(vol.aggregate(None, 90.0), "semivariogram")
     else:
         out = variogram_fan(vol, fibonacci_hemisphere(N_DIRS), angular_tolerance=TOL_DEG).value
@@ -188,9 +192,9 @@ def main(argv=None):
     res = {"machine": machine(), "layout": "6 benches, 4 m pattern, 4 m bench, lognormal",
            "lag": LAG, "n_lags": N_LAGS, "max_distance": (N_LAGS + 0.5) * LAG}
     print(json.dumps(res["machine"]), flush=True)
-    for wl, subset in (("omni", 3000), ("fan", 200)):
+    for wl, subset in (("omni", 3000), ("fan", 200), ("omni_fine", 3000)):
         e = _spawn("engine", wl, n_main, "None")
-        r = _spawn("reference", wl, n_main, subset)
+        r = _spawn("reference", "omni" if wl == "omni_fine" else wl, n_main, subset)
         res[wl] = {"engine": e, "reference": r, "speedup": e["pairs_per_s"] / r["pairs_per_s"]}
         print(f"{wl}: engine {e['pairs']:,} pairs {e['wall_s']:.2f} s "
               f"({e['pairs_per_s'] / 1e6:.1f} M pairs/s, cpu {e['cpu_s']:.2f} s, "
