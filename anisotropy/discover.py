@@ -1067,6 +1067,14 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
                         f"({lag_info['max_distance']:.3g} m): it is an extrapolation; a larger "
                         "domain or longer lags (--n-lags) would show whether the variogram "
                         "levels off")
+    if tr.kind == "indicator" and estimator in ("robust", "madogram", "pairwise_relative"):
+        warnings.append(f"the {estimator} estimator is not meaningful on 0/1 indicators "
+                        "(it is built for continuous grades); prefer the semivariogram")
+    for k, st_ in enumerate(model.structures, 1):
+        if max(st_.ranges) >= 0.99 * hi_r:
+            warnings.append(f"structure {k}'s range reached the search limit ({hi_r:.3g} m): "
+                            "the fit could not find where the variogram levels off; treat "
+                            "this model as unreliable and check the experimental variograms")
     if dr.n_thin:
         warnings.append(f"{dr.n_thin} of {len(fan_dirs)} fan directions have too few pairs "
                         f"for a range even at {WIDE_ANGULAR_TOLERANCE:g} degrees; they are "

@@ -88,6 +88,9 @@ SCENARIOS = {
     "plunging shoot (2 structures), scattered": dict(
         layout="scattered", R=frame(135, 35, -15), nugget=0.05,
         structures=[(0.45, (35, 25, 10)), (0.5, (160, 70, 30))], box=(260, 260, 200), n=2000),
+    "steep vein, scattered dense": dict(
+        layout="scattered", R=frame(45, 60, 20), nugget=0.1,
+        structures=[(0.9, (140, 70, 22))], box=(250, 250, 250), n=3000),
     "plunging shoot, drill holes": dict(
         layout="holes", R=frame(120, 30, 0), nugget=0.15, structures=[(0.85, (110, 60, 20))],
         holes=dict(spacing=25.0, n=(8, 8), length=80.0, composite=2.0, trend=300.0,
