@@ -159,7 +159,8 @@ def _interpretation(spec: Mapping, domain: str):
 def _fingerprint(task: Mapping) -> str:
     """Hash of what determines a domain's result (for resume)."""
     keys = {k: task[k] for k in ("domain", "value", "columns", "options", "interpretation",
-                                 "n_rows", "min_samples", "report", "topcut", "skip")}
+                                 "n_rows", "min_samples", "report", "topcut", "skip",
+                                 "data_hash")}
     text = json.dumps(S.json_ready(keys), sort_keys=True, default=str)
     return hashlib.sha256(text.encode()).hexdigest()[:16]
 
@@ -451,7 +452,7 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
     if domains is None:
         selected = list(all_domains)
     else:
-        selected = [str(d) for d in domains]
+        selected = list(dict.fromkeys(str(d) for d in domains))
         missing = [d for d in selected if d not in all_domains]
         if missing:
             raise InputError(
@@ -463,6 +464,7 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
     out.mkdir(parents=True, exist_ok=True)
     columns = {k: v for k, v in {"x": x, "y": y, "z": z, "hole": hole}.items() if v is not None}
 
+    _check_option_names(discover_options, cfg)
     tasks, rows, resumed = [], {}, []
     for name in selected:
         over = dict(cfg["domain"].get(name, {}))
@@ -476,7 +478,8 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
         options.pop("interpretation", None)
         options.pop("min_samples", None)
         options.setdefault("n_jobs", 1)
-        n_rows = int((codes == name).sum())
+        in_domain = (codes == name).to_numpy()
+        n_rows = int(in_domain.sum())
         folder = folders[name]
         task = {
             "domain": name, "folder": folder, "dom_dir": str(S.inside(out, folder)),
@@ -485,6 +488,8 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
             "skip": bool(over.get("skip") or False), "n_rows": n_rows,
             "min_samples": int(over.get("min_samples") or min_samples), "report": bool(report),
             "source": source, "topcut": None if topcut is None else float(topcut),
+            # resume must notice when the domain's data changed, not only the options
+            "data_hash": _data_hash(df, in_domain),
         }
         task["fingerprint"] = _fingerprint(task)
         if resume:
@@ -512,6 +517,37 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
     render_index(ordered, out / "index.html", source=source, value=value,
                  domain_column=col, notes=_notes(unknown_cfg))
     return result
+
+
+def _data_hash(df, mask) -> str:
+    import pandas as pd
+
+    h = pd.util.hash_pandas_object(df.loc[mask], index=True).to_numpy()
+    return hashlib.sha256(h.tobytes()).hexdigest()[:16]
+
+
+#: options read by the sample intake (passed through discover's **intake)
+_INTAKE_OPTIONS = {"missing_codes", "below_detection", "duplicates", "source"}
+
+
+def _check_option_names(discover_options, cfg):
+    """Refuse unknown discover options (a typo would otherwise fail every domain)."""
+    import inspect
+
+    from anisotropy.discover import discover
+
+    params = inspect.signature(discover).parameters
+    known = {n for n, p in params.items() if p.kind is not inspect.Parameter.VAR_KEYWORD}
+    known = (known | _INTAKE_OPTIONS | _OWN_KEYS) - {"data", "value", "domain", "domain_value",
+                                                     "x", "y", "z", "hole", "scheduler",
+                                                     "progress"}
+    where = [("options", discover_options), ("[options]", cfg["options"])]
+    where += [(f'[domain."{n}"]', over) for n, over in cfg["domain"].items()]
+    for label, opts in where:
+        bad = sorted(set(opts) - known)
+        if bad:
+            raise InputError(f"{cfg.get('source', 'config')} {label}: unknown option(s) "
+                             f"{', '.join(bad)}; known: {', '.join(sorted(known))}")
 
 
 def _notes(unknown_cfg):

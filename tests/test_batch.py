@@ -232,6 +232,12 @@ def test_resume_reruns_nothing_then_only_what_changed(batch, table):
                       resume=True)
     assert sorted(third.ran) == ["broken", "tiny"]
     assert _rows(third)["tiny"]["reason"].startswith("skipped by the config")
+    # changed data in one domain re-runs that domain only
+    edited = table.copy()
+    edited.loc[edited["zone"] == "flat", "au"] = 1.5
+    fourth = run_batch(edited, value="au", domain="zone", hole="hole", out=out, config=CONFIG,
+                       resume=True)
+    assert sorted(fourth.ran) == ["broken", "flat", "tiny"]  # tiny: config back to CONFIG
 
 
 @pytest.mark.slow
@@ -254,6 +260,9 @@ def test_domain_selection_and_errors(table, tmp_path):
         run_batch(table, value="au", domain="zone", out=tmp_path / "x", domains=["nope"])
     with pytest.raises(InputError):
         load_config({"option": {}})
+    with pytest.raises(InputError, match="unknown option.*bootsrap"):
+        run_batch(table, value="au", domain="zone", out=tmp_path / "y",
+                  config={"options": {"bootsrap": 3}})
     bad = tmp_path / "bad.toml"
     bad.write_text("[options\nbootstrap = 3\n")
     with pytest.raises(InputError, match="not valid TOML"):
