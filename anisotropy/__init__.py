@@ -8,6 +8,8 @@ kernels until they are used.
 from __future__ import annotations
 
 import importlib
+import sys
+import types
 
 __version__ = "0.1.0"
 
@@ -69,3 +71,23 @@ def __getattr__(name: str):
 
 def __dir__():
     return __all__
+
+
+# Two public functions share their module's name (``discover`` in
+# discover.py, ``explore`` in explore.py). Importing such a submodule would
+# normally bind the package attribute to the module and hide the function,
+# so the package refuses that one binding: ``anisotropy.discover`` is always
+# the function, and the module is reached with
+# ``importlib.import_module("anisotropy.discover")`` or
+# ``from anisotropy.discover import Discovery``.
+_SHADOWED = frozenset(name for name, module in _PUBLIC.items() if name == module)
+
+
+class _Package(types.ModuleType):
+    def __setattr__(self, name, value):
+        if name in _SHADOWED and isinstance(value, types.ModuleType):
+            return
+        super().__setattr__(name, value)
+
+
+sys.modules[__name__].__class__ = _Package

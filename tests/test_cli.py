@@ -184,12 +184,14 @@ def test_python_dash_m_runs_explore(good_csv, tmp_path):
 
 
 def test_internal_error_exits_1_and_says_it_is_ours(good_csv, tmp_path, capsys, monkeypatch):
-    import anisotropy.explore
+    import importlib
+
+    explore_module = importlib.import_module("anisotropy.explore")
 
     def broken(samples, **kw):
         raise RuntimeError("simulated bug")
 
-    monkeypatch.setattr(anisotropy.explore, "explore", broken)
+    monkeypatch.setattr(explore_module, "explore", broken)
     p, _ = good_csv
     code, out, err = run(["explore", p, "--value", "Au_gpt", "--out", tmp_path / "o"], capsys)
     assert code == 1
