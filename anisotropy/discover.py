@@ -746,7 +746,7 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
     from anisotropy.fitting import (bins_from_sums, direction_ranges, ellipsoid_range,
                                     fit_ellipsoid, fit_nested, inertia_frame, linear_ellipsoid,
                                     select_structures)
-    from anisotropy.geometry import fan_for_spacing, fibonacci_hemisphere
+    from anisotropy.geometry import fan_for_spacing
 
     choices: list = []
     warnings: list = []
