@@ -28,11 +28,16 @@ transform, the lag volume is rebuilt and the model refitted. It is much
 slower (one full pair pass per replicate) and meant for small to medium data
 and as a check on the block bootstrap; it ignores any misfit of the model.
 
-**Intervals.** Percentile intervals (Efron & Tibshirani 1993, ch. 13) and BCa
-intervals (ibid., ch. 14.3; acceleration from the delete-one jackknife,
-eq. 14.15, or, for the block bootstrap, from empirical influence values
-obtained by regressing the replicates on their block counts, Davison &
-Hinkley 1997, sec. 2.7.4, which needs no extra refits). For each axis: the
+**Intervals.** Percentile intervals (Efron & Tibshirani 1993, ch. 13), the
+default, and BCa intervals (ibid., ch. 14.3; acceleration from the delete-one
+jackknife, eq. 14.15, or, for the block bootstrap, from empirical influence
+values obtained by regressing the replicates on their block counts, Davison &
+Hinkley 1997, sec. 2.7.4, which needs no extra refits). In the coverage
+study (benchmarks/RESULTS.md) BCa under-covered the ranges more than the
+percentile intervals did, and the uncalibrated block bootstrap under-covered
+by about 7 points at 90 %; cone radii and range intervals are therefore
+widened by the calibration factors :data:`CONE_CALIBRATION` and
+:data:`RANGE_CALIBRATION` (log scale) by default. For each axis: the
 mean axis as the principal eigenvector of the orientation tensor
 ``T = sum u u^T / n`` of the replicate axes (Scheidegger 1965; Fisher, Lewis
 & Embleton 1987, ch. 3), the radius of the cone around the reported axis that
