@@ -292,3 +292,19 @@ def test_cli_batch_and_resume(table, tmp_path, capsys):
     assert "at least 50" in rows[[r["domain"] for r in rows].index("tiny")]["reason"]
     main(["batch", *argv, "--resume"])
     assert "(0 run, 2 already done)" in capsys.readouterr().out
+
+
+@pytest.mark.slow
+def test_demo_end_to_end_through_the_cli(tmp_path, capsys):
+    from anisotropy.cli import main
+
+    out = tmp_path / "demo"
+    code = main(["demo", "--out", str(out), "--jobs", "1", "--bootstrap", "5"])
+    text = capsys.readouterr().out
+    assert code == 0 and f"index: {out / 'index.html'}" in text
+    js = json.loads((out / "summary.json").read_text())
+    truth = json.loads((Path(__file__).parents[1] / "anisotropy" / "data" / "truth.json").read_text())
+    assert sorted(r["domain"] for r in js["domains"]) == sorted(truth["domains"])
+    assert all(r["status"] == "ok" and r["replicates"] == 5 for r in js["domains"])
+    checked = {r["domain"]: r["verdict"] for r in js["domains"] if r["verdict"]}
+    assert set(checked) == {"vein_corridor", "shoot"}
