@@ -25,7 +25,10 @@ Accuracy of the lookup: the answer is exact for the pixel centre; a pair can
 only get a different cell than the true nearest axis when it lies within
 half a pixel diagonal of the boundary between two lattice cells, and then the
 axis it gets is at most one pixel's angular diameter (:func:`pixel_angle`)
-farther from it than the nearest one.
+farther from it than the nearest one. With the default lattice (5,954
+directions, 986 x 986 table) that happens to about 4 % of random lag
+directions, and the axis they get is at most 0.24 degrees farther than the
+nearest (bound 0.33); cells are at most about 1.6 degrees in radius.
 """
 
 from __future__ import annotations
@@ -63,10 +66,10 @@ def lattice(spec, default_spacing: float) -> np.ndarray:
     ----------
     spec : None, float, int or array_like (n, 3)
         None: the Fibonacci fan of :func:`anisotropy.geometry.fan_for_spacing`
-        for ``default_spacing``; a float in (0, 90]: that spacing in degrees;
-        an int > 90 or ``("n", k)``-like int: that many Fibonacci directions;
-        an array: the directions themselves (normalised and put in the
-        canonical orientation).
+        for ``default_spacing``; a number in (0, 90]: that spacing in
+        degrees; an int > 90: that many Fibonacci directions; an array: the
+        directions themselves (normalised and put in the canonical
+        orientation, order kept).
     default_spacing : float
         Spacing in degrees used when ``spec`` is None.
 
