@@ -526,6 +526,12 @@ def _section_lags(disc, d) -> str:
         if rows:
             html.append(_table(rows))
     diag = d.get("diagnostics") or {}
+    choices = [c for c in (diag.get("choices") or []) if isinstance(c, Mapping)]
+    if choices:
+        html.append("<h3>Choices made and why</h3>")
+        html.append(_table([{"choice": c.get("choice"), "value": c.get("value"),
+                             "why": c.get("reason")} for c in choices],
+                           ["choice", "value", "why"]))
     if diag.get("pairs") is not None:
         html.append(f"<p>Pairs accumulated: {_g(diag.get('pairs'), ',.0f')}.</p>")
     return "\n".join(html)
@@ -655,7 +661,7 @@ def render_report(discovery, out_dir, *, check=None, title=None, topcut=None) ->
     sec.append(f"<p class='caution'>{S.escape(CAUTION)}</p>")
     sec.append("<h2>1. Data</h2>" + _section_data(discovery, d))
     sec.append("<h2>2. Grade distribution and top-cut</h2>" + _section_topcut(discovery, figs, topcut))
-    sec.append("<h2>3. Spacing and lags</h2>" + _section_lags(discovery, d))
+    sec.append("<h2>3. Spacing, lags and the other choices</h2>" + _section_lags(discovery, d))
     sec.append("<h2>4. Transform</h2>" + _kv(_flat(_transform_record(discovery)))
                + "<p>The variograms and the model below are in the transformed variable.</p>")
     sec.append("<h2>5. Variogram maps</h2>"
