@@ -226,6 +226,9 @@ def _add_discover(p: argparse.ArgumentParser) -> None:
                    choices=["spherical", "exponential", "gaussian", "cubic"],
                    help="structure kind (repeat per structure; default the better of "
                         "spherical and exponential)")
+    g.add_argument("--shared-ratios", action="store_true",
+                   help="nested structures share one anisotropy shape, each with its own "
+                        "scale (default: each structure has its own three ranges)")
     g.add_argument("--lag", type=float, metavar="M", help="unit lag in metres (default from "
                    "the sample spacing)")
     g.add_argument("--n-lags", type=int, metavar="N", help="number of lags (default: out to "
@@ -265,7 +268,7 @@ def _cmd_discover(args) -> int:
                       angular_tolerance=args.angular_tolerance, bandwidth=args.bandwidth,
                       bootstrap=args.bootstrap, confidence=args.confidence, seed=args.seed,
                       n_jobs=args.jobs, scheduler=args.scheduler, threshold=args.threshold,
-                      progress=True)
+                      shared_ratios=args.shared_ratios, progress=True)
     print(result.summary())
     out = Path(args.out)
     out.mkdir(parents=True, exist_ok=True)

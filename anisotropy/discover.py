@@ -261,7 +261,8 @@ class Discovery:
                            fixed_frame=fixed_frame, fixed_nugget=st["fixed_nugget"],
                            total_sill=st["total_sill"], max_nfev=st["max_nfev"],
                            min_range=st["min_range"], max_range=st["max_range"],
-                           planar=st["planar"], ftol=1e-5, outer=1, make_model=False)
+                           planar=st["planar"], ftol=1e-5, outer=1,
+                           shared_ratios=st["shared_ratios"], make_model=False)
             model = _ordered_model(f, keep_frame=fixed_frame is not None,
                                    planar=st["planar"])
             return model, float(f.objective)
@@ -678,7 +679,8 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
              lag=None, n_lags=None, angular_tolerance=None, bandwidth=None, bootstrap=0,
              confidence=0.9, seed=0, n_jobs=1, scheduler=None, progress=False,
              kinds=None, sill="variance", threshold=None, fan_spacing=DEFAULT_FAN_SPACING,
-             coarse_spacing=None, min_pairs=None, pair_budget=None, **intake) -> Discovery:
+             coarse_spacing=None, min_pairs=None, pair_budget=None, shared_ratios=False,
+             **intake) -> Discovery:
     """Discover the 3D continuity of one grade in one domain.
 
     Parameters
@@ -724,6 +726,10 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
         pair engine's).
     min_pairs : float, optional
         Fewest pairs for a fit bin (default 10) and a fan lag (default 30).
+    shared_ratios : bool
+        Nested structures share one anisotropy shape (ratios), each with its own
+        scale (default False: each structure has its own three ranges in the
+        shared frame).
     pair_budget : float, optional
         With automatic lags, the maximum distance is shortened until the
         estimated pair count is within this (default ``PAIR_BUDGET``, 1.5e8).
@@ -1030,7 +1036,8 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
                             max_structures=3, n_structures=n_str,
                             kinds=kinds if kinds is not None else best.kinds,
                             total_sill=total, fixed_nugget=fixed_nugget, min_range=lo_r,
-                            max_range=hi_r, planar=planar, ftol=1e-6)
+                            max_range=hi_r, planar=planar, ftol=1e-6,
+                            shared_ratios=shared_ratios)
     fit = sel.best
     if n_str is None:
         choices.append({"choice": "structures", "value": len(fit.sills),
@@ -1111,7 +1118,8 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
     D._refit_state = {"estimator": estimator, "min_pairs": mp_bin, "weight_ratio": ratio,
                       "fixed_nugget": fixed_nugget, "total_sill": total,
                       "max_nfev": 60 * (fit.n_params + 1), "min_range": lo_r,
-                      "max_range": hi_r, "planar": planar}
+                      "max_range": hi_r, "planar": planar,
+                      "shared_ratios": shared_ratios}
 
     if bootstrap and int(bootstrap) > 0:
         try:

@@ -304,3 +304,18 @@ def test_fit_needs_points():
                   np.ones(2, int))
     with pytest.raises(FitError, match="experimental points"):
         fit_nested(b, (np.eye(3), 0.1, [0.9], [[10, 10, 10]], ("spherical",)))
+
+
+def test_shared_ratios_option(rng):
+    # two structures with the same shape (ratios 1 : 0.5 : 0.2), scales 1 and 4
+    R = Rotation.from_euler("zyx", [15, -30, 50], degrees=True).as_matrix()
+    b = noisy_bins(rng, R, 0.1, [0.4, 0.5], [(40, 20, 8), (160, 80, 32)],
+                   ["spherical", "spherical"])
+    start = (R, 0.1, [0.4, 0.5], [[50, 25, 10], [150, 75, 30]], ("spherical", "spherical"))
+    f = fit_nested(b, start, total_sill=1.0, shared_ratios=True, make_model=False)
+    free = fit_nested(b, start, total_sill=1.0, make_model=False)
+    # shape held exactly; two fewer parameters than free ranges (2 x 3 vs 3 + 1)
+    assert np.allclose(f.ranges[1] / f.ranges[0], (f.ranges[1] / f.ranges[0])[0])
+    assert free.n_params - f.n_params == 2
+    long_ = int(np.argmax(f.ranges[:, 0]))
+    assert np.allclose(np.sort(f.ranges[long_])[::-1], [160, 80, 32], rtol=0.12)

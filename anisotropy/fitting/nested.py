@@ -127,7 +127,7 @@ class _Problem:
 
     def __init__(self, bins, kinds, *, fixed_frame=None, fixed_nugget=None,
                  total_sill=None, weights=None, min_range=None, max_range=None,
-                 planar=False, base_frame=None):
+                 planar=False, base_frame=None, shared_ratios=False):
         self.lags = np.asarray(bins.lags, dtype=float)
         self.gamma = np.asarray(bins.gamma, dtype=float)
         w = np.asarray(bins.weight if weights is None else weights, dtype=float)
@@ -142,6 +142,9 @@ class _Problem:
         self.planar = bool(planar) and self.fixed_frame is None
         self.base = None if base_frame is None else np.asarray(base_frame, float)
         self.nr = 2 if self.planar else 3
+        # shared ratios: structure 1 has its ranges, the others one scale factor
+        self.shared = bool(shared_ratios) and self.K > 1
+        self.n_rp = (self.nr + self.K - 1) if self.shared else self.nr * self.K
         d = np.asarray(bins.distance, dtype=float)
         self.lo = np.log(min_range if min_range is not None else 0.02 * max(d.min(), 1e-9))
         self.hi = np.log(max_range if max_range is not None else 50.0 * d.max())
@@ -166,10 +169,15 @@ class _Problem:
             i = 3
         else:
             frame = self.fixed_frame
-        ranges = np.exp(p[i:i + self.nr * self.K]).reshape(self.K, self.nr)
+        if self.shared:
+            r0 = p[i:i + self.nr]
+            sc = np.r_[0.0, p[i + self.nr:i + self.n_rp]]
+            ranges = np.exp(r0[None, :] + sc[:, None])
+        else:
+            ranges = np.exp(p[i:i + self.nr * self.K]).reshape(self.K, self.nr)
         if self.planar:
             ranges = np.column_stack([ranges, ranges[:, 1]])
-        i += self.nr * self.K
+        i += self.n_rp
         s = p[i:]
         if self.total is not None:
             if self.fixed_nugget is not None:
@@ -205,7 +213,11 @@ class _Problem:
             p.extend(Rotation.from_matrix(fr).as_rotvec())
         r = np.clip(np.log(np.asarray(ranges, float).reshape(self.K, 3)), self.lo + 1e-6,
                     self.hi - 1e-6)[:, :self.nr]
-        p.extend(r.ravel())
+        if self.shared:
+            p.extend(r[0])
+            p.extend(np.mean(r[1:] - r[0][None, :], axis=1))
+        else:
+            p.extend(r.ravel())
         sills = np.maximum(np.asarray(sills, float), 1e-9 * self.scale)
         nugget = max(float(nugget), 1e-9 * self.scale)
         if self.total is not None:
@@ -226,8 +238,12 @@ class _Problem:
         elif self.fixed_frame is None:
             lo += [-np.inf] * 3
             hi += [np.inf] * 3
-        lo += [self.lo] * (self.nr * self.K)
-        hi += [self.hi] * (self.nr * self.K)
+        if self.shared:
+            lo += [self.lo] * self.nr + [self.lo - self.hi] * (self.K - 1)
+            hi += [self.hi] * self.nr + [self.hi - self.lo] * (self.K - 1)
+        else:
+            lo += [self.lo] * (self.nr * self.K)
+            hi += [self.hi] * (self.nr * self.K)
         ns = self.n_sill_params()
         if self.total is not None:
             lo += [-12.0] * ns
@@ -269,7 +285,8 @@ def _from_model(model):
 def fit_nested(bins, start, *, n_structures=None, kinds=None, fixed_frame=None,
                fixed_nugget=None, total_sill=None, loss="soft_l1", f_scale=0.25,
                max_nfev=None, min_range=None, max_range=None, planar=False,
-               ftol=1e-8, weighting="fixed_point", outer=3, make_model=True) -> NestedFit:
+               ftol=1e-8, weighting="fixed_point", outer=3, shared_ratios=False,
+               make_model=True) -> NestedFit:
     """Fit a nested geometric-anisotropy model to all fit bins at once.
 
     Parameters
@@ -311,6 +328,10 @@ def fit_nested(bins, start, *, n_structures=None, kinds=None, fixed_frame=None,
         Planar data (one bench): the frame only turns about the vertical
         from the start frame (whose minor axis must be vertical) and the
         minor range is tied to the semi-major one (it is not resolved).
+    shared_ratios : bool
+        All structures share the first structure's anisotropy ratios (one
+        scale factor each) instead of having three ranges each (default: each
+        structure has its own ranges in the shared frame).
     make_model : bool
         Build the :class:`~anisotropy.models.NestedModel` (set False in inner
         loops that only need the parameters).
@@ -353,7 +374,7 @@ def fit_nested(bins, start, *, n_structures=None, kinds=None, fixed_frame=None,
             nug0, sills0 = nug0 * total_sill / s, sills0 * total_sill / s
     prob = _Problem(bins, kinds, fixed_frame=fixed_frame, fixed_nugget=fixed_nugget,
                     total_sill=total_sill, min_range=min_range, max_range=max_range,
-                    planar=planar)
+                    planar=planar, shared_ratios=shared_ratios)
     p0 = prob.pack(frame0, nug0 if fixed_nugget is None else fixed_nugget, sills0, ranges0)
     lo, hi = prob.bounds()
     p0 = np.clip(p0, lo + 1e-9, hi - 1e-9)
