@@ -170,6 +170,8 @@ def _offset_weights(offsets: np.ndarray, cell: float, radius: float) -> np.ndarr
     key = (offsets.tobytes(), round(cell / radius, 12))
     if key in _WEIGHT_CACHE:
         return _WEIGHT_CACHE[key]
+    if len(_WEIGHT_CACHE) > 64:
+        _WEIGHT_CACHE.clear()
     rng = np.random.default_rng(12345)
     m = 4000
     a = rng.random((m, 3))
