@@ -287,6 +287,8 @@ def _discover_domain(task: Mapping, df, row: dict, dom_dir: Path) -> dict:
     if notes:
         disc.warnings.extend(notes)
     d = disc.to_dict()
+    if getattr(disc, "exploration", None) is not None:
+        S.atomic_write_json(dom_dir / "explore.json", disc.exploration.to_dict())
     S.atomic_write_json(dom_dir / "discovery.json", d)
     check = None
     check_dict = None
@@ -612,7 +614,7 @@ def _execute(tasks: Sequence[Mapping], frame, *, jobs, scheduler, progress):
 
 def _execute_dask(tasks, frame, scheduler, say):
     try:
-        from dask.distributed import Client, as_completed
+        from dask.distributed import Client
     except ImportError:
         raise InputError("--scheduler needs dask.distributed: pip install 'anisotropy[distributed]'") from None
     own = False
@@ -630,7 +632,8 @@ def _execute_dask(tasks, frame, scheduler, say):
         shared = client.scatter(frame, broadcast=True)
         futures = [client.submit(_run_domain, t, shared, pure=False, key=f"anisotropy-domain-{i}")
                    for i, t in enumerate(tasks)]
-        return [say(f.result()) for f in as_completed(futures)]
+        # in submission order (as_completed would need a default client)
+        return [say(f.result()) for f in futures]
     finally:
         if own:
             client.close()

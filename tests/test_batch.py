@@ -175,6 +175,7 @@ def test_nothing_written_outside_out_and_folders_contained(batch):
     hostile = _rows(res)[HOSTILE]["folder"]
     assert "/" not in hostile and ".." not in hostile and "<" not in hostile
     assert (out / hostile / "report.html").is_file()
+    assert json.loads((out / hostile / "explore.json").read_text())["count"] == 120
     # no temporary files left behind by the atomic writes
     assert not [p for p in out.rglob("*.part")]
 
@@ -245,10 +246,10 @@ def test_dask_local_cluster_gives_the_same_summary(batch, table, tmp_path):
     distributed = pytest.importorskip("dask.distributed")
     root, out, res = batch
     with distributed.LocalCluster(n_workers=1, threads_per_worker=2, processes=False,
-                                  dashboard_address=None) as cluster, \
-            distributed.Client(cluster) as client:
+                                  dashboard_address=None) as cluster:
+        # by address, as --scheduler gives it (the batch opens and closes its own client)
         dres = run_batch(table, value="au", domain="zone", hole="hole", out=tmp_path / "dask",
-                         config=CONFIG, scheduler=client, report=False)
+                         config=CONFIG, scheduler=cluster.scheduler_address, report=False)
     # same rows (the timing column aside) as the run on local processes (joblib)
     strip = [{k: v for k, v in r.items() if k != "seconds"} for r in res.rows]
     dstrip = [{k: v for k, v in r.items() if k != "seconds"} for r in dres.rows]
