@@ -309,3 +309,24 @@ def test_demo_end_to_end_through_the_cli(tmp_path, capsys):
     assert all(r["status"] == "ok" and r["replicates"] == 5 for r in js["domains"])
     checked = {r["domain"]: r["verdict"] for r in js["domains"] if r["verdict"]}
     assert set(checked) == {"vein_corridor", "shoot"}
+
+
+def test_interrupted_batch_leaves_no_partial_files_and_resumes(table, tmp_path, monkeypatch):
+    import anisotropy.batch as B
+
+    out = tmp_path / "cut"
+
+    def interrupted(*args, **kwargs):
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(B, "_discover_domain", interrupted)
+    with pytest.raises(KeyboardInterrupt):
+        run_batch(table, value="au", domain="zone", out=out, domains=["tiny", "flat"])
+    assert (out / "tiny" / ".complete").is_file()          # done before the interruption
+    assert not (out / "flat" / ".complete").exists()       # interrupted: not marked done
+    assert not (out / "summary.csv").exists() and not list(out.rglob("*.part"))
+    monkeypatch.undo()
+    res = run_batch(table, value="au", domain="zone", out=out, domains=["tiny", "flat"],
+                    resume=True)
+    assert res.ran == ["flat"] and res.resumed == ["tiny"]
+    assert res.statuses == {"tiny": "skipped", "flat": "skipped"}
