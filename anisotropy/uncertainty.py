@@ -63,7 +63,7 @@ import sys
 import time
 import warnings as _warnings
 from dataclasses import dataclass, field
-from typing import Callable, Sequence
+from typing import Callable
 
 import numpy as np
 from scipy.optimize import linear_sum_assignment
@@ -678,13 +678,6 @@ def reweighted_sums(block_sums, block_weights):
 # ---------------------------------------------------------------------------
 # the result
 # ---------------------------------------------------------------------------
-
-def _longest(model):
-    structs = list(model.structures)
-    if not structs:
-        return None
-    return max(structs, key=lambda s: float(np.max(s.ranges)))
-
 
 def _model_ranges_along(model, axes):
     """Range of the model along each of the given axis vectors (columns)."""
