@@ -33,31 +33,20 @@ from scipy.spatial.transform import Rotation
 from threadpoolctl import threadpool_limits
 
 from anisotropy.errors import FitError
+from anisotropy.models import STRUCTURE_KINDS as KINDS, correlation
 
 __all__ = ["NestedFit", "fit_nested", "rho", "model_gamma", "KINDS"]
 
-KINDS = ("spherical", "exponential", "gaussian", "cubic")
 
 
 def rho(kind: str, h):
     """Correlation of a unit-sill structure at scaled distance ``h``.
 
-    Exponential and Gaussian use the practical range (95 % of the sill at
-    ``h = 1``), as ``anisotropy.models.correlation`` does.
+    The formulas live in one place, :func:`anisotropy.models.correlation`
+    (exponential and Gaussian with the practical range, 95 % of the sill at
+    ``h = 1``); this name is kept for the fitting code's callers.
     """
-    h = np.abs(h)
-    if kind == "spherical":
-        hc = np.minimum(h, 1.0)
-        return 1.0 - 1.5 * hc + 0.5 * hc ** 3
-    if kind == "exponential":
-        return np.exp(-3.0 * h)
-    if kind == "gaussian":
-        return np.exp(-3.0 * h * h)
-    if kind == "cubic":
-        hc = np.minimum(h, 1.0)
-        h2 = hc * hc
-        return 1.0 - h2 * (7.0 - hc * (8.75 - h2 * (3.5 - 0.75 * h2)))
-    raise ValueError(f"unknown structure kind {kind!r}; use one of {KINDS}")
+    return correlation(kind, np.abs(h))
 
 
 def model_gamma(lags, nugget, sills, ranges, frames, kinds):
