@@ -629,6 +629,22 @@ def _rows_text(rows, texts=None) -> str:
     return ", ".join(parts) + more
 
 
+def _hole_like_column(df: pd.DataFrame, *, exclude=()) -> str | None:
+    """A column whose name says "hole" and whose values repeat, or None.
+
+    Used only to warn when no hole column was named: composites of the same
+    hole share its identifier, while blast holes (one sample per id) do not
+    repeat and are not flagged.
+    """
+    for c in df.columns:
+        if c in exclude or "hole" not in re.sub(r"[^a-z]", "", str(c).lower()):
+            continue
+        codes = df[c].dropna()
+        if len(codes) >= 2 and codes.nunique() <= 0.8 * len(codes):
+            return str(c)
+    return None
+
+
 def _rows_phrase(rows) -> str:
     """``"data row 4"`` or ``"data rows 4, 9 and 3 more"``."""
     rows = list(rows)
@@ -790,6 +806,15 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
 
     warnings: list[str] = []
     data_rows = np.arange(1, len(df) + 1)
+    if hcol is None:
+        like = _hole_like_column(df, exclude=(vcol, dcol, *xyz.values()))
+        if like is not None:
+            warnings.append(
+                f"Column {like!r} looks like a hole identifier (its values repeat over "
+                "several rows) but no hole column was given: down-hole spacing, the down-hole "
+                "nugget and the drill-hole pair weights are then unavailable, which can change "
+                f"the answer a great deal. Name it with --hole {like} (hole= in Python) if it "
+                "is one.")
     selected_domain = None
     if domain_value is not None and dcol is None:
         raise InputError("A domain value was given without a domain column; name the column "
@@ -900,7 +925,7 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
             shown = ", ".join(f"{c:g}" for c in np.unique(v[codes])[:5])
             warnings.append(f"{kc} {_plural(kc, 'grade is a', 'grades are')} missing-value "
                             f"{_plural(kc, 'code', 'codes')} (<= -90: {shown}) and "
-                            f"{_plural(kc, 'was', 'were')} left out.")
+                            f"{_plural(kc, 'was', 'were')} left out ({_rows_phrase(data_rows[codes])}).")
         else:
             warnings.append(f"{kc} {_plural(kc, 'grade', 'grades')} at or below -90 "
                             f"{_plural(kc, 'was', 'were')} kept as real values (missing_codes="
@@ -918,7 +943,7 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
             warnings.append(f"{kb} below-detection {_plural(kb, 'code', 'codes')} (negative "
                             f"grades -DL) {_plural(kb, 'was', 'were')} replaced by half the "
                             f"detection limit, DL/2 (common practice; {example:g} became "
-                            f"{-example / 2:g}).")
+                            f"{-example / 2:g}; {_rows_phrase(data_rows[bdl])}).")
         elif below_detection == "missing":
             drop(bdl, R_BDL_MISSING)
             warnings.append(f"{kb} below-detection {_plural(kb, 'code', 'codes')} (negative "

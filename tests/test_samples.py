@@ -256,6 +256,31 @@ def test_blanks_codes_and_below_detection_are_counted(tmp_path):
     assert "-999" in text and "-99" in text
 
 
+def test_code_and_detection_warnings_name_their_rows(tmp_path):
+    s = read_samples(write(tmp_path, CODES), value="au", hole="hole")
+    # rows by hand from the CODES table: -99 and -999 in data rows 3 and 4,
+    # -0.01 and -0.5 in data rows 5 and 6
+    code = next(w for w in s.warnings if "missing-value code" in w)
+    assert "data rows 3, 4" in code
+    bdl = next(w for w in s.warnings if "below-detection" in w)
+    assert "data rows 5, 6" in bdl
+
+
+def test_unnamed_hole_column_is_flagged_not_used(tmp_path):
+    # CODES has a column 'hole' whose ids repeat (by hand: A x5, B x4, C x1)
+    s = read_samples(write(tmp_path, CODES), value="au")
+    assert s.holes is None
+    assert any("'hole' looks like a hole identifier" in w and "--hole hole" in w
+               for w in s.warnings)
+    # named: no such warning
+    s = read_samples(write(tmp_path, CODES), value="au", hole="hole")
+    assert not any("looks like a hole identifier" in w for w in s.warnings)
+    # one id per row (blast holes): not flagged
+    df = GOOD.assign(blast_hole=[f"B{i}" for i in range(len(GOOD))]).drop(columns="hole")
+    s = samples_from_frame(df, value="au")
+    assert not any("looks like a hole identifier" in w for w in s.warnings)
+
+
 def test_code_policies(tmp_path):
     p = write(tmp_path, CODES)
     s = read_samples(p, value="au", missing_codes="keep", below_detection="keep")
