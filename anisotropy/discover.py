@@ -595,9 +595,13 @@ def _resolution_warnings(bins, fit_model, frame, lag_info, spacing, holes, warni
             shortest = float(d[cos > np.cos(np.radians(25))].min()) if np.any(
                 cos > np.cos(np.radians(25))) else float("nan")
             unresolved.append(name)
+            if np.isfinite(shortest):
+                seen = (f"is shorter than the shortest lag seen near that axis "
+                        f"({shortest:.3g} m)")
+            else:
+                seen = "cannot be checked: no lag bin lies within 25 degrees of that axis"
             msg = (f"the {name.replace('_', '-')} axis is not resolved by the sampling: its "
-                   f"fitted range ({r:.3g} m) is shorter than the shortest lag seen near that "
-                   f"axis ({shortest:.3g} m)")
+                   f"fitted range ({r:.3g} m) {seen}")
             if holes and spacing is not None and getattr(spacing, "across_hole", None):
                 msg += (f"; the across-hole spacing is {spacing.across_hole:.3g} m. Closer "
                         "holes, or holes drilled along this axis, would resolve it; until then "
@@ -606,6 +610,11 @@ def _resolution_warnings(bins, fit_model, frame, lag_info, spacing, holes, warni
                 msg += "; closer samples along this axis would resolve it"
             warnings.append(msg)
     return unresolved
+
+
+#: Units printed after the numeric value of a choice in the summary.
+_CHOICE_UNITS = {"unit lag": "m", "lag tolerance": "m", "angular tolerance": "degrees",
+                 "bootstrap blocks": "m", "bandwidth": "m", "maximum distance": "m"}
 
 
 def _summary(D: "Discovery") -> str:
@@ -631,8 +640,11 @@ def _summary(D: "Discovery") -> str:
              f"range {a['major']['range']:.4g} m")
     L.append(f"Semi-major axis: trend {a['semi_major']['trend']:05.1f}, plunge "
              f"{a['semi_major']['plunge']:4.1f}; range {a['semi_major']['range']:.4g} m")
+    minor_range = (f"range {a['minor']['range']:.4g} m" if not D.planar else
+                   f"range not resolved (planar data; {a['minor']['range']:.4g} m is a "
+                   "placeholder equal to the semi-major)")
     L.append(f"Minor axis:      trend {a['minor']['trend']:05.1f}, plunge "
-             f"{a['minor']['plunge']:4.1f} (pole to the plane); range {a['minor']['range']:.4g} m")
+             f"{a['minor']['plunge']:4.1f} (pole to the plane); {minor_range}")
     L.append("")
     L.append(f"Model ({units}): nugget {m.nugget:.3g} of total sill {m.total_sill:.3g} "
              f"({100 * m.nugget / max(m.total_sill, 1e-300):.0f} %)")
@@ -657,6 +669,9 @@ def _summary(D: "Discovery") -> str:
     for c in D.choices:
         v = c["value"]
         v = f"{v:.4g}" if isinstance(v, float) else str(v)
+        unit = _CHOICE_UNITS.get(c["choice"])
+        if unit and isinstance(c["value"], (int, float)) and not isinstance(c["value"], bool):
+            v = f"{v} {unit}"
         L.append(f"  - {c['choice']}: {v} - {c['reason']}")
     if D.warnings:
         L.append("")

@@ -173,6 +173,10 @@ def test_record_has_the_schema_and_is_json(steep_vein, tmp_path):
     for words in ("Plane of greatest continuity", "dip direction", "strike", "pitch",
                   "Major axis", "Semi-major", "Minor axis", "nugget", "competent"):
         assert words in s
+    # numeric choices carry their units in the printed summary
+    lag = next(c for c in D.choices if c["choice"] == "unit lag")["value"]
+    assert f"unit lag: {lag:.4g} m - " in s
+    assert "angular tolerance: " in s and " degrees - " in s.split("angular tolerance: ")[1][:30]
 
 
 def test_refit_function(steep_vein):
@@ -339,6 +343,12 @@ def test_planar_bench_gives_an_azimuth_only_result():
     # 900 samples, one bench 150 m across, range 60 m: 15 degrees on the azimuth
     assert axis_err(D.frame[:, 0], F[:, 0]) < 15.0
     assert "minor" in D.diagnostics["unresolved_axes"]
+    # the vertical pole of one bench has no lag near it (exact: every z is 0),
+    # so the warning says so instead of printing "nan m"
+    text = " ".join(D.warnings)
+    assert "nan" not in text and "no lag bin lies within 25 degrees" in text
+    minor_line = next(ln for ln in D.summary().splitlines() if ln.startswith("Minor axis"))
+    assert "not resolved (planar data" in minor_line
 
 
 def test_correlogram_sums_to_one(steep_vein):
