@@ -118,6 +118,19 @@ def test_figures_return_figures_and_write_pngs(tmp_path):
                    "pairs": np.full(8, 9)})
     fig = F.directional_variograms_figure(curves, sill=1.0, path=tmp_path / "dir.png")
     assert len(fig.axes) == 4 and all(a.get_xlabel() == "lag distance (m)" for a in fig.axes)
+    # the model seen by each lag's pairs is drawn as given (NaN lags left out), beside the
+    # along-axis curve, both labelled
+    seen = 1 - np.exp(-d / 25)
+    seen[3] = np.nan
+    curves[0].update(pair_model_value=seen, model_label="model along the axis")
+    fig = F.directional_variograms_figure(curves, sill=1.0)
+    dashed = [ln for ln in fig.axes[0].get_lines()
+              if ln.get_label() == "model averaged over this lag's pairs"]
+    assert len(dashed) == 1 and dashed[0].get_linestyle() == "--"
+    keep = np.isfinite(seen)
+    np.testing.assert_array_equal(dashed[0].get_xydata(), np.column_stack([d[keep], seen[keep]]))
+    labels = [t.get_text() for t in fig.axes[0].get_legend().get_texts()]
+    assert "model along the axis" in labels and "model averaged over this lag's pairs" in labels
     rows = F.model_table_rows({"nugget": 0.2, "structures": [
         {"type": "spherical", "sill": 0.8, "ranges": {"major": 120, "semi_major": 60, "minor": 9}}]},
         {"major": {"trend": 50, "plunge": 20}})
@@ -225,8 +238,24 @@ def test_report_content_and_escaping(report):
     for needed in ("JORC", "NI 43-101", "SAMREC", "PERC", "competent or qualified person",
                    "domaining", "Samples dropped or changed", "top-cut", "Transform",
                    "Model for estimation", "range major (m)", "Verdict", "Warnings",
-                   "bootstrap"):
+                   "bootstrap", "averaged over each lag's own pairs", "exactly along"):
         assert needed in text, needed
+
+
+def test_report_labels_lags_and_choices_with_units(report):
+    import re
+
+    text = " ".join(_parse(report).text)
+    # lags by name with units, not the raw discovery.json keys
+    for label in ("unit lag (m)", "number of lags", "lag tolerance (m)",
+                  "longest lag distance (m)"):
+        assert label in text, label
+    assert "unit_lag" not in text and "max_distance" not in text
+    # choice values to 4 significant figures with units; no 17-digit floats anywhere
+    assert re.search(r"\d\.\d{6,}", text) is None
+    assert re.search(r"unit lag \d[\d.]* m ", text)
+    # transform keys as words
+    assert "normal_score.tails" not in text
 
 
 @pytest.mark.skipif(not (shutil.which("chromium") or Path("/usr/bin/chromium").exists()),

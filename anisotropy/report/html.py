@@ -91,6 +91,8 @@ def _flat(d: Mapping, prefix="") -> list:
             out.extend(_flat(v, key + "."))
         elif isinstance(v, (list, tuple)) and len(v) > 12:
             out.append((key, S.escape(f"[{len(v)} values]")))
+        elif isinstance(v, (list, tuple)) and all(isinstance(e, float) for e in v):
+            out.append((key, S.escape(", ".join(format(e, ".5g") for e in v))))
         else:
             out.append((key, S.escape(v if not isinstance(v, float) else format(v, ".5g"))))
     return out
@@ -249,6 +251,18 @@ def _units(disc) -> str:
             "indicator": "indicator units"}.get(kind, "grade units squared")
 
 
+def _readable(pairs) -> list:
+    """Flattened record keys as words: ``normal_score.tails.upper_bound`` -> ``tails: upper bound``."""
+    out = []
+    for k, v in pairs:
+        parts = str(k).split(".")
+        if len(parts) > 1 and parts[0] in ("normal_score", "log", "indicator", "raw"):
+            parts = parts[1:]
+        words = [p.replace("_", " ") for p in parts]
+        out.append((": ".join(words), v))
+    return out
+
+
 def _transform_record(disc) -> dict:
     t = _attr(disc, "transform")
     rec = _attr(t, "record")
@@ -320,6 +334,7 @@ def _fig_directional(disc, path):
     from anisotropy.geometry import line_to_vector, vector_to_line
     from anisotropy.pairs import CHANNELS
     from anisotropy.report import figures as F
+    from anisotropy.report._model_view import volume_model_view
 
     vol = disc.volume_
     R = _frame(disc)
@@ -351,9 +366,12 @@ def _fig_directional(disc, path):
         val = np.asarray(estimate(sums, estimator), float)
         tr, pl = vector_to_line(u)
         name = label if axis is None else f"{label} {float(tr):03.0f}/{float(pl):02.0f}"
+        # the model as the cone's own pairs see it (their lags leave the axis)
+        seen = volume_model_view(vol, disc.model, u, tol, bw if bw else None)
         c = {"label": name, "axis": axis, "distance": dist, "value": val, "pairs": n,
              "model_distance": grid, "model_value": disc.model.variogram_along(u, grid),
-             "model_label": "fitted model"}
+             "model_label": "model along the axis" if axis else "model along the direction",
+             "pair_model_value": seen, "pair_model_label": "model averaged over this lag's pairs"}
         if bands is not None:
             c.update(lo=bands["lo"][k], hi=bands["hi"][k], band_distance=grid,
                      band_label=f"bootstrap band of the model ({unc.confidence * 100:.0f} %)")
@@ -506,10 +524,30 @@ def _section_topcut(disc, figs, tc) -> str:
     return "\n".join(html)
 
 
+#: Labels (with units) of the discovery.json ``lags`` keys in the report.
+_LAG_LABELS = {"unit_lag": "unit lag (m)", "n_lags": "number of lags",
+               "lag_tolerance": "lag tolerance (m)", "max_distance": "longest lag distance (m)",
+               "angular_tolerance": "angular tolerance (degrees)",
+               "bandwidth": "bandwidth (m)"}
+
+#: Units appended to numeric choice values in the choices table.
+_CHOICE_UNITS = {"unit lag": "m", "lag tolerance": "m", "angular tolerance": "degrees",
+                 "bootstrap blocks": "m", "bandwidth": "m", "maximum distance": "m"}
+
+
+def _choice_value(choice, value) -> str:
+    """A choice's value as text: numbers to 4 significant figures, with their unit."""
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        return "" if value is None else str(value)
+    unit = _CHOICE_UNITS.get(str(choice))
+    text = format(value, ".4g")
+    return f"{text} {unit}" if unit else text
+
+
 def _section_lags(disc, d) -> str:
     html = []
     lags = d.get("lags") or {}
-    html.append(_kv(_flat(lags)))
+    html.append(_kv([(_LAG_LABELS.get(str(k).split(".")[0], k), v) for k, v in _flat(lags)]))
     ex = _attr(disc, "exploration")
     if ex is not None:
         sp = ex.to_dict().get("spacing") or {}
@@ -529,7 +567,8 @@ def _section_lags(disc, d) -> str:
     choices = [c for c in (diag.get("choices") or []) if isinstance(c, Mapping)]
     if choices:
         html.append("<h3>Choices made and why</h3>")
-        html.append(_table([{"choice": c.get("choice"), "value": c.get("value"),
+        html.append(_table([{"choice": c.get("choice"),
+                             "value": _choice_value(c.get("choice"), c.get("value")),
                              "why": c.get("reason")} for c in choices],
                            ["choice", "value", "why"]))
     if diag.get("pairs") is not None:
@@ -565,9 +604,16 @@ def _section_model(disc, d) -> str:
                          "trend interval": _pair(u.get("trend"), ".0f"),
                          "plunge interval": _pair(u.get("plunge"), ".0f"),
                          "range interval (m)": _pair(u.get("range"), ".0f")})
+        nug = unc.get("nugget")
+        if (isinstance(nug, (list, tuple)) and len(nug) == 2
+                and _num(nug[0], ".3g") == _num(nug[1], ".3g")):
+            nug_text = (f"Nugget {_num(nug[0], '.3g')} in every replicate (held fixed in the "
+                        "fit, so it carries no interval here)")
+        else:
+            nug_text = f"Nugget {_pair(nug, '.3g')}"
         html.append(f"<p>Uncertainty: {S.escape(str(unc.get('method')).replace('_', ' '))}, "
                     f"{_g(unc.get('replicates'), 'd')} replicates, {_g((conf or 0) * 100, '.0f')} % "
-                    f"intervals. Nugget {_pair(unc.get('nugget'), '.3g')}.</p>")
+                    f"intervals. {nug_text}.</p>")
         html.append(_table(rows))
     else:
         html.append("<p class='warn'>No bootstrap was run: the axes and ranges carry no "
@@ -662,7 +708,7 @@ def render_report(discovery, out_dir, *, check=None, title=None, topcut=None) ->
     sec.append("<h2>1. Data</h2>" + _section_data(discovery, d))
     sec.append("<h2>2. Grade distribution and top-cut</h2>" + _section_topcut(discovery, figs, topcut))
     sec.append("<h2>3. Spacing, lags and the other choices</h2>" + _section_lags(discovery, d))
-    sec.append("<h2>4. Transform</h2>" + _kv(_flat(_transform_record(discovery)))
+    sec.append("<h2>4. Transform</h2>" + _kv(_readable(_flat(_transform_record(discovery))))
                + "<p>The variograms and the model below are in the transformed variable.</p>")
     sec.append("<h2>5. Variogram maps</h2>"
                "<p>Slices of the lag-vector volume through the origin; the black curve is the "
@@ -679,8 +725,18 @@ def render_report(discovery, out_dir, *, check=None, title=None, topcut=None) ->
                               "directions when an interpretation was checked."))
     sec.append("<h2>7. Directional variograms</h2>"
                + _figure_html("directional", figs,
-                              "Points sized by pair count (numbers beside them); shaded: bootstrap "
-                              "band of the fitted model; line: the fitted nested model."))
+                              "Points sized by pair count (numbers beside them): the experimental "
+                              "variogram of the pairs within the angular tolerance of each "
+                              "direction. Solid line: the fitted nested model evaluated exactly "
+                              "along the direction. Open diamonds on a dashed line: the same model "
+                              "averaged over each lag's own pairs (evaluated at the mean lag vector "
+                              "of every fine direction cell the cone takes, weighted by its pair "
+                              "count), which is what the points should be compared with. With "
+                              "strong anisotropy the pairs in a cone around a long axis reach "
+                              "into the short axes, so points and diamonds can both rise faster "
+                              "than the solid line: a gap between points and diamonds is misfit, "
+                              "a gap between points and the solid line need not be. Shaded: "
+                              "bootstrap band of the model along the direction."))
     sec.append("<h2>8. Model for estimation</h2>" + _section_model(discovery, d)
                + _figure_html("model_table", figs, "The same table as a figure."))
     sec.append("<h2>9. Check of the interpretation</h2>" + _section_check(check))
