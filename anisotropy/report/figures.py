@@ -502,7 +502,11 @@ def directional_variograms_figure(curves, *, sill=None, value_label="semivariogr
         same length), optional ``lo``/``hi`` (band, e.g. bootstrap
         percentiles) with optional ``band_distance`` when the band is on
         its own distances, optional ``model_distance``/``model_value`` (fitted
-        nested model along this direction), optional ``axis`` (``major``,
+        nested model along this direction, solid line, label ``model_label``),
+        optional ``pair_model_value`` (the model averaged over the pairs of
+        each lag, see :func:`anisotropy.report._model_view.model_over_pairs`;
+        open markers on a dashed line at ``pair_model_distance``, default
+        ``distance``; label ``pair_model_label``), optional ``axis`` (``major``,
         ``semi_major``, ``minor``; others go on the last panel together,
         with their model curves but without bands, to stay readable).
     sill : float, optional
@@ -559,6 +563,15 @@ def directional_variograms_figure(curves, *, sill=None, value_label="semivariogr
                     lw=1.6 if name in panels else 1.0,
                     label=c.get("model_label", "fitted model") if name in panels or other_k == 1
                     else None)
+        if c.get("pair_model_value") is not None:
+            pv = np.asarray(c["pair_model_value"], float)
+            pd_ = (np.asarray(c["pair_model_distance"], float)
+                   if c.get("pair_model_distance") is not None else d)
+            p_ok = np.isfinite(pd_) & np.isfinite(pv)
+            ax.plot(pd_[p_ok], pv[p_ok], color=colour, ls="--", lw=1.0, marker="D",
+                    markersize=3.5, markerfacecolor="white", markeredgecolor=colour, zorder=4,
+                    label=c.get("pair_model_label", "model averaged over this lag's pairs")
+                    if name in panels or other_k == 1 else None)
     for name, ax in list(panels.items()) + [("others", other_ax)]:
         if sill is not None and np.isfinite(sill):
             ax.axhline(sill, color="#888888", lw=0.8, ls=":", label="total sill")
