@@ -798,7 +798,19 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
                         "(directions within the plane); see the cautions")
 
     # transform
-    tr = _choose_transform(vals, transform, decl_w, choices, threshold=threshold)
+    relative = estimator == "pairwise_relative"
+    if relative and transform not in ("auto", "raw"):
+        raise InputError(
+            f"the pairwise relative estimator divides each squared difference by the squared "
+            f"mean of its pair, so it needs positive raw grades; the {transform} transform "
+            "gives values near or below zero, which make it meaningless. Use --transform raw "
+            "(or auto, which then picks raw) with --estimator pairwise_relative, or keep "
+            f"--transform {transform} with another estimator.")
+    tr = _choose_transform(vals, "raw" if relative else transform, decl_w, choices,
+                           threshold=threshold)
+    if relative and transform == "auto":
+        choices[-1]["reason"] = ("the pairwise relative estimator needs positive raw grades "
+                                 "(normal scores and logs change sign), so no transform")
     tv = np.asarray(tr.values, float)
     if np.nanstd(tv) == 0:
         raise InsufficientDataError("the transformed values are all equal (e.g. an indicator "

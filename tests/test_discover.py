@@ -223,6 +223,24 @@ def test_missing_domain_value_lists_the_existing_ones(rng):
     assert "VEIN" in str(e.value) and "BLANKET" in str(e.value)
 
 
+def test_pairwise_relative_refuses_transformed_values_and_picks_raw(rng, steep_vein):
+    # the pairwise relative estimator divides by the squared pair mean ((z_h + z_t)/2)^2
+    # (Isaaks & Srivastava 1989, ch. 7): normal scores and indicators have pair means
+    # near zero, so the estimate is meaningless on them
+    c = rng.uniform(0, 100, (200, 3))
+    df = table(c, np.exp(rng.normal(size=200)))
+    for kind in ("normal_score", "log", "indicator"):
+        with pytest.raises(InputError, match="--transform raw"):
+            anisotropy.discover(df, value="grade", estimator="pairwise_relative",
+                                transform=kind)
+    # with transform auto the skewed grades stay raw
+    D = anisotropy.discover(steep_vein.samples, estimator="pairwise_relative",
+                            fan_spacing=15)
+    assert D.transform.kind == "raw"
+    t = next(ch for ch in D.choices if ch["choice"] == "transform")
+    assert "pairwise relative" in t["reason"]
+
+
 def test_too_few_pairs_for_3d(rng):
     # 40 samples spread over a large box: few pairs, few lag-direction bins
     c = rng.uniform(0, 5000, (40, 3))
