@@ -534,8 +534,16 @@ def main(argv=None) -> int:
     if getattr(args, "_run", None) is None:
         parser.print_help()
         return EXIT_BAD_INPUT
+    import warnings
+
+    def _show(message, category, filename, lineno, file=None, line=None):
+        # a geologist needs the message, not our source file and line
+        print(f"anisotropy {args.command}: note: {message}", file=sys.stderr)
+
     try:
-        return int(args._run(args) or EXIT_OK)
+        with warnings.catch_warnings():
+            warnings.showwarning = _show
+            return int(args._run(args) or EXIT_OK)
     except InputError as exc:
         print(f"anisotropy {args.command}: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT

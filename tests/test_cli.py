@@ -197,3 +197,24 @@ def test_internal_error_exits_1_and_says_it_is_ours(good_csv, tmp_path, capsys, 
     assert code == 1
     assert "internal error" in err and "simulated bug" in err
     assert not (tmp_path / "o" / "explore.json").exists()
+
+
+def test_python_warnings_are_printed_as_notes_without_source_paths(good_csv, tmp_path, capsys,
+                                                                   monkeypatch):
+    import importlib
+    import warnings
+
+    explore_module = importlib.import_module("anisotropy.explore")
+    real = explore_module.explore
+
+    def noisy(samples, **kw):
+        warnings.warn("correlogram undefined in 3 lag bins", RuntimeWarning, stacklevel=1)
+        return real(samples, **kw)
+
+    monkeypatch.setattr(explore_module, "explore", noisy)
+    p, _ = good_csv
+    code, out, err = run(["explore", p, "--value", "Au_gpt", "--hole", "HoleID",
+                          "--out", tmp_path / "o"], capsys)
+    assert code == EXIT_OK
+    assert "anisotropy explore: note: correlogram undefined in 3 lag bins" in err
+    assert "RuntimeWarning" not in err and ".py:" not in err
