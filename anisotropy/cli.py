@@ -400,6 +400,18 @@ def _add_batch_chain_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--n-lags", type=int, default=None, metavar="N", help="number of lags")
     g.add_argument("--angular-tolerance", type=float, default=None, metavar="DEG",
                    help="half-angle of the direction cones in degrees")
+    g.add_argument("--bandwidth", type=float, default=None, metavar="M",
+                   help="fan bandwidth in metres (default: none)")
+    g.add_argument("--threshold", type=float, default=None, metavar="GRADE",
+                   help="indicator threshold (with --transform indicator; default the median)")
+    g.add_argument("--structures", default=None, choices=["auto", "1", "2", "3"],
+                   help="number of nested structures (default: auto, a penalised criterion)")
+    g.add_argument("--kind", action="append", default=None, metavar="KIND",
+                   choices=["spherical", "exponential", "gaussian", "cubic"],
+                   help="structure kind (repeat per structure; default the better of "
+                        "spherical and exponential)")
+    g.add_argument("--shared-ratios", action="store_true",
+                   help="nested structures share one anisotropy shape, each with its own scale")
     g.add_argument("--bootstrap", type=int, default=None, metavar="N",
                    help="bootstrap replicates per domain (default: 100; 0 for none)")
     g.add_argument("--confidence", type=float, default=None, metavar="P",
@@ -424,10 +436,18 @@ def _add_batch_chain_options(p: argparse.ArgumentParser) -> None:
 
 def _batch_options(args) -> dict:
     opts = {"seed": args.seed, "bootstrap": 100 if args.bootstrap is None else args.bootstrap}
-    for name in ("transform", "estimator", "lag", "n_lags", "angular_tolerance", "confidence"):
-        v = getattr(args, name)
+    for name in ("transform", "estimator", "lag", "n_lags", "angular_tolerance", "confidence",
+                 "bandwidth", "threshold"):
+        v = getattr(args, name, None)
         if v is not None:
             opts[name] = v
+    structures = getattr(args, "structures", None)
+    if structures is not None:
+        opts["structures"] = "auto" if structures == "auto" else int(structures)
+    if getattr(args, "kind", None):
+        opts["kinds"] = list(args.kind)
+    if getattr(args, "shared_ratios", False):
+        opts["shared_ratios"] = True
     for name in ("missing_codes", "below_detection", "duplicates"):
         if hasattr(args, name):
             opts[name] = getattr(args, name)

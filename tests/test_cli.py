@@ -218,3 +218,30 @@ def test_python_warnings_are_printed_as_notes_without_source_paths(good_csv, tmp
     assert code == EXIT_OK
     assert "anisotropy explore: note: correlogram undefined in 3 lag bins" in err
     assert "RuntimeWarning" not in err and ".py:" not in err
+
+
+def test_batch_passes_the_discover_modelling_options_by_their_python_names():
+    import inspect
+
+    from anisotropy.cli import _batch_options, build_parser
+    from anisotropy.discover import discover
+
+    args = build_parser().parse_args(
+        ["batch", "t.csv", "--value", "au", "--domain", "zone", "--structures", "2",
+         "--kind", "spherical", "--kind", "exponential", "--shared-ratios",
+         "--bandwidth", "12", "--transform", "indicator", "--threshold", "1.5"])
+    opts = _batch_options(args)
+    assert opts["structures"] == 2 and opts["kinds"] == ["spherical", "exponential"]
+    assert opts["shared_ratios"] is True and opts["bandwidth"] == 12.0
+    assert opts["threshold"] == 1.5 and opts["transform"] == "indicator"
+    # every name is a keyword of discover (checked against its signature), as run_batch requires
+    known = set(inspect.signature(discover).parameters)
+    intake = {"missing_codes", "below_detection", "duplicates"}
+    assert set(opts) - intake <= known
+    # the same spelling as discover's own options
+    disc = {a.option_strings[0] for a in build_parser()._subparsers._group_actions[0]
+            .choices["discover"]._actions if a.option_strings}
+    bat = {a.option_strings[0] for a in build_parser()._subparsers._group_actions[0]
+           .choices["batch"]._actions if a.option_strings}
+    for o in ("--structures", "--kind", "--shared-ratios", "--bandwidth", "--threshold"):
+        assert o in disc and o in bat
