@@ -870,17 +870,22 @@ class Exploration:
             f"{r.cell_size:.3g}: {r.mean:.4g}" for r in d.table.itertuples()))
         s = self.spacing
         L.append("")
-        L.append(f"Spacing ({s.layout.replace('_', ' ')}): across-hole {g(s.across_hole, '.3g')} m "
-                 f"(in plan {g(s.across_hole_plan, '.3g')} m), "
-                 f"down-hole {g(s.down_hole, '.3g')} m, bench {g(s.bench, '.3g')} m, "
-                 f"nearest neighbour {g(s.nearest, '.3g')} m")
+        def m(x):
+            text = g(x, ".3g")
+            return text if text == "n/a" else f"{text} m"
+
+        L.append(f"Spacing ({s.layout.replace('_', ' ')}): across-hole {m(s.across_hole)} "
+                 f"(in plan {m(s.across_hole_plan)}), "
+                 f"down-hole {m(s.down_hole)}, bench {m(s.bench)}, "
+                 f"nearest neighbour {m(s.nearest)}")
         for k, lag in s.suggested_lag.items():
-            L.append(f"  suggested unit lag {k:<11} {g(lag, '.3g'):>7} m  "
+            L.append(f"  suggested unit lag {k.replace('_', ' '):<11} {g(lag, '.3g'):>7} m  "
                      f"(tolerance {g(s.lag_tolerance.get(k), '.3g')} m): {s.reasons.get(k, '')}")
         L.append("")
         L.append("Top-cut candidates (the choice is yours):")
         for c in self.topcut:
-            L.append(f"  {c['value']:.4g}  {c['method']:<16} caps {c['n_capped']} samples, removes "
+            L.append(f"  {c['value']:.4g}  {c['method']:<16} caps {c['n_capped']} "
+                     f"{'sample' if c['n_capped'] == 1 else 'samples'}, removes "
                      f"{g(c['metal_removed_pct'], '.1f')} % of the metal"
                      + ("  [aggressive]" if c.get("aggressive") else ""))
         if self.strongly_skewed:
@@ -889,8 +894,11 @@ class Exploration:
         t = self.trend
         L.append("")
         L.append(f"Trend: linear R2 {g(t.r2_linear, '.3f')}, quadratic R2 {g(t.r2_quadratic, '.3f')}"
-                 + (f"; grade rises toward azimuth {t.rising_azimuth:.0f}, inclination "
-                    f"{t.rising_inclination:.0f}" if t.rising_azimuth is not None else ""))
+                 + (f"; grade rises toward azimuth {t.rising_azimuth:03.0f}, "
+                    f"{abs(t.rising_inclination):.0f} degrees "
+                    f"{'below' if t.rising_inclination >= 0 else 'above'} the horizontal"
+                    if t.rising_azimuth is not None and t.rising_inclination is not None
+                    else ""))
         if self.warnings:
             L.append("")
             L.append("Warnings:")

@@ -335,3 +335,17 @@ def test_constant_grades_do_not_break_exploration():
     assert not e.trend.material and e.trend.r2_linear is None
     assert all(cand["n_capped"] == 0 for cand in e.topcut)
     json.dumps(e.to_dict())
+
+
+def test_summary_wording_units_and_trend_direction():
+    # drill holes (no benches): the bench spacing is n/a and carries no unit
+    c, h = drill_layout(nx=4, ny=4, n_comp=10)
+    # grade rising straight up (by construction: value = 1 + z/10), so the gradient
+    # points up: azimuth undefined-ish but inclination 90 degrees above horizontal
+    r = np.random.default_rng(4)
+    v = 1.0 + c[:, 2] / 10.0 + r.normal(0, 0.01, len(c)) - c[:, 2].min() / 10.0
+    text = explore(c, v, holes=h).summary()
+    assert "bench n/a," in text and "n/a m" not in text
+    assert "along_hole" not in text and "suggested unit lag along hole" in text
+    line = next(ln for ln in text.splitlines() if ln.startswith("Trend:"))
+    assert "above the horizontal" in line and "inclination" not in line
