@@ -832,6 +832,9 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
             if want not in present:
                 ci = [v for v in present if v.lower() == want.lower()]
                 if len(ci) == 1:
+                    warnings.append(f"Domain {want!r} does not occur in column {dcol!r} as "
+                                    f"written; {ci[0]!r}, its only match ignoring upper and "
+                                    "lower case, was used.")
                     want = ci[0]
                 else:
                     close = difflib.get_close_matches(want, present, n=1, cutoff=0.5)

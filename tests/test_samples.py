@@ -361,6 +361,15 @@ def test_domain_selection_and_values():
     np.testing.assert_array_equal(s.rows, ref.index.to_numpy() + 1)
 
 
+def test_domain_matched_ignoring_case_is_said():
+    s = samples_from_frame(GOOD, value="au", domain="domain", domain_value="Blanket")
+    ref = GOOD[GOOD.domain == "blanket"]  # pandas boolean selection as reference
+    assert s.domain == "blanket" and s.n_read == len(ref)
+    assert any("'Blanket' does not occur" in w and "'blanket'" in w for w in s.warnings)
+    exact = samples_from_frame(GOOD, value="au", domain="domain", domain_value="blanket")
+    assert not any("ignoring upper and lower case" in w for w in exact.warnings)
+
+
 def test_nonexistent_domain_lists_the_existing_ones():
     with pytest.raises(DataError) as info:
         samples_from_frame(GOOD, value="au", domain="domain", domain_value="shoot",
