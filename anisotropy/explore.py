@@ -879,8 +879,8 @@ class Exploration:
                  f"down-hole {m(s.down_hole)}, bench {m(s.bench)}, "
                  f"nearest neighbour {m(s.nearest)}")
         for k, lag in s.suggested_lag.items():
-            L.append(f"  suggested unit lag {k.replace('_', ' '):<11} {g(lag, '.3g'):>7} m  "
-                     f"(tolerance {g(s.lag_tolerance.get(k), '.3g')} m): {s.reasons.get(k, '')}")
+            L.append(f"  suggested unit lag {k.replace('_', ' '):<11} {m(lag):>9}  "
+                     f"(tolerance {m(s.lag_tolerance.get(k))}): {s.reasons.get(k, '')}")
         L.append("")
         L.append("Top-cut candidates (the choice is yours):")
         for c in self.topcut:

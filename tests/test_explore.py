@@ -349,3 +349,10 @@ def test_summary_wording_units_and_trend_direction():
     assert "along_hole" not in text and "suggested unit lag along hole" in text
     line = next(ln for ln in text.splitlines() if ln.startswith("Trend:"))
     assert "above the horizontal" in line and "inclination" not in line
+
+    # one level (a bench, exact z = 0): the vertical lag is n/a, with no unit after it
+    r = np.random.default_rng(5)
+    flat = np.c_[r.uniform(0, 100, (200, 2)), np.zeros(200)]
+    text = explore(flat, r.lognormal(0, 1, 200)).summary()
+    vertical = next(ln for ln in text.splitlines() if "suggested unit lag vertical" in ln)
+    assert "n/a m" not in vertical and "(tolerance n/a)" in vertical
