@@ -934,7 +934,8 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
                             f"{_plural(kc, 'was', 'were')} kept as real values (missing_codes="
                             "'keep'); if they are missing-value codes they will distort every "
                             "statistic.")
-    bdl = alive & (v < 0)
+    # codes at or below -90 kept on request stay as they are (not halved as -DL codes)
+    bdl = alive & (v < 0) & (v > MISSING_CODE_THRESHOLD)
     kb = int(bdl.sum())
     if kb:
         if below_detection == "half":

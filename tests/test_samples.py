@@ -294,6 +294,15 @@ def test_code_policies(tmp_path):
         read_samples(p, value="au", duplicates="median")
 
 
+def test_kept_missing_codes_are_not_halved_as_detection_limits(tmp_path):
+    # CODES by hand: -99 and -999 kept as written; only -0.01 and -0.5 are -DL codes
+    # (DL/2 is common practice), so -99 must not become 49.5
+    s = read_samples(write(tmp_path, CODES), value="au", missing_codes="keep")
+    np.testing.assert_array_equal(s.values, [1.0, -99.0, -999.0, 0.005, 0.25, 4.0, 0.0])
+    assert s.changed == {"below-detection code (-DL) set to DL/2": 2}
+    assert s.changed_rows == {"below-detection code (-DL) set to DL/2": [5, 6]}
+
+
 def test_text_in_grade_column_names_column_rows_and_text(tmp_path):
     text = "x,y,z,Au_gpt\n0,0,0,1\n1,0,0,<0.01\n2,0,0,3\n3,0,0,NS\n4,0,0,2\n"
     p = write(tmp_path, text)
