@@ -254,8 +254,9 @@ def test_report_labels_lags_and_choices_with_units(report):
     # choice values to 4 significant figures with units; no 17-digit floats anywhere
     assert re.search(r"\d\.\d{6,}", text) is None
     assert re.search(r"unit lag \d[\d.]* m ", text)
-    # transform keys as words
+    # transform keys as words; direction classes in words
     assert "normal_score.tails" not in text
+    assert "across_hole" not in text and "across hole" in text
 
 
 @pytest.mark.skipif(not (shutil.which("chromium") or Path("/usr/bin/chromium").exists()),

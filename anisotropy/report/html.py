@@ -553,7 +553,7 @@ def _section_lags(disc, d) -> str:
         sp = ex.to_dict().get("spacing") or {}
         rows = []
         for k, lag in (sp.get("suggested_lag") or {}).items():
-            rows.append({"direction class": k, "suggested lag (m)": _g(lag, ".3g"),
+            rows.append({"direction class": str(k).replace("_", " "), "suggested lag (m)": _g(lag, ".3g"),
                          "why": (sp.get("reasons") or {}).get(k, "")})
         def metres(x):
             text = _g(x, ".3g")
