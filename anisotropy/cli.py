@@ -60,6 +60,26 @@ def _add_output_option(p: argparse.ArgumentParser, default: str) -> None:
                    help=f"folder for the results (default: {default})")
 
 
+def _output_folder(out):
+    """Make the ``--out`` folder before any long work; refuse a file or an unwritable place."""
+    import os
+    from pathlib import Path
+
+    out = Path(out)
+    if out.exists() and not out.is_dir():
+        raise InputError(f"The output folder '{out}' is an existing file; give a folder "
+                         "name with --out.")
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise InputError(f"Cannot create the output folder '{out}' ({exc.strerror}); give "
+                         "another folder with --out.") from None
+    if not os.access(out, os.W_OK):
+        raise InputError(f"The output folder '{out}' is not writable; give another folder "
+                         "with --out.")
+    return out
+
+
 def _read_samples_from_args(args):
     """Read and validate the sample table named on the command line."""
     from anisotropy.samples import read_samples
@@ -253,8 +273,6 @@ def _add_discover(p: argparse.ArgumentParser) -> None:
 
 def _cmd_discover(args) -> int:
     """Propose the 3D continuity model of one grade in one domain."""
-    from pathlib import Path
-
     from anisotropy.discover import discover
 
     if args.bootstrap < 0:
@@ -262,6 +280,7 @@ def _cmd_discover(args) -> int:
     if not 0 < args.confidence < 1:
         raise InputError(f"--confidence must lie between 0 and 1; got {args.confidence}")
     samples = _read_samples_from_args(args)
+    out = _output_folder(args.out)   # refuse a bad --out before the long run
     structures = "auto" if args.structures == "auto" else int(args.structures)
     result = discover(samples, transform=args.transform, estimator=args.estimator,
                       structures=structures, kinds=args.kind, lag=args.lag, n_lags=args.n_lags,
@@ -270,8 +289,6 @@ def _cmd_discover(args) -> int:
                       n_jobs=args.jobs, scheduler=args.scheduler, threshold=args.threshold,
                       shared_ratios=args.shared_ratios, progress=True)
     print(result.summary())
-    out = Path(args.out)
-    out.mkdir(parents=True, exist_ok=True)
     path = result.to_json(out / "discovery.json")
     print(f"\nwritten: {path}")
     return EXIT_OK
@@ -482,6 +499,7 @@ def _cmd_batch(args) -> int:
     domains = None
     if args.domains:
         domains = [d.strip() for d in args.domains.split(",") if d.strip()]
+    _output_folder(args.out)   # refuse a bad --out before any domain runs
     print(f"batch: {args.file}, value {args.value}, domains from {args.domain} -> {args.out}",
           flush=True)
     res = run_batch(
@@ -566,6 +584,12 @@ def main(argv=None) -> int:
             return int(args._run(args) or EXIT_OK)
     except InputError as exc:
         print(f"anisotropy {args.command}: {exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except (FileExistsError, NotADirectoryError, PermissionError, IsADirectoryError) as exc:
+        # writing the results failed where the user pointed (--out): say where and why
+        where = exc.filename or getattr(args, "out", "")
+        print(f"anisotropy {args.command}: cannot write '{where}' ({exc.strerror}); give "
+              "another folder with --out.", file=sys.stderr)
         return EXIT_BAD_INPUT
     except AnisotropyError as exc:
         print(f"anisotropy {args.command}: {exc}", file=sys.stderr)

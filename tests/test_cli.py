@@ -245,3 +245,19 @@ def test_batch_passes_the_discover_modelling_options_by_their_python_names():
            .choices["batch"]._actions if a.option_strings}
     for o in ("--structures", "--kind", "--shared-ratios", "--bandwidth", "--threshold"):
         assert o in disc and o in bat
+
+
+@pytest.mark.parametrize("command", ["discover", "batch", "check"])
+def test_out_that_is_a_file_exits_2_without_a_traceback(command, good_csv, tmp_path, capsys):
+    p, _ = good_csv
+    blocker = tmp_path / "results"
+    blocker.write_text("not a folder")
+    argv = [command, p, "--value", "Au_gpt", "--hole", "HoleID", "--out", blocker]
+    if command == "batch":
+        argv += ["--domain", "Domain", "--bootstrap", "0"]
+    if command == "check":
+        argv += ["--plane", "150/70", "--bootstrap", "20"]
+    code, out, err = run(argv, capsys)
+    assert code == EXIT_BAD_INPUT
+    assert "Traceback" not in err and str(blocker) in err and "--out" in err
+    assert blocker.read_text() == "not a folder"
