@@ -566,6 +566,19 @@ def _downhole_nugget(dh, values, composite, total, estimator):
     return nug, pts
 
 
+def _stage(progress, t0, text):
+    """One progress line on stderr (``progress=True``) or to a callable, with the elapsed time."""
+    if not progress:
+        return
+    import sys
+
+    line = f"discover: {text} [{time.perf_counter() - t0:.1f} s]"
+    if callable(progress):
+        progress(line)
+    else:
+        print(line, file=sys.stderr, flush=True)
+
+
 def _iso_fit(bins, total, kind, fixed_nugget=None):
     """Isotropic 1-structure fit over all bins: nugget, sill, range (for starts)."""
     from anisotropy.fitting import fit_nested
@@ -858,6 +871,7 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
     lag_u, nl = lag_info["unit_lag"], lag_info["n_lags"]
 
     # pair engine
+    _stage(progress, t0, f"pairs: unit lag {lag_u:.3g} m, {nl} lags, {samples.n} samples")
     from anisotropy import pairs as _pairs
 
     bw_kw = {}
@@ -947,6 +961,7 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
     sill0 = float(np.sum(iso.sills))
 
     # fan of directions and per-direction ranges
+    _stage(progress, t0, "ranges along the direction fan")
     from anisotropy.directional import variogram_fan
 
     fan_dirs = fan_for_spacing(fan_spacing)
@@ -1015,6 +1030,7 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
     common = dict(fixed_nugget=fixed_nugget, total_sill=total, min_range=lo_r, max_range=hi_r,
                   planar=planar, make_model=False)
     # screening: every start, one structure, a loose tolerance
+    _stage(progress, t0, f"fitting the orientation from {len(starts)} starting frames")
     screened = []
     for name, F in starts:
         F = np.asarray(F, float)
@@ -1056,6 +1072,7 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
         if f.wrss < best.wrss:
             best = f
     # nested structures
+    _stage(progress, t0, "nested structures")
     n_str = None if structures in ("auto", None) else int(structures)
     if n_str is not None and not 1 <= n_str <= 3:
         raise InputError(f"structures must be 1, 2, 3 or 'auto'; got {structures!r}")

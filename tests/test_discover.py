@@ -241,6 +241,20 @@ def test_pairwise_relative_refuses_transformed_values_and_picks_raw(rng, steep_v
     assert "pairwise relative" in t["reason"]
 
 
+def test_progress_names_each_long_stage(steep_vein, capsys):
+    lines = []
+    anisotropy.discover(steep_vein.samples, fan_spacing=15, structures=1, progress=lines.append)
+    stages = [ln for ln in lines if ln.startswith("discover: ")]
+    # the four stages in the order the chain runs them, each with its elapsed time
+    for want, got in zip(("pairs: unit lag", "ranges along the direction fan",
+                          "fitting the orientation", "nested structures"), stages):
+        assert got.startswith("discover: " + want) and got.endswith(" s]")
+    assert len(stages) == 4
+    capsys.readouterr()
+    anisotropy.discover(steep_vein.samples, fan_spacing=15, structures=1, progress=False)
+    assert "discover: " not in capsys.readouterr().err
+
+
 def test_too_few_pairs_for_3d(rng):
     # 40 samples spread over a large box: few pairs, few lag-direction bins
     c = rng.uniform(0, 5000, (40, 3))
