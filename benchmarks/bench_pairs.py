@@ -7,7 +7,10 @@ bench height, values lognormal), about 90,000 samples. Workloads:
   variogram read from it;
 * ``fan``: the same pass and a 400-direction fan (22.5 degree tolerance);
 * ``omni_fine``: as ``omni`` without block sums and map (``blocks=False,
-  map_cell=False``), to show what the two extra accumulators cost.
+  map_cell=False``), to show what the two extra accumulators cost;
+* ``omni_lite``: as ``omni`` with block sums and map keeping only what the
+  semivariogram reads (``block_channels=map_channels="semivariogram"``:
+  count, dist, sq, dx, dy, dz), as discover can ask for its estimator.
 
 The engine runs ``build_volume`` with its defaults (fine ~2 degree lattice,
 coarse ~10 degree lattice, blocks, map). The reference is the plain way:
@@ -25,6 +28,7 @@ Usage::
 
     python benchmarks/bench_pairs.py            # everything, JSON to benchmarks/bench_pairs.json
     python benchmarks/bench_pairs.py --quick    # smaller layout, for a smoke test
+    python benchmarks/bench_pairs.py --main     # workloads only (no cell sweep, no scaling)
 """
 
 from __future__ import annotations
@@ -77,13 +81,15 @@ def run_engine(n, workload, divisions=None):
     kw = {} if divisions is None else {"cell_divisions": int(divisions)}
     if workload == "omni_fine":  # fine bins only: no block sums, no map
         kw.update(blocks=False, map_cell=False)
+    if workload == "omni_lite":  # block sums and map with the semivariogram's channels only
+        kw.update(block_channels="semivariogram", map_channels="semivariogram")
     # compile (cached on disk after the first run) on a tiny problem first
     build_volume(c[:500], v[:500], lag=LAG, n_lags=N_LAGS, progress=False, **kw)
     base_mb = _peak_mb()
     t0, p0 = time.perf_counter(), time.process_time()
     vol = build_volume(c, v, lag=LAG, n_lags=N_LAGS, progress=False, **kw)
     t1 = time.perf_counter()
-    if workload in ("omni", "omni_fine"):
+    if workload in ("omni", "omni_fine", "omni_lite"):
         out = estimate(vol.aggregate(None, 90.0), "semivariogram")
     else:
         out = variogram_fan(vol, fibonacci_hemisphere(N_DIRS), angular_tolerance=TOL_DEG).value
@@ -181,6 +187,7 @@ def main(argv=None):
     ap.add_argument("n", nargs="?", type=int, default=None)
     ap.add_argument("extra", nargs="?", default=None)
     ap.add_argument("--quick", action="store_true")
+    ap.add_argument("--main", action="store_true", help="workloads only: no cell sweep, no scaling")
     ap.add_argument("--out", default=os.path.join(os.path.dirname(__file__), "bench_pairs.json"))
     args = ap.parse_args(argv)
     if args.child:
@@ -192,9 +199,9 @@ def main(argv=None):
     res = {"machine": machine(), "layout": "6 benches, 4 m pattern, 4 m bench, lognormal",
            "lag": LAG, "n_lags": N_LAGS, "max_distance": (N_LAGS + 0.5) * LAG}
     print(json.dumps(res["machine"]), flush=True)
-    for wl, subset in (("omni", 3000), ("fan", 200), ("omni_fine", 3000)):
+    for wl, subset in (("omni", 3000), ("fan", 200), ("omni_fine", 3000), ("omni_lite", 3000)):
         e = _spawn("engine", wl, n_main, "None")
-        r = _spawn("reference", "omni" if wl == "omni_fine" else wl, n_main, subset)
+        r = _spawn("reference", "fan" if wl == "fan" else "omni", n_main, subset)
         res[wl] = {"engine": e, "reference": r, "speedup": e["pairs_per_s"] / r["pairs_per_s"]}
         print(f"{wl}: engine {e['pairs']:,} pairs {e['wall_s']:.2f} s "
               f"({e['pairs_per_s'] / 1e6:.1f} M pairs/s, cpu {e['cpu_s']:.2f} s, "
@@ -202,13 +209,19 @@ def main(argv=None):
               f"on {r['tails']} tail samples (extrapolated); ratio {res[wl]['speedup']:.0f}x",
               flush=True)
     res["cells"] = []
+    res["scaling"] = []
+    if args.main:
+        res["machine_end"] = machine()
+        with open(args.out, "w") as fh:
+            json.dump(res, fh, indent=1)
+        print(f"written {args.out}")
+        return
     for div in (2, 4, 6, 8):
         e = _spawn("engine", "omni", n_main, div)
         res["cells"].append({"divisions": div, **e})
         print(f"cell R/{div} = {e['cell']:.1f} m: candidates/pairs "
               f"{e['candidates'] / e['pairs']:.2f}, {e['wall_s']:.2f} s, cpu {e['cpu_s']:.2f} s",
               flush=True)
-    res["scaling"] = []
     for n in ((5_000, 10_000, 20_000) if args.quick else (20_000, 40_000, 80_000, 160_000)):
         e = _spawn("engine", "omni", n, "None")
         res["scaling"].append(e)

@@ -289,3 +289,57 @@ def test_aggregate_matches_cell_rule(data, volume):
     np.testing.assert_allclose(volume.aggregate((40.0, 30.0), 25.0), want, rtol=1e-10, atol=1e-9)
     d_to = volume.to_dict()
     assert d_to["n_pairs"] == volume.n_pairs and isinstance(d_to["memory_bytes"], int)
+
+
+@pytest.mark.parametrize("estimator", ["semivariogram", "correlogram", "pairwise_relative",
+                                       "madogram", "robust"])
+def test_block_and_map_channel_subsets(data, volume, estimator):
+    # kept channels equal the all-channel run exactly (same additions in the same order);
+    # dropped ones are NaN; the fine sums never change. Reference: the full run, which the
+    # tests above check against brute force over pdist pairs.
+    c, v = data
+    vol = build_volume(c, v, lag=5.0, n_lags=6, blocks=20.0, map_cell=4.0, progress=False,
+                       block_channels=estimator, map_channels=estimator)
+    kept = [CHANNELS.index(ch) for ch in vol.block_channels]
+    dropped = [i for i in range(len(CHANNELS)) if i not in kept]
+    for ch in ("count", "dist", "dx", "dy", "dz") + pairs_mod.ESTIMATOR_CHANNELS[estimator]:
+        assert ch in vol.block_channels and ch in vol.map_channels
+    assert len(dropped) > 0
+    np.testing.assert_array_equal(vol.sums, volume.sums)
+    np.testing.assert_array_equal(vol.block_sums[..., kept], volume.block_sums[..., kept])
+    np.testing.assert_array_equal(vol.map_sums[..., kept], volume.map_sums[..., kept])
+    assert np.isnan(vol.block_sums[..., dropped]).all() and np.isnan(vol.map_sums[..., dropped]).all()
+    # unweighted coarse sums: kept channels from the blocks, the rest from the fine sums
+    np.testing.assert_array_equal(vol.coarse_sums()[..., kept], volume.coarse_sums()[..., kept])
+    agg = np.zeros_like(volume.coarse_sums())
+    np.add.at(agg, (slice(None), vol.fine_to_coarse), vol.sums)
+    np.testing.assert_array_equal(vol.coarse_sums()[..., dropped], agg[..., dropped])
+    # the estimator reads only kept channels: same value from a re-weighted replicate
+    from anisotropy.estimators import estimate
+    w = np.random.default_rng(3).integers(0, 3, vol.n_blocks).astype(float)
+    with np.errstate(all="ignore"), _nowarn():
+        a = estimate(vol.coarse_sums(w), estimator)
+        b = estimate(volume.coarse_sums(w), estimator)
+    np.testing.assert_array_equal(a, b)
+
+
+class _nowarn:
+    def __enter__(self):
+        import warnings
+        self._w = warnings.catch_warnings()
+        self._w.__enter__()
+        warnings.simplefilter("ignore")
+
+    def __exit__(self, *exc):
+        return self._w.__exit__(*exc)
+
+
+def test_channel_subset_validation(data):
+    c, v = data
+    assert pairs_mod.resolve_channels(None) == CHANNELS
+    assert pairs_mod.resolve_channels("all") == CHANNELS
+    # a single channel brings its whole group (head/tail channels go together)
+    assert pairs_mod.resolve_channels(["cross"]) == ("count", "dist", "head", "tail", "head2",
+                                                     "tail2", "cross", "dx", "dy", "dz")
+    with pytest.raises(InputError):
+        build_volume(c, v, lag=5.0, n_lags=6, progress=False, block_channels="variance")

@@ -22,6 +22,12 @@ the channel additions. No trigonometry, no allocation.
 
 Channels (``CHANNELS`` in ``__init__``), in order: count, dist, sq, abs,
 sqrt, head, tail, head2, tail2, cross, rel, rel_n, dx, dy, dz.
+
+Accumulator layout: (n_chunks, n_bins, width) rows, allocated on 64-byte
+boundaries; fine rows hold the 15 channels in order padded to ``NPAD = 16``
+(128 bytes, two cache lines); block and map rows hold the kept channels
+(``bcols``/``mcols``) in rows of 8 or 16. The canonical flip is branch-free
+(it is a coin toss per pair, so a branch mispredicts half the time).
 """
 
 from __future__ import annotations
@@ -32,6 +38,8 @@ import numpy as np
 from numba import njit, prange
 
 NCH = 15
+#: Row width of the volume accumulators (channels padded to 16 = 128 bytes).
+NPAD = 16
 _SQRT2 = math.sqrt(2.0)
 
 
@@ -67,8 +75,15 @@ def _pair_values(vals, d, h, t, dx, dy, dz):
 def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                 maxd2, lag, n_lags, table, inv_pix, f2c, n_coarse,
                 do_blocks, borig, binv, bshape, do_map, minv, mhalf,
-                acc_fine, acc_blk, acc_map, stats, occ_index, cell_lo, cell_hi):
+                acc_fine, acc_blk, acc_map, stats, occ_index, cell_lo, cell_hi,
+                bcols, mcols):
     """Accumulate the pairs of stencil offsets ``g0 <= g < g1`` over all occupied cells.
+
+    Accumulators are (n_chunks, n_bins, NPAD) with the channels of a bin
+    contiguous in one 128-byte row (``NPAD = 16``, the last column unused):
+    a bin row starts on a cache line and a pair's additions into it touch two
+    lines; the row index is checked once per bin, not once per channel, so the
+    compiler can add the channels as vectors.
 
     ``offsets[0]`` must be (0, 0, 0): the pairs inside a cell (j > i). The loop
     runs offset by offset (outer) over all cells (inner): for one offset the
@@ -83,6 +98,12 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
     every pair's), the block is computed once for the cell pair.
     ``occ_index[cell]`` is the position of a cell in ``occupied`` and
     ``cell_lo``/``cell_hi`` (n_occupied, 3) the bounding boxes of its samples.
+
+    ``bcols`` / ``mcols`` (15,): column of each channel in a block / map
+    accumulator row, -1 for a channel not kept (count, dist, dx, dy, dz are
+    always kept; sq, abs, sqrt, the five head/tail channels and the two
+    relative channels are kept or dropped as groups). Fine rows always hold
+    all channels in order.
     """
     tsize = table.shape[0]
     n_fine = f2c.shape[0]
@@ -91,6 +112,36 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
     ny = dims[1]
     nz = dims[2]
     n_occ = occupied.shape[0]
+    kb0 = bcols[0]
+    kb1 = bcols[1]
+    kb2 = bcols[2]
+    kb3 = bcols[3]
+    kb4 = bcols[4]
+    kb5 = bcols[5]
+    kb6 = bcols[6]
+    kb7 = bcols[7]
+    kb8 = bcols[8]
+    kb9 = bcols[9]
+    kb10 = bcols[10]
+    kb11 = bcols[11]
+    kb12 = bcols[12]
+    kb13 = bcols[13]
+    kb14 = bcols[14]
+    km0 = mcols[0]
+    km1 = mcols[1]
+    km2 = mcols[2]
+    km3 = mcols[3]
+    km4 = mcols[4]
+    km5 = mcols[5]
+    km6 = mcols[6]
+    km7 = mcols[7]
+    km8 = mcols[8]
+    km9 = mcols[9]
+    km10 = mcols[10]
+    km11 = mcols[11]
+    km12 = mcols[12]
+    km13 = mcols[13]
+    km14 = mcols[14]
     for c in prange(n_chunks):
         af = acc_fine[c]
         ab = acc_blk[c]
@@ -176,15 +227,15 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                         if k < 0:
                             k = 0
                         # canonical orientation (geometry.to_lower_hemisphere): head = tail + v
-                        if dz > 0.0 or (dz == 0.0 and (dx < 0.0 or (dx == 0.0 and dy < 0.0))):
-                            dx = -dx
-                            dy = -dy
-                            dz = -dz
-                            h = vi
-                            t = v[j]
-                        else:
-                            h = v[j]
-                            t = vi
+                        # branch-free (the flip is a coin toss per pair); sign changes are exact
+                        vj = v[j]
+                        fl = (dz > 0.0) | ((dz == 0.0) & ((dx < 0.0) | ((dx == 0.0) & (dy < 0.0))))
+                        sg = -1.0 if fl else 1.0
+                        dx = dx * sg
+                        dy = dy * sg
+                        dz = dz * sg
+                        h = vi if fl else vj
+                        t = vj if fl else vi
                         if d2 > 0.0:
                             s = math.sqrt(2.0 / (d * (d - dz)))
                             ix = int(math.floor((dx * s + _SQRT2) * inv_pix))
@@ -209,22 +260,22 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                         else:
                             rel = 0.0
                             reln = 0.0
-                        base = (k * n_fine + f) * NCH
-                        af[base + 0] += 1.0
-                        af[base + 1] += d
-                        af[base + 2] += sq
-                        af[base + 3] += ad
-                        af[base + 4] += sr
-                        af[base + 5] += h
-                        af[base + 6] += t
-                        af[base + 7] += hh
-                        af[base + 8] += tt
-                        af[base + 9] += ht
-                        af[base + 10] += rel
-                        af[base + 11] += reln
-                        af[base + 12] += dx
-                        af[base + 13] += dy
-                        af[base + 14] += dz
+                        fb = k * n_fine + f
+                        af[fb, 0] += 1.0
+                        af[fb, 1] += d
+                        af[fb, 2] += sq
+                        af[fb, 3] += ad
+                        af[fb, 4] += sr
+                        af[fb, 5] += h
+                        af[fb, 6] += t
+                        af[fb, 7] += hh
+                        af[fb, 8] += tt
+                        af[fb, 9] += ht
+                        af[fb, 10] += rel
+                        af[fb, 11] += reln
+                        af[fb, 12] += dx
+                        af[fb, 13] += dy
+                        af[fb, 14] += dz
                         if do_blocks:
                             if bconst >= 0:
                                 bb = bconst
@@ -237,25 +288,30 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                                 bz = min(max(bz, 0), bshape[2] - 1)
                                 bb = (bx * bshape[1] + by) * bshape[2] + bz
                             # consecutive pairs mostly share a block bin: sum in registers, store on change
-                            base = ((bb * (n_lags + 1) + k) * n_coarse + f2c[f]) * NCH
-                            if base != bcur:
+                            rb = (bb * (n_lags + 1) + k) * n_coarse + f2c[f]
+                            if rb != bcur:
                                 if bcur >= 0:
-                                    ab[bcur + 0] += bq0
-                                    ab[bcur + 1] += bq1
-                                    ab[bcur + 2] += bq2
-                                    ab[bcur + 3] += bq3
-                                    ab[bcur + 4] += bq4
-                                    ab[bcur + 5] += bq5
-                                    ab[bcur + 6] += bq6
-                                    ab[bcur + 7] += bq7
-                                    ab[bcur + 8] += bq8
-                                    ab[bcur + 9] += bq9
-                                    ab[bcur + 10] += bq10
-                                    ab[bcur + 11] += bq11
-                                    ab[bcur + 12] += bq12
-                                    ab[bcur + 13] += bq13
-                                    ab[bcur + 14] += bq14
-                                bcur = base
+                                    ab[bcur, kb0] += bq0
+                                    ab[bcur, kb1] += bq1
+                                    ab[bcur, kb12] += bq12
+                                    ab[bcur, kb13] += bq13
+                                    ab[bcur, kb14] += bq14
+                                    if kb2 >= 0:
+                                        ab[bcur, kb2] += bq2
+                                    if kb3 >= 0:
+                                        ab[bcur, kb3] += bq3
+                                    if kb4 >= 0:
+                                        ab[bcur, kb4] += bq4
+                                    if kb5 >= 0:
+                                        ab[bcur, kb5] += bq5
+                                        ab[bcur, kb6] += bq6
+                                        ab[bcur, kb7] += bq7
+                                        ab[bcur, kb8] += bq8
+                                        ab[bcur, kb9] += bq9
+                                    if kb10 >= 0:
+                                        ab[bcur, kb10] += bq10
+                                        ab[bcur, kb11] += bq11
+                                bcur = rb
                                 bq0 = 1.0
                                 bq1 = d
                                 bq2 = sq
@@ -294,38 +350,48 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                             mx = min(max(mx, 0), mny - 1)
                             my = min(max(my, 0), mny - 1)
                             mz = min(max(mz, 0), mnz - 1)
-                            base = ((mx * mny + my) * mnz + mz) * NCH
-                            am[base + 0] += 1.0
-                            am[base + 1] += d
-                            am[base + 2] += sq
-                            am[base + 3] += ad
-                            am[base + 4] += sr
-                            am[base + 5] += h
-                            am[base + 6] += t
-                            am[base + 7] += hh
-                            am[base + 8] += tt
-                            am[base + 9] += ht
-                            am[base + 10] += rel
-                            am[base + 11] += reln
-                            am[base + 12] += dx
-                            am[base + 13] += dy
-                            am[base + 14] += dz
+                            mb = (mx * mny + my) * mnz + mz
+                            am[mb, km0] += 1.0
+                            am[mb, km1] += d
+                            am[mb, km12] += dx
+                            am[mb, km13] += dy
+                            am[mb, km14] += dz
+                            if km2 >= 0:
+                                am[mb, km2] += sq
+                            if km3 >= 0:
+                                am[mb, km3] += ad
+                            if km4 >= 0:
+                                am[mb, km4] += sr
+                            if km5 >= 0:
+                                am[mb, km5] += h
+                                am[mb, km6] += t
+                                am[mb, km7] += hh
+                                am[mb, km8] += tt
+                                am[mb, km9] += ht
+                            if km10 >= 0:
+                                am[mb, km10] += rel
+                                am[mb, km11] += reln
         if bcur >= 0:
-            ab[bcur + 0] += bq0
-            ab[bcur + 1] += bq1
-            ab[bcur + 2] += bq2
-            ab[bcur + 3] += bq3
-            ab[bcur + 4] += bq4
-            ab[bcur + 5] += bq5
-            ab[bcur + 6] += bq6
-            ab[bcur + 7] += bq7
-            ab[bcur + 8] += bq8
-            ab[bcur + 9] += bq9
-            ab[bcur + 10] += bq10
-            ab[bcur + 11] += bq11
-            ab[bcur + 12] += bq12
-            ab[bcur + 13] += bq13
-            ab[bcur + 14] += bq14
+            ab[bcur, kb0] += bq0
+            ab[bcur, kb1] += bq1
+            ab[bcur, kb12] += bq12
+            ab[bcur, kb13] += bq13
+            ab[bcur, kb14] += bq14
+            if kb2 >= 0:
+                ab[bcur, kb2] += bq2
+            if kb3 >= 0:
+                ab[bcur, kb3] += bq3
+            if kb4 >= 0:
+                ab[bcur, kb4] += bq4
+            if kb5 >= 0:
+                ab[bcur, kb5] += bq5
+                ab[bcur, kb6] += bq6
+                ab[bcur, kb7] += bq7
+                ab[bcur, kb8] += bq8
+                ab[bcur, kb9] += bq9
+            if kb10 >= 0:
+                ab[bcur, kb10] += bq10
+                ab[bcur, kb11] += bq11
         stats[c, 0] += cand
         stats[c, 1] += kept
 
