@@ -651,6 +651,10 @@ def _rows_phrase(rows) -> str:
     return f"data {'row' if len(rows) == 1 else 'rows'} {_rows_text(rows)}"
 
 
+#: A number written with digit grouping: 412.903,82 / 412,903.82 / 7 318 344,05.
+_GROUPED_NUMBER = re.compile(r"^-?\d{1,3}([., \u00a0']\d{3})+([.,]\d+)?$")
+
+
 def _numeric(series: pd.Series, *, column: str, role: str, option: str, source: str,
              data_rows: np.ndarray, decimal: str = "."):
     """Parse one column to float64.
@@ -696,6 +700,10 @@ def _numeric(series: pd.Series, *, column: str, role: str, option: str, source: 
         lt = (" Results written as text such as '<0.01' must be entered as negative numbers "
               "(-0.01) to be read as below-detection codes."
               if any(t.lstrip().startswith("<") for t in texts) else "")
+        if any(_GROUPED_NUMBER.match(t.strip()) for t in texts):
+            lt += (" Some cells look like numbers with a thousands separator (e.g. "
+                   f"{next(t for t in texts if _GROUPED_NUMBER.match(t.strip()))!r}); save the "
+                   "table without thousands separators (only a decimal mark).")
         raise DataError(
             f"In '{source}': column {column!r} ({role}) has {k} "
             f"{_plural(k, 'cell that is not a number', 'cells that are not numbers')}, in data "

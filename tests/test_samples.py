@@ -322,6 +322,21 @@ def test_text_in_coordinate_column(tmp_path):
         read_samples(p, value="au")
 
 
+def test_thousands_separators_get_a_hint(tmp_path):
+    # semicolon table with decimal commas and '.' digit grouping, as some spreadsheets
+    # export it: the coordinates cannot be read, and the message says why
+    p = write(tmp_path, "x;y;z;au\n412.903,82;7.318.344,05;299,73;2,01\n"
+                        "412.905,10;7.318.346,00;297,70;1,50\n")
+    with pytest.raises(DataError) as info:
+        read_samples(p, value="au")
+    msg = str(info.value)
+    assert "'412.903,82'" in msg and "thousands separator" in msg
+    # a plain text cell gets no such hint
+    with pytest.raises(DataError) as info:
+        read_samples(write(tmp_path, "x,y,z,au\n0,0,0,1\n1,zz,0,1\n"), value="au")
+    assert "thousands separator" not in str(info.value)
+
+
 def test_all_values_missing_is_insufficient(tmp_path):
     p = write(tmp_path, "x,y,z,au\n0,0,0,-99\n1,0,0,\n")
     with pytest.raises(InsufficientDataError, match="no samples"):
