@@ -865,6 +865,12 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
         units = "correlogram units (1 - rho)"
     elif estimator in ("pairwise_relative",):
         units = "pairwise relative units"
+    elif estimator == "madogram":
+        # half the mean absolute difference: the variable's own units, not squared
+        units = {"normal_score": "normal-score units (madogram, not squared)",
+                 "raw": "grade units (madogram, not squared)",
+                 "log": "log-grade units (madogram, not squared)",
+                 "indicator": "indicator units (madogram)"}.get(tr.kind, tr.kind)
 
     # lags
     lag_info = _choose_lags(samples, spacing, lag, n_lags, choices, pair_budget)
@@ -1130,7 +1136,7 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
         warnings.append(f"{dr.n_thin} of {len(fan_dirs)} fan directions have too few pairs "
                         f"for a range even at {WIDE_ANGULAR_TOLERANCE:g} degrees; they are "
                         "marked thin and not used")
-    if tr.kind == "normal_score":
+    if tr.kind == "normal_score" and estimator in ("semivariogram", "robust"):
         warnings.append("sills are in normal-score units (total 1); back-transformed grade "
                         "variograms differ in shape near the sill")
 

@@ -225,7 +225,7 @@ def test_missing_domain_value_lists_the_existing_ones(rng):
 
 def test_pairwise_relative_refuses_transformed_values_and_picks_raw(rng, steep_vein):
     # the pairwise relative estimator divides by the squared pair mean ((z_h + z_t)/2)^2
-    # (Isaaks & Srivastava 1989, ch. 7): normal scores and indicators have pair means
+    # (Isaaks & Srivastava 1989, ch. 7, recalled from memory): normal scores and indicators have pair means
     # near zero, so the estimate is meaningless on them
     c = rng.uniform(0, 100, (200, 3))
     df = table(c, np.exp(rng.normal(size=200)))
@@ -388,3 +388,14 @@ def test_correlogram_sums_to_one(steep_vein):
     D2 = anisotropy.discover(D.samples, estimator="correlogram", structures=1)
     assert D2.model.total_sill == pytest.approx(1.0)        # 1 - rho rises to 1
     assert axis_err(D2.frame[:, 2], D.frame[:, 2]) < 10.0
+
+
+def test_madogram_units_are_not_squared(steep_vein):
+    # the madogram is half the mean absolute difference (estimators.py contract; Cressie
+    # 1993, sec. 2.4, recalled from memory): the
+    # variable's own units, and its sill is not the variance, so no "total 1" warning
+    D = anisotropy.discover(steep_vein.samples, estimator="madogram", structures=1,
+                            transform="normal_score", fan_spacing=15)
+    units = D.to_dict()["model"]["units"]
+    assert "not squared" in units and "variance 1" not in units
+    assert not any("total 1" in w for w in D.warnings)
