@@ -37,6 +37,7 @@ from __future__ import annotations
 import hashlib
 import json
 import os
+import sys
 import time
 import traceback
 from dataclasses import dataclass, field
@@ -140,7 +141,13 @@ def _interpretation(spec: Mapping, domain: str):
         if "plane" in spec:
             dd, dip = parse_orientation(str(spec["plane"]))
             pitch = spec.get("pitch")
-            return Interpretation.from_plane(dd, dip, None if pitch is None else float(pitch))
+            if pitch is not None:
+                try:
+                    pitch = float(pitch)
+                except (TypeError, ValueError):
+                    raise InputError(f"{where}: pitch must be a number of degrees (0-180); "
+                                     f"got {pitch!r}") from None
+            return Interpretation.from_plane(dd, dip, pitch)
         if "major" in spec:
             major = parse_orientation(str(spec["major"]))
             minor = spec.get("minor")
@@ -467,6 +474,9 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
     columns = {k: v for k, v in {"x": x, "y": y, "z": z, "hole": hole}.items() if v is not None}
 
     _check_option_names(discover_options, cfg)
+    if unknown_cfg and progress:
+        print(f"note: {_notes(unknown_cfg)[0]} (domains in the table: "
+              f"{', '.join(all_domains[:30])})", file=sys.stderr, flush=True)
     tasks, rows, resumed = [], {}, []
     for name in selected:
         over = dict(cfg["domain"].get(name, {}))

@@ -330,3 +330,24 @@ def test_interrupted_batch_leaves_no_partial_files_and_resumes(table, tmp_path, 
                     resume=True)
     assert res.ran == ["flat"] and res.resumed == ["tiny"]
     assert res.statuses == {"tiny": "skipped", "flat": "skipped"}
+
+
+def test_non_numeric_pitch_in_the_config_fails_that_domain_with_the_reason(table, tmp_path):
+    cfg = {"options": {"bootstrap": 0},
+           "domain": {"tiny": {"min_samples": 2,
+                               "interpretation": {"plane": "150/70", "pitch": "steep"}}}}
+    res = run_batch(table, value="au", domain="zone", out=tmp_path / "p", domains=["tiny"],
+                    config=cfg)
+    row = res.rows[0]
+    # a config error, said as such (not an internal error with a traceback file)
+    assert row["status"] == "failed" and "pitch must be a number" in row["reason"]
+    assert '[domain."tiny".interpretation]' in row["reason"]
+    assert not (tmp_path / "p" / row["folder"] / "error.txt").exists()
+
+
+def test_config_domain_not_in_the_table_is_said_on_the_terminal(table, tmp_path, capsys):
+    cfg = {"options": {"bootstrap": 0}, "domain": {"tinny": {"skip": True}}}
+    run_batch(table, value="au", domain="zone", out=tmp_path / "o", domains=["tiny"],
+              config=cfg, progress=True)
+    err = capsys.readouterr().err
+    assert "tinny" in err and "not in the table" in err and "tiny" in err
