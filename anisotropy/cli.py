@@ -60,6 +60,24 @@ def _add_output_option(p: argparse.ArgumentParser, default: str) -> None:
                    help=f"folder for the results (default: {default})")
 
 
+def _check_scheduler(address, *, timeout=15):
+    """Refuse an unreachable ``--scheduler`` address before any long work."""
+    if not address:
+        return
+    try:
+        from distributed import Client
+    except ImportError:
+        raise InputError("--scheduler needs the dask.distributed package; install it or run "
+                         "without --scheduler.") from None
+    try:
+        client = Client(address, timeout=timeout)
+    except (OSError, TimeoutError, ValueError) as exc:
+        raise InputError(f"Cannot reach the Dask scheduler at '{address}' ({exc}). Check the "
+                         "address (e.g. tcp://10.0.0.5:8786) and that the scheduler is running, "
+                         "or run without --scheduler.") from None
+    client.close()
+
+
 def _output_folder(out):
     """Make the ``--out`` folder before any long work; refuse a file or an unwritable place."""
     import os
@@ -281,6 +299,8 @@ def _cmd_discover(args) -> int:
         raise InputError(f"--confidence must lie between 0 and 1; got {args.confidence}")
     samples = _read_samples_from_args(args)
     out = _output_folder(args.out)   # refuse a bad --out before the long run
+    if args.bootstrap:
+        _check_scheduler(args.scheduler)
     structures = "auto" if args.structures == "auto" else int(args.structures)
     result = discover(samples, transform=args.transform, estimator=args.estimator,
                       structures=structures, kinds=args.kind, lag=args.lag, n_lags=args.n_lags,
@@ -500,6 +520,7 @@ def _cmd_batch(args) -> int:
     if args.domains:
         domains = [d.strip() for d in args.domains.split(",") if d.strip()]
     _output_folder(args.out)   # refuse a bad --out before any domain runs
+    _check_scheduler(args.scheduler)
     print(f"batch: {args.file}, value {args.value}, domains from {args.domain} -> {args.out}",
           flush=True)
     res = run_batch(

@@ -261,3 +261,26 @@ def test_out_that_is_a_file_exits_2_without_a_traceback(command, good_csv, tmp_p
     assert code == EXIT_BAD_INPUT
     assert "Traceback" not in err and str(blocker) in err and "--out" in err
     assert blocker.read_text() == "not a folder"
+
+
+def test_unreachable_scheduler_exits_2_before_the_run(good_csv, tmp_path, capsys):
+    import socket
+
+    # a port nothing listens on: bind one, note it, close it
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        port = s.getsockname()[1]
+    p, _ = good_csv
+    addr = f"tcp://127.0.0.1:{port}"
+    from anisotropy import cli
+
+    cli_timeout = cli._check_scheduler.__kwdefaults__["timeout"]
+    cli._check_scheduler.__kwdefaults__["timeout"] = 2
+    try:
+        code, out, err = run(["discover", p, "--value", "Au_gpt", "--bootstrap", "5",
+                              "--scheduler", addr, "--out", tmp_path / "o"], capsys)
+    finally:
+        cli._check_scheduler.__kwdefaults__["timeout"] = cli_timeout
+    assert code == EXIT_BAD_INPUT
+    assert "Cannot reach the Dask scheduler" in err and addr in err and "Traceback" not in err
+    assert not (tmp_path / "o" / "discovery.json").exists()
