@@ -368,7 +368,8 @@ class BatchResult:
         for r in self.rows:
             counts[r["status"]] = counts.get(r["status"], 0) + 1
         text = ", ".join(f"{v} {k}" for k, v in sorted(counts.items()))
-        lines = [f"{len(self.rows)} domains: {text} ({len(self.ran)} run, "
+        n = len(self.rows)
+        lines = [f"{n} {'domain' if n == 1 else 'domains'}: {text} ({len(self.ran)} run, "
                  f"{len(self.resumed)} already done) in {self.seconds:.1f} s"]
         for r in self.rows:
             if r["status"] != "ok":

@@ -351,3 +351,14 @@ def test_config_domain_not_in_the_table_is_said_on_the_terminal(table, tmp_path,
               config=cfg, progress=True)
     err = capsys.readouterr().err
     assert "tinny" in err and "not in the table" in err and "tiny" in err
+
+
+def test_summary_says_one_domain_in_the_singular(tmp_path):
+    from anisotropy.batch import BatchResult
+
+    row = {"domain": "shoot", "status": "ok", "reason": ""}
+    one = BatchResult(rows=[row], out=tmp_path, index=tmp_path / "index.html", ran=["shoot"])
+    assert one.summary().startswith("1 domain: 1 ok (1 run, 0 already done)")
+    two = BatchResult(rows=[row, dict(row, domain="vein")], out=tmp_path,
+                      index=tmp_path / "index.html", ran=["shoot", "vein"])
+    assert two.summary().startswith("2 domains: 2 ok")
