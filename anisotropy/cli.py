@@ -73,7 +73,7 @@ def _check_scheduler(address, *, timeout=15):
         client = Client(address, timeout=timeout)
     except (OSError, TimeoutError, ValueError) as exc:
         raise InputError(f"Cannot reach the Dask scheduler at '{address}' ({exc}). Check the "
-                         "address (e.g. tcp://10.0.0.5:8786) and that the scheduler is running, "
+                         "address (e.g. tcp://scheduler-host:8786) and that the scheduler is running, "
                          "or run without --scheduler.") from None
     client.close()
 
@@ -277,9 +277,10 @@ def _add_discover(p: argparse.ArgumentParser) -> None:
     g.add_argument("--bandwidth", type=float, metavar="M", help="fan bandwidth in metres")
     g.add_argument("--seed", type=int, default=0, help="seed of every random step (default 0)")
     g = p.add_argument_group("uncertainty")
-    g.add_argument("--bootstrap", type=int, default=0, metavar="N",
-                   help="block-bootstrap replicates for confidence cones (default 0 = none; "
-                        "200 is common practice)")
+    g.add_argument("--bootstrap", type=int, default=DEFAULT_BOOTSTRAP, metavar="N",
+                   help=f"block-bootstrap replicates for the confidence cones and intervals "
+                        f"(default {DEFAULT_BOOTSTRAP}: enough for stable 90 %% bands, common "
+                        "practice; 0 = off, for a quick look)")
     g.add_argument("--confidence", type=float, default=0.9, metavar="P",
                    help="confidence of the cones and intervals (default 0.9)")
     g.add_argument("--jobs", type=int, default=1, metavar="N",
@@ -334,7 +335,7 @@ def _add_bootstrap_options(p: argparse.ArgumentParser, *, default: int = DEFAULT
                    help="processes for the bootstrap (default 1; -1 = every core)")
     g.add_argument("--scheduler", metavar="ADDRESS",
                    help="run the bootstrap replicates on the Dask cluster at this address "
-                        "(e.g. tcp://10.0.0.5:8786)")
+                        "(e.g. tcp://scheduler-host:8786)")
 
 
 def _add_check(p: argparse.ArgumentParser) -> None:
@@ -400,22 +401,22 @@ def _cmd_check(args) -> int:
     if not 0 < args.confidence < 1:
         raise InputError(f"--confidence must lie between 0 and 1; got {args.confidence}")
     samples = _read_samples_from_args(args)
-    structures = "auto" if args.structures == "auto" else int(args.structures)
+    out = _output_folder(args.out)   # refuse a bad --out before the long run
     scheduler = getattr(args, "scheduler", None)
+    _check_scheduler(scheduler)
+    structures = "auto" if args.structures == "auto" else int(args.structures)
     result = discover(samples, transform=args.transform, estimator=args.estimator,
                       structures=structures, kinds=args.kind, lag=args.lag, n_lags=args.n_lags,
                       angular_tolerance=args.angular_tolerance, bandwidth=args.bandwidth,
                       bootstrap=args.bootstrap, confidence=args.confidence, seed=args.seed,
                       n_jobs=args.jobs, scheduler=scheduler, threshold=args.threshold,
-                      progress=True)
+                      shared_ratios=args.shared_ratios, progress=True)
     checked = check_interpretation(result, interpretation,
                                    thresholds={"confidence": args.confidence},
                                    n_jobs=args.jobs, scheduler=scheduler, progress=True)
     print(result.summary())
     print()
     print(checked.summary())
-    out = Path(args.out)
-    out.mkdir(parents=True, exist_ok=True)
     p1 = result.to_json(out / "discovery.json")
     p2 = atomic_write_json(out / "check.json", checked.to_dict())
     print(f"\nwritten: {p1}\nwritten: {p2}")

@@ -86,6 +86,9 @@ def test_non_perpendicular_pair_refused_with_its_angle():
     (lambda: Interpretation.from_axes("060/20", "080/70"), "perpendicular"),
     (lambda: Interpretation.from_axes("060/120"), "between 0 and 90"),
     (lambda: Interpretation.from_axes("060/20", "060/20"), "perpendicular"),
+    (lambda: Interpretation.from_plane(400, 70), "000 to 360"),
+    (lambda: Interpretation.from_plane(-10, 70), "000 to 360"),
+    (lambda: Interpretation.from_axes("400/10"), "000 to 360"),
 ])
 def test_impossible_interpretations_refused(call, fragment):
     with pytest.raises(InterpretationError, match=fragment):
@@ -246,3 +249,27 @@ def test_cli_check_options():
                                    "--pitch", "35"])
     assert a.bootstrap == DEFAULT_BOOTSTRAP and a.confidence == 0.9 and a.out == "check"
     assert a.plane == "150/70" and a.pitch == 35.0 and a.scheduler is None
+
+
+def test_verdict_rule_truth_table():
+    # the rule written in the module docstring, checked case by case (exhaustive over the
+    # five inputs: 32 combinations against an independent restatement of the rule)
+    from itertools import product
+
+    from anisotropy.check import decide_verdict
+
+    for outside, worse, placed, strong, close in product([False, True], repeat=5):
+        got = decide_verdict(outside=outside, worse=worse, placed=placed, strong=strong,
+                             close=close)
+        if not outside and (close or not worse):
+            want = "consistent"
+        elif outside and (worse or (strong and not placed)):
+            want = "contradicted"
+        else:
+            want = "uncertain"
+        assert got == want, (outside, worse, placed, strong, close)
+    # the case met on the demo vein: the true frame typed as axes, every axis within
+    # 4 degrees, but a ratio share under 10 %: consistent, not uncertain
+    assert decide_verdict(outside=False, worse=True, placed=True, strong=False,
+                          close=True) == "consistent"
+

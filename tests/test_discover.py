@@ -286,13 +286,24 @@ def test_cli_writes_discovery_json(tmp_path, capsys):
     table(coords, v + 10).to_csv(f, index=False)
     out = tmp_path / "o"
     assert main(["discover", str(f), "--value", "grade", "--structures", "1",
-                 "--out", str(out)]) == 0
+                 "--bootstrap", "20", "--out", str(out)]) == 0
     text = capsys.readouterr().out
     assert "Plane of greatest continuity" in text and "Choices made" in text
     d = json.loads((out / "discovery.json").read_text())
     assert d["schema"] == "anisotropy.discovery/1"
     assert len(d["model"]["structures"]) == 1
     assert d["transform"]["kind"] == "raw"
+    assert d["uncertainty"]["replicates"] == 20 and d["uncertainty"]["confidence"] == 0.9
+
+
+def test_cli_bootstrap_is_on_by_default():
+    # issue 5: --bootstrap has a sensible default and 0 turns it off
+    from anisotropy.cli import DEFAULT_BOOTSTRAP, build_parser
+
+    parser = build_parser()
+    args = parser.parse_args(["discover", "f.csv", "--value", "g"])
+    assert args.bootstrap == DEFAULT_BOOTSTRAP > 0
+    assert parser.parse_args(["discover", "f.csv", "--value", "g", "--bootstrap", "0"]).bootstrap == 0
 
 
 # -- slow truth-recovery studies ------------------------------------------------------------
