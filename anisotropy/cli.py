@@ -288,6 +288,8 @@ def _add_discover(p: argparse.ArgumentParser) -> None:
     g.add_argument("--scheduler", metavar="ADDRESS",
                    help="run the bootstrap replicates on the Dask cluster at this address")
     _add_output_option(p, "discovery")
+    p.add_argument("--no-report", action="store_true",
+                   help="write the JSON result only, without report.html and its figures")
 
 
 def _cmd_discover(args) -> int:
@@ -311,6 +313,10 @@ def _cmd_discover(args) -> int:
                       shared_ratios=args.shared_ratios, progress=True)
     print(result.summary())
     path = result.to_json(out / "discovery.json")
+    if not args.no_report:
+        from anisotropy.report.html import render_report
+
+        print(f"written: {render_report(result, out)}")
     print(f"\nwritten: {path}")
     return EXIT_OK
 # <<< discover
@@ -420,6 +426,10 @@ def _cmd_check(args) -> int:
     p1 = result.to_json(out / "discovery.json")
     p2 = atomic_write_json(out / "check.json", checked.to_dict())
     print(f"\nwritten: {p1}\nwritten: {p2}")
+    if not args.no_report:
+        from anisotropy.report.html import render_report
+
+        print(f"written: {render_report(result, out, check=checked)}")
     return EXIT_OK
 # <<< check
 

@@ -294,6 +294,11 @@ def test_cli_writes_discovery_json(tmp_path, capsys):
     assert len(d["model"]["structures"]) == 1
     assert d["transform"]["kind"] == "raw"
     assert d["uncertainty"]["replicates"] == 20 and d["uncertainty"]["confidence"] == 0.9
+    # one self-contained report per run (issue 6), its PNGs decodable (signature bytes, PNG spec)
+    html = (out / "report.html").read_text()
+    assert "discovery" in html.lower() and "data:image/png;base64," in html
+    pngs = sorted((out / "figures").glob("*.png"))
+    assert pngs and all(p.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n" for p in pngs)
 
 
 def test_cli_bootstrap_is_on_by_default():
