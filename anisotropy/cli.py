@@ -281,6 +281,11 @@ def _add_discover(p: argparse.ArgumentParser) -> None:
                    help=f"block-bootstrap replicates for the confidence cones and intervals "
                         f"(default {DEFAULT_BOOTSTRAP}: enough for stable 90 %% bands, common "
                         "practice; 0 = off, for a quick look)")
+    g.add_argument("--bootstrap-method", choices=["block", "model"], default="block",
+                   help="block: resample spatial blocks of the data (default, calibrated by "
+                        "the coverage study in benchmarks/RESULTS.md); model: simulate fields "
+                        "with the fitted model at the data locations (slower: a pass over the "
+                        "pairs per replicate; a check on the block bands)")
     g.add_argument("--confidence", type=float, default=0.9, metavar="P",
                    help="confidence of the cones and intervals (default 0.9)")
     g.add_argument("--jobs", type=int, default=1, metavar="N",
@@ -310,7 +315,8 @@ def _cmd_discover(args) -> int:
                       angular_tolerance=args.angular_tolerance, bandwidth=args.bandwidth,
                       bootstrap=args.bootstrap, confidence=args.confidence, seed=args.seed,
                       n_jobs=args.jobs, scheduler=args.scheduler, threshold=args.threshold,
-                      shared_ratios=args.shared_ratios, progress=True)
+                      shared_ratios=args.shared_ratios, progress=True,
+                      bootstrap_method=args.bootstrap_method)
     print(result.summary())
     path = result.to_json(out / "discovery.json")
     if not args.no_report:

@@ -708,7 +708,7 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
              confidence=0.9, seed=0, n_jobs=1, scheduler=None, progress=False,
              kinds=None, sill="variance", threshold=None, fan_spacing=DEFAULT_FAN_SPACING,
              coarse_spacing=None, min_pairs=None, pair_budget=None, shared_ratios=False,
-             **intake) -> Discovery:
+             bootstrap_method="block", **intake) -> Discovery:
     """Discover the 3D continuity of one grade in one domain.
 
     Parameters
@@ -732,7 +732,17 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
     bandwidth : float, optional
         Fan bandwidth (m).
     bootstrap : int
-        Block-bootstrap replicates (0 = none; needs ``anisotropy.uncertainty``).
+        Bootstrap replicates (0 = none; needs ``anisotropy.uncertainty``).
+    bootstrap_method : {"block", "model"}
+        "block" (default): spatial blocks resampled by re-weighting the pair
+        engine's block sums (no new pass over pairs), calibrated by the
+        coverage study. "model": fields simulated at the data locations with
+        the fitted model, a new pass over pairs and a refit per replicate —
+        slower, for small to medium data and as a check on the block
+        bootstrap; uncalibrated. The simulated fields are Gaussian in the
+        analysed variable's units (normal scores, or raw/log values with the
+        fitted sills), so no further transform is applied; indicators are
+        refused.
     confidence : float
         Confidence of the bootstrap cones and intervals.
     seed : int
@@ -784,6 +794,12 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
 
     choices: list = []
     warnings: list = []
+    if bootstrap_method not in ("block", "model"):
+        raise InputError(f"bootstrap method {bootstrap_method!r} is not known; use 'block' "
+                         "(default, calibrated) or 'model' (simulation from the fitted model)")
+    if bootstrap_method == "model" and transform == "indicator" and bootstrap:
+        raise InputError("the model-based bootstrap simulates Gaussian fields, which indicators "
+                         "are not; use the block bootstrap for indicator variograms")
     samples = _intake(data, value, x, y, z, domain, domain_value, hole, intake)
     warnings.extend(getattr(samples, "warnings", []) or [])
     if samples.n < MIN_SAMPLES:
@@ -1178,10 +1194,20 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
             warnings.append("bootstrap requested but the uncertainty module is not available; "
                             "no bands computed")
         else:
-            D.uncertainty = block_bootstrap(volume, D.refit_function(), model,
-                                            n_replicates=int(bootstrap), confidence=confidence,
-                                            seed=seed, n_jobs=n_jobs, scheduler=scheduler,
-                                            progress=progress, estimator=estimator)
+            if bootstrap_method == "model":
+                from anisotropy.uncertainty import model_bootstrap
+
+                D.uncertainty = model_bootstrap(samples.coords, model, D.refit_function(),
+                                                volume=volume, n_replicates=int(bootstrap),
+                                                confidence=confidence, seed=seed,
+                                                n_jobs=n_jobs, scheduler=scheduler,
+                                                progress=progress)
+            else:
+                D.uncertainty = block_bootstrap(volume, D.refit_function(), model,
+                                                n_replicates=int(bootstrap),
+                                                confidence=confidence, seed=seed,
+                                                n_jobs=n_jobs, scheduler=scheduler,
+                                                progress=progress, estimator=estimator)
         D.diagnostics["seconds"] = time.perf_counter() - t0
     return D
 

@@ -415,3 +415,22 @@ def test_madogram_units_are_not_squared(steep_vein):
     units = D.to_dict()["model"]["units"]
     assert "not squared" in units and "variance 1" not in units
     assert not any("total 1" in w for w in D.warnings)
+
+
+def test_model_based_bootstrap_option(tmp_path):
+    # issue 5: the model-based bootstrap is reachable from discover; each replicate is a
+    # field simulated with the fitted model, so its record says method "model_bootstrap" and it is
+    # seed-stable (same seed, same bands: exact equality)
+    rng = np.random.default_rng(5)
+    coords = rng.uniform([0, 0, 0], [200, 200, 100], size=(500, 3))
+    v = simulate(coords, frame_from_trend_plunge(120, 10, 0), 0.2,
+                 [("spherical", 0.8, (120, 60, 25))], seed=6)
+    df = table(coords, v)
+    runs = [anisotropy.discover(df, value="grade", structures=1, bootstrap=12,
+                                bootstrap_method="model", seed=3) for _ in range(2)]
+    u = [r.to_dict()["uncertainty"] for r in runs]
+    assert u[0]["method"] == "model_bootstrap" and u[0]["replicates"] == 12
+    assert u[0]["major"]["cone_deg"] == u[1]["major"]["cone_deg"]
+    assert u[0]["major"]["range"] == u[1]["major"]["range"]
+    with pytest.raises(anisotropy.InputError, match="bootstrap method"):
+        anisotropy.discover(df, value="grade", bootstrap=5, bootstrap_method="jackknife")
