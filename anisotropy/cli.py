@@ -205,14 +205,7 @@ def _cmd_explore(args) -> int:
                          "name with --out.")
     samples = _read_samples_from_args(args)
     ex = explore(samples)
-    try:
-        out.mkdir(parents=True, exist_ok=True)
-    except OSError as exc:
-        raise InputError(f"Cannot create the output folder '{out}' ({exc.strerror}); give "
-                         "another folder with --out.") from None
-    if not os.access(out, os.W_OK):
-        raise InputError(f"The output folder '{out}' is not writable; give another folder "
-                         "with --out.")
+    out = _output_folder(out)   # made only once the input has been read without error
 
     from anisotropy.report import figures
 
