@@ -42,7 +42,7 @@ import time
 import traceback
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Mapping, Sequence
+from typing import Mapping, Sequence
 
 from anisotropy import _safety as S
 from anisotropy.errors import AnisotropyError, InputError, InsufficientDataError

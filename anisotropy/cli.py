@@ -193,7 +193,6 @@ def _save_figure_atomic(make, path, *args, dpi=110, **kwargs):
 
 def _cmd_explore(args) -> int:
     """Statistics to know before variography: grades, declustering, top-cut, spacing, trend."""
-    import os
     from pathlib import Path
 
     from anisotropy._safety import atomic_write_json
@@ -392,8 +391,6 @@ def _interpretation_from_args(args):
 
 def _cmd_check(args) -> int:
     """Hold an interpreted continuity orientation against the data."""
-    from pathlib import Path
-
     from anisotropy._safety import atomic_write_json
     from anisotropy.check import check_interpretation
     from anisotropy.discover import discover

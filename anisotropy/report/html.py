@@ -22,7 +22,7 @@ from __future__ import annotations
 import base64
 import math
 from pathlib import Path
-from typing import Any, Mapping
+from typing import Mapping
 
 import numpy as np
 
