@@ -136,7 +136,11 @@ def bins_from_sums(sums, directions=None, *, estimator="semivariogram",
     if directions is not None and np.asarray(directions).shape[0] != sums.shape[1]:
         raise ValueError("directions and sums disagree on the number of direction cells")
     count = sums[..., CHANNEL_INDEX["count"]]
-    gamma = _estimate(sums, estimator)
+    # Estimate only the bins the fit may use: a bin of one or two pairs has no
+    # head/tail variance, and the correlogram's warning about it would be noise
+    # for bins that are left out below anyway (they come out NaN, as empty bins do).
+    usable = (count >= min_pairs)[..., None]
+    gamma = _estimate(np.where(usable, sums, 0.0), estimator)
     lag_index, dir_index = np.meshgrid(np.arange(sums.shape[0]), np.arange(sums.shape[1]),
                                        indexing="ij")
     excluded = {}
