@@ -55,6 +55,29 @@ def _add_input_options(p: argparse.ArgumentParser, *, value_required: bool = Tru
                         "or drop all but the first")
 
 
+#: Replicates by default when a command asks for bands: enough for stable 90 %
+#: percentile bands at a refit per replicate (common practice; Efron &
+#: Tibshirani 1993, ch. 19, ask for more for very precise intervals).
+DEFAULT_BOOTSTRAP = 200
+
+
+def _add_bootstrap_options(p: argparse.ArgumentParser, *, default: int = DEFAULT_BOOTSTRAP):
+    """The bootstrap option group (``--bootstrap``, ``--confidence``, ``--jobs``, ``--scheduler``); returns it."""
+    g = p.add_argument_group("uncertainty")
+    g.add_argument("--bootstrap", type=int, default=default, metavar="N",
+                   help=f"block-bootstrap replicates for the confidence cones and intervals "
+                        f"(default {default}: enough for stable 90 %% bands, common practice; "
+                        "0 = off)")
+    g.add_argument("--confidence", type=float, default=0.9, metavar="P",
+                   help="confidence of the cones and intervals (default 0.9)")
+    g.add_argument("--jobs", type=int, default=1, metavar="N",
+                   help="processes for the bootstrap (default 1; -1 = every core)")
+    g.add_argument("--scheduler", metavar="ADDRESS",
+                   help="run the bootstrap replicates on the Dask cluster at this address "
+                        "(e.g. tcp://scheduler-host:8786)")
+    return g
+
+
 def _add_output_option(p: argparse.ArgumentParser, default: str) -> None:
     p.add_argument("--out", metavar="DIR", default=default,
                    help=f"folder for the results (default: {default})")
@@ -268,22 +291,12 @@ def _add_discover(p: argparse.ArgumentParser) -> None:
                         "where pairs are thin)")
     g.add_argument("--bandwidth", type=float, metavar="M", help="fan bandwidth in metres")
     g.add_argument("--seed", type=int, default=0, help="seed of every random step (default 0)")
-    g = p.add_argument_group("uncertainty")
-    g.add_argument("--bootstrap", type=int, default=DEFAULT_BOOTSTRAP, metavar="N",
-                   help=f"block-bootstrap replicates for the confidence cones and intervals "
-                        f"(default {DEFAULT_BOOTSTRAP}: enough for stable 90 %% bands, common "
-                        "practice; 0 = off, for a quick look)")
+    g = _add_bootstrap_options(p)
     g.add_argument("--bootstrap-method", choices=["block", "model"], default="block",
                    help="block: resample spatial blocks of the data (default, calibrated by "
                         "the coverage study in benchmarks/RESULTS.md); model: simulate fields "
                         "with the fitted model at the data locations (slower: a pass over the "
                         "pairs per replicate; a check on the block bands)")
-    g.add_argument("--confidence", type=float, default=0.9, metavar="P",
-                   help="confidence of the cones and intervals (default 0.9)")
-    g.add_argument("--jobs", type=int, default=1, metavar="N",
-                   help="processes for the bootstrap (default 1; -1 = every core)")
-    g.add_argument("--scheduler", metavar="ADDRESS",
-                   help="run the bootstrap replicates on the Dask cluster at this address")
     _add_output_option(p, "discovery")
     p.add_argument("--no-report", action="store_true",
                    help="write the JSON result only, without report.html and its figures")
@@ -320,43 +333,13 @@ def _cmd_discover(args) -> int:
 # <<< discover
 
 # >>> check
-#: Replicates by default when a command asks for bands: enough for stable 90 %
-#: percentile bands at a refit per replicate (common practice; Efron &
-#: Tibshirani 1993, ch. 19, ask for more for very precise intervals).
-DEFAULT_BOOTSTRAP = 200
-
-
-def _add_bootstrap_options(p: argparse.ArgumentParser, *, default: int = DEFAULT_BOOTSTRAP) -> None:
-    """The bootstrap option group (``--bootstrap``, ``--confidence``, ``--jobs``, ``--scheduler``)."""
-    g = p.add_argument_group("uncertainty")
-    g.add_argument("--bootstrap", type=int, default=default, metavar="N",
-                   help=f"block-bootstrap replicates for the confidence cones and intervals "
-                        f"(default {default}: enough for stable 90 %% bands, common practice; "
-                        "0 = off)")
-    g.add_argument("--confidence", type=float, default=0.9, metavar="P",
-                   help="confidence of the cones and intervals (default 0.9)")
-    g.add_argument("--jobs", type=int, default=1, metavar="N",
-                   help="processes for the bootstrap (default 1; -1 = every core)")
-    g.add_argument("--scheduler", metavar="ADDRESS",
-                   help="run the bootstrap replicates on the Dask cluster at this address "
-                        "(e.g. tcp://scheduler-host:8786)")
-
-
 def _add_check(p: argparse.ArgumentParser) -> None:
     """Options of ``anisotropy check``: the discover options plus the interpretation."""
     _add_discover(p)
     have = {a.dest: a for a in p._actions}
-    if "bootstrap" not in have:
-        _add_bootstrap_options(p)
-    else:  # the discover command's own group: the check needs replicates by default
-        have["bootstrap"].default = DEFAULT_BOOTSTRAP
-        have["bootstrap"].help = (f"block-bootstrap replicates the check weighs the "
-                                  f"interpretation against (default {DEFAULT_BOOTSTRAP}, "
-                                  "common practice; at least 20)")
-        if "scheduler" not in have:
-            p.add_argument("--scheduler", metavar="ADDRESS",
-                           help="run the bootstrap replicates on the Dask cluster at this "
-                                "address")
+    have["bootstrap"].help = (f"block-bootstrap replicates the check weighs the "
+                              f"interpretation against (default {DEFAULT_BOOTSTRAP}, "
+                              "common practice; at least 20)")
     if "out" in have:
         have["out"].default = "check"
         have["out"].help = "folder for discovery.json and check.json (default: check)"
@@ -412,7 +395,8 @@ def _cmd_check(args) -> int:
                       angular_tolerance=args.angular_tolerance, bandwidth=args.bandwidth,
                       bootstrap=args.bootstrap, confidence=args.confidence, seed=args.seed,
                       n_jobs=args.jobs, scheduler=scheduler, threshold=args.threshold,
-                      shared_ratios=args.shared_ratios, progress=True)
+                      shared_ratios=args.shared_ratios, progress=True,
+                      bootstrap_method=args.bootstrap_method)
     checked = check_interpretation(result, interpretation,
                                    thresholds={"confidence": args.confidence},
                                    n_jobs=args.jobs, scheduler=scheduler, progress=True)
