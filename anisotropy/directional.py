@@ -166,6 +166,11 @@ def experimental_variogram(coords, values, *, lag, n_lags, direction=None, angul
 
 
 # -------------------------------------------------------------------- fans
+def _rows(a):
+    """A 2D array as nested lists of floats, NaN as None (JSON-ready)."""
+    return [[None if not np.isfinite(x) else float(x) for x in row] for row in a]
+
+
 @dataclass
 class Fan:
     """Directional variograms read from a lag volume.
@@ -196,9 +201,6 @@ class Fan:
     estimator: str
 
     def to_dict(self) -> dict:
-        def lst(a):
-            return [[None if not np.isfinite(x) else float(x) for x in row] for row in a]
-
         return {
             "estimator": self.estimator,
             "angular_tolerance": float(self.angular_tolerance),
@@ -207,8 +209,8 @@ class Fan:
             "directions": [[float(x) for x in d] for d in self.directions],
             "trend": [float(t) for t in self.trend],
             "plunge": [float(p) for p in self.plunge],
-            "distance": lst(self.distance),
-            "value": lst(self.value),
+            "distance": _rows(self.distance),
+            "value": _rows(self.value),
             "pairs": [[int(x) for x in row] for row in self.pairs],
         }
 
@@ -321,9 +323,6 @@ class MapSlice:
     estimator: str
 
     def to_dict(self) -> dict:
-        def lst(a):
-            return [[None if not np.isfinite(x) else float(x) for x in row] for row in a]
-
         return {
             "estimator": self.estimator,
             "map_cell": float(self.map_cell),
@@ -332,8 +331,8 @@ class MapSlice:
             "normal": [float(x) for x in self.normal],
             "u": [float(x) for x in self.u],
             "v": [float(x) for x in self.v],
-            "value": lst(self.value),
-            "distance": lst(self.distance),
+            "value": _rows(self.value),
+            "distance": _rows(self.distance),
             "pairs": [[int(x) for x in row] for row in self.pairs],
         }
 
