@@ -26,7 +26,7 @@ from . import geometry
 from .errors import InputError
 from .estimators import ESTIMATORS, estimate, mean_distance
 from .pairs import (CHANNELS, LagVolume, _cells, _check_coords_values, _check_lag, _kernels,
-                    _n_chunks, _plan_batches, direction_vector)
+                    _n_chunks, _plan_batches, direction_vector, resolve_channels)
 
 __all__ = [
     "experimental_variogram",
@@ -68,10 +68,13 @@ def _check_bandwidth(bandwidth):
 
 
 def exact_sums(coords, values, *, lag, n_lags, direction=None, angular_tolerance=22.5,
-               lag_tolerance=None, bandwidth=None) -> np.ndarray:
+               lag_tolerance=None, bandwidth=None, channels=None) -> np.ndarray:
     """Exact channel sums (n_lags + 1, n_ch) of a directional variogram (row 0 unused).
 
-    Same rules and parameters as :func:`experimental_variogram`.
+    Same rules and parameters as :func:`experimental_variogram`. ``channels``
+    (see :func:`anisotropy.pairs.resolve_channels`): None keeps all 15; an
+    estimator name keeps count, dist, dx, dy, dz and what that estimator
+    reads, and the pass does no work for the others, which are NaN.
     """
     c, v = _check_coords_values(coords, values)
     lag, n_lags = _check_lag(lag, n_lags)
@@ -82,6 +85,8 @@ def exact_sums(coords, values, *, lag, n_lags, direction=None, angular_tolerance
     band = _check_bandwidth(bandwidth)
     omni = direction is None
     u = np.zeros(3) if omni else direction_vector(direction)
+    kept = resolve_channels(channels)
+    need = np.array([name in kept for name in ("abs", "sqrt", "head", "rel", "dx")], dtype=np.int64)
     n_chunks = _n_chunks()
     acc = np.zeros((n_chunks, (n_lags + 1) * _NCH))
     stats = np.zeros((n_chunks, 2), dtype=np.int64)
@@ -96,12 +101,22 @@ def exact_sums(coords, values, *, lag, n_lags, direction=None, angular_tolerance
         # 90 degrees: every direction (-1 so that perpendicular lags are not lost to rounding)
         cos_tol = math.cos(math.radians(ang)) if ang < 90.0 else -1.0
         maxd2 = (radius * (1 + 1e-12)) ** 2
+        # class bounds of the rule k lag - tol < d <= k lag + tol, as the rule computes them
+        k = np.arange(n_lags + 3)
+        lo = k * lag - tol
+        hi = k * lag + tol
+        pad = (k == 0) | (k > n_lags)  # never match (the kernel also reads index -1)
+        lo[pad] = np.inf
+        hi[pad] = -np.inf
+        narrow = bool(tol <= 0.5 * lag)
         for q0, q1 in _plan_batches(work, 4e8):
             _kernels.exact_pass(x, y, z, vv, grid.start, grid.dims, grid.occupied, off, q0, q1,
-                                n_chunks, maxd2, lag, tol, n_lags, omni, u[0], u[1], u[2],
-                                cos_tol, band is not None, 0.0 if band is None else band * band,
-                                acc, stats)
-    return acc.sum(axis=0).reshape(n_lags + 1, _NCH)
+                                n_chunks, maxd2, 1.0 / lag, tol, lo, hi, narrow, n_lags, omni,
+                                u[0], u[1], u[2], cos_tol, band is not None,
+                                0.0 if band is None else band * band, need, acc, stats)
+    out = acc.sum(axis=0).reshape(n_lags + 1, _NCH)
+    out[:, [CHANNELS.index(name) for name in CHANNELS if name not in kept]] = np.nan
+    return out
 
 
 def experimental_variogram(coords, values, *, lag, n_lags, direction=None, angular_tolerance=22.5,
@@ -153,7 +168,7 @@ def experimental_variogram(coords, values, *, lag, n_lags, direction=None, angul
         Mismatched lengths, non-positive lag or tolerances, unknown estimator.
     """
     _check_estimator(estimator)
-    sums = exact_sums(coords, values, lag=lag, n_lags=n_lags, direction=direction,
+    sums = exact_sums(coords, values, lag=lag, n_lags=n_lags, direction=direction, channels=estimator,
                       angular_tolerance=angular_tolerance, lag_tolerance=lag_tolerance,
                       bandwidth=bandwidth)[1:]
     n_lags = int(n_lags)

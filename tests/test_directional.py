@@ -175,7 +175,7 @@ def test_fan_matches_exact_up_to_cell_resolution(data, volume):
     # each pair's own lag. Pairs can differ only when their angle to the direction is
     # within (cell radius + pixel) of the tolerance; brute force over all pairs.
     c, v = data
-    table = _lattice.lambert_table(volume.directions)
+    table = _lattice.direction_table(volume.directions)
     i, j = np.triu_indices(len(c), 1)
     V = c[j] - c[i]
     d = np.linalg.norm(V, axis=1)
@@ -271,3 +271,39 @@ def test_map_needs_map(data):
     vol = build_volume(c, v, lag=6.0, n_lags=2, map_cell=False, blocks=False, progress=False)
     with pytest.raises(InputError, match="map"):
         variogram_map(vol)
+
+
+@pytest.mark.parametrize("estimator", ["semivariogram", "correlogram", "pairwise_relative",
+                                       "madogram", "robust"])
+def test_exact_sums_channel_subsets(estimator):
+    # The exact pass skips the channels an estimator does not read: kept channels equal the
+    # all-channel pass exactly, dropped ones are NaN (the all-channel pass is checked
+    # against brute force over all pairs above).
+    from anisotropy.directional import exact_sums
+    from anisotropy.pairs import CHANNELS, resolve_channels
+    rng = np.random.default_rng(11)
+    c = rng.random((300, 3)) * [40.0, 30.0, 20.0]
+    v = rng.lognormal(0.0, 0.7, len(c))
+    for direction, lag_tol in ((None, None), ((30.0, 20.0), 3.5)):
+        full = exact_sums(c, v, lag=4.0, n_lags=6, direction=direction, lag_tolerance=lag_tol)
+        sub = exact_sums(c, v, lag=4.0, n_lags=6, direction=direction, lag_tolerance=lag_tol,
+                         channels=estimator)
+        kept = [CHANNELS.index(ch) for ch in resolve_channels(estimator)]
+        dropped = [i for i in range(len(CHANNELS)) if i not in kept]
+        np.testing.assert_array_equal(sub[:, kept], full[:, kept])
+        assert np.isnan(sub[:, dropped]).all()
+
+
+@pytest.mark.parametrize("lag,lag_tol", [(0.7, None), (1.0 / 3.0, None), (0.7, 0.35),
+                                         (0.7, 0.5), (1.0 / 3.0, 0.1)])
+def test_exact_classes_on_bounds(lag, lag_tol):
+    # Gridded samples put many distances exactly on class bounds k lag +- tol; the pass
+    # finds the class by multiplying by 1/lag (inexact for these lags) and then applies
+    # the rule k lag - tol < d <= k lag + tol itself, so counts must equal the brute-force
+    # rule over all pairs (the `brute` helper above), overlapping classes included.
+    g = np.arange(8) * (lag / 2.0)
+    c = np.array(np.meshgrid(g, g[:5], g[:3], indexing="ij")).reshape(3, -1).T
+    v = np.sin(np.arange(len(c), dtype=float))
+    ref = brute(c, v, lag=lag, n_lags=6, lag_tol=lag_tol)
+    df = experimental_variogram(c, v, lag=lag, n_lags=6, lag_tolerance=lag_tol)
+    np.testing.assert_array_equal(df["pairs"], [r[1] for r in ref])

@@ -89,7 +89,7 @@ def test_fine_cell_is_nearest_axis(data, volume):
     i, j, V, d, h, t = brute_pairs(c, v)
     k = np.ceil(d / 5.0 - 0.5).astype(int)
     keep = (k <= 6) & (d > 0)
-    cell = _lattice.lookup(V[keep], _lattice.lambert_table(volume.directions))
+    cell = _lattice.lookup(V[keep], _lattice.direction_table(volume.directions))
     # the kernel's cells are the table rule exactly (same arithmetic in NumPy)
     want = np.zeros((7, len(volume.directions)))
     np.add.at(want, (k[keep], cell), 1.0)
@@ -100,7 +100,7 @@ def test_fine_cell_is_nearest_axis(data, volume):
     a_best = geometry.axis_angle(V[keep], volume.directions[near])
     # pixel-centre rounding: the only misassignments are pairs within a pixel of a
     # cell boundary, and then the axis is at most one pixel's angle farther
-    bound = _lattice.pixel_angle(_lattice.lambert_table(volume.directions).shape[0])
+    bound = _lattice.pixel_angle(_lattice.direction_table(volume.directions).shape[0])
     assert np.all(a_got - a_best <= bound + 1e-9)
     assert np.mean(cell != near) < 0.10
 
@@ -109,7 +109,7 @@ def test_rim_horizontal_lags_same_axis_both_ways():
     # v and -v are one axis; the table must agree with the brute-force nearest axis
     # (up to the pixel bound) on both sides of the rim.
     dirs = _lattice.lattice(None, 2.0)
-    table = _lattice.lambert_table(dirs)
+    table = _lattice.direction_table(dirs)
     az = np.linspace(0, 2 * np.pi, 721)
     hv = np.column_stack([np.sin(az), np.cos(az), np.zeros_like(az)])
     near = _lattice.nearest_axis(hv, dirs)
@@ -281,7 +281,7 @@ def test_aggregate_matches_cell_rule(data, volume):
     i, j, V, d, h, t = brute_pairs(c, v)
     k = np.ceil(d / 5.0 - 0.5).astype(int)
     keep = (k <= 6) & (d > 0)
-    cell = _lattice.lookup(V[keep], _lattice.lambert_table(volume.directions))
+    cell = _lattice.lookup(V[keep], _lattice.direction_table(volume.directions))
     u = geometry.line_to_vector(40.0, 30.0)
     ok = np.abs(volume.directions[cell] @ u) >= math.cos(math.radians(25.0))
     rows = channel_rows(V[keep], d[keep], h[keep], t[keep])
@@ -343,3 +343,51 @@ def test_channel_subset_validation(data):
                                                      "tail2", "cross", "dx", "dy", "dz")
     with pytest.raises(InputError):
         build_volume(c, v, lag=5.0, n_lags=6, progress=False, block_channels="variance")
+
+
+@pytest.mark.parametrize("estimator", ["semivariogram", "correlogram", "pairwise_relative",
+                                       "madogram", "robust"])
+@pytest.mark.parametrize("extras", [False, True], ids=["fine_only", "with_blocks_and_map"])
+def test_fine_channel_subsets(data, volume, estimator, extras):
+    # Fine sums keeping one estimator's channels equal the all-channel run exactly for the
+    # kept channels (same additions in the same order; the all-channel run is checked against
+    # brute force over the pdist pairs above); dropped channels are NaN. Without blocks and
+    # map the semivariogram and the all-channel layouts go through the specialised kernel,
+    # the others through the general one: both routes are covered here.
+    c, v = data
+    kw = dict(blocks=20.0, map_cell=4.0) if extras else dict(blocks=False, map_cell=False)
+    vol = build_volume(c, v, lag=5.0, n_lags=6, progress=False, channels=estimator, **kw)
+    kept = [CHANNELS.index(ch) for ch in vol.channels]
+    dropped = [i for i in range(len(CHANNELS)) if i not in kept]
+    assert vol.channels == pairs_mod.resolve_channels(estimator) and dropped
+    np.testing.assert_array_equal(vol.sums[..., kept], volume.sums[..., kept])
+    assert np.isnan(vol.sums[..., dropped]).all()
+    if extras:  # blocks and map keep every channel unless told otherwise
+        np.testing.assert_array_equal(vol.block_sums, volume.block_sums)
+        np.testing.assert_array_equal(vol.map_sums, volume.map_sums)
+    assert vol.n_pairs == volume.n_pairs
+
+
+@pytest.mark.parametrize("lag", [0.3, 0.7, 1.0 / 3.0, 0.1])
+@pytest.mark.parametrize("extras", [False, True], ids=["fine_only", "with_blocks_and_map"])
+def test_class_at_exact_bounds_is_the_divide(lag, extras):
+    # The kernel finds the class with a multiply by 1/lag and falls back to the divide
+    # next to a bound. On a grid whose spacing is a multiple of lag/2 many pair distances
+    # sit exactly on class bounds (d / lag - 1/2 an integer in exact arithmetic), and
+    # 1/lag is inexact for these lags; the classes must still equal
+    # numpy.ceil(d / lag - 0.5) pair for pair (brute force over all pairs).
+    g = np.arange(7) * (lag / 2.0)
+    c = np.array(np.meshgrid(g, g[:4], g[:3], indexing="ij")).reshape(3, -1).T
+    v = np.arange(len(c), dtype=float)
+    n_lags = 8
+    kw = dict(blocks=lag, map_cell=lag) if extras else dict(blocks=False, map_cell=False)
+    vol = build_volume(c, v, lag=lag, n_lags=n_lags, progress=False, **kw)
+    i, j, V, d, h, t = brute_pairs(c, v)
+    k = np.ceil(d / lag - 0.5).astype(int)
+    keep = k <= n_lags
+    # the boundary cases are really there: distances whose quotient is within 1e-12 of a
+    # half-integer
+    q = d / lag - 0.5
+    assert np.sum(np.abs(q - np.round(q)) < 1e-12) > 50
+    want = np.bincount(np.maximum(k[keep], 0), minlength=n_lags + 1)
+    np.testing.assert_array_equal(vol.sums[..., 0].sum(axis=1), want)

@@ -27,9 +27,10 @@ brute-force tests):
   not counted (it lies beyond ``max_distance``);
 * coincident pairs (zero lag) have no direction: they sit in class 0, fine
   cell 0, map centre cell;
-* the fine cell of a pair is read from a Lambert equal-area lookup table
-  (``_lattice.py``): exact at pixel centres, at most one pixel (well under a
-  tenth of the lattice spacing) off near cell boundaries;
+* the fine cell of a pair is read from a lookup table over the stereographic
+  plane coordinates of its direction (``_lattice.py``): exact at pixel
+  centres, at most one pixel (well under a tenth of the lattice spacing) off
+  near cell boundaries;
 * block of a pair: the block holding the pair's midpoint. The midpoint is
   symmetric in the two samples (it does not depend on which one is the
   head), and with a regular grid it sends each pair to exactly one block, so
@@ -577,7 +578,7 @@ def _merge(acc, kept):
 def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_directions=None,
                  blocks=None, map_cell=None, progress=True, block_memory=BLOCK_MEMORY,
                  cell_divisions=_cells.DEFAULT_CELL_DIVISIONS,
-                 batch_candidates=BATCH_CANDIDATES, block_channels=None,
+                 batch_candidates=BATCH_CANDIDATES, channels=None, block_channels=None,
                  map_channels=None) -> LagVolume:
     """One pass over all pairs into a :class:`LagVolume`.
 
@@ -612,13 +613,14 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
         Search cells per ``max_distance``.
     batch_candidates : float
         Candidate pairs per batch.
-    block_channels, map_channels : None, str or sequence of str
-        Channels the block sums / the map accumulate (see
+    channels, block_channels, map_channels : None, str or sequence of str
+        Channels the fine sums / the block sums / the map accumulate (see
         :func:`resolve_channels`): None (default) keeps all 15; an estimator
         name such as ``"semivariogram"`` keeps count, dist, dx, dy, dz and
-        what that estimator reads, which makes the pass cheaper. Dropped
-        channels are NaN in ``block_sums`` / ``map_sums`` (shapes do not
-        change); the fine ``sums`` always hold every channel.
+        what that estimator reads, which makes the pass cheaper (a channel
+        no accumulator keeps costs nothing per pair). Dropped channels are
+        NaN in ``sums`` / ``block_sums`` / ``map_sums`` (shapes do not
+        change).
 
     Returns
     -------
@@ -639,9 +641,11 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
         fine = np.ascontiguousarray(fine[_lattice.spatial_order(fine)])
     coarse = _lattice.lattice(coarse_directions, _lattice.DEFAULT_COARSE_SPACING)
     f2c = _lattice.nearest_axis(fine, coarse)
-    table = _lattice.lambert_table(fine)
+    table = _lattice.direction_table(fine)
     n_fine, n_coarse, n_cls, nch = len(fine), len(coarse), n_lags + 1, len(CHANNELS)
     n_chunks = _n_chunks()
+    fkeep = resolve_channels(channels)
+    fcols, fwidth = _columns(fkeep)
     bkeep = resolve_channels(block_channels)
     mkeep = resolve_channels(map_channels)
     bcols, bwidth = _columns(bkeep)
@@ -684,8 +688,7 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
     mny, mnz = 2 * mhalf + 1, mhalf + 1
 
     # accumulators (chunk slices)
-    npad = _kernels.NPAD  # rows padded to 16 channels (128 bytes); the pad column is dropped
-    acc_fine = _aligned_zeros((n_chunks, n_cls * n_fine, npad))
+    acc_fine = _aligned_zeros((n_chunks, n_cls * n_fine, fwidth))
     acc_blk = _aligned_zeros((n_chunks, max(n_blocks, 1) * n_cls * n_coarse if do_blocks else 1,
                               bwidth))
     acc_map = _aligned_zeros((n_chunks, mny * mny * mnz if do_map else 1, mwidth))
@@ -709,21 +712,29 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
     vv = np.ascontiguousarray(v[order])
     occ_index, cell_lo, cell_hi = _cells.cell_bounds(grid, np.column_stack([x, y, z]))
     maxd2 = (max_distance * (1 + 1e-12)) ** 2
-    inv_pix = table.shape[0] / (2.0 * math.sqrt(2.0))
+    inv_pix = table.shape[0] / 2.0  # the plane coordinates cover [-1, 1]
     binv = np.where(size > 0, 1.0 / np.where(size > 0, size, 1.0), 0.0)
     borig = np.zeros(3)
+    # no blocks, no map and one of the two fixed row layouts: the specialised kernel
+    fixed_layout = (not do_blocks and not do_map
+                    and fkeep in (CHANNELS, resolve_channels("semivariogram")))
     for bi, (q0, q1) in enumerate(batches):
-        _kernels.volume_pass(x, y, z, vv, grid.start, grid.dims, grid.occupied, off, q0, q1,
-                             n_chunks, maxd2, lag, n_lags, table, inv_pix, f2c, n_coarse,
-                             do_blocks, borig, binv, bshape, do_map,
-                             (1.0 / mc) if do_map else 0.0, mhalf,
-                             acc_fine, acc_blk, acc_map, stats, occ_index, cell_lo, cell_hi,
-                             bcols, mcols)
+        if fixed_layout:
+            _kernels.fine_pass(x, y, z, vv, grid.start, grid.dims, grid.occupied, off, q0, q1,
+                               n_chunks, maxd2, lag, n_lags, table, inv_pix,
+                               fkeep == CHANNELS, acc_fine, stats)
+        else:
+            _kernels.volume_pass(x, y, z, vv, grid.start, grid.dims, grid.occupied, off, q0, q1,
+                                 n_chunks, maxd2, lag, n_lags, table, inv_pix, f2c, n_coarse,
+                                 do_blocks, borig, binv, bshape, do_map,
+                                 (1.0 / mc) if do_map else 0.0, mhalf,
+                                 acc_fine, acc_blk, acc_map, stats, occ_index, cell_lo, cell_hi,
+                                 fcols, bcols, mcols)
         if loud and len(batches) > 1:
             done = float(work[:q1].sum() / max(work.sum(), 1))
             _announce(progress, f"pair engine: batch {bi + 1}/{len(batches)} done "
                                 f"({100 * done:.0f} % of candidates)")
-    sums = _merge(acc_fine, CHANNELS).reshape(n_cls, n_fine, nch)
+    sums = _merge(acc_fine, fkeep).reshape(n_cls, n_fine, nch)
     del acc_fine
     if do_blocks:
         block_sums = _merge(acc_blk, bkeep).reshape(n_blocks, n_cls, n_coarse, nch)
@@ -748,5 +759,5 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
                "chunks": int(n_chunks), "table_size": int(table.shape[0]),
                "block_bytes": int(block_sums.nbytes),
                "estimated_pairs": -1 if est is None else int(est)},
-        block_channels=bkeep, map_channels=mkeep,
+        channels=fkeep, block_channels=bkeep, map_channels=mkeep,
     )

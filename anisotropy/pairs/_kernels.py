@@ -15,18 +15,20 @@ threads, and batching a run (calling the pass on consecutive ranges of
 occupied cells) gives bit-identical sums. Slices are merged once at the end,
 in Python.
 
-Per pair: a squared distance, the canonical flip, one square root for the
-distance, a divide for the class, one square root and one divide for the
-Lambert coordinates, two floors and a table read for the direction cell, and
-the channel additions. No trigonometry, no allocation.
+Per pair (volume): a squared distance, one square root for the distance, a
+multiply for the class (the divide only next to a class bound), the canonical
+flip, one divide and a table read for the direction cell (stereographic
+plane coordinates, see ``_lattice.py``), and the channel additions; the square
+root of |delta| and the relative divide only when an accumulator keeps those
+channels. No trigonometry, no allocation.
 
 Channels (``CHANNELS`` in ``__init__``), in order: count, dist, sq, abs,
 sqrt, head, tail, head2, tail2, cross, rel, rel_n, dx, dy, dz.
 
 Accumulator layout: (n_chunks, n_bins, width) rows, allocated on 64-byte
-boundaries; fine rows hold the 15 channels in order padded to ``NPAD = 16``
-(128 bytes, two cache lines); block and map rows hold the kept channels
-(``bcols``/``mcols``) in rows of 8 or 16. The canonical flip is branch-free
+boundaries; fine, block and map rows hold their kept channels
+(``fcols``/``bcols``/``mcols``) in rows of 8 or 16 doubles (all 15 channels:
+16 = 128 bytes, two cache lines). The canonical flip is branch-free
 (it is a coin toss per pair, so a branch mispredicts half the time).
 """
 
@@ -43,47 +45,22 @@ NPAD = 16
 _SQRT2 = math.sqrt(2.0)
 
 
-@njit(cache=True)
-def _pair_values(vals, d, h, t, dx, dy, dz):
-    """Fill ``vals`` (15,) with one pair's channel contributions."""
-    delta = h - t
-    sq = delta * delta
-    ad = abs(delta)
-    vals[0] = 1.0
-    vals[1] = d
-    vals[2] = sq
-    vals[3] = ad
-    vals[4] = math.sqrt(ad)
-    vals[5] = h
-    vals[6] = t
-    vals[7] = h * h
-    vals[8] = t * t
-    vals[9] = h * t
-    s = h + t
-    if s != 0.0:
-        vals[10] = 4.0 * sq / (s * s)
-        vals[11] = 1.0
-    else:
-        vals[10] = 0.0
-        vals[11] = 0.0
-    vals[12] = dx
-    vals[13] = dy
-    vals[14] = dz
-
-
 @njit(cache=True, parallel=True)
 def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                 maxd2, lag, n_lags, table, inv_pix, f2c, n_coarse,
                 do_blocks, borig, binv, bshape, do_map, minv, mhalf,
                 acc_fine, acc_blk, acc_map, stats, occ_index, cell_lo, cell_hi,
-                bcols, mcols):
+                fcols, bcols, mcols):
     """Accumulate the pairs of stencil offsets ``g0 <= g < g1`` over all occupied cells.
 
-    Accumulators are (n_chunks, n_bins, NPAD) with the channels of a bin
-    contiguous in one 128-byte row (``NPAD = 16``, the last column unused):
-    a bin row starts on a cache line and a pair's additions into it touch two
-    lines; the row index is checked once per bin, not once per channel, so the
-    compiler can add the channels as vectors.
+    Accumulators are (n_chunks, n_bins, width) with the kept channels of a
+    bin contiguous in one row of 8 or 16 doubles (64 or 128 bytes, starting
+    on a cache line). ``fcols`` / ``bcols`` / ``mcols`` (15,) give the column
+    of each channel in a fine / block / map row, -1 for a channel not kept
+    (count, dist, dx, dy, dz are always kept; sq, abs, sqrt, the five
+    head/tail channels and the two relative channels are kept or dropped as
+    groups). A channel no accumulator keeps costs no per-pair work (the
+    square root of |delta| and the relative divide are the expensive ones).
 
     ``offsets[0]`` must be (0, 0, 0): the pairs inside a cell (j > i). The loop
     runs offset by offset (outer) over all cells (inner): for one offset the
@@ -92,26 +69,43 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
     ``g % n_chunks == c``. ``stats[c, 0]`` counts candidate pairs looked at,
     ``stats[c, 1]`` pairs kept.
 
+    Class: ``ceil(d / lag - 1/2)``. It is computed with a multiply by
+    ``1 / lag``, and with the divide only when the product lies within a few
+    rounding units of a class bound, so the class is the divide's exactly
+    (the divide is one of the four long-latency operations per pair).
+
     Blocks: when the midpoints of every pair of a cell pair fall in one block
     (tested on the cells' bounding boxes: the rounded midpoint, shift, scale,
     floor and clamp are all monotone, so the block of the two corners bounds
     every pair's), the block is computed once for the cell pair.
     ``occ_index[cell]`` is the position of a cell in ``occupied`` and
     ``cell_lo``/``cell_hi`` (n_occupied, 3) the bounding boxes of its samples.
-
-    ``bcols`` / ``mcols`` (15,): column of each channel in a block / map
-    accumulator row, -1 for a channel not kept (count, dist, dx, dy, dz are
-    always kept; sq, abs, sqrt, the five head/tail channels and the two
-    relative channels are kept or dropped as groups). Fine rows always hold
-    all channels in order.
     """
     tsize = table.shape[0]
+    tmax = tsize - 1
     n_fine = f2c.shape[0]
     mny = 2 * mhalf + 1
     mnz = mhalf + 1
     ny = dims[1]
     nz = dims[2]
     n_occ = occupied.shape[0]
+    inv_lag = 1.0 / lag
+    guard = 1e-15 * (n_lags + 2.0)  # a few rounding units of d / lag at the longest class
+    kf0 = fcols[0]
+    kf1 = fcols[1]
+    kf2 = fcols[2]
+    kf3 = fcols[3]
+    kf4 = fcols[4]
+    kf5 = fcols[5]
+    kf6 = fcols[6]
+    kf7 = fcols[7]
+    kf8 = fcols[8]
+    kf9 = fcols[9]
+    kf10 = fcols[10]
+    kf11 = fcols[11]
+    kf12 = fcols[12]
+    kf13 = fcols[13]
+    kf14 = fcols[14]
     kb0 = bcols[0]
     kb1 = bcols[1]
     kb2 = bcols[2]
@@ -142,6 +136,9 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
     km12 = mcols[12]
     km13 = mcols[13]
     km14 = mcols[14]
+    # which optional groups any accumulator keeps (their per-pair work is skipped otherwise)
+    w_sqrt = kf4 >= 0 or (do_blocks and kb4 >= 0) or (do_map and km4 >= 0)
+    w_rel = kf10 >= 0 or (do_blocks and kb10 >= 0) or (do_map and km10 >= 0)
     for c in prange(n_chunks):
         af = acc_fine[c]
         ab = acc_blk[c]
@@ -220,7 +217,11 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                         if d2 > maxd2:
                             continue
                         d = math.sqrt(d2)
-                        kf = math.ceil(d / lag - 0.5)
+                        xq = d * inv_lag - 0.5
+                        kf = math.ceil(xq)
+                        fr = kf - xq
+                        if fr < guard or fr > 1.0 - guard:
+                            kf = math.ceil(d / lag - 0.5)  # near a bound: the rule's own divide
                         if kf > n_lags:
                             continue
                         k = int(kf)
@@ -237,11 +238,11 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                         h = vi if fl else vj
                         t = vj if fl else vi
                         if d2 > 0.0:
-                            s = math.sqrt(2.0 / (d * (d - dz)))
-                            ix = int(math.floor((dx * s + _SQRT2) * inv_pix))
-                            iy = int(math.floor((dy * s + _SQRT2) * inv_pix))
-                            ix = min(max(ix, 0), tsize - 1)
-                            iy = min(max(iy, 0), tsize - 1)
+                            # stereographic plane coordinates (see _lattice): one divide, no root;
+                            # both are >= 0 up to rounding, so truncation is the floor after the clamp
+                            r = 1.0 / (d - dz)
+                            ix = min(max(int((dx * r + 1.0) * inv_pix), 0), tmax)
+                            iy = min(max(int((dy * r + 1.0) * inv_pix), 0), tmax)
                             f = np.int64(table[ix, iy])
                         else:
                             f = np.int64(0)  # coincident points: class 0, first cell
@@ -249,33 +250,35 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                         delta = h - t
                         sq = delta * delta
                         ad = abs(delta)
-                        sr = math.sqrt(ad)
-                        hh = h * h
-                        tt = t * t
-                        ht = h * t
-                        ssum = h + t
-                        if ssum != 0.0:
-                            rel = 4.0 * sq / (ssum * ssum)
-                            reln = 1.0
-                        else:
-                            rel = 0.0
-                            reln = 0.0
+                        sr = math.sqrt(ad) if w_sqrt else 0.0
+                        rel = 0.0
+                        reln = 0.0
+                        if w_rel:
+                            ssum = h + t
+                            if ssum != 0.0:
+                                rel = 4.0 * sq / (ssum * ssum)
+                                reln = 1.0
                         fb = k * n_fine + f
-                        af[fb, 0] += 1.0
-                        af[fb, 1] += d
-                        af[fb, 2] += sq
-                        af[fb, 3] += ad
-                        af[fb, 4] += sr
-                        af[fb, 5] += h
-                        af[fb, 6] += t
-                        af[fb, 7] += hh
-                        af[fb, 8] += tt
-                        af[fb, 9] += ht
-                        af[fb, 10] += rel
-                        af[fb, 11] += reln
-                        af[fb, 12] += dx
-                        af[fb, 13] += dy
-                        af[fb, 14] += dz
+                        af[fb, kf0] += 1.0
+                        af[fb, kf1] += d
+                        af[fb, kf12] += dx
+                        af[fb, kf13] += dy
+                        af[fb, kf14] += dz
+                        if kf2 >= 0:
+                            af[fb, kf2] += sq
+                        if kf3 >= 0:
+                            af[fb, kf3] += ad
+                        if kf4 >= 0:
+                            af[fb, kf4] += sr
+                        if kf5 >= 0:
+                            af[fb, kf5] += h
+                            af[fb, kf6] += t
+                            af[fb, kf7] += h * h
+                            af[fb, kf8] += t * t
+                            af[fb, kf9] += h * t
+                        if kf10 >= 0:
+                            af[fb, kf10] += rel
+                            af[fb, kf11] += reln
                         if do_blocks:
                             if bconst >= 0:
                                 bb = bconst
@@ -319,9 +322,9 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                                 bq4 = sr
                                 bq5 = h
                                 bq6 = t
-                                bq7 = hh
-                                bq8 = tt
-                                bq9 = ht
+                                bq7 = h * h
+                                bq8 = t * t
+                                bq9 = h * t
                                 bq10 = rel
                                 bq11 = reln
                                 bq12 = dx
@@ -335,9 +338,9 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                                 bq4 += sr
                                 bq5 += h
                                 bq6 += t
-                                bq7 += hh
-                                bq8 += tt
-                                bq9 += ht
+                                bq7 += h * h
+                                bq8 += t * t
+                                bq9 += h * t
                                 bq10 += rel
                                 bq11 += reln
                                 bq12 += dx
@@ -365,9 +368,9 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                             if km5 >= 0:
                                 am[mb, km5] += h
                                 am[mb, km6] += t
-                                am[mb, km7] += hh
-                                am[mb, km8] += tt
-                                am[mb, km9] += ht
+                                am[mb, km7] += h * h
+                                am[mb, km8] += t * t
+                                am[mb, km9] += h * t
                             if km10 >= 0:
                                 am[mb, km10] += rel
                                 am[mb, km11] += reln
@@ -396,6 +399,120 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
         stats[c, 1] += kept
 
 
+@njit(cache=True, parallel=True)
+def fine_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
+              maxd2, lag, n_lags, table, inv_pix, full, acc_fine, stats):
+    """:func:`volume_pass` without block sums and map, for the two fixed row layouts.
+
+    ``full``: rows of all 15 channels in ``CHANNELS`` order (padded to 16);
+    otherwise the semivariogram's compact row (count, dist, sq, dx, dy, dz;
+    8 wide). Same walk, class, orientation and direction rules as
+    :func:`volume_pass`, with constant columns so the compiler can schedule
+    the additions freely (measured: about a third cheaper per pair than the
+    general kernel on the benchmark layout; benchmarks/RESULTS.md).
+    """
+    tsize = table.shape[0]
+    tmax = tsize - 1
+    n_fine = acc_fine.shape[1] // (n_lags + 1)
+    ny = dims[1]
+    nz = dims[2]
+    n_occ = occupied.shape[0]
+    inv_lag = 1.0 / lag
+    guard = 1e-15 * (n_lags + 2.0)
+    for c in prange(n_chunks):
+        af = acc_fine[c]
+        cand = 0
+        kept = 0
+        first = g0 + ((c - g0) % n_chunks)
+        for g in range(first, g1, n_chunks):
+            ox = offsets[g, 0]
+            oy = offsets[g, 1]
+            oz = offsets[g, 2]
+            self_pairs = ox == 0 and oy == 0 and oz == 0
+            for q in range(n_occ):
+                a = occupied[q]
+                ax = a // (ny * nz)
+                ay = (a // nz) % ny
+                az = a % nz
+                bx = ax + ox
+                by = ay + oy
+                bz = az + oz
+                if bx < 0 or bx >= dims[0] or by < 0 or by >= ny or bz < 0 or bz >= nz:
+                    continue
+                b = (bx * ny + by) * nz + bz
+                b0 = start[b]
+                b1 = start[b + 1]
+                if b1 == b0:
+                    continue
+                for i in range(start[a], start[a + 1]):
+                    xi = x[i]
+                    yi = y[i]
+                    zi = z[i]
+                    vi = v[i]
+                    jstart = i + 1 if self_pairs else b0
+                    cand += b1 - jstart
+                    for j in range(jstart, b1):
+                        dx = x[j] - xi
+                        dy = y[j] - yi
+                        dz = z[j] - zi
+                        d2 = dx * dx + dy * dy + dz * dz
+                        if d2 > maxd2:
+                            continue
+                        d = math.sqrt(d2)
+                        xq = d * inv_lag - 0.5
+                        kf = math.ceil(xq)
+                        fr = kf - xq
+                        if fr < guard or fr > 1.0 - guard:
+                            kf = math.ceil(d / lag - 0.5)
+                        if kf > n_lags:
+                            continue
+                        k = max(int(kf), 0)
+                        vj = v[j]
+                        fl = (dz > 0.0) | ((dz == 0.0) & ((dx < 0.0) | ((dx == 0.0) & (dy < 0.0))))
+                        sg = -1.0 if fl else 1.0
+                        dx = dx * sg
+                        dy = dy * sg
+                        dz = dz * sg
+                        if d2 > 0.0:
+                            r = 1.0 / (d - dz)
+                            ix = min(max(int((dx * r + 1.0) * inv_pix), 0), tmax)
+                            iy = min(max(int((dy * r + 1.0) * inv_pix), 0), tmax)
+                            f = np.int64(table[ix, iy])
+                        else:
+                            f = np.int64(0)
+                        kept += 1
+                        delta = vj - vi
+                        sq = delta * delta
+                        row = af[k * n_fine + f]
+                        row[0] += 1.0
+                        row[1] += d
+                        row[2] += sq
+                        if full:
+                            h = vi if fl else vj
+                            t = vj if fl else vi
+                            ad = abs(delta)
+                            row[3] += ad
+                            row[4] += math.sqrt(ad)
+                            row[5] += h
+                            row[6] += t
+                            row[7] += h * h
+                            row[8] += t * t
+                            row[9] += h * t
+                            s = h + t
+                            if s != 0.0:
+                                row[10] += 4.0 * sq / (s * s)
+                                row[11] += 1.0
+                            row[12] += dx
+                            row[13] += dy
+                            row[14] += dz
+                        else:
+                            row[3] += dx
+                            row[4] += dy
+                            row[5] += dz
+        stats[c, 0] += cand
+        stats[c, 1] += kept
+
+
 @njit(cache=True)
 def offset_work(start, dims, occupied, offsets):
     """Candidate pairs per stencil offset (``offsets[0]`` = self), for planning batches."""
@@ -420,16 +537,78 @@ def offset_work(start, dims, occupied, offsets):
     return out
 
 
+@njit(cache=True, inline="always")
+def _add_pair(ac, base, d, vi, vj, dx, dy, dz, n_abs, n_sqrt, n_ht, n_rel, n_vec):
+    """Add one pair (tail ``vi``, partner ``vj``, lag ``(dx, dy, dz)`` from the tail) to the
+    class row starting at ``ac[base]``; the optional channel groups only where flagged.
+    Returns 1 (the pair count) so callers can add it to their tally."""
+    delta = vj - vi
+    sq = delta * delta
+    ac[base] += 1.0
+    ac[base + 1] += d
+    ac[base + 2] += sq
+    if n_abs:
+        ac[base + 3] += abs(delta)
+    if n_sqrt:
+        ac[base + 4] += math.sqrt(abs(delta))
+    if n_ht or n_vec:
+        # canonical orientation (geometry.to_lower_hemisphere): head = tail + lag
+        fl = (dz > 0.0) | ((dz == 0.0) & ((dx < 0.0) | ((dx == 0.0) & (dy < 0.0))))
+        if n_ht:
+            h = vi if fl else vj
+            t = vj if fl else vi
+            ac[base + 5] += h
+            ac[base + 6] += t
+            ac[base + 7] += h * h
+            ac[base + 8] += t * t
+            ac[base + 9] += h * t
+        if n_vec:
+            sg = -1.0 if fl else 1.0
+            ac[base + 12] += dx * sg
+            ac[base + 13] += dy * sg
+            ac[base + 14] += dz * sg
+    if n_rel:
+        s = vi + vj
+        if s != 0.0:
+            ac[base + 10] += 4.0 * sq / (s * s)
+            ac[base + 11] += 1.0
+    return 1
+
+
 @njit(cache=True, parallel=True)
 def exact_pass(x, y, z, v, start, dims, occupied, offsets, q0, q1, n_chunks,
-               maxd2, lag, tol, n_lags, omni, ux, uy, uz, cos_tol, use_band, band2,
-               acc, stats):
-    """Exact directional accumulation into ``acc[c, k*15:(k+1)*15]``, k = 1..n_lags."""
+               maxd2, inv_lag, tol, lo, hi, narrow, n_lags, omni, ux, uy, uz, cos_tol, use_band,
+               band2, need, acc, stats):
+    """Exact directional accumulation into ``acc[c, k*15:(k+1)*15]``, k = 1..n_lags.
+
+    Class rule (design.md): a pair of distance ``d`` belongs to every class
+    ``k`` in 1..n_lags with ``lo[k] < d <= hi[k]`` (``lo[k] = k lag - tol``,
+    ``hi[k] = k lag + tol``, computed once by the caller; ``lo``/``hi`` have
+    n_lags + 3 entries and entries 0, n_lags + 1 and n_lags + 2 (also reached
+    as index -1) are +inf / -inf so they never match). With ``narrow``
+    (tol <= lag / 2, the classes do not overlap) the class is found from the
+    nearest class centre ``round(d / lag)`` (with a multiply by ``1 / lag``);
+    a neighbouring class is tested too when ``d / lag`` lies within a few
+    rounding units of the midpoint between the two centres, so that a pair
+    rounding puts on both sides of a shared bound (or the product puts on the
+    wrong side) is counted exactly as the rule says. Otherwise every class
+    whose interval can hold ``d`` is tested.
+
+    ``need`` (5,) flags the optional channel groups: abs; sqrt; head, tail,
+    head2, tail2, cross; rel, rel_n; dx, dy, dz. Count, dist and sq are always
+    accumulated; a group not needed is left at zero (no per-pair work for it).
+    """
     ny = dims[1]
     nz = dims[2]
     n_off = offsets.shape[0]
+    n_abs = need[0] != 0
+    n_sqrt = need[1] != 0
+    n_ht = need[2] != 0
+    n_rel = need[3] != 0
+    n_vec = need[4] != 0
+    guard = 1e-15 * (n_lags + 2.0)  # a few rounding units of d / lag at the longest class
     for c in prange(n_chunks):
-        vals = np.empty(NCH)
+        ac = acc[c]
         cand = 0
         kept = 0
         first = q0 + ((c - q0) % n_chunks)
@@ -478,33 +657,31 @@ def exact_pass(x, y, z, v, start, dims, occupied, offsets, q0, q1, n_chunks,
                                 continue
                             if use_band and d2 - dot * dot > band2:
                                 continue
-                        kmin = int(math.floor((d - tol) / lag))
-                        kmax = int(math.ceil((d + tol) / lag))
-                        if kmin < 1:
-                            kmin = 1
-                        if kmax > n_lags:
-                            kmax = n_lags
-                        if kmin > kmax:
-                            continue
-                        if dz > 0.0 or (dz == 0.0 and (dx < 0.0 or (dx == 0.0 and dy < 0.0))):
-                            dx = -dx
-                            dy = -dy
-                            dz = -dz
-                            h = vi
-                            t = v[j]
+                        vj = v[j]
+                        if narrow:
+                            # nearest class centre; a neighbour only when rounding may put d
+                            # on its side of a shared bound (d within a few units of a midpoint)
+                            qd = d * inv_lag + 0.5
+                            kc = min(int(qd), n_lags + 1)
+                            if lo[kc] < d and d <= hi[kc]:
+                                kept += _add_pair(ac, kc * NCH, d, vi, vj, dx, dy, dz,
+                                                  n_abs, n_sqrt, n_ht, n_rel, n_vec)
+                            fr = qd - kc
+                            if fr < guard:
+                                if d <= hi[kc - 1] and lo[kc - 1] < d:
+                                    kept += _add_pair(ac, (kc - 1) * NCH, d, vi, vj, dx, dy, dz,
+                                                      n_abs, n_sqrt, n_ht, n_rel, n_vec)
+                            elif fr > 1.0 - guard:
+                                if lo[kc + 1] < d and d <= hi[kc + 1]:
+                                    kept += _add_pair(ac, (kc + 1) * NCH, d, vi, vj, dx, dy, dz,
+                                                      n_abs, n_sqrt, n_ht, n_rel, n_vec)
                         else:
-                            h = v[j]
-                            t = vi
-                        filled = False
-                        for k in range(kmin, kmax + 1):
-                            if k * lag - tol < d and d <= k * lag + tol:
-                                if not filled:
-                                    _pair_values(vals, d, h, t, dx, dy, dz)
-                                    filled = True
-                                kept += 1
-                                base = k * NCH
-                                for ch in range(NCH):
-                                    acc[c, base + ch] += vals[ch]
+                            kmin = max(int(math.floor((d - tol) * inv_lag)) - 1, 1)
+                            kmax = min(int(math.ceil((d + tol) * inv_lag)) + 1, n_lags)
+                            for k in range(kmin, kmax + 1):
+                                if lo[k] < d and d <= hi[k]:
+                                    kept += _add_pair(ac, k * NCH, d, vi, vj, dx, dy, dz,
+                                                      n_abs, n_sqrt, n_ht, n_rel, n_vec)
         stats[c, 0] += cand
         stats[c, 1] += kept
 

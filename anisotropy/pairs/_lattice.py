@@ -3,16 +3,22 @@
 A pair's lag vector is first put in the canonical orientation of
 :func:`anisotropy.geometry.to_lower_hemisphere` (z < 0; if z == 0 then
 x > 0; if also x == 0 then y > 0). Its unit vector ``(x, y, z)`` then has
-Lambert equal-area coordinates
+stereographic coordinates (projection from the zenith onto the horizontal
+plane through the centre of the sphere)
 
-    (X, Y) = sqrt(2 / (1 - z)) * (x, y),      X^2 + Y^2 = 2 (1 + z) <= 2,
+    (X, Y) = (x, y) / (1 - z),      X^2 + Y^2 = (1 + z) / (1 - z) <= 1,
 
-a disc of radius sqrt(2) (the rim holds the horizontal lags). The engine
-precomputes, on a square ``T x T`` grid of pixels covering that disc, the
-index of the lattice direction nearest (as an undirected axis) to the unit
-vector at each pixel centre. Per pair the cell is then one square root, one
-divide, two floors and one table read (see ``_kernels.py``); for a lag vector
-``v`` of length ``d`` the two coordinates are ``v_xy * sqrt(2 / (d (d - v_z)))``.
+a unit disc (the rim holds the horizontal lags, the centre the vertical
+one). For a lag vector ``v`` of length ``d`` that is ``v_xy / (d - v_z)``:
+one divide and no square root, which is why the engine uses this projection
+rather than an equal-area one (the square root per pair was a measurable
+share of the pass; see benchmarks/RESULTS.md). The projection is only an
+index into a lookup table: the engine precomputes, on a square ``T x T`` grid
+of pixels covering the disc, the index of the lattice direction nearest (as
+an undirected axis) to the unit vector at each pixel centre, and per pair
+reads the cell with one divide, two floors and one table read (see
+``_kernels.py``). The inverse used for the pixel centres is
+``u = (2X, 2Y, X^2 + Y^2 - 1) / (1 + X^2 + Y^2)``.
 
 Rim: a horizontal lag ``v`` and ``-v`` are the same axis but land on
 opposite points of the rim. The table is built with the undirected nearest
@@ -25,10 +31,11 @@ Accuracy of the lookup: the answer is exact for the pixel centre; a pair can
 only get a different cell than the true nearest axis when it lies within
 half a pixel diagonal of the boundary between two lattice cells, and then the
 axis it gets is at most one pixel's angular diameter (:func:`pixel_angle`)
-farther from it than the nearest one. With the default lattice (5,954
-directions, 986 x 986 table) that happens to about 4 % of random lag
-directions, and the axis they get is at most 0.24 degrees farther than the
-nearest (bound 0.33); cells are at most about 1.6 degrees in radius.
+farther from it than the nearest one. The stereographic scale is
+``d theta / d rho = 2 / (1 + rho^2)``: 2 radians per unit at the centre, 1 at
+the rim, so a pixel of side ``p`` spans at most ``2 sqrt(2) p`` radians along
+its diagonal. With the default lattice (5,954 directions, 986 x 986 table)
+that bound is 0.33 degrees; cells are at most about 1.6 degrees in radius.
 """
 
 from __future__ import annotations
@@ -45,8 +52,8 @@ __all__ = [
     "DEFAULT_FINE_SPACING",
     "DEFAULT_COARSE_SPACING",
     "lattice",
-    "lambert_table",
-    "lambert_coordinates",
+    "direction_table",
+    "plane_coordinates",
     "nearest_axis",
     "pixel_angle",
 ]
@@ -124,59 +131,58 @@ def nearest_axis(vectors, directions) -> np.ndarray:
     return (np.asarray(idx) % len(d)).astype(np.int64)
 
 
-def lambert_coordinates(vectors) -> np.ndarray:
-    """Lambert equal-area coordinates (X, Y) of canonical lag vectors.
+def plane_coordinates(vectors) -> np.ndarray:
+    """Stereographic coordinates (X, Y) of canonical lag vectors, in the unit disc.
 
-    Same formula as the compiled kernel: ``v_xy * sqrt(2 / (d (d - v_z)))``
-    with ``v`` in the canonical orientation and ``d = |v|``.
+    Same formula as the compiled kernel: ``v_xy / (d - v_z)`` with ``v`` in
+    the canonical orientation and ``d = |v|``.
     """
     v = geometry.to_lower_hemisphere(np.asarray(vectors, dtype=float))
     d = np.sqrt(v[:, 0] * v[:, 0] + v[:, 1] * v[:, 1] + v[:, 2] * v[:, 2])
-    s = np.sqrt(2.0 / (d * (d - v[:, 2])))
-    return np.stack([v[:, 0] * s, v[:, 1] * s], axis=1)
+    r = 1.0 / (d - v[:, 2])
+    return np.stack([v[:, 0] * r, v[:, 1] * r], axis=1)
 
 
 def table_size_for(directions) -> int:
     """Pixels per side of the lookup table for a lattice.
 
-    About 8 pixels across the lattice spacing (so that only pairs very near a
-    cell boundary can be misassigned), between 256 and 2048.
+    About 8 pixels across the lattice spacing where the projection is
+    coarsest (the centre, 2 radians per unit), between 256 and 2048.
     """
     n = len(directions)
     spacing = math.sqrt(2.0 * math.pi / max(n, 1))  # radians, rough
-    # the Lambert radial scale at the rim is cos(45 deg) ~ 0.707 per radian
-    pix = 0.707 * spacing / 8.0
-    t = int(math.ceil(2.0 * _SQRT2 / pix))
+    pix = 0.5 * spacing / 8.0
+    t = int(math.ceil(2.0 / pix))
     return int(min(2048, max(256, t)))
 
 
 def pixel_angle(table_size: int) -> float:
     """Upper bound (degrees) of the angular diameter of one lookup pixel.
 
-    The Lambert map stretches angles by at most 1/cos(45 deg) = sqrt(2)
-    (radially at the rim), so a pixel of side ``p`` spans at most
-    ``sqrt(2) * sqrt(2) * p`` radians along its diagonal.
+    The stereographic map stretches angles by at most 2 (at the centre of the
+    disc), so a pixel of side ``p = 2 / T`` spans at most ``2 sqrt(2) p``
+    radians along its diagonal.
     """
-    p = 2.0 * _SQRT2 / table_size
-    return math.degrees(2.0 * p)
+    p = 2.0 / table_size
+    return math.degrees(2.0 * _SQRT2 * p)
 
 
 @functools.lru_cache(maxsize=8)
 def _table_cached(key: bytes, n: int, table_size: int) -> np.ndarray:
     directions = np.frombuffer(key, dtype=np.float64).reshape(n, 3)
     t = table_size
-    pix = 2.0 * _SQRT2 / t
-    c = -_SQRT2 + (np.arange(t) + 0.5) * pix
+    pix = 2.0 / t
+    c = -1.0 + (np.arange(t) + 0.5) * pix
     X, Y = np.meshgrid(c, c, indexing="ij")
     r2 = X * X + Y * Y
     # pull pixels outside the disc back to the rim (horizontal lags)
-    scale = np.where(r2 > 2.0, np.sqrt(2.0 / np.maximum(r2, 1e-300)), 1.0)
+    scale = np.where(r2 > 1.0, 1.0 / np.sqrt(np.maximum(r2, 1e-300)), 1.0)
     X = X * scale
     Y = Y * scale
-    r2 = np.minimum(r2, 2.0)
-    z = r2 / 2.0 - 1.0
-    f = np.sqrt(np.maximum(0.0, 1.0 - r2 / 4.0))
-    vec = np.stack([X.ravel() * f.ravel(), Y.ravel() * f.ravel(), z.ravel()], axis=1)
+    r2 = np.minimum(r2, 1.0)
+    den = 1.0 + r2
+    vec = np.stack([(2.0 * X / den).ravel(), (2.0 * Y / den).ravel(), ((r2 - 1.0) / den).ravel()],
+                   axis=1)
     # a pixel at the exact centre has (0, 0, -1): fine
     idx = nearest_axis(vec, directions)
     dtype = np.int16 if n < 32000 else np.int32
@@ -185,12 +191,11 @@ def _table_cached(key: bytes, n: int, table_size: int) -> np.ndarray:
     return out
 
 
-def lambert_table(directions, table_size: int | None = None) -> np.ndarray:
+def direction_table(directions, table_size: int | None = None) -> np.ndarray:
     """Lookup table pixel -> nearest lattice axis, shape (T, T).
 
     Row index from X, column index from Y, pixel ``i`` covering
-    ``[-sqrt(2) + i p, -sqrt(2) + (i + 1) p)`` with ``p = 2 sqrt(2) / T``.
-    Cached per lattice.
+    ``[-1 + i p, -1 + (i + 1) p)`` with ``p = 2 / T``. Cached per lattice.
     """
     d = np.ascontiguousarray(directions, dtype=np.float64)
     if table_size is None:
@@ -201,10 +206,10 @@ def lambert_table(directions, table_size: int | None = None) -> np.ndarray:
 def lookup(vectors, table) -> np.ndarray:
     """Cell of each vector through the table (the kernel's rule, in NumPy)."""
     t = table.shape[0]
-    inv_pix = t / (2.0 * _SQRT2)
-    XY = lambert_coordinates(vectors)
-    i = np.clip(np.floor((XY[:, 0] + _SQRT2) * inv_pix), 0, t - 1).astype(np.int64)
-    j = np.clip(np.floor((XY[:, 1] + _SQRT2) * inv_pix), 0, t - 1).astype(np.int64)
+    inv_pix = t / 2.0
+    XY = plane_coordinates(vectors)
+    i = np.clip(np.floor((XY[:, 0] + 1.0) * inv_pix), 0, t - 1).astype(np.int64)
+    j = np.clip(np.floor((XY[:, 1] + 1.0) * inv_pix), 0, t - 1).astype(np.int64)
     return table[i, j].astype(np.int64)
 
 
@@ -218,11 +223,11 @@ def _morton2(i, j, bits=12):
 
 def spatial_order(directions) -> np.ndarray:
     """Permutation that numbers lattice directions along a Z-order curve of
-    their Lambert coordinates, so that neighbouring directions have nearby
+    their plane (stereographic) coordinates, so that neighbouring directions have nearby
     indices (and nearby accumulator memory). The Fibonacci numbering puts
     consecutive indices a golden angle apart, which scatters the bins a
     group of similar lag vectors touches; renumbering keeps them in cache.
     """
-    XY = lambert_coordinates(directions)
-    q = np.clip(((XY + _SQRT2) / (2 * _SQRT2) * 4096).astype(np.int64), 0, 4095)
+    XY = plane_coordinates(directions)
+    q = np.clip(((XY + 1.0) / 2.0 * 4096).astype(np.int64), 0, 4095)
     return np.argsort(_morton2(q[:, 0], q[:, 1]), kind="stable")
