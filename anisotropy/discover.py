@@ -110,7 +110,9 @@ class Discovery:
         unit_lag, n_lags, lag_tolerance, max_distance and the reasons.
     uncertainty : BootstrapResult or None
     diagnostics : dict
-        pairs, directions, selection, residuals per direction, seconds, ...
+        pairs, directions, selection, ``residuals_by_direction`` (the final
+        model against each fan direction's experimental variogram, see
+        ``_residuals_by_direction``), seconds, ...
     warnings : list of str
     volume_, fan_, bins_ : the lag volume, the fan and the fit bins.
     ranges_ : DirectionRanges
@@ -593,6 +595,101 @@ def _iso_fit(bins, total, kind, fixed_nugget=None):
     return f
 
 
+def _residuals_by_direction(model, directions, distance, value, pairs, *, min_pairs,
+                            tolerance, flags):
+    """The fitted model against the experimental variogram of each fan direction.
+
+    The model is evaluated at the lag vector ``distance * direction`` of every
+    lag (:meth:`anisotropy.models.NestedModel.variogram`), and the relative
+    residual ``experimental / model - 1`` is summarised over the lags the fan's
+    range step uses (finite, positive distance and at least ``min_pairs``
+    pairs, as in :func:`anisotropy.fitting.direction_ranges`).
+
+    Parameters
+    ----------
+    model : anisotropy.models.NestedModel
+        The final model.
+    directions : ndarray (n_dir, 3)
+        Fan directions.
+    distance, value, pairs : ndarray (n_dir, n_lags)
+        Mean lag distance, estimator value and pair count per direction and lag.
+    min_pairs : float
+        Fewest pairs for a lag to count.
+    tolerance : ndarray (n_dir,)
+        Angular tolerance (degrees) each direction was read at.
+    flags : list of str
+        The direction-range flag of each direction ("" usable, "thin", ...).
+
+    Returns
+    -------
+    list of dict
+        One row per direction: ``trend``, ``plunge`` (degrees), ``vector``
+        (unit, east-north-up), ``angular_tolerance``, ``flag``, ``n_lags``
+        (lags used), ``pairs`` (in the lags used), ``mean_relative_residual``
+        and ``rms_relative_residual`` (unweighted over the lags used; None
+        without any, computed before rounding), and ``lags``: ``distance``,
+        ``experimental``, ``model`` (6 significant digits), ``pairs`` and
+        ``used`` for every lag of the direction holding pairs.
+    """
+    from anisotropy.geometry import vector_to_line
+
+    u = np.asarray(directions, float)
+    u = u / np.linalg.norm(u, axis=1, keepdims=True)
+    d = np.asarray(distance, float)
+    g = np.asarray(value, float)
+    n = np.asarray(pairs, float)
+    present = np.isfinite(d) & np.isfinite(g) & np.isfinite(n) & (n > 0) & (d > 0)
+    used = present & (n >= min_pairs)
+    mod = np.full(d.shape, np.nan)
+    lagv = np.where(present, d, 0.0)[..., None] * u[:, None, :]
+    mod[present] = model.variogram(lagv[present])
+    with np.errstate(invalid="ignore", divide="ignore"):
+        rel = np.where(used & (mod > 0), g / mod - 1.0, np.nan)
+    trend, plunge = vector_to_line(u)
+    trend, plunge = np.atleast_1d(trend), np.atleast_1d(plunge)
+    rows = []
+    for j in range(len(u)):
+        r = rel[j][np.isfinite(rel[j])]
+        k = present[j]
+        rows.append({
+            "trend": round(float(trend[j]), 2), "plunge": round(float(plunge[j]), 2),
+            "vector": [float(x) for x in u[j]],
+            "angular_tolerance": float(tolerance[j]), "flag": flags[j],
+            "n_lags": int(r.size), "pairs": int(n[j][used[j]].sum()),
+            "mean_relative_residual": float(r.mean()) if r.size else None,
+            "rms_relative_residual": float(np.sqrt(np.mean(r ** 2))) if r.size else None,
+            "lags": {"distance": _sig6(d[j][k]), "experimental": _sig6(g[j][k]),
+                     "model": _sig6(mod[j][k]), "pairs": [int(x) for x in n[j][k]],
+                     "used": used[j][k].tolist()}})
+    return rows
+
+
+def _sig6(a):
+    """Floats to 6 significant digits (the per-lag lists are most of discovery.json)."""
+    return [float(f"{x:.6g}") for x in np.asarray(a, float)]
+
+
+def _worst_direction_line(rows):
+    """One summary line: the typical and the worst fit among well-sampled fan directions.
+
+    Well sampled: not thin, with a residual, and at least the median pairs of
+    such directions.  None when no direction qualifies.
+    """
+    ok = [r for r in rows or [] if r.get("flag") != "thin"
+          and r.get("rms_relative_residual") is not None]
+    if not ok:
+        return None
+    med_pairs = float(np.median([r["pairs"] for r in ok]))
+    well = [r for r in ok if r["pairs"] >= med_pairs]
+    w = max(well, key=lambda r: r["rms_relative_residual"])
+    med_rms = float(np.median([r["rms_relative_residual"] for r in ok]))
+    rms, mean = 100 * w["rms_relative_residual"], 100 * w["mean_relative_residual"]
+    return (f"fit along the fan: median RMS relative residual {100 * med_rms:.0f} % over "
+            f"{len(ok)} directions; worst of the better-sampled half: trend "
+            f"{w['trend']:05.1f}, plunge {w['plunge']:4.1f}, RMS {rms:.0f} % "
+            f"(mean {mean:+.0f} %) over {w['n_lags']} lags, {w['pairs']:,} pairs")
+
+
 def _resolution_warnings(bins, fit_model, frame, lag_info, spacing, holes, warnings, min_pairs):
     """Say which axes the sampling cannot resolve (no short lags along them)."""
     st = max(fit_model.structures, key=lambda s: s.ranges[0])
@@ -671,6 +768,9 @@ def _summary(D: "Discovery") -> str:
     L.append(f"pairs: {dg.get('pairs', 0):,}; fan directions: {dg.get('directions', {}).get('n', 0)}"
              f" ({dg.get('directions', {}).get('thin', 0)} too thin to use); "
              f"fit bins: {dg.get('bins', {}).get('bins', 0)}; run time {dg.get('seconds', 0):.1f} s")
+    worst = _worst_direction_line(dg.get("residuals_by_direction"))
+    if worst:
+        L.append(worst)
     if D.uncertainty is not None and hasattr(D.uncertainty, "to_dict"):
         u = D.uncertainty.to_dict()
         for ax in AXES:
@@ -1120,15 +1220,12 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
                                 sill=float(sum(s.sill for s in model.structures)),
                                 kind=longest.kind, min_pairs=mp_fan)
 
-    # residuals per fan direction (nearest coarse cell of each bin)
-    res_dir = []
-    for c in range(coarse.shape[0]):
-        m = bins.direction_index == c
-        if m.any():
-            res_dir.append({"direction": [float(v) for v in coarse[c]], "bins": int(m.sum()),
-                            "pairs": int(bins.pairs[m].sum()),
-                            "mean_relative_residual": float(np.mean(fit.relative[m])),
-                            "rms_relative_residual": float(np.sqrt(np.mean(fit.relative[m] ** 2)))})
+    # residuals of the final model along each fan direction the geologist sees
+    tol_dir = np.full(len(fan_dirs), tol)
+    if widened:
+        tol_dir[thin] = WIDE_ANGULAR_TOLERANCE
+    res_dir = _residuals_by_direction(model, fan_dirs, dist, gval, npairs, min_pairs=mp_fan,
+                                      tolerance=tol_dir, flags=dr_final.flag)
 
     unresolved = _resolution_warnings(bins, model, frame, lag_info, spacing,
                                       holes is not None, warnings, mp_bin)
