@@ -1015,8 +1015,12 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
         from anisotropy.pairs._lattice import DEFAULT_COARSE_SPACING
         coarse = fan_for_spacing(DEFAULT_COARSE_SPACING)
     n_est = lag_info.pop("pairs_estimated", None)
+    # only the chosen estimator's channels: everything downstream (fits, fan, maps, the
+    # bootstrap's block sums, the report) reads that estimator, and the pass is cheaper
     volume = _pairs.build_volume(samples.coords, tv, lag=lag_u, n_lags=nl,
-                                 coarse_directions=coarse, progress=progress, **bw_kw)
+                                 coarse_directions=coarse, progress=progress,
+                                 channels=estimator, block_channels=estimator,
+                                 map_channels=estimator, **bw_kw)
     coarse = np.asarray(volume.coarse_directions, float)
     n_pairs = int(volume.n_pairs)
     if n_pairs < 100:
@@ -1097,8 +1101,10 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
                     "reason": "as requested" if angular_tolerance is not None else
                     "common practice (15-22.5 degrees); directions thin at this tolerance "
                     f"are re-read at {WIDE_ANGULAR_TOLERANCE:g} degrees"})
-    dist, gval, npairs = (np.asarray(fan.distance, float), np.asarray(fan.value, float),
-                          np.asarray(fan.pairs, float))
+    # copies: thin directions are re-read at a wider tolerance below, and the fan kept on the
+    # result (``fan_``) must stay the fan at the stated tolerance
+    dist, gval, npairs = (np.array(fan.distance, float), np.array(fan.value, float),
+                          np.array(fan.pairs, float))
     dr = direction_ranges(fan_dirs, dist, gval, npairs, nugget=nug0, sill=sill0,
                           kind=kind_list[0], min_pairs=mp_fan)
     widened = 0

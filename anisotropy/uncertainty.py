@@ -1300,9 +1300,13 @@ def model_bootstrap(coords, model, refit: Callable, *, volume, transform=None,
     fields = simulate_field(coords, model, n_realisations=int(n_replicates), seed=seed,
                             method=method)
     fields = np.atleast_2d(fields)
+    # each replicate needs only the coarse sums of the channels the volume kept: no block
+    # sums, no map (the rebuild is the whole cost of a model-bootstrap replicate)
     build_kwargs = dict(lag=float(volume.lag), n_lags=int(volume.n_lags),
                         fine_directions=np.asarray(volume.directions),
-                        coarse_directions=np.asarray(volume.coarse_directions))
+                        coarse_directions=np.asarray(volume.coarse_directions),
+                        channels=tuple(getattr(volume, "channels", None) or ()) or None,
+                        blocks=False, map_cell=False)
     n_workers = 1 if n_jobs == 1 else max(2, abs(int(n_jobs)))
     chunks = np.array_split(np.arange(len(fields)), max(1, min(len(fields), 2 * n_workers)))
     payloads = [(coords, fields[c], transform, build_kwargs, refit, model, "semivariogram")

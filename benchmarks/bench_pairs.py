@@ -1,28 +1,33 @@
 """Speed and memory of the pair engine against a plain cKDTree + NumPy reference.
 
 Layout: an invented jittered blast-hole pattern (6 benches, 4 m pattern, 4 m
-bench height, values lognormal), about 90,000 samples. Workloads:
+bench height, values lognormal), about 90,000 samples, lag 4 m x 15 lags
+(pairs up to 62 m). Workloads (each is what the engine runs for that request):
 
-* ``omni``: one pass to ~60 m (lag 4 m, 15 lags) and the omnidirectional
-  variogram read from it;
-* ``fan``: the same pass and a 400-direction fan (22.5 degree tolerance);
-* ``omni_fine``: as ``omni`` without block sums and map (``blocks=False,
-  map_cell=False``), to show what the two extra accumulators cost;
-* ``omni_lite``: as ``omni`` with block sums and map keeping only what the
-  semivariogram reads (``block_channels=map_channels="semivariogram"``:
-  count, dist, sq, dx, dy, dz), as discover can ask for its estimator.
+* ``omni``: the omnidirectional semivariogram through the public
+  ``anisotropy.experimental_variogram`` (the exact pass; it accumulates only
+  the channels the estimator reads);
+* ``fan``: a 400-direction fan of semivariograms (22.5 degree tolerance) read
+  from a lag volume built for it: ``build_volume(channels="semivariogram",
+  blocks=False, map_cell=False)`` then ``variogram_fan``;
+* ``fan_all_channels``: the same with all 15 channels in the fine sums (what
+  any estimator can be read from afterwards);
+* ``discovery_pass``: ``build_volume`` with its defaults (all channels, block
+  sums for the bootstrap, Cartesian map) and the fan read from it;
+* ``discovery_pass_estimator``: the same keeping one estimator's channels
+  everywhere (``channels = block_channels = map_channels =
+  "semivariogram"``), which is what ``anisotropy.discover`` builds.
 
-The engine runs ``build_volume`` with its defaults (fine ~2 degree lattice,
-coarse ~10 degree lattice, blocks, map). The reference is the plain way:
-``scipy.spatial.cKDTree.query_ball_point`` per sample, pairs j > i, NumPy
-distances and ``bincount`` per class (and, for the fan, a mask and bincount
-per direction). The reference runs on a random subset of tail samples and is
-extrapolated by pairs (its cost is linear in pairs); the output says so.
+The reference is the plain way: ``scipy.spatial.cKDTree.query_ball_point``
+per sample, pairs j > i, NumPy distances and ``bincount`` per class (and, for
+the fan, a mask and bincount per direction). It runs on a random subset of
+tail samples and is extrapolated by pairs (its cost is linear in pairs); the
+output says so.
 
 Every measurement runs in its own subprocess so that the peak resident memory
 (``resource.getrusage(...).ru_maxrss``) is its own. Pairs per second = pairs
 within the maximum distance / wall seconds. CPU seconds are reported too,
-because the machine is shared.
+because the machine may be shared.
 
 Usage::
 
@@ -71,28 +76,44 @@ def _peak_mb():
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
 
 
+VOLUME_WORKLOADS = {
+    "fan": dict(channels="semivariogram", blocks=False, map_cell=False),
+    "fan_all_channels": dict(blocks=False, map_cell=False),
+    "discovery_pass": {},
+    "discovery_pass_estimator": dict(channels="semivariogram", block_channels="semivariogram",
+                                     map_channels="semivariogram"),
+}
+
+
 def run_engine(n, workload, divisions=None):
+    from anisotropy import experimental_variogram
     from anisotropy.directional import variogram_fan
     from anisotropy.geometry import fibonacci_hemisphere
     from anisotropy.pairs import build_volume
-    from anisotropy.estimators import estimate
 
     c, v = blast_holes(n)
-    kw = {} if divisions is None else {"cell_divisions": int(divisions)}
-    if workload == "omni_fine":  # fine bins only: no block sums, no map
-        kw.update(blocks=False, map_cell=False)
-    if workload == "omni_lite":  # block sums and map with the semivariogram's channels only
-        kw.update(block_channels="semivariogram", map_channels="semivariogram")
-    # compile (cached on disk after the first run) on a tiny problem first
+    if workload == "omni":
+        # compile (cached on disk after the first run) on a tiny problem first
+        experimental_variogram(c[:500], v[:500], lag=LAG, n_lags=N_LAGS)
+        base_mb = _peak_mb()
+        t0, p0 = time.perf_counter(), time.process_time()
+        df = experimental_variogram(c, v, lag=LAG, n_lags=N_LAGS)
+        t2, p2 = time.perf_counter(), time.process_time()
+        assert np.isfinite(df["value"]).any()
+        n_pairs = int(df["pairs"].sum())
+        return {"n": len(c), "pairs": n_pairs, "candidates": None, "cell": None,
+                "build_s": t2 - t0, "readout_s": 0.0, "wall_s": t2 - t0, "cpu_s": p2 - p0,
+                "pairs_per_s": n_pairs / (t2 - t0), "peak_mb": _peak_mb(), "before_mb": base_mb,
+                "accumulator_mb": 0.0}
+    kw = dict(VOLUME_WORKLOADS[workload])
+    if divisions is not None:
+        kw["cell_divisions"] = int(divisions)
     build_volume(c[:500], v[:500], lag=LAG, n_lags=N_LAGS, progress=False, **kw)
     base_mb = _peak_mb()
     t0, p0 = time.perf_counter(), time.process_time()
     vol = build_volume(c, v, lag=LAG, n_lags=N_LAGS, progress=False, **kw)
     t1 = time.perf_counter()
-    if workload in ("omni", "omni_fine", "omni_lite"):
-        out = estimate(vol.aggregate(None, 90.0), "semivariogram")
-    else:
-        out = variogram_fan(vol, fibonacci_hemisphere(N_DIRS), angular_tolerance=TOL_DEG).value
+    out = variogram_fan(vol, fibonacci_hemisphere(N_DIRS), angular_tolerance=TOL_DEG).value
     t2, p2 = time.perf_counter(), time.process_time()
     assert np.isfinite(out).any()
     return {"n": len(c), "pairs": vol.n_pairs, "candidates": vol.stats["candidates"],
@@ -199,9 +220,13 @@ def main(argv=None):
     res = {"machine": machine(), "layout": "6 benches, 4 m pattern, 4 m bench, lognormal",
            "lag": LAG, "n_lags": N_LAGS, "max_distance": (N_LAGS + 0.5) * LAG}
     print(json.dumps(res["machine"]), flush=True)
-    for wl, subset in (("omni", 3000), ("fan", 200), ("omni_fine", 3000), ("omni_lite", 3000)):
+    refs = {}
+    for wl in ("omni", "fan", "fan_all_channels", "discovery_pass", "discovery_pass_estimator"):
         e = _spawn("engine", wl, n_main, "None")
-        r = _spawn("reference", "fan" if wl == "fan" else "omni", n_main, subset)
+        kind = "omni" if wl == "omni" else "fan"
+        if kind not in refs:  # one reference run per kind, in the same run as the engine
+            refs[kind] = _spawn("reference", kind, n_main, 3000 if kind == "omni" else 200)
+        r = refs[kind]
         res[wl] = {"engine": e, "reference": r, "speedup": e["pairs_per_s"] / r["pairs_per_s"]}
         print(f"{wl}: engine {e['pairs']:,} pairs {e['wall_s']:.2f} s "
               f"({e['pairs_per_s'] / 1e6:.1f} M pairs/s, cpu {e['cpu_s']:.2f} s, "
@@ -216,16 +241,18 @@ def main(argv=None):
             json.dump(res, fh, indent=1)
         print(f"written {args.out}")
         return
-    for div in (2, 4, 6, 8):
-        e = _spawn("engine", "omni", n_main, div)
+    for div in (4, 6, 8, 10):
+        e = _spawn("engine", "fan", n_main, div)
         res["cells"].append({"divisions": div, **e})
         print(f"cell R/{div} = {e['cell']:.1f} m: candidates/pairs "
               f"{e['candidates'] / e['pairs']:.2f}, {e['wall_s']:.2f} s, cpu {e['cpu_s']:.2f} s",
               flush=True)
-    for n in ((5_000, 10_000, 20_000) if args.quick else (20_000, 40_000, 80_000, 160_000)):
-        e = _spawn("engine", "omni", n, "None")
-        res["scaling"].append(e)
-        print(f"scaling n={e['n']:,}: {e['pairs']:,} pairs, {e['wall_s']:.2f} s, cpu "
+    for wl, n in [(wl, n) for wl in ("omni", "fan")
+                  for n in ((5_000, 10_000, 20_000) if args.quick
+                            else (20_000, 40_000, 80_000, 160_000))]:
+        e = _spawn("engine", wl, n, "None")
+        res["scaling"].append({"workload": wl, **e})
+        print(f"scaling {wl} n={e['n']:,}: {e['pairs']:,} pairs, {e['wall_s']:.2f} s, cpu "
               f"{e['cpu_s']:.2f} s, {e['cpu_s'] / e['pairs'] * 1e9:.1f} cpu-ns/pair, "
               f"peak {e['peak_mb']:.0f} MB", flush=True)
     res["machine_end"] = machine()

@@ -111,7 +111,7 @@ def resolve_channels(spec) -> tuple:
             want.add(it)
         else:
             raise InputError(
-                f"unknown channel or estimator {it!r} for block/map channels; use None, 'all', "
+                f"unknown channel or estimator {it!r} for the volume channels; use None, 'all', "
                 f"estimator names {tuple(ESTIMATOR_CHANNELS)} or channel names {CHANNELS}.")
     for grp in CHANNEL_GROUPS:
         if want.intersection(grp):
