@@ -333,10 +333,27 @@ def atomic_write_text(path: str | os.PathLike, text: str) -> Path:
     return atomic_write_bytes(path, text.encode("utf-8"))
 
 
+#: A JSON array holding only numbers, true, false and null (no strings, no nesting).
+_SCALAR_ARRAY = re.compile(r"\[\s*((?:-?[0-9][0-9.eE+-]*|true|false|null)"
+                           r"(?:\s*,\s*(?:-?[0-9][0-9.eE+-]*|true|false|null))*)\s*\]")
+
+
+def _one_line_arrays(text: str) -> str:
+    """Put each indented array of plain numbers/booleans/nulls on one line.
+
+    ``json.dumps(indent=2)`` writes every list element on its own line, which
+    made per-lag records (e.g. residuals per fan direction) several times
+    larger than their content and hard to read. Only arrays with no strings
+    and no nested containers are joined, so no string content is touched.
+    """
+    return _SCALAR_ARRAY.sub(lambda m: "[" + re.sub(r"\s*,\s*", ", ", m.group(1)) + "]", text)
+
+
 def atomic_write_json(path: str | os.PathLike, obj: Any) -> Path:
-    """Write ``obj`` (made JSON-ready by :func:`json_ready`) atomically, indented."""
+    """Write ``obj`` (made JSON-ready by :func:`json_ready`) atomically, indented, with
+    arrays of plain numbers on one line each."""
     text = json.dumps(json_ready(obj), indent=2, ensure_ascii=False, allow_nan=False)
-    return atomic_write_text(path, text + "\n")
+    return atomic_write_text(path, _one_line_arrays(text) + "\n")
 
 
 def atomic_write_csv(path: str | os.PathLike, rows: Sequence[Mapping[str, Any]],

@@ -153,3 +153,20 @@ def test_atomic_write_failure_keeps_old_file(tmp_path, monkeypatch):
         S.atomic_write_text(p, "new")
     assert p.read_text() == "old"
     assert [q.name for q in tmp_path.iterdir()] == ["f.txt"]
+
+
+def test_json_arrays_of_numbers_on_one_line_round_trip(tmp_path):
+    # json.loads (Python's standard-library RFC 8259 parser) must read back exactly what was
+    # written; only arrays of plain numbers/booleans/nulls are joined onto one line, strings
+    # that look like arrays and arrays holding strings or containers are left as they are.
+    from anisotropy._safety import atomic_write_json
+
+    obj = {"lags": [1, 2.5, -3e-05, None, True, False], "names": ["a , b", "[1, 2]"],
+           "nested": [[1, 2], [3.25, None]], "empty": [], "text": "[4,\n 5]",
+           "rows": [{"d": [0.5, 1.5], "s": "x ]"}]}
+    p = atomic_write_json(tmp_path / "r.json", obj)
+    text = p.read_text(encoding="utf-8")
+    assert json.loads(text) == obj
+    assert '"lags": [1, 2.5, -3e-05, null, true, false]' in text
+    assert '"d": [0.5, 1.5]' in text
+    assert '"a , b",\n' in text  # string arrays keep one element per line
