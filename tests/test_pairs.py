@@ -42,6 +42,14 @@ def channel_rows(V, d, h, t):
                             V[:, 0], V[:, 1], V[:, 2]])
 
 
+def assert_same_bins(a, b):
+    """Same pairs in every bin (counts exactly) and the same sums up to rounding: two routes
+    through the engine (per pair, or block by block through a scratch copy) add the same
+    numbers in different orders."""
+    np.testing.assert_array_equal(a[..., 0], b[..., 0])
+    np.testing.assert_allclose(a, b, rtol=1e-12, atol=1e-12)
+
+
 def binned(rows, idx, n):
     out = np.zeros((n, rows.shape[1]))
     np.add.at(out, idx, rows)
@@ -178,10 +186,17 @@ def test_batches_give_identical_sums(data, volume):
     small = build_volume(c, v, lag=5.0, n_lags=6, blocks=20.0, map_cell=4.0,
                          progress=messages.append, batch_candidates=2000)
     assert small.stats["batches"] > 3
-    # chunks take the same offsets in the same order whatever the batching
-    np.testing.assert_array_equal(small.sums, volume.sums)
-    np.testing.assert_array_equal(small.block_sums, volume.block_sums)
-    np.testing.assert_array_equal(small.map_sums, volume.map_sums)
+    # the same pairs in every bin whatever the batching: counts exactly; the other sums to
+    # rounding (with blocks on, each batch folds its block-by-block scratch sums, so the
+    # order of additions depends on the batches)
+    for a, b in ((small.sums, volume.sums), (small.block_sums, volume.block_sums),
+                 (small.map_sums, volume.map_sums)):
+        np.testing.assert_array_equal(a[..., 0], b[..., 0])
+        np.testing.assert_allclose(a, b, rtol=1e-12, atol=1e-12)
+    # without blocks the chunks take the same offsets in the same order: bit-identical
+    kw = dict(lag=5.0, n_lags=6, blocks=False, map_cell=4.0, progress=False)
+    np.testing.assert_array_equal(build_volume(c, v, batch_candidates=2000, **kw).sums,
+                                  build_volume(c, v, **kw).sums)
     assert "pairs" in messages[0] and any("batch" in m for m in messages[1:])
 
 
@@ -239,7 +254,7 @@ def test_blocks_and_map_can_be_turned_off(data, volume):
     c, v = data
     vol = build_volume(c, v, lag=5.0, n_lags=6, blocks=False, map_cell=False, progress=False)
     assert vol.n_blocks == 0 and vol.map_cell is None
-    np.testing.assert_array_equal(vol.sums, volume.sums)
+    assert_same_bins(vol.sums, volume.sums)
     agg = np.zeros((7, len(vol.coarse_directions), len(CHANNELS)))
     np.add.at(agg, (slice(None), vol.fine_to_coarse), vol.sums)
     np.testing.assert_allclose(vol.coarse_sums(), agg)
@@ -349,9 +364,10 @@ def test_channel_subset_validation(data):
                                        "madogram", "robust"])
 @pytest.mark.parametrize("extras", [False, True], ids=["fine_only", "with_blocks_and_map"])
 def test_fine_channel_subsets(data, volume, estimator, extras):
-    # Fine sums keeping one estimator's channels equal the all-channel run exactly for the
-    # kept channels (same additions in the same order; the all-channel run is checked against
-    # brute force over the pdist pairs above); dropped channels are NaN. Without blocks and
+    # Fine sums keeping one estimator's channels equal the all-channel run for the kept
+    # channels (the same pairs in every bin; sums to rounding, since the blocks-on reference
+    # adds them block by block; the all-channel run is checked against brute force over the
+    # pdist pairs above); dropped channels are NaN. Without blocks and
     # map the semivariogram and the all-channel layouts go through the specialised kernel,
     # the others through the general one: both routes are covered here.
     c, v = data
@@ -360,11 +376,11 @@ def test_fine_channel_subsets(data, volume, estimator, extras):
     kept = [CHANNELS.index(ch) for ch in vol.channels]
     dropped = [i for i in range(len(CHANNELS)) if i not in kept]
     assert vol.channels == pairs_mod.resolve_channels(estimator) and dropped
-    np.testing.assert_array_equal(vol.sums[..., kept], volume.sums[..., kept])
+    assert_same_bins(vol.sums[..., kept], volume.sums[..., kept])
     assert np.isnan(vol.sums[..., dropped]).all()
     if extras:  # blocks and map keep every channel unless told otherwise
-        np.testing.assert_array_equal(vol.block_sums, volume.block_sums)
-        np.testing.assert_array_equal(vol.map_sums, volume.map_sums)
+        assert_same_bins(vol.block_sums, volume.block_sums)
+        assert_same_bins(vol.map_sums, volume.map_sums)
     assert vol.n_pairs == volume.n_pairs
 
 
@@ -391,3 +407,29 @@ def test_class_at_exact_bounds_is_the_divide(lag, extras):
     assert np.sum(np.abs(q - np.round(q)) < 1e-12) > 50
     want = np.bincount(np.maximum(k[keep], 0), minlength=n_lags + 1)
     np.testing.assert_array_equal(vol.sums[..., 0].sum(axis=1), want)
+
+
+@pytest.mark.parametrize("blocks", [3.0, 11.0, (7.0, 13.0, 5.0), 26.0, 200.0])
+def test_block_major_route_bins_every_pair_once(data, blocks):
+    # Block by block (cells searched in each block's extent shifted by half the offset) or
+    # per pair (cell pairs straddling a block boundary): whatever the block size relative to
+    # the search cells (5.4 m here), every pair is binned once, in the block of its midpoint.
+    # Exact brute force over all pairs (numpy.triu_indices, as scipy's pdist enumerates them).
+    c, v = data
+    vol = build_volume(c, v, lag=5.0, n_lags=6, blocks=blocks, map_cell=4.0, progress=False)
+    i, j, V, d, h, t = brute_pairs(c, v)
+    k = np.ceil(d / 5.0 - 0.5).astype(int)
+    keep = k <= 6
+    assert vol.n_pairs == keep.sum()
+    mid = 0.5 * (c[i] + c[j])[keep]
+    shape = np.array(vol.block_shape)
+    b = np.minimum(np.floor((mid - vol.block_origin) / vol.block_size).astype(int), shape - 1)
+    flat = (b[:, 0] * shape[1] + b[:, 1]) * shape[2] + b[:, 2]
+    np.testing.assert_array_equal(vol.block_sums[..., 0].sum(axis=(1, 2)),
+                                  np.bincount(flat, minlength=vol.n_blocks))
+    # per block and lag class, the sum of squared differences (Matheron's numerator)
+    want = np.zeros((vol.n_blocks, 7))
+    np.add.at(want, (flat, k[keep]), (h - t)[keep] ** 2)
+    np.testing.assert_allclose(vol.block_sums[..., 2].sum(axis=2), want, rtol=1e-11, atol=1e-11)
+    want_fine = binned(channel_rows(V, d, h, t)[keep], k[keep], 7)
+    np.testing.assert_allclose(vol.sums.sum(axis=1), want_fine, rtol=1e-10, atol=1e-9)

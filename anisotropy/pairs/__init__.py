@@ -697,6 +697,18 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
     memory += table.nbytes
 
     grid, off, work, batches = _grid_and_plan(cl, max_distance, cell_divisions, batch_candidates)
+    # blocks whose channels the fine sums hold go block by block: pairs are binned into a
+    # scratch copy of the fine sums and each block's sums are folded from it, so the cell
+    # pairs inside one block cost no per-pair block work (the grid starts at the shifted
+    # origin 0, which the block-major kernel's cell ranges assume)
+    block_major = bool(do_blocks and set(bkeep) <= set(fkeep) and np.all(grid.origin == 0.0))
+    if block_major:
+        acc_scratch = _aligned_zeros(acc_fine.shape)
+        touched = np.zeros(acc_fine.shape[:2], dtype=np.int64)
+        memory += acc_scratch.nbytes + touched.nbytes
+    else:
+        acc_scratch = np.zeros((1, 1, 1))
+        touched = np.zeros((1, 1), dtype=np.int64)
     est = None
     loud = callable(progress) or (progress is True and work.sum() > ANNOUNCE_PAIRS)
     if loud:
@@ -724,12 +736,20 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
                                n_chunks, maxd2, lag, n_lags, table, inv_pix,
                                fkeep == CHANNELS, acc_fine, stats)
         else:
+            if block_major:
+                _kernels.block_major_pass(x, y, z, vv, grid.start, grid.dims, grid.occupied, off,
+                                          q0, q1, n_chunks, maxd2, lag, n_lags, table, inv_pix,
+                                          f2c, n_coarse, borig, binv, size, bshape,
+                                          float(grid.cell), do_map,
+                                          (1.0 / mc) if do_map else 0.0, mhalf, acc_fine,
+                                          acc_scratch, touched, acc_blk, acc_map, stats,
+                                          occ_index, cell_lo, cell_hi, fcols, bcols, mcols)
             _kernels.volume_pass(x, y, z, vv, grid.start, grid.dims, grid.occupied, off, q0, q1,
                                  n_chunks, maxd2, lag, n_lags, table, inv_pix, f2c, n_coarse,
                                  do_blocks, borig, binv, bshape, do_map,
                                  (1.0 / mc) if do_map else 0.0, mhalf,
                                  acc_fine, acc_blk, acc_map, stats, occ_index, cell_lo, cell_hi,
-                                 fcols, bcols, mcols)
+                                 fcols, bcols, mcols, block_major)
         if loud and len(batches) > 1:
             done = float(work[:q1].sum() / max(work.sum(), 1))
             _announce(progress, f"pair engine: batch {bi + 1}/{len(batches)} done "

@@ -50,8 +50,11 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                 maxd2, lag, n_lags, table, inv_pix, f2c, n_coarse,
                 do_blocks, borig, binv, bshape, do_map, minv, mhalf,
                 acc_fine, acc_blk, acc_map, stats, occ_index, cell_lo, cell_hi,
-                fcols, bcols, mcols):
+                fcols, bcols, mcols, skip_const):
     """Accumulate the pairs of stencil offsets ``g0 <= g < g1`` over all occupied cells.
+
+    With ``skip_const`` (blocks on), the cell pairs whose pairs all fall in one block are
+    skipped: :func:`block_major_pass` has binned them.
 
     Accumulators are (n_chunks, n_bins, width) with the kept channels of a
     bin contiguous in one row of 8 or 16 doubles (64 or 128 bytes, starting
@@ -202,6 +205,8 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                         bl = bl * bshape[ax_] + lo
                     if same:
                         bconst = bl
+                        if skip_const:
+                            continue
                 for i in range(a0, a1):
                     xi = x[i]
                     yi = y[i]
@@ -395,6 +400,269 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
             if kb10 >= 0:
                 ab[bcur, kb10] += bq10
                 ab[bcur, kb11] += bq11
+        stats[c, 0] += cand
+        stats[c, 1] += kept
+
+
+@njit(cache=True, parallel=True)
+def block_major_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
+                     maxd2, lag, n_lags, table, inv_pix, f2c, n_coarse,
+                     borig, binv, bsize, bshape, cell, do_map, minv, mhalf,
+                     acc_fine, acc_scratch, touched, acc_blk, acc_map, stats,
+                     occ_index, cell_lo, cell_hi, fcols, bcols, mcols):
+    """The cell pairs of offsets ``g0 <= g < g1`` whose pairs all have their midpoint in one
+    block, block by block; the other cell pairs are left to :func:`volume_pass` with
+    ``skip_const``.
+
+    Chunk ``c`` takes the blocks ``B`` with ``B % n_chunks == c``. For one block it bins the
+    pairs of every cell pair credited to that block into a scratch copy of the fine sums
+    (``acc_scratch[c]``, zero between blocks), then folds the touched scratch rows (listed in
+    ``touched[c]``) into the fine sums and, through ``fine_to_coarse``, into that block's
+    coarse sums. So the block sums cost one fold per touched row per block instead of work
+    per pair. The block of a cell pair is the rule of :func:`volume_pass` (the block of the
+    midpoints of the two cells' sample bounding boxes, when both corners agree), so block
+    sums are identical in content to the per-pair route (up to the order of additions).
+
+    Cells whose cell pair can be credited to block ``B`` for offset ``o``: the midpoints of
+    the pairs lie in ``[(a + o/2) c, (a + o/2 + 1) c]`` per axis for cell index ``a`` and
+    cell side ``c`` (the grid starts at 0), so ``a`` is searched in the block's extent in
+    cells shifted by ``-o/2``, one cell wider on each side; the block test itself is exact.
+    Block channels must be a subset of the fine channels (the caller checks).
+    """
+    tsize = table.shape[0]
+    tmax = tsize - 1
+    n_fine = f2c.shape[0]
+    n_cls = n_lags + 1
+    mny = 2 * mhalf + 1
+    mnz = mhalf + 1
+    nx = dims[0]
+    ny = dims[1]
+    nz = dims[2]
+    n_blocks = bshape[0] * bshape[1] * bshape[2]
+    fw = acc_fine.shape[2]
+    inv_lag = 1.0 / lag
+    guard = 1e-15 * (n_lags + 2.0)
+    kf1 = fcols[1]
+    kf2 = fcols[2]
+    kf3 = fcols[3]
+    kf4 = fcols[4]
+    kf5 = fcols[5]
+    kf6 = fcols[6]
+    kf7 = fcols[7]
+    kf8 = fcols[8]
+    kf9 = fcols[9]
+    kf10 = fcols[10]
+    kf11 = fcols[11]
+    kf12 = fcols[12]
+    kf13 = fcols[13]
+    kf14 = fcols[14]
+    km0 = mcols[0]
+    km1 = mcols[1]
+    km2 = mcols[2]
+    km3 = mcols[3]
+    km4 = mcols[4]
+    km5 = mcols[5]
+    km6 = mcols[6]
+    km7 = mcols[7]
+    km8 = mcols[8]
+    km9 = mcols[9]
+    km10 = mcols[10]
+    km11 = mcols[11]
+    km12 = mcols[12]
+    km13 = mcols[13]
+    km14 = mcols[14]
+    w_sqrt = kf4 >= 0 or (do_map and km4 >= 0)
+    w_rel = kf10 >= 0 or (do_map and km10 >= 0)
+    # (fine column, block column) of every channel the blocks keep
+    n_pairs_cols = 0
+    for ch in range(bcols.shape[0]):
+        if bcols[ch] >= 0:
+            n_pairs_cols += 1
+    fold_f = np.empty(n_pairs_cols, dtype=np.int64)
+    fold_b = np.empty(n_pairs_cols, dtype=np.int64)
+    m_ = 0
+    for ch in range(bcols.shape[0]):
+        if bcols[ch] >= 0:
+            fold_f[m_] = fcols[ch]
+            fold_b[m_] = bcols[ch]
+            m_ += 1
+    for c in prange(n_chunks):
+        af = acc_fine[c]
+        sc = acc_scratch[c]
+        tl = touched[c]
+        ab = acc_blk[c]
+        am = acc_map[c]
+        cand = 0
+        kept = 0
+        for B in range(c, n_blocks, n_chunks):
+            bi0 = B // (bshape[1] * bshape[2])
+            bi1 = (B // bshape[2]) % bshape[1]
+            bi2 = B % bshape[2]
+            nt = 0
+            for g in range(g0, g1):
+                ox = offsets[g, 0]
+                oy = offsets[g, 1]
+                oz = offsets[g, 2]
+                self_pairs = ox == 0 and oy == 0 and oz == 0
+                # candidate cell ranges (see the docstring), clipped to the grid for a and a + o
+                lo0 = 0 if bi0 == 0 else int(math.floor(bi0 * bsize[0] / cell - 0.5 * ox)) - 2
+                hi0 = nx - 1 if bi0 == bshape[0] - 1 else \
+                    int(math.ceil((bi0 + 1) * bsize[0] / cell - 0.5 * ox)) + 1
+                lo1 = 0 if bi1 == 0 else int(math.floor(bi1 * bsize[1] / cell - 0.5 * oy)) - 2
+                hi1 = ny - 1 if bi1 == bshape[1] - 1 else \
+                    int(math.ceil((bi1 + 1) * bsize[1] / cell - 0.5 * oy)) + 1
+                lo2 = 0 if bi2 == 0 else int(math.floor(bi2 * bsize[2] / cell - 0.5 * oz)) - 2
+                hi2 = nz - 1 if bi2 == bshape[2] - 1 else \
+                    int(math.ceil((bi2 + 1) * bsize[2] / cell - 0.5 * oz)) + 1
+                lo0 = max(lo0, 0, -ox)
+                hi0 = min(hi0, nx - 1, nx - 1 - ox)
+                lo1 = max(lo1, 0, -oy)
+                hi1 = min(hi1, ny - 1, ny - 1 - oy)
+                lo2 = max(lo2, 0, -oz)
+                hi2 = min(hi2, nz - 1, nz - 1 - oz)
+                for ax in range(lo0, hi0 + 1):
+                    for ay in range(lo1, hi1 + 1):
+                        for az in range(lo2, hi2 + 1):
+                            a = (ax * ny + ay) * nz + az
+                            a0 = start[a]
+                            a1 = start[a + 1]
+                            if a1 == a0:
+                                continue
+                            b = ((ax + ox) * ny + (ay + oy)) * nz + (az + oz)
+                            b0 = start[b]
+                            b1 = start[b + 1]
+                            if b1 == b0:
+                                continue
+                            qa = occ_index[a]
+                            qb = occ_index[b]
+                            same = True
+                            bl = 0
+                            for ax_ in range(3):
+                                # exactly volume_pass's test (same operations), so every cell
+                                # pair goes to exactly one of the two kernels
+                                lo = int(math.floor((0.5 * (cell_lo[qa, ax_] + cell_lo[qb, ax_])
+                                                     - borig[ax_]) * binv[ax_]))
+                                hi = int(math.floor((0.5 * (cell_hi[qa, ax_] + cell_hi[qb, ax_])
+                                                     - borig[ax_]) * binv[ax_]))
+                                lo = min(max(lo, 0), bshape[ax_] - 1)
+                                hi = min(max(hi, 0), bshape[ax_] - 1)
+                                if lo != hi:
+                                    same = False
+                                bl = bl * bshape[ax_] + lo
+                            if not same or bl != B:
+                                continue
+                            for i in range(a0, a1):
+                                xi = x[i]
+                                yi = y[i]
+                                zi = z[i]
+                                vi = v[i]
+                                jstart = i + 1 if self_pairs else b0
+                                cand += b1 - jstart
+                                for j in range(jstart, b1):
+                                    dx = x[j] - xi
+                                    dy = y[j] - yi
+                                    dz = z[j] - zi
+                                    d2 = dx * dx + dy * dy + dz * dz
+                                    if d2 > maxd2:
+                                        continue
+                                    d = math.sqrt(d2)
+                                    xq = d * inv_lag - 0.5
+                                    kf = math.ceil(xq)
+                                    fr = kf - xq
+                                    if fr < guard or fr > 1.0 - guard:
+                                        kf = math.ceil(d / lag - 0.5)
+                                    if kf > n_lags:
+                                        continue
+                                    k = max(int(kf), 0)
+                                    vj = v[j]
+                                    fl = (dz > 0.0) | ((dz == 0.0) & ((dx < 0.0) | ((dx == 0.0) & (dy < 0.0))))
+                                    sg = -1.0 if fl else 1.0
+                                    dx = dx * sg
+                                    dy = dy * sg
+                                    dz = dz * sg
+                                    h = vi if fl else vj
+                                    t = vj if fl else vi
+                                    if d2 > 0.0:
+                                        r = 1.0 / (d - dz)
+                                        ix = min(max(int((dx * r + 1.0) * inv_pix), 0), tmax)
+                                        iy = min(max(int((dy * r + 1.0) * inv_pix), 0), tmax)
+                                        f = np.int64(table[ix, iy])
+                                    else:
+                                        f = np.int64(0)
+                                    kept += 1
+                                    delta = h - t
+                                    sq = delta * delta
+                                    ad = abs(delta)
+                                    sr = math.sqrt(ad) if w_sqrt else 0.0
+                                    rel = 0.0
+                                    reln = 0.0
+                                    if w_rel:
+                                        ssum = h + t
+                                        if ssum != 0.0:
+                                            rel = 4.0 * sq / (ssum * ssum)
+                                            reln = 1.0
+                                    fb = k * n_fine + f
+                                    if sc[fb, 0] == 0.0:
+                                        tl[nt] = fb
+                                        nt += 1
+                                    sc[fb, 0] += 1.0
+                                    sc[fb, kf1] += d
+                                    sc[fb, kf12] += dx
+                                    sc[fb, kf13] += dy
+                                    sc[fb, kf14] += dz
+                                    if kf2 >= 0:
+                                        sc[fb, kf2] += sq
+                                    if kf3 >= 0:
+                                        sc[fb, kf3] += ad
+                                    if kf4 >= 0:
+                                        sc[fb, kf4] += sr
+                                    if kf5 >= 0:
+                                        sc[fb, kf5] += h
+                                        sc[fb, kf6] += t
+                                        sc[fb, kf7] += h * h
+                                        sc[fb, kf8] += t * t
+                                        sc[fb, kf9] += h * t
+                                    if kf10 >= 0:
+                                        sc[fb, kf10] += rel
+                                        sc[fb, kf11] += reln
+                                    if do_map:
+                                        mx = int(math.floor(dx * minv + 0.5)) + mhalf
+                                        my = int(math.floor(dy * minv + 0.5)) + mhalf
+                                        mz = int(math.floor(dz * minv + 0.5)) + mhalf
+                                        mx = min(max(mx, 0), mny - 1)
+                                        my = min(max(my, 0), mny - 1)
+                                        mz = min(max(mz, 0), mnz - 1)
+                                        mb = (mx * mny + my) * mnz + mz
+                                        am[mb, km0] += 1.0
+                                        am[mb, km1] += d
+                                        am[mb, km12] += dx
+                                        am[mb, km13] += dy
+                                        am[mb, km14] += dz
+                                        if km2 >= 0:
+                                            am[mb, km2] += sq
+                                        if km3 >= 0:
+                                            am[mb, km3] += ad
+                                        if km4 >= 0:
+                                            am[mb, km4] += sr
+                                        if km5 >= 0:
+                                            am[mb, km5] += h
+                                            am[mb, km6] += t
+                                            am[mb, km7] += h * h
+                                            am[mb, km8] += t * t
+                                            am[mb, km9] += h * t
+                                        if km10 >= 0:
+                                            am[mb, km10] += rel
+                                            am[mb, km11] += reln
+            # fold the touched scratch rows into the fine sums and this block's coarse sums
+            for u in range(nt):
+                fb = tl[u]
+                k = fb // n_fine
+                rb = (B * n_cls + k) * n_coarse + f2c[fb - k * n_fine]
+                for m in range(fold_f.shape[0]):
+                    ab[rb, fold_b[m]] += sc[fb, fold_f[m]]
+                for col in range(fw):
+                    af[fb, col] += sc[fb, col]
+                    sc[fb, col] = 0.0
         stats[c, 0] += cand
         stats[c, 1] += kept
 
