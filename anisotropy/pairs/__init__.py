@@ -41,9 +41,14 @@ brute-force tests):
   of the canonical lag ``v``; only the canonical half (z <= 0) is stored,
   see :meth:`LagVolume.full_map` for the symmetrised read-out.
 
-Block sums and map may keep only the channels one estimator reads
-(``block_channels`` / ``map_channels`` of :func:`build_volume`; the others
-are NaN), which makes the pass about 15 % cheaper; the default keeps all.
+The fine sums, block sums and map may keep only the channels one estimator
+reads (``channels`` / ``block_channels`` / ``map_channels`` of
+:func:`build_volume`; the others are NaN), which makes the pass cheaper (a
+channel no accumulator keeps costs nothing per pair; measured in
+benchmarks/RESULTS.md); the default keeps all. When the fine sums hold every
+channel the blocks keep, the pass goes block by block: the cell pairs inside
+one block are binned into a scratch copy of the fine sums and the block's
+sums are folded from it, so block sums cost no per-pair work for them.
 
 Memory is bounded independently of the number of pairs: the accumulators
 (one slice per work chunk plus the merged result) are the only large arrays,

@@ -1,19 +1,28 @@
 """Compiled pair loops (Numba, ``cache=True``).
 
-Two passes share the same cell-list walk (see ``_cells.py``):
+The passes share the same cell-list walk (see ``_cells.py``):
 
 * :func:`volume_pass` bins every pair into (distance class x fine direction
   cell), into (block x class x coarse cell) and into the Cartesian map;
+* :func:`block_major_pass` does the same block by block for the cell pairs
+  that lie inside one block, folding each block's sums from a scratch copy
+  of the fine sums (``volume_pass`` with ``skip_const`` then takes the cell
+  pairs that straddle a block boundary);
+* :func:`fine_pass` is ``volume_pass`` without blocks and map for the two
+  fixed row layouts (all channels; the semivariogram's), with constant
+  columns;
 * :func:`exact_pass` applies the lag-class, angle and bandwidth rules of
-  design.md to every pair for one direction.
+  design.md to every pair for one direction, doing no work for the channels
+  the estimator does not read.
 
-Work is split into a fixed number of chunks (``n_chunks``); chunk ``t``
-handles the occupied cells whose position in the occupied-cell list is
-``t`` modulo ``n_chunks`` and adds into its own slice of the accumulators,
-so there are no write conflicts, the result does not depend on the number of
-threads, and batching a run (calling the pass on consecutive ranges of
-occupied cells) gives bit-identical sums. Slices are merged once at the end,
-in Python.
+Work is split into a fixed number of chunks (``n_chunks``); a chunk takes
+every ``n_chunks``-th stencil offset (volume), occupied cell (exact) or block
+(block-major) and adds into its own slice of the accumulators, so there are
+no write conflicts and the result does not depend on the number of threads.
+Without blocks, batching a run (consecutive ranges of offsets) gives
+bit-identical sums; with blocks the block-by-block folds make the order of
+additions depend on the batches (sums equal to rounding, counts exactly).
+Slices are merged once at the end, in Python.
 
 Per pair (volume): a squared distance, one square root for the distance, a
 multiply for the class (the divide only next to a class bound), the canonical

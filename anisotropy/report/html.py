@@ -232,10 +232,15 @@ def _fig_map(disc, path, which):
 
 
 def _num(x, fmt):
+    """``format(x, fmt)``; a significant-figure spec (``.3g``) writes values under 0.001 in
+    exponent form (3.82e-04, not 0.000382), which reads better in a table."""
     try:
-        return format(float(x), fmt)
+        x = float(x)
     except (TypeError, ValueError):
         return "?"
+    if fmt.endswith("g") and fmt[:-1].lstrip(".").isdigit() and 0.0 < abs(x) < 1e-3:
+        return format(x, f".{max(int(fmt[:-1].lstrip('.')) - 1, 0)}e")
+    return format(x, fmt)
 
 
 def _axis_label(vec):
