@@ -618,9 +618,21 @@ def _execute(tasks: Sequence[Mapping], frame, *, jobs, scheduler, progress):
     n = int(jobs)
     if n == 0:
         raise InputError("--jobs must be a positive number of processes (or -1 for all cores)")
+    _warm_up(progress)
     results = Parallel(n_jobs=n, backend="loky", return_as="generator_unordered")(
         delayed(_run_domain)(t, frame) for t in tasks)
     return [say(r) for r in results]
+
+
+def _warm_up(progress):
+    """Compile the pair kernels once here, before the worker processes start (a fresh
+    installation would otherwise compile them in every worker at once)."""
+    from anisotropy.pairs import warm_up
+
+    seconds = warm_up()
+    if progress and seconds > 2.0:
+        print(f"  compiled the pair kernels once for all workers ({seconds:.0f} s, cached "
+              "on disk for later runs)", flush=True)
 
 
 def _execute_dask(tasks, frame, scheduler, say):

@@ -433,3 +433,25 @@ def test_block_major_route_bins_every_pair_once(data, blocks):
     np.testing.assert_allclose(vol.block_sums[..., 2].sum(axis=2), want, rtol=1e-11, atol=1e-11)
     want_fine = binned(channel_rows(V, d, h, t)[keep], k[keep], 7)
     np.testing.assert_allclose(vol.sums.sum(axis=1), want_fine, rtol=1e-10, atol=1e-9)
+
+
+def test_warm_up_compiles_what_a_discovery_uses():
+    # After warm_up, a discovery (with a block bootstrap, so blocks, map and one estimator's
+    # channels are all on) must not need any kernel signature that warm_up did not compile:
+    # Numba's dispatcher lists every compiled signature (`signatures`), so a new one would
+    # mean the workers of a batch compile again.
+    from anisotropy.discover import discover
+    from anisotropy.pairs import _kernels, warm_up
+
+    warm_up()
+    kernels = [_kernels.volume_pass, _kernels.block_major_pass, _kernels.exact_pass]
+    before = [set(k.signatures) for k in kernels]
+    assert all(before)
+    rng = np.random.default_rng(5)
+    c = rng.random((400, 3)) * [120.0, 100.0, 60.0]
+    v = np.sin(c[:, 0] / 25.0) + 0.3 * rng.standard_normal(len(c))
+    import pandas as pd
+
+    discover(pd.DataFrame({"x": c[:, 0], "y": c[:, 1], "z": c[:, 2], "g": v}), value="g",
+             bootstrap=2, seed=0)
+    assert [set(k.signatures) for k in kernels] == before

@@ -79,6 +79,7 @@ __all__ = [
     "plan_run",
     "direction_vector",
     "resolve_channels",
+    "warm_up",
     "CORE_CHANNELS",
     "ESTIMATOR_CHANNELS",
 ]
@@ -786,3 +787,28 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
                "estimated_pairs": -1 if est is None else int(est)},
         channels=fkeep, block_channels=bkeep, map_channels=mkeep,
     )
+
+
+def warm_up() -> float:
+    """Compile (or load from Numba's on-disk cache) the kernels a discovery uses.
+
+    The kernels are compiled for argument *types*, so a pass over a few random
+    samples with the options ``anisotropy.discover`` passes (blocks, map, one
+    estimator's channels) and an exact variogram compile everything a real
+    run needs. Call it once in a parent process before starting several
+    worker processes: otherwise, on a fresh installation, every worker
+    compiles the same kernels at the same time (about half a minute each on
+    two cores). Returns the seconds it took (well under one once cached).
+    """
+    from ..directional import experimental_variogram
+
+    t0 = time.perf_counter()
+    rng = np.random.default_rng(0)
+    c = rng.random((60, 3)) * 20.0
+    v = rng.random(60)
+    for est in ("semivariogram", None):
+        build_volume(c, v, lag=2.0, n_lags=4, progress=False, channels=est,
+                     block_channels=est, map_channels=est)
+    experimental_variogram(c, v, lag=2.0, n_lags=4)
+    experimental_variogram(c, v, lag=2.0, n_lags=4, direction=(0.0, 0.0))
+    return time.perf_counter() - t0
