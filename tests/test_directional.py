@@ -288,7 +288,8 @@ def test_exact_sums_channel_subsets(estimator):
         full = exact_sums(c, v, lag=4.0, n_lags=6, direction=direction, lag_tolerance=lag_tol)
         sub = exact_sums(c, v, lag=4.0, n_lags=6, direction=direction, lag_tolerance=lag_tol,
                          channels=estimator)
-        kept = [CHANNELS.index(ch) for ch in resolve_channels(estimator)]
+        kept = [CHANNELS.index(ch) for ch in resolve_channels(estimator)
+                if ch not in ("dx", "dy", "dz")]
         dropped = [i for i in range(len(CHANNELS)) if i not in kept]
         np.testing.assert_array_equal(sub[:, kept], full[:, kept])
         assert np.isnan(sub[:, dropped]).all()
