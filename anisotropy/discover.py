@@ -66,6 +66,7 @@ N_RANDOM_STARTS = 8
 # layouts without drill-hole strings; larger sets are subsampled to this size.
 LIKELIHOOD_REFINEMENT = True
 LIKELIHOOD_MAX_SAMPLES = 2000
+LIKELIHOOD_NEIGHBOURS = 20      # 30: more accurate, about twice the time (RESULTS.md)
 
 
 def _f(x):
@@ -1246,9 +1247,12 @@ def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings):
     from anisotropy.fitting import fit_nested
     from anisotropy.fitting.likelihood import refine_frame_likelihood
 
+    if len(coords) < 100:  # too few samples for the likelihood to add anything
+        return fit
     try:
         lk = refine_frame_likelihood(coords, values, fit.frame, fit.ranges, fit.nugget,
                                      fit.sills, fit.kinds, seed=seed,
+                                     n_neighbours=LIKELIHOOD_NEIGHBOURS,
                                      max_samples=LIKELIHOOD_MAX_SAMPLES)
         kw = dict(common)
         kw["make_model"] = True
