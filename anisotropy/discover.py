@@ -62,6 +62,11 @@ MIN_LAGS, MAX_LAGS_AUTO = 12, 20
 MIN_SAMPLES = 30
 PAIR_BUDGET = 1.5e8             # pairs in the one pass, for automatic lags
 N_RANDOM_STARTS = 8
+# Frame refinement by the nearest-neighbour likelihood (fitting.likelihood) for
+# layouts without drill-hole strings; larger sets are subsampled to this size.
+LIKELIHOOD_REFINEMENT = True
+LIKELIHOOD_MAX_SAMPLES = 2000
+LIKELIHOOD_NEIGHBOURS = 20      # 30: more accurate, about twice the time (RESULTS.md)
 
 
 def _f(x):
@@ -244,7 +249,10 @@ class Discovery:
         nugget policy, one re-weighting pass (the Cressie denominators of the
         warm start) and a relative cost tolerance of 1e-5; ``fixed_frame`` holds the frame (for checking an
         interpretation).  No pass over the pairs.  The returned model's frame
-        is ordered and canonical like the main one.
+        is ordered and canonical like the main one.  Where the main frame was
+        refined by the likelihood, each replicate's frame is turned by the
+        same rotation (the refinement needs the samples, which a re-weighted
+        replicate does not have).
         """
         st = dict(self._refit_state)
         main = self.model
@@ -258,6 +266,14 @@ class Discovery:
             if bins.n < 3:
                 raise FitError("a replicate has fewer than 3 fit bins with enough pairs")
             s0 = start if start is not None else main
+            Q = st.get("frame_correction")
+            if Q is not None and fixed_frame is None:
+                # the main frame was refined by the likelihood: the replicate's
+                # variogram fit starts from the variogram's own frame and is
+                # turned by the same rotation afterwards
+                from anisotropy.fitting.nested import _from_model
+                s0 = _from_model(s0) if not isinstance(s0, tuple) else s0
+                s0 = (Q.T @ np.asarray(s0[0], float),) + tuple(s0[1:])
             f = fit_nested(bins, s0, n_structures=len(main.structures),
                            kinds=tuple(x.kind for x in main.structures),
                            fixed_frame=fixed_frame, fixed_nugget=st["fixed_nugget"],
@@ -265,6 +281,8 @@ class Discovery:
                            min_range=st["min_range"], max_range=st["max_range"],
                            planar=st["planar"], ftol=1e-5, outer=1,
                            shared_ratios=st["shared_ratios"], make_model=False)
+            if Q is not None and fixed_frame is None:
+                f.frame = Q @ np.asarray(f.frame, float)
             model = _ordered_model(f, keep_frame=fixed_frame is not None,
                                    planar=st["planar"])
             return model, float(f.objective)
@@ -1211,6 +1229,9 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
                             max_range=hi_r, planar=planar, ftol=1e-6,
                             shared_ratios=shared_ratios)
     fit = sel.best
+    if (LIKELIHOOD_REFINEMENT and holes is None and not planar and tr.kind != "indicator"
+            and estimator in ("semivariogram", "robust")):
+        fit = _refine_frame(fit, bins, samples.coords, tv, seed, common, choices, warnings)
     if n_str is None:
         choices.append({"choice": "structures", "value": len(fit.sills),
                         "reason": "chosen by BIC with a minimum gain (see diagnostics."
@@ -1268,6 +1289,7 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
         "units": units,
         "unresolved_axes": unresolved,
         "selection": sel.to_dict(),
+        "frame_refinement": fit.info.get("likelihood"),
         "starts": tried,
         "kinds": kind_table,
         "ellipsoid": None if ell is None else ell.to_dict(),
@@ -1286,9 +1308,13 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
                   fit_=fit)
     D._refit_state = {"estimator": estimator, "min_pairs": mp_bin, "weight_ratio": ratio,
                       "fixed_nugget": fixed_nugget, "total_sill": total,
-                      "max_nfev": 60 * (fit.n_params + 1), "min_range": lo_r,
+                      # a refined fit held its frame: replicates free it (3 more parameters)
+                      "max_nfev": 60 * (fit.n_params + 1
+                                        + (3 if "frame_correction" in fit.info else 0)),
+                      "min_range": lo_r,
                       "max_range": hi_r, "planar": planar,
-                      "shared_ratios": shared_ratios}
+                      "shared_ratios": shared_ratios,
+                      "frame_correction": fit.info.get("frame_correction")}
 
     if bootstrap and int(bootstrap) > 0:
         try:
@@ -1313,6 +1339,45 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
                                                 progress=progress, estimator=estimator)
         D.diagnostics["seconds"] = time.perf_counter() - t0
     return D
+
+
+def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings):
+    """The variogram fit's frame refined by the nearest-neighbour likelihood.
+
+    The ranges, nugget and sills are then refitted to the variogram bins with
+    the refined frame held, so that the model stays in the variogram's terms.
+    """
+    from anisotropy.fitting import fit_nested
+    from anisotropy.fitting.likelihood import refine_frame_likelihood
+
+    if len(coords) < 100:  # too few samples for the likelihood to add anything
+        return fit
+    try:
+        lk = refine_frame_likelihood(coords, values, fit.frame, fit.ranges, fit.nugget,
+                                     fit.sills, fit.kinds, seed=seed,
+                                     n_neighbours=LIKELIHOOD_NEIGHBOURS,
+                                     max_samples=LIKELIHOOD_MAX_SAMPLES)
+        kw = dict(common)
+        kw["make_model"] = True
+        f = fit_nested(bins, (lk.frame, fit.nugget, fit.sills, fit.ranges, fit.kinds),
+                       fixed_frame=lk.frame, **kw)
+    except (FitError, ValueError) as exc:
+        warnings.append(f"the likelihood refinement of the frame failed ({exc}); the "
+                        "variogram fit's frame is kept")
+        return fit
+    cosines = np.abs(np.sum(np.asarray(lk.frame) * np.asarray(fit.frame), axis=0))
+    turn = float(np.degrees(np.arccos(np.clip(cosines.min(), 0.0, 1.0))))
+    choices.append({"choice": "frame refinement", "value": "nearest-neighbour likelihood",
+                    "reason": f"the variogram fit's frame turned by {turn:.1f} degrees to the "
+                              f"maximum of a Vecchia (1988) likelihood on {lk.n_samples} "
+                              f"samples, {lk.n_neighbours} neighbours each; ranges and sills "
+                              "refitted to the variogram with that frame held"})
+    f.info["likelihood"] = {"turn_degrees": turn, "negloglik": lk.negloglik,
+                            "negloglik_start": lk.negloglik_start,
+                            "n_samples": lk.n_samples, "n_neighbours": lk.n_neighbours,
+                            "variogram_objective_before": fit.objective}
+    f.info["frame_correction"] = np.asarray(lk.frame, float) @ np.asarray(fit.frame, float).T
+    return f
 
 
 def _planar_start(F):
