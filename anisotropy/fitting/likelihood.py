@@ -34,7 +34,6 @@ from numba import njit
 from threadpoolctl import threadpool_limits
 
 from anisotropy.errors import FitError
-from anisotropy.models import correlation
 
 __all__ = ["LikelihoodFit", "refine_frame_likelihood", "vecchia_neighbours",
            "vecchia_negloglik"]
