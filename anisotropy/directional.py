@@ -112,7 +112,12 @@ def exact_sums(coords, values, *, lag, n_lags, direction=None, angular_tolerance
         lo[pad] = np.inf
         hi[pad] = -np.inf
         narrow = bool(tol <= 0.5 * lag)
+        lean_omni = omni and narrow and not need.any()  # the semivariogram, every direction
         for q0, q1 in _plan_batches(work, 4e8):
+            if lean_omni:
+                _kernels.omni_pass(x, y, z, vv, grid.start, grid.dims, grid.occupied, off, q0, q1,
+                                   n_chunks, maxd2, 1.0 / lag, lo, hi, n_lags, acc, stats)
+                continue
             _kernels.exact_pass(x, y, z, vv, grid.start, grid.dims, grid.occupied, off, q0, q1,
                                 n_chunks, maxd2, 1.0 / lag, tol, lo, hi, narrow, n_lags, omni,
                                 u[0], u[1], u[2], cos_tol, band is not None,

@@ -444,7 +444,8 @@ def test_warm_up_compiles_what_a_discovery_uses():
     from anisotropy.pairs import _kernels, warm_up
 
     warm_up()
-    kernels = [_kernels.volume_pass, _kernels.block_major_pass, _kernels.exact_pass]
+    kernels = [_kernels.volume_pass, _kernels.block_major_pass, _kernels.exact_pass,
+               _kernels.omni_pass]
     before = [set(k.signatures) for k in kernels]
     assert all(before)
     rng = np.random.default_rng(5)

@@ -809,6 +809,7 @@ def warm_up() -> float:
     for est in ("semivariogram", None):
         build_volume(c, v, lag=2.0, n_lags=4, progress=False, channels=est,
                      block_channels=est, map_channels=est)
-    experimental_variogram(c, v, lag=2.0, n_lags=4)
-    experimental_variogram(c, v, lag=2.0, n_lags=4, direction=(0.0, 0.0))
+    for est in ("semivariogram", "correlogram"):
+        experimental_variogram(c, v, lag=2.0, n_lags=4, estimator=est)
+        experimental_variogram(c, v, lag=2.0, n_lags=4, direction=(0.0, 0.0), estimator=est)
     return time.perf_counter() - t0
