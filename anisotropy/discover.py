@@ -66,7 +66,7 @@ N_RANDOM_STARTS = 8
 # layouts without drill-hole strings; larger sets are subsampled to this size.
 LIKELIHOOD_REFINEMENT = True
 LIKELIHOOD_MAX_SAMPLES = 2000
-LIKELIHOOD_NEIGHBOURS = 20      # 30: more accurate, about twice the time (RESULTS.md)
+LIKELIHOOD_NEIGHBOURS = 30      # 20: about half the time, less accurate (RESULTS.md)
 
 
 def _f(x):
