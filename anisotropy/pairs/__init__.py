@@ -798,7 +798,8 @@ def warm_up() -> float:
     run needs. Call it once in a parent process before starting several
     worker processes: otherwise, on a fresh installation, every worker
     compiles the same kernels at the same time (about half a minute each on
-    two cores). Returns the seconds it took (well under one once cached).
+    two cores). Returns the seconds it took (one to two once cached: loading the
+    cached kernels).
     """
     from ..directional import experimental_variogram
 
