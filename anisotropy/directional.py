@@ -74,8 +74,8 @@ def exact_sums(coords, values, *, lag, n_lags, direction=None, angular_tolerance
     Same rules and parameters as :func:`experimental_variogram`. ``channels``
     (see :func:`anisotropy.pairs.resolve_channels`): None keeps all 15; an
     estimator name keeps count, dist and what that estimator reads (not the
-    lag-vector sums dx, dy, dz, which no variogram value needs), and the pass
-    does no work for the others, which are NaN.
+    lag-vector sums dx, dy, dz, which no variogram value needs, unless they
+    are named), and the pass does no work for the others, which are NaN.
     """
     c, v = _check_coords_values(coords, values)
     lag, n_lags = _check_lag(lag, n_lags)
@@ -87,7 +87,9 @@ def exact_sums(coords, values, *, lag, n_lags, direction=None, angular_tolerance
     omni = direction is None
     u = np.zeros(3) if omni else direction_vector(direction)
     kept = resolve_channels(channels)
-    if channels is not None:  # an estimator's variogram needs no mean lag vector
+    asked = {channels} if isinstance(channels, str) else set(channels or ())
+    if kept != CHANNELS and not asked & {"dx", "dy", "dz"}:
+        # a variogram value needs no mean lag vector unless it was asked for by name
         kept = tuple(name for name in kept if name not in ("dx", "dy", "dz"))
     need = np.array([name in kept for name in ("abs", "sqrt", "head", "rel", "dx")], dtype=np.int64)
     n_chunks = _n_chunks()

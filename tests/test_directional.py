@@ -293,6 +293,11 @@ def test_exact_sums_channel_subsets(estimator):
         dropped = [i for i in range(len(CHANNELS)) if i not in kept]
         np.testing.assert_array_equal(sub[:, kept], full[:, kept])
         assert np.isnan(sub[:, dropped]).all()
+        # lag-vector sums named explicitly are kept (and equal the all-channel pass)
+        named = exact_sums(c, v, lag=4.0, n_lags=6, direction=direction, lag_tolerance=lag_tol,
+                           channels=[estimator, "dx"])
+        vec = [CHANNELS.index(ch) for ch in ("dx", "dy", "dz")]
+        np.testing.assert_array_equal(named[:, vec], full[:, vec])
 
 
 @pytest.mark.parametrize("lag,lag_tol", [(0.7, None), (1.0 / 3.0, None), (0.7, 0.35),
