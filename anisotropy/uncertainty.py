@@ -1305,7 +1305,7 @@ def model_bootstrap(coords, model, refit: Callable, *, volume, transform=None,
     build_kwargs = dict(lag=float(volume.lag), n_lags=int(volume.n_lags),
                         fine_directions=np.asarray(volume.directions),
                         coarse_directions=np.asarray(volume.coarse_directions),
-                        channels=tuple(getattr(volume, "channels", None) or ()) or None,
+                        channels=getattr(volume, "channels", None),
                         blocks=False, map_cell=False)
     n_workers = 1 if n_jobs == 1 else max(2, abs(int(n_jobs)))
     chunks = np.array_split(np.arange(len(fields)), max(1, min(len(fields), 2 * n_workers)))
