@@ -59,6 +59,46 @@ def test_full_conditioning_sets_give_the_exact_likelihood():
     assert got == pytest.approx(exact - 0.5 * n * (np.log(2 * np.pi) + 1.0), abs=1e-7)
 
 
+def test_likelihood_value_does_not_depend_on_the_threads():
+    # the terms are summed over a fixed number of chunks in chunk order, so one and
+    # two threads give the same bits; and the sum equals a plain per-sample loop
+    # (exact brute force: the chain of conditional normal densities, each from
+    # numpy.linalg.solve on the sample's neighbours)
+    import numba
+
+    rng = np.random.default_rng(5)
+    n, m = 300, 12
+    X = rng.uniform(0, 80, size=(n, 3))
+    F = Rotation.from_euler("zyx", [50, 10, -20], degrees=True).as_matrix()
+    ranges = np.array([45.0, 20.0, 8.0])
+    C = spherical_cov(X, F, ranges, 0.1, 0.9)
+    y = cholesky(C, lower=True) @ rng.standard_normal(n)
+    order, nbr = vecchia_neighbours(X, m, seed=2)
+    Y, yo = X[order], y[order]
+    p = np.r_[Rotation.from_matrix(F).as_rotvec(), np.log(ranges), np.log(0.1 / 0.9)]
+    before = numba.get_num_threads()
+    try:
+        numba.set_num_threads(1)
+        one = vecchia_negloglik(p, Y, yo, nbr, ("spherical",))
+        numba.set_num_threads(max(1, min(2, numba.config.NUMBA_NUM_THREADS)))
+        two = vecchia_negloglik(p, Y, yo, nbr, ("spherical",))
+    finally:
+        numba.set_num_threads(before)
+    assert one == two
+    Co = spherical_cov(Y, F, ranges, 0.1, 0.9)
+    q = ld = 0.0
+    for i in range(n):
+        nb = nbr[i][nbr[i] >= 0]
+        if nb.size:
+            w = np.linalg.solve(Co[np.ix_(nb, nb)], Co[nb, i])
+            mu, var = w @ yo[nb], Co[i, i] - Co[nb, i] @ w
+        else:
+            mu, var = 0.0, Co[i, i]
+        q += (yo[i] - mu) ** 2 / var
+        ld += np.log(var)
+    assert one == pytest.approx(0.5 * (n * np.log(q / n) + ld), rel=1e-10)
+
+
 def test_refinement_recovers_a_simulated_frame():
     # truth recovery on a Gaussian field simulated by Cholesky factorisation of the
     # spherical covariance (Journel & Huijbregts 1978, ch. II), started 15 degrees off

@@ -30,7 +30,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.optimize import minimize
 from scipy.spatial.transform import Rotation
-from numba import njit
+from numba import njit, prange
 from threadpoolctl import threadpool_limits
 
 from anisotropy.errors import FitError
@@ -178,62 +178,88 @@ def _cov(S, codes, shares, a, b):
     return c
 
 
-@njit(cache=True)
+#: Fixed number of work chunks of the likelihood terms (each sums its own
+#: samples; the chunk sums are added in chunk order, so the value does not
+#: depend on the number of threads).
+_TERM_CHUNKS = 16
+
+
+@njit(cache=True, parallel=True)
 def _vecchia_terms(S, y, nbr, codes, shares, nugget):
     """(sum of squared standardised innovations, sum of log conditional variances)."""
     n, m = nbr.shape
-    A = np.empty((m, m))
-    kv = np.empty(m)
-    yv = np.empty(m)
-    q = 0.0
-    ld = 0.0
+    nc = _TERM_CHUNKS
+    qs = np.zeros(nc)
+    lds = np.zeros(nc)
+    bad = np.zeros(nc, dtype=np.int64)
     c0 = nugget + np.sum(shares)
-    for i in range(n):
-        k = 0
-        for j in range(m):
-            if nbr[i, j] >= 0:
-                k += 1
-        # covariance of the neighbours and with the sample; Cholesky in place
-        for r in range(k):
-            a = nbr[i, r]
-            kv[r] = _cov(S, codes, shares, a, i)
-            yv[r] = y[a]
-            for t in range(r + 1):
-                A[r, t] = _cov(S, codes, shares, a, nbr[i, t])
-            A[r, r] += nugget
-        for r in range(k):
-            s = A[r, r]
-            for t in range(r):
-                s -= A[r, t] * A[r, t]
-            if s <= 1e-12:
-                return np.inf, np.inf
-            d = np.sqrt(s)
-            A[r, r] = d
-            for u in range(r + 1, k):
-                s2 = A[u, r]
+    for c in prange(nc):
+        A = np.empty((m, m))
+        kv = np.empty(m)
+        yv = np.empty(m)
+        q = 0.0
+        ld = 0.0
+        for i in range(c * n // nc, (c + 1) * n // nc):
+            k = 0
+            for j in range(m):
+                if nbr[i, j] >= 0:
+                    k += 1
+            # covariance of the neighbours and with the sample; Cholesky in place
+            for r in range(k):
+                a = nbr[i, r]
+                kv[r] = _cov(S, codes, shares, a, i)
+                yv[r] = y[a]
+                for t in range(r + 1):
+                    A[r, t] = _cov(S, codes, shares, a, nbr[i, t])
+                A[r, r] += nugget
+            ok = True
+            for r in range(k):
+                s = A[r, r]
                 for t in range(r):
-                    s2 -= A[u, t] * A[r, t]
-                A[u, r] = s2 / d
-        # forward substitution for L a = k and L b = y_N
-        kk = 0.0
-        ky = 0.0
-        for r in range(k):
-            s = kv[r]
-            s2 = yv[r]
-            for t in range(r):
-                s -= A[r, t] * kv[t]
-                s2 -= A[r, t] * yv[t]
-            kv[r] = s / A[r, r]
-            yv[r] = s2 / A[r, r]
-            kk += kv[r] * kv[r]
-            ky += kv[r] * yv[r]
-        var = c0 - kk
-        if var <= 1e-12:
-            return np.inf, np.inf
-        e = y[i] - ky
-        q += e * e / var
-        ld += np.log(var)
-    return q, ld
+                    s -= A[r, t] * A[r, t]
+                if s <= 1e-12:
+                    ok = False
+                    break
+                d = np.sqrt(s)
+                A[r, r] = d
+                for u in range(r + 1, k):
+                    s2 = A[u, r]
+                    for t in range(r):
+                        s2 -= A[u, t] * A[r, t]
+                    A[u, r] = s2 / d
+            if not ok:
+                bad[c] = 1
+                break
+            # forward substitution for L a = k and L b = y_N
+            kk = 0.0
+            ky = 0.0
+            for r in range(k):
+                s = kv[r]
+                s2 = yv[r]
+                for t in range(r):
+                    s -= A[r, t] * kv[t]
+                    s2 -= A[r, t] * yv[t]
+                kv[r] = s / A[r, r]
+                yv[r] = s2 / A[r, r]
+                kk += kv[r] * kv[r]
+                ky += kv[r] * yv[r]
+            var = c0 - kk
+            if var <= 1e-12:
+                bad[c] = 1
+                break
+            e = y[i] - ky
+            q += e * e / var
+            ld += np.log(var)
+        qs[c] = q
+        lds[c] = ld
+    if bad.sum() > 0:
+        return np.inf, np.inf
+    qt = 0.0
+    ldt = 0.0
+    for c in range(nc):
+        qt += qs[c]
+        ldt += lds[c]
+    return qt, ldt
 
 
 def vecchia_negloglik(p, Y, y, nbr, kinds):
