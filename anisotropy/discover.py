@@ -67,6 +67,16 @@ N_RANDOM_STARTS = 8
 LIKELIHOOD_REFINEMENT = True
 LIKELIHOOD_MAX_SAMPLES = 2000
 LIKELIHOOD_NEIGHBOURS = 30      # 20: about half the time, less accurate (RESULTS.md)
+#: When the variogram fit keeps one structure, the likelihood is also
+#: maximised with a second, shorter structure added (ranges this fraction of
+#: the first, half the sill each to start), and that frame is kept when the
+#: likelihood gain passes the BIC penalty of the four extra parameters: a
+#: one-structure likelihood on a two-structure field turned the frame up to
+#: 15 degrees wrong (benchmarks/RESULTS.md, issue 4).
+LIKELIHOOD_NESTED_SHORT = 0.3
+#: Relative stopping tolerance of the nested likelihood search (see
+#: ``fitting.likelihood.refine_frame_likelihood``).
+LIKELIHOOD_NESTED_FTOL = 1e-5
 
 
 def _f(x):
@@ -1346,36 +1356,68 @@ def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings):
 
     The ranges, nugget and sills are then refitted to the variogram bins with
     the refined frame held, so that the model stays in the variogram's terms.
+    When the variogram fit has one structure, the refined one-structure model
+    is refined again with a second, shorter structure added (see
+    ``LIKELIHOOD_NESTED_SHORT``); its frame is kept when its likelihood gain
+    passes the BIC penalty. Both likelihoods use the same samples and order;
+    their neighbour sets are chosen in each start's metric, so the comparison
+    is between two approximations of nearly the same conditioning.
     """
     from anisotropy.fitting import fit_nested
     from anisotropy.fitting.likelihood import refine_frame_likelihood
 
     if len(coords) < 100:  # too few samples for the likelihood to add anything
         return fit
+    kw = dict(common)
+    kw["make_model"] = True
+    lk_kw = dict(seed=seed, n_neighbours=LIKELIHOOD_NEIGHBOURS,
+                 max_samples=LIKELIHOOD_MAX_SAMPLES)
     try:
         lk = refine_frame_likelihood(coords, values, fit.frame, fit.ranges, fit.nugget,
-                                     fit.sills, fit.kinds, seed=seed,
-                                     n_neighbours=LIKELIHOOD_NEIGHBOURS,
-                                     max_samples=LIKELIHOOD_MAX_SAMPLES)
-        kw = dict(common)
-        kw["make_model"] = True
+                                     fit.sills, fit.kinds, **lk_kw)
         f = fit_nested(bins, (lk.frame, fit.nugget, fit.sills, fit.ranges, fit.kinds),
                        fixed_frame=lk.frame, **kw)
+        nested = None
+        if len(f.sills) == 1:
+            r1 = np.atleast_2d(np.asarray(f.ranges, float))[0]
+            s1 = float(np.asarray(f.sills, float)[0])
+            lk2 = refine_frame_likelihood(coords, values, f.frame,
+                                          [LIKELIHOOD_NESTED_SHORT * r1, r1], f.nugget,
+                                          [0.5 * s1, 0.5 * s1], (f.kinds[0],) * 2,
+                                          ftol=LIKELIHOOD_NESTED_FTOL, **lk_kw)
+            # BIC (Schwarz 1978): four more parameters (three log ranges, one share)
+            penalty = 0.5 * 4 * np.log(lk2.n_samples)
+            gain = lk.negloglik - lk2.negloglik
+            nested = {"negloglik": lk2.negloglik, "negloglik_one_structure": lk.negloglik,
+                      "gain": gain, "bic_penalty": penalty, "kept": bool(gain > penalty),
+                      "shares": [float(x) for x in lk2.shares],
+                      "nugget_share": float(lk2.nugget_share),
+                      "ranges": np.asarray(lk2.ranges, float).tolist()}
+            if gain > penalty:
+                f = fit_nested(bins, (lk2.frame, f.nugget, f.sills, f.ranges, f.kinds),
+                               fixed_frame=lk2.frame, **kw)
+                lk = lk2
     except (FitError, ValueError) as exc:
         warnings.append(f"the likelihood refinement of the frame failed ({exc}); the "
                         "variogram fit's frame is kept")
         return fit
     cosines = np.abs(np.sum(np.asarray(lk.frame) * np.asarray(fit.frame), axis=0))
     turn = float(np.degrees(np.arccos(np.clip(cosines.min(), 0.0, 1.0))))
+    model_text = ("its model carrying a second, shorter structure besides the variogram's "
+                  "one (kept by BIC)" if nested and nested["kept"] else
+                  "with the variogram's structures")
     choices.append({"choice": "frame refinement", "value": "nearest-neighbour likelihood",
                     "reason": f"the variogram fit's frame turned by {turn:.1f} degrees to the "
                               f"maximum of a Vecchia (1988) likelihood on {lk.n_samples} "
-                              f"samples, {lk.n_neighbours} neighbours each; ranges and sills "
-                              "refitted to the variogram with that frame held"})
+                              f"samples, {lk.n_neighbours} neighbours each, {model_text}; "
+                              "ranges and sills refitted to the variogram with that frame "
+                              "held"})
     f.info["likelihood"] = {"turn_degrees": turn, "negloglik": lk.negloglik,
                             "negloglik_start": lk.negloglik_start,
                             "n_samples": lk.n_samples, "n_neighbours": lk.n_neighbours,
-                            "variogram_objective_before": fit.objective}
+                            "variogram_objective_before": fit.objective,
+                            "structures_in_likelihood": len(lk.shares),
+                            "nested": nested}
     f.info["frame_correction"] = np.asarray(lk.frame, float) @ np.asarray(fit.frame, float).T
     return f
 

@@ -99,6 +99,29 @@ def test_likelihood_value_does_not_depend_on_the_threads():
     assert one == pytest.approx(0.5 * (n * np.log(q / n) + ld), rel=1e-10)
 
 
+def test_nested_likelihood_contains_the_one_structure_model():
+    # discover refines the frame with a second, shorter structure added to a
+    # one-structure fit; that model contains the one-structure model, so its share
+    # going to zero must give the one-structure likelihood (the covariance is the same
+    # matrix: exact identity up to rounding of the vanishing share)
+    rng = np.random.default_rng(9)
+    n = 250
+    X = rng.uniform(0, 90, size=(n, 3))
+    F = Rotation.from_euler("zyx", [-40, 25, 5], degrees=True).as_matrix()
+    ranges = np.array([50.0, 30.0, 12.0])
+    y = cholesky(spherical_cov(X, F, ranges, 0.2, 0.8), lower=True) @ rng.standard_normal(n)
+    order, nbr = vecchia_neighbours(X, 15, seed=4)
+    Y, yo = X[order], y[order]
+    rv = Rotation.from_matrix(F).as_rotvec()
+    one = vecchia_negloglik(np.r_[rv, np.log(ranges), np.log(0.2 / 0.8)], Y, yo, nbr,
+                            ("spherical",))
+    # logits relative to the last (long) structure: nugget 0.2/0.8, short structure e^-40
+    two = vecchia_negloglik(np.r_[rv, np.log(0.3 * ranges), np.log(ranges),
+                                  np.log(0.2 / 0.8), -40.0], Y, yo, nbr,
+                            ("spherical", "spherical"))
+    assert two == pytest.approx(one, rel=1e-12, abs=1e-9)
+
+
 def test_refinement_recovers_a_simulated_frame():
     # truth recovery on a Gaussian field simulated by Cholesky factorisation of the
     # spherical covariance (Journel & Huijbregts 1978, ch. II), started 15 degrees off

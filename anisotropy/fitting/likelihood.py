@@ -309,7 +309,7 @@ def vecchia_negloglik(p, Y, y, nbr, kinds):
 def refine_frame_likelihood(coords, values, frame, ranges, nugget, sills, kinds, *,
                             n_neighbours=DEFAULT_NEIGHBOURS, max_samples=DEFAULT_MAX_SAMPLES,
                             seed=0, maxiter=400, method="L-BFGS-B",
-                            ordering="random") -> LikelihoodFit:
+                            ordering="random", ftol=None) -> LikelihoodFit:
     """Refine a nested model's frame by the nearest-neighbour likelihood.
 
     Parameters
@@ -333,7 +333,12 @@ def refine_frame_likelihood(coords, values, frame, ranges, nugget, sills, kinds,
     seed : int
         Seed of the subsample and of the conditioning order.
     maxiter : int
-        Iterations of the Nelder-Mead search.
+        Iterations of the search.
+    ftol : float or None
+        Relative change of the objective at which L-BFGS-B stops (None:
+        SciPy's default, 2.2e-9). Differences of a few thousandths in the
+        log-likelihood do not tell frames apart; 1e-5 stops about four times
+        sooner on the issue-4 benchmark.
 
     Returns
     -------
@@ -378,6 +383,8 @@ def refine_frame_likelihood(coords, values, frame, ranges, nugget, sills, kinds,
             opts = dict(maxiter=int(maxiter), xatol=1e-3, fatol=1e-3, adaptive=True)
         else:
             opts = dict(maxiter=int(maxiter), eps=1e-4)
+            if ftol is not None:
+                opts["ftol"] = float(ftol)
         res = minimize(vecchia_negloglik, p0, args=(Y, yc, nbr, kinds), method=method,
                        options=opts)
     p = res.x if res.fun < f0 else p0
