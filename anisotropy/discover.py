@@ -37,6 +37,7 @@ from __future__ import annotations
 import math
 import time
 from dataclasses import dataclass, field
+from pathlib import Path
 
 import numpy as np
 
@@ -234,10 +235,8 @@ class Discovery:
         }
         return _plain(d)
 
-    def to_json(self, path) -> "Path":
+    def to_json(self, path) -> Path:
         """Write :meth:`to_dict` as JSON, atomically."""
-        from pathlib import Path
-
         from anisotropy._safety import atomic_write_json
 
         path = Path(path)

@@ -29,7 +29,6 @@ volume, and so roughly the number of samples).
 from __future__ import annotations
 
 import argparse
-import copy
 import json
 import sys
 from dataclasses import dataclass

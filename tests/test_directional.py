@@ -8,7 +8,6 @@ design.md rules written out again in NumPy.
 import math
 
 import numpy as np
-import pandas as pd
 import pytest
 from scipy.spatial.distance import pdist
 

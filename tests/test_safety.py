@@ -7,11 +7,9 @@ The references are the standard library: ``html.escape`` and
 
 import csv
 import html
-import io
 import json
 import os
 from html.parser import HTMLParser
-from pathlib import Path
 
 import numpy as np
 import pytest
