@@ -75,6 +75,9 @@ LIKELIHOOD_NEIGHBOURS = 30      # 20: about half the time, less accurate (RESULT
 #: one-structure likelihood on a two-structure field turned the frame up to
 #: 15 degrees wrong (benchmarks/RESULTS.md, issue 4).
 LIKELIHOOD_NESTED_SHORT = 0.3
+#: Least share of the total sill either structure must keep in the variogram
+#: refit for the likelihood's second structure to be reported.
+LIKELIHOOD_MIN_SHARE = 0.05
 #: Relative stopping tolerance of the nested likelihood search (see
 #: ``fitting.likelihood.refine_frame_likelihood``).
 LIKELIHOOD_NESTED_FTOL = 1e-5
@@ -1240,8 +1243,17 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
     fit = sel.best
     if (LIKELIHOOD_REFINEMENT and holes is None and not planar and tr.kind != "indicator"
             and estimator in ("semivariogram", "robust")):
-        fit = _refine_frame(fit, bins, samples.coords, tv, seed, common, choices, warnings)
-    if n_str is None:
+        fit = _refine_frame(fit, bins, samples.coords, tv, seed, common, choices, warnings,
+                            add_structure=n_str is None)
+    nest = (fit.info.get("likelihood") or {}).get("nested") or {}
+    if n_str is None and nest.get("structure_added"):
+        choices.append({"choice": "structures", "value": len(fit.sills),
+                        "reason": "the variogram bins' BIC kept one structure; the "
+                                  "nearest-neighbour likelihood supports a second, shorter "
+                                  f"one (log-likelihood gain {nest['gain']:.1f} against a BIC "
+                                  f"penalty of {nest['bic_penalty']:.1f}), fitted to the "
+                                  "variogram with the refined frame held"})
+    elif n_str is None:
         choices.append({"choice": "structures", "value": len(fit.sills),
                         "reason": "chosen by BIC with a minimum gain (see diagnostics."
                                   "selection)"})
@@ -1350,7 +1362,8 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
     return D
 
 
-def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings):
+def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings,
+                  add_structure=False):
     """The variogram fit's frame refined by the nearest-neighbour likelihood.
 
     The ranges, nugget and sills are then refitted to the variogram bins with
@@ -1360,7 +1373,11 @@ def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings):
     ``LIKELIHOOD_NESTED_SHORT``); its frame is kept when its likelihood gain
     passes the BIC penalty. Both likelihoods use the same samples and order;
     their neighbour sets are chosen in each start's metric, so the comparison
-    is between two approximations of nearly the same conditioning.
+    is between two approximations of nearly the same conditioning. With
+    ``add_structure`` (the number of structures was left to the engine) the
+    kept nested model is also what is fitted to the variogram, from the
+    likelihood's parameters with its frame held, unless the variogram then
+    gives either structure less than ``LIKELIHOOD_MIN_SHARE`` of the sill.
     """
     from anisotropy.fitting import fit_nested
     from anisotropy.fitting.likelihood import refine_frame_likelihood
@@ -1392,9 +1409,20 @@ def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings):
                       "shares": [float(x) for x in lk2.shares],
                       "nugget_share": float(lk2.nugget_share),
                       "ranges": np.asarray(lk2.ranges, float).tolist()}
+            nested["structure_added"] = False
             if gain > penalty:
-                f = fit_nested(bins, (lk2.frame, f.nugget, f.sills, f.ranges, f.kinds),
-                               fixed_frame=lk2.frame, **kw)
+                one = fit_nested(bins, (lk2.frame, f.nugget, f.sills, f.ranges, f.kinds),
+                                 fixed_frame=lk2.frame, **kw)
+                f = one
+                if add_structure:
+                    tot = float(f.nugget + np.sum(f.sills))
+                    two = fit_nested(bins, (lk2.frame, tot * lk2.nugget_share,
+                                            tot * np.asarray(lk2.shares, float),
+                                            np.asarray(lk2.ranges, float), (f.kinds[0],) * 2),
+                                     fixed_frame=lk2.frame, **kw)
+                    if np.min(two.sills) >= LIKELIHOOD_MIN_SHARE * tot:
+                        f = two
+                        nested["structure_added"] = True
                 lk = lk2
     except (FitError, ValueError) as exc:
         warnings.append(f"the likelihood refinement of the frame failed ({exc}); the "

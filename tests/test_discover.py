@@ -171,6 +171,7 @@ def test_record_has_the_schema_and_is_json(steep_vein, tmp_path):
         nest = fr["nested"]
         assert len(nest["shares"]) == 2 and nest["kept"] == (nest["gain"] > nest["bic_penalty"])
         assert fr["structures_in_likelihood"] == (2 if nest["kept"] else 1)
+        assert not nest["structure_added"]  # the model kept one structure
     refine = [c for c in D.choices if c["choice"] == "frame refinement"]
     assert len(refine) == 1 and "Vecchia (1988)" in refine[0]["reason"]
     assert any("competent or qualified person" in c for c in d["cautions"])
@@ -442,6 +443,32 @@ def test_plunging_shoot_with_two_structures():
     assert short.ranges[0] == pytest.approx(35, rel=0.3)
     assert long_.ranges[2] == pytest.approx(25, rel=0.3)
     assert long_.ranges[0] > 2 * short.ranges[0]
+
+
+@pytest.mark.slow
+def test_plunging_shoot_second_structure_found_by_the_likelihood():
+    # the same two-structure field (Cholesky of the spherical formulas) with the number of
+    # structures left to the engine: at this density the variogram bins' BIC keeps one
+    # structure, which puts the short structure's sill in the nugget (about 0.45 of the
+    # sill against a true 0.05); the nearest-neighbour likelihood's nested model passes its
+    # BIC penalty and the second structure is reported
+    F = frame_from_trend_plunge(135.0, 35.0, -15.0)
+    rng = np.random.default_rng(21)
+    coords = rng.uniform([0, 0, 0], [260, 260, 200], size=(2200, 3))
+    v = simulate(coords, F, 0.05, [("spherical", 0.45, (35, 25, 10)),
+                                   ("spherical", 0.5, (120, 60, 25))], seed=22)
+    D = anisotropy.discover(table(coords, v + 10), value="grade", transform="raw")
+    for i in range(3):
+        assert axis_err(D.frame[:, i], F[:, i]) < 10.0
+    nest = D.diagnostics["frame_refinement"]["nested"]
+    assert nest["kept"] and nest["structure_added"] and nest["gain"] > nest["bic_penalty"]
+    assert len(D.model.structures) == 2
+    assert D.model.nugget / D.model.total_sill < 0.15
+    short, long_ = sorted(D.model.structures, key=lambda s: s.ranges[0])
+    assert short.ranges[0] == pytest.approx(35, rel=0.35)
+    assert long_.ranges[0] > 2 * short.ranges[0]
+    why = next(c for c in D.choices if c["choice"] == "structures")["reason"]
+    assert "likelihood" in why and "BIC" in why
 
 
 @pytest.mark.slow
