@@ -424,15 +424,20 @@ def test_flat_blanket():
     assert D.axes()["major"]["range"] == pytest.approx(150, rel=0.3)
 
 
-@pytest.mark.slow
-def test_plunging_shoot_with_two_structures():
+def _two_structure_shoot():
+    """A plunging shoot with two nested spherical structures (truth frame, sample table)."""
     F = frame_from_trend_plunge(135.0, 35.0, -15.0)
     rng = np.random.default_rng(21)
     coords = rng.uniform([0, 0, 0], [260, 260, 200], size=(2200, 3))
     v = simulate(coords, F, 0.05, [("spherical", 0.45, (35, 25, 10)),
                                    ("spherical", 0.5, (120, 60, 25))], seed=22)
-    D = anisotropy.discover(table(coords, v + 10), value="grade", transform="raw",
-                            structures=2)
+    return F, table(coords, v + 10)
+
+
+@pytest.mark.slow
+def test_plunging_shoot_with_two_structures():
+    F, df = _two_structure_shoot()
+    D = anisotropy.discover(df, value="grade", transform="raw", structures=2)
     for i in range(3):
         assert axis_err(D.frame[:, i], F[:, i]) < 10.0
     assert len(D.model.structures) == 2
@@ -452,12 +457,8 @@ def test_plunging_shoot_second_structure_found_by_the_likelihood():
     # structure, which puts the short structure's sill in the nugget (about 0.45 of the
     # sill against a true 0.05); the nearest-neighbour likelihood's nested model passes its
     # BIC penalty and the second structure is reported
-    F = frame_from_trend_plunge(135.0, 35.0, -15.0)
-    rng = np.random.default_rng(21)
-    coords = rng.uniform([0, 0, 0], [260, 260, 200], size=(2200, 3))
-    v = simulate(coords, F, 0.05, [("spherical", 0.45, (35, 25, 10)),
-                                   ("spherical", 0.5, (120, 60, 25))], seed=22)
-    D = anisotropy.discover(table(coords, v + 10), value="grade", transform="raw")
+    F, df = _two_structure_shoot()
+    D = anisotropy.discover(df, value="grade", transform="raw")
     for i in range(3):
         assert axis_err(D.frame[:, i], F[:, i]) < 10.0
     nest = D.diagnostics["frame_refinement"]["nested"]
