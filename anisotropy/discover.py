@@ -1404,16 +1404,16 @@ def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings,
             # BIC (Schwarz 1978): four more parameters (three log ranges, one share)
             penalty = 0.5 * 4 * np.log(lk2.n_samples)
             gain = lk.negloglik - lk2.negloglik
+            kept = bool(gain > penalty)
             nested = {"negloglik": lk2.negloglik, "negloglik_one_structure": lk.negloglik,
-                      "gain": gain, "bic_penalty": penalty, "kept": bool(gain > penalty),
+                      "gain": gain, "bic_penalty": penalty, "kept": kept,
                       "shares": [float(x) for x in lk2.shares],
                       "nugget_share": float(lk2.nugget_share),
-                      "ranges": np.asarray(lk2.ranges, float).tolist()}
-            nested["structure_added"] = False
-            if gain > penalty:
-                one = fit_nested(bins, (lk2.frame, f.nugget, f.sills, f.ranges, f.kinds),
-                                 fixed_frame=lk2.frame, **kw)
-                f = one
+                      "ranges": np.asarray(lk2.ranges, float).tolist(),
+                      "structure_added": False}
+            if kept:
+                f = fit_nested(bins, (lk2.frame, f.nugget, f.sills, f.ranges, f.kinds),
+                               fixed_frame=lk2.frame, **kw)
                 if add_structure:
                     tot = float(f.nugget + np.sum(f.sills))
                     two = fit_nested(bins, (lk2.frame, tot * lk2.nugget_share,
