@@ -1420,7 +1420,17 @@ def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings,
                                             tot * np.asarray(lk2.shares, float),
                                             np.asarray(lk2.ranges, float), (f.kinds[0],) * 2),
                                      fixed_frame=lk2.frame, **kw)
-                    if np.min(two.sills) >= LIKELIHOOD_MIN_SHARE * tot:
+                    lk_order = _axis_order(lk2.ranges)
+                    if np.min(two.sills) < LIKELIHOOD_MIN_SHARE * tot:
+                        nested["not_added"] = (f"a structure kept under "
+                                               f"{LIKELIHOOD_MIN_SHARE:.0%} of the sill")
+                    elif _axis_order(two.ranges) != lk_order:
+                        # the variogram traded ranges between the two structures
+                        # and relabelled the axes the likelihood's frame was fitted for
+                        nested["not_added"] = ("the variogram refit with the frame held "
+                                               "changed which axis is the major, semi-major "
+                                               "or minor")
+                    else:
                         f = two
                         nested["structure_added"] = True
                 lk = lk2
@@ -1444,9 +1454,17 @@ def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings,
                             "n_samples": lk.n_samples, "n_neighbours": lk.n_neighbours,
                             "variogram_objective_before": fit.objective,
                             "structures_in_likelihood": len(lk.shares),
+                            "axis_order_agrees": _axis_order(f.ranges) == _axis_order(lk.ranges),
                             "nested": nested}
     f.info["frame_correction"] = np.asarray(lk.frame, float) @ np.asarray(fit.frame, float).T
     return f
+
+
+def _axis_order(ranges):
+    """Frame columns ordered from longest to shortest range of the longest structure."""
+    r = np.atleast_2d(np.asarray(ranges, float))
+    j = int(np.argmax(r.max(axis=1)))
+    return tuple(int(i) for i in np.argsort(-r[j], kind="stable"))
 
 
 def _planar_start(F):
