@@ -1253,6 +1253,14 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
                                   f"one (log-likelihood gain {nest['gain']:.1f} against a BIC "
                                   f"penalty of {nest['bic_penalty']:.1f}), fitted to the "
                                   "variogram with the refined frame held"})
+    elif n_str is None and nest.get("kept") and nest.get("not_added"):
+        choices.append({"choice": "structures", "value": len(fit.sills),
+                        "reason": "the variogram bins' BIC kept one structure; the "
+                                  "nearest-neighbour likelihood supports a second, shorter "
+                                  f"one (log-likelihood gain {nest['gain']:.1f} against a BIC "
+                                  f"penalty of {nest['bic_penalty']:.1f}) and its frame is "
+                                  "used, but the second structure is not reported: "
+                                  f"{nest['not_added']}"})
     elif n_str is None:
         choices.append({"choice": "structures", "value": len(fit.sills),
                         "reason": "chosen by BIC with a minimum gain (see diagnostics."
@@ -1377,7 +1385,11 @@ def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings,
     ``add_structure`` (the number of structures was left to the engine) the
     kept nested model is also what is fitted to the variogram, from the
     likelihood's parameters with its frame held, unless the variogram then
-    gives either structure less than ``LIKELIHOOD_MIN_SHARE`` of the sill.
+    gives either structure less than ``LIKELIHOOD_MIN_SHARE`` of the sill or
+    orders the frame's columns differently from the likelihood (the longest
+    structure's longest range on another column: the refit traded ranges
+    between the structures, and the axes the frame was fitted for would be
+    relabelled); the reason is recorded in ``nested["not_added"]``.
     """
     from anisotropy.fitting import fit_nested
     from anisotropy.fitting.likelihood import refine_frame_likelihood

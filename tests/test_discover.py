@@ -491,6 +491,8 @@ def test_nested_refit_keeps_the_likelihoods_axes():
     nest = rec["nested"]
     if nest["kept"] and not nest["structure_added"]:
         assert "changed which axis" in nest["not_added"]
+        why = next(c for c in D.choices if c["choice"] == "structures")["reason"]
+        assert "not reported" in why and "changed which axis" in why
 
 
 @pytest.mark.slow
