@@ -30,6 +30,14 @@ pairs (each hole an independent look at that lag).  The weights enter the
 Cressie (1985) objective in place of the pair counts.  The nugget is taken
 from the down-hole variogram at the composite spacing (extrapolated to zero
 from the first lags) and held in the joint fit.
+
+Frame refinement.  After step 9 the frame is refined by a nearest-neighbour
+(Vecchia 1988) Gaussian likelihood of the samples themselves
+(:mod:`anisotropy.fitting.likelihood`), for semivariogram and robust
+estimators on non-planar data, scattered or strung in holes; the ranges and
+sills are then refitted to the variogram bins with that frame held.  The
+likelihood sees which sample sits next to which, so on drill-hole strings it
+uses the across-hole information that the variogram bins dilute.
 """
 
 from __future__ import annotations
@@ -63,8 +71,10 @@ MIN_LAGS, MAX_LAGS_AUTO = 12, 20
 MIN_SAMPLES = 30
 PAIR_BUDGET = 1.5e8             # pairs in the one pass, for automatic lags
 N_RANDOM_STARTS = 8
-# Frame refinement by the nearest-neighbour likelihood (fitting.likelihood) for
-# layouts without drill-hole strings; larger sets are subsampled to this size.
+# Frame refinement by the nearest-neighbour likelihood (fitting.likelihood), on
+# scattered samples and drill-hole strings alike (on strings it took the issue-4
+# drill-hole benchmarks from 6-7 degree median errors to 2-3); larger sets are
+# subsampled to this size.
 LIKELIHOOD_REFINEMENT = True
 LIKELIHOOD_MAX_SAMPLES = 2000
 LIKELIHOOD_NEIGHBOURS = 30      # 20: about half the time, less accurate (RESULTS.md)
@@ -81,6 +91,10 @@ LIKELIHOOD_MIN_SHARE = 0.05
 #: Relative stopping tolerance of the nested likelihood search (see
 #: ``fitting.likelihood.refine_frame_likelihood``).
 LIKELIHOOD_NESTED_FTOL = 1e-5
+#: The same for the first (variogram structures) likelihood search (None:
+#: SciPy's default, which took three times the evaluations for a frame that
+#: differed by thousandths of a degree on the composites speed benchmark).
+LIKELIHOOD_FTOL = 1e-5
 
 
 def _f(x):
@@ -1241,7 +1255,7 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
                             max_range=hi_r, planar=planar, ftol=1e-6,
                             shared_ratios=shared_ratios)
     fit = sel.best
-    if (LIKELIHOOD_REFINEMENT and holes is None and not planar and tr.kind != "indicator"
+    if (LIKELIHOOD_REFINEMENT and not planar and tr.kind != "indicator"
             and estimator in ("semivariogram", "robust")):
         fit = _refine_frame(fit, bins, samples.coords, tv, seed, common, choices, warnings,
                             add_structure=n_str is None)
@@ -1402,7 +1416,7 @@ def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings,
                  max_samples=LIKELIHOOD_MAX_SAMPLES)
     try:
         lk = refine_frame_likelihood(coords, values, fit.frame, fit.ranges, fit.nugget,
-                                     fit.sills, fit.kinds, **lk_kw)
+                                     fit.sills, fit.kinds, ftol=LIKELIHOOD_FTOL, **lk_kw)
         f = fit_nested(bins, (lk.frame, fit.nugget, fit.sills, fit.ranges, fit.kinds),
                        fixed_frame=lk.frame, **kw)
         nested = None
