@@ -505,8 +505,10 @@ def test_drill_hole_strings():
     D = anisotropy.discover(table(coords, v + 10, holes), value="grade", hole="hole",
                             transform="raw")
     assert any(c["choice"] == "drill-hole weights" for c in D.choices)
+    # the frame is refined by the samples' likelihood on strings too
+    assert D.diagnostics["frame_refinement"]["n_samples"] == min(len(coords), 2000)
     for i in range(3):
-        assert axis_err(D.frame[:, i], F[:, i]) < 15.0   # drill-hole worst case of the issue
+        assert axis_err(D.frame[:, i], F[:, i]) < 8.0   # drill-hole median target of the issue
     assert D.axes()["minor"]["range"] == pytest.approx(20, rel=0.3)
 
 
