@@ -49,7 +49,8 @@ def frame(trend, plunge, rotation):
     return np.column_stack([a, s, np.cross(a, s)])
 
 
-def simulate(coords, R, nugget, structures, seed):
+def covariance(coords, R, nugget, structures):
+    """Covariance matrix of nested spherical structures sharing the frame R."""
     local = (coords[:, None, :] - coords[None, :, :]) @ R
     C = np.zeros((len(coords), len(coords)))
     for sill, ranges in structures:
@@ -58,6 +59,11 @@ def simulate(coords, R, nugget, structures, seed):
         C += sill * (1.0 - 1.5 * hc + 0.5 * hc ** 3)
     del local
     C[np.diag_indices_from(C)] += nugget
+    return C
+
+
+def simulate(coords, R, nugget, structures, seed):
+    C = covariance(coords, R, nugget, structures)
     L = cholesky(C, lower=True, overwrite_a=True, check_finite=False)
     return L @ np.random.default_rng(seed).standard_normal(len(coords))
 

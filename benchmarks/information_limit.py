@@ -44,18 +44,7 @@ from scipy.linalg import cho_factor, cho_solve
 from scipy.spatial.transform import Rotation
 
 sys.path.insert(0, __file__.rsplit("/", 1)[0])
-from bench_discover import SCENARIOS  # noqa: E402
-
-
-def covariance(coords, R, nugget, structures):
-    local = (coords[:, None, :] - coords[None, :, :]) @ R
-    C = np.zeros((len(coords), len(coords)))
-    for sill, ranges in structures:
-        h = np.sqrt(np.sum((local / np.asarray(ranges, float)) ** 2, axis=-1))
-        hc = np.minimum(h, 1.0)
-        C += sill * (1.0 - 1.5 * hc + 0.5 * hc ** 3)
-    C[np.diag_indices_from(C)] += nugget
-    return C
+from bench_discover import SCENARIOS, covariance  # noqa: E402
 
 
 def parameters(R, nugget, structures):
