@@ -1430,9 +1430,21 @@ def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings,
             # BIC (Schwarz 1978): four more parameters (three log ranges, one share)
             penalty = 0.5 * 4 * np.log(lk2.n_samples)
             gain = lk.negloglik - lk2.negloglik
+            polished = False
+            if gain > penalty and LIKELIHOOD_FTOL is not None:
+                # the first search stopped at a loose tolerance: finish it (from where it
+                # stopped, SciPy's default tolerance) before the comparison, so that what
+                # it left undone is not counted as the second structure's gain
+                lk = refine_frame_likelihood(coords, values, lk.frame, lk.ranges,
+                                             lk.nugget_share, lk.shares, fit.kinds, **lk_kw)
+                f = fit_nested(bins, (lk.frame, fit.nugget, fit.sills, fit.ranges, fit.kinds),
+                               fixed_frame=lk.frame, **kw)
+                gain = lk.negloglik - lk2.negloglik
+                polished = True
             kept = bool(gain > penalty)
             nested = {"negloglik": lk2.negloglik, "negloglik_one_structure": lk.negloglik,
                       "gain": gain, "bic_penalty": penalty, "kept": kept,
+                      "one_structure_polished": polished,
                       "shares": [float(x) for x in lk2.shares],
                       "nugget_share": float(lk2.nugget_share),
                       "ranges": np.asarray(lk2.ranges, float).tolist(),
