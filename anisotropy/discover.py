@@ -1260,21 +1260,16 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
         fit = _refine_frame(fit, bins, samples.coords, tv, seed, common, choices, warnings,
                             add_structure=n_str is None)
     nest = (fit.info.get("likelihood") or {}).get("nested") or {}
-    if n_str is None and nest.get("structure_added"):
-        choices.append({"choice": "structures", "value": len(fit.sills),
-                        "reason": "the variogram bins' BIC kept one structure; the "
-                                  "nearest-neighbour likelihood supports a second, shorter "
-                                  f"one (log-likelihood gain {nest['gain']:.1f} against a BIC "
-                                  f"penalty of {nest['bic_penalty']:.1f}), fitted to the "
-                                  "variogram with the refined frame held"})
-    elif n_str is None and nest.get("kept") and nest.get("not_added"):
-        choices.append({"choice": "structures", "value": len(fit.sills),
-                        "reason": "the variogram bins' BIC kept one structure; the "
-                                  "nearest-neighbour likelihood supports a second, shorter "
-                                  f"one (log-likelihood gain {nest['gain']:.1f} against a BIC "
-                                  f"penalty of {nest['bic_penalty']:.1f}) and its frame is "
-                                  "used, but the second structure is not reported: "
-                                  f"{nest['not_added']}"})
+    if n_str is None and nest.get("kept"):
+        supported = ("the variogram bins' BIC kept one structure; the nearest-neighbour "
+                     "likelihood supports a second, shorter one (log-likelihood gain "
+                     f"{nest['gain']:.1f} against a BIC penalty of {nest['bic_penalty']:.1f})")
+        if nest.get("structure_added"):
+            why = f"{supported}, fitted to the variogram with the refined frame held"
+        else:
+            why = (f"{supported} and its frame is used, but the second structure is not "
+                   f"reported: {nest['not_added']}")
+        choices.append({"choice": "structures", "value": len(fit.sills), "reason": why})
     elif n_str is None:
         choices.append({"choice": "structures", "value": len(fit.sills),
                         "reason": "chosen by BIC with a minimum gain (see diagnostics."
@@ -1458,11 +1453,10 @@ def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings,
                                             tot * np.asarray(lk2.shares, float),
                                             np.asarray(lk2.ranges, float), (f.kinds[0],) * 2),
                                      fixed_frame=lk2.frame, **kw)
-                    lk_order = _axis_order(lk2.ranges)
                     if np.min(two.sills) < LIKELIHOOD_MIN_SHARE * tot:
                         nested["not_added"] = (f"a structure kept under "
                                                f"{LIKELIHOOD_MIN_SHARE:.0%} of the sill")
-                    elif _axis_order(two.ranges) != lk_order:
+                    elif _axis_order(two.ranges) != _axis_order(lk2.ranges):
                         # the variogram traded ranges between the two structures
                         # and relabelled the axes the likelihood's frame was fitted for
                         nested["not_added"] = ("the variogram refit with the frame held "
