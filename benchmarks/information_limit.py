@@ -47,7 +47,7 @@ sys.path.insert(0, __file__.rsplit("/", 1)[0])
 from bench_discover import SCENARIOS, covariance  # noqa: E402
 
 
-def parameters(R, nugget, structures):
+def parameters(nugget, structures):
     """Vector of parameters: rotation (3, zero at the truth), log ranges, nugget, sills."""
     t = [0.0, 0.0, 0.0]
     for _, r in structures:
@@ -66,7 +66,7 @@ def model_of(theta, R0, K):
 
 def fisher(coords, R0, nugget, structures, step=1e-4):
     K = len(structures)
-    theta = parameters(R0, nugget, structures)
+    theta = parameters(nugget, structures)
     S = covariance(coords, R0, nugget, structures)
     cf = cho_factor(S, lower=True, check_finite=False)
     W = []
