@@ -1258,7 +1258,7 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
     if (LIKELIHOOD_REFINEMENT and not planar and tr.kind != "indicator"
             and estimator in ("semivariogram", "robust")):
         fit = _refine_frame(fit, bins, samples.coords, tv, seed, common, choices, warnings,
-                            add_structure=n_str is None)
+                            add_structure=n_str is None, one_structure=best)
     nest = (fit.info.get("likelihood") or {}).get("nested") or {}
     if n_str is None and nest.get("kept"):
         supported = ("the variogram bins' BIC kept one structure; the nearest-neighbour "
@@ -1380,7 +1380,7 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
 
 
 def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings,
-                  add_structure=False):
+                  add_structure=False, one_structure=None):
     """The variogram fit's frame refined by the nearest-neighbour likelihood.
 
     The ranges, nugget and sills are then refitted to the variogram bins with
@@ -1399,6 +1399,15 @@ def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings,
     structure's longest range on another column: the refit traded ranges
     between the structures, and the axes the frame was fitted for would be
     relabelled); the reason is recorded in ``nested["not_added"]``.
+
+    When the variogram fit has two structures and ``one_structure`` (the best
+    one-structure variogram fit) is given, the two-structure likelihood is
+    also maximised from a second start, built as above: the one-structure
+    likelihood's answer with a shorter structure added. The variogram's
+    two-structure fit can sit in a poor basin (a long structure with little
+    sill running to the range limit, which on one issue-4 realisation turned
+    the major axis 73 degrees); the start with the higher likelihood is kept
+    and both are recorded in ``two_structure_starts``.
     """
     from anisotropy.fitting import fit_nested
     from anisotropy.fitting.likelihood import refine_frame_likelihood
@@ -1415,13 +1424,51 @@ def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings,
         f = fit_nested(bins, (lk.frame, fit.nugget, fit.sills, fit.ranges, fit.kinds),
                        fixed_frame=lk.frame, **kw)
         nested = None
+        starts = None
+
+        def add_shorter(f1, kinds2):
+            # the one-structure fit with a shorter structure added, half the sill each
+            r1 = np.atleast_2d(np.asarray(f1.ranges, float))[0]
+            s1 = float(np.asarray(f1.sills, float)[0])
+            return refine_frame_likelihood(coords, values, f1.frame,
+                                           [LIKELIHOOD_NESTED_SHORT * r1, r1], f1.nugget,
+                                           [0.5 * s1, 0.5 * s1], kinds2,
+                                           ftol=LIKELIHOOD_NESTED_FTOL, **lk_kw)
+
+        if len(f.sills) == 2 and one_structure is not None:
+            o = one_structure
+            lk1 = refine_frame_likelihood(coords, values, o.frame, o.ranges, o.nugget, o.sills,
+                                          o.kinds, ftol=LIKELIHOOD_FTOL, **lk_kw)
+            f1 = fit_nested(bins, (lk1.frame, o.nugget, o.sills, o.ranges, o.kinds),
+                            fixed_frame=lk1.frame, **kw)
+            alt = add_shorter(f1, tuple(fit.kinds))
+            starts = {"variogram_fit": lk.negloglik, "one_structure_plus_shorter":
+                      alt.negloglik, "chosen": "variogram_fit"}
+            if alt.negloglik < lk.negloglik:
+                starts["chosen"] = "one_structure_plus_shorter"
+                lk = alt
+                tot = float(f.nugget + np.sum(f.sills))
+                f = fit_nested(bins, (lk.frame, tot * lk.nugget_share,
+                                      tot * np.asarray(lk.shares, float),
+                                      np.asarray(lk.ranges, float), tuple(fit.kinds)),
+                               fixed_frame=lk.frame, **kw)
+        held = None
+        if len(f.sills) > 1 and _axis_order(f.ranges) != _axis_order(lk.ranges):
+            # the variogram refit traded ranges between the structures and relabelled
+            # the axes the likelihood's frame was fitted for: the likelihood's own
+            # ranges and shares are reported instead (scaled to the refit's total sill)
+            tot = float(f.nugget + np.sum(f.sills))
+            f = fit_nested(bins, (lk.frame, tot * lk.nugget_share,
+                                  tot * np.asarray(lk.shares, float),
+                                  np.asarray(lk.ranges, float), tuple(f.kinds)),
+                           fixed_frame=lk.frame, optimise=False, **kw)
+            held = ("the variogram refit with the likelihood's frame held changed which "
+                    "axis is the major, semi-major or minor; the likelihood's ranges and "
+                    "sill shares are reported")
+            warnings.append(f"{held} (scaled to a total sill of {tot:.3g}); compare them "
+                            "with the experimental variograms")
         if len(f.sills) == 1:
-            r1 = np.atleast_2d(np.asarray(f.ranges, float))[0]
-            s1 = float(np.asarray(f.sills, float)[0])
-            lk2 = refine_frame_likelihood(coords, values, f.frame,
-                                          [LIKELIHOOD_NESTED_SHORT * r1, r1], f.nugget,
-                                          [0.5 * s1, 0.5 * s1], (f.kinds[0],) * 2,
-                                          ftol=LIKELIHOOD_NESTED_FTOL, **lk_kw)
+            lk2 = add_shorter(f, (f.kinds[0],) * 2)
             # BIC (Schwarz 1978): four more parameters (three log ranges, one share)
             penalty = 0.5 * 4 * np.log(lk2.n_samples)
             gain = lk.negloglik - lk2.negloglik
@@ -1479,15 +1526,21 @@ def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings,
                     "reason": f"the variogram fit's frame turned by {turn:.1f} degrees to the "
                               f"maximum of a Vecchia (1988) likelihood on {lk.n_samples} "
                               f"samples, {lk.n_neighbours} neighbours each, {model_text}; "
-                              "ranges and sills refitted to the variogram with that frame "
-                              "held"})
+                              + ("the likelihood's ranges and sill shares kept: the variogram "
+                                 "refit with that frame held relabelled the axes" if held else
+                                 "ranges and sills refitted to the variogram with that frame "
+                                 "held")})
     f.info["likelihood"] = {"turn_degrees": turn, "negloglik": lk.negloglik,
                             "negloglik_start": lk.negloglik_start,
                             "n_samples": lk.n_samples, "n_neighbours": lk.n_neighbours,
                             "variogram_objective_before": fit.objective,
                             "structures_in_likelihood": len(lk.shares),
                             "axis_order_agrees": _axis_order(f.ranges) == _axis_order(lk.ranges),
-                            "nested": nested}
+                            "ranges": np.asarray(lk.ranges, float).tolist(),
+                            "shares": [float(x) for x in lk.shares],
+                            "nugget_share": float(lk.nugget_share),
+                            "nested": nested, "two_structure_starts": starts,
+                            "likelihood_model_reported": held}
     f.info["frame_correction"] = np.asarray(lk.frame, float) @ np.asarray(fit.frame, float).T
     return f
 

@@ -498,6 +498,34 @@ def test_nested_refit_keeps_the_likelihoods_axes():
 
 
 @pytest.mark.slow
+def test_two_structures_asked_for_start_from_the_one_structure_answer_too():
+    # realisation 110 of the issue-4 shoot benchmark (Cholesky of the spherical formulas,
+    # Journel & Huijbregts 1978, ch. II) with two structures asked for: the variogram's
+    # two-exponential fit runs a long structure with a tenth of the sill to the range limit
+    # and its likelihood search stays in that basin (major axis 73 degrees off); the second
+    # start, the one-structure likelihood with a shorter structure added, reaches a higher
+    # likelihood, and the variogram refit, which relabels that frame's axes, is not used
+    F = frame_from_trend_plunge(135.0, 35.0, -15.0)
+    coords = np.random.default_rng(110).uniform([0, 0, 0], [260, 260, 200], size=(2000, 3))
+    v = simulate(coords, F, 0.05, [("spherical", 0.45, (35, 25, 10)),
+                                   ("spherical", 0.5, (160, 70, 30))], seed=1110)
+    D = anisotropy.discover(table(coords, v + 10), value="grade", transform="raw", seed=110,
+                            structures=2)
+    rec = D.diagnostics["frame_refinement"]
+    starts = rec["two_structure_starts"]
+    assert starts["chosen"] == "one_structure_plus_shorter"
+    assert starts["one_structure_plus_shorter"] < starts["variogram_fit"]
+    for i in range(3):
+        assert axis_err(D.frame[:, i], F[:, i]) < 10.0
+    assert rec["likelihood_model_reported"] and rec["axis_order_agrees"]
+    assert any("relabelled" in c["reason"] for c in D.choices)
+    short, long_ = sorted(D.model.structures, key=lambda s: s.ranges[0])
+    assert long_.ranges[0] == pytest.approx(160, rel=0.3)
+    assert short.ranges[0] == pytest.approx(35, rel=0.35)
+    assert all(max(s.ranges) < 1000 for s in D.model.structures)
+
+
+@pytest.mark.slow
 def test_drill_hole_strings():
     # holes drilled down the minor axis of a plunging shoot (the usual design):
     # the down-hole direction resolves the minor range, the collar grid the others

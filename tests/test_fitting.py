@@ -202,6 +202,26 @@ def test_fit_nested_fixed_frame_and_planar(rng):
     assert abs(abs(f2.frame[2, 2]) - 1.0) < 1e-9
 
 
+def test_fit_nested_evaluated_without_search_matches_scipys_cost(rng):
+    # a fit with the direct Cressie weighting, then the same model evaluated without a
+    # search: the objective must be scipy.optimize.least_squares' own cost at that point
+    # (soft-L1 loss, its documented rho(z) = 2 (sqrt(1 + z) - 1)) and the model unchanged
+    R = Rotation.from_euler("zyx", [35, 40, -20], degrees=True).as_matrix()
+    b = noisy_bins(rng, R, 0.2, [0.8], [(120, 60, 20)], ["spherical"])
+    f = fit_nested(b, (np.eye(3), 0.3, [0.7], [[100, 50, 25]], ("spherical",)),
+                   total_sill=1.0, weighting="cressie", make_model=False)
+    g = fit_nested(b, (f.frame, f.nugget, f.sills, f.ranges, f.kinds), total_sill=1.0,
+                   weighting="cressie", make_model=False, optimise=False)
+    assert g.objective == pytest.approx(f.objective, rel=1e-9)
+    assert np.allclose(g.ranges, f.ranges) and np.allclose(g.frame, f.frame)
+    assert g.wrss == pytest.approx(f.wrss, rel=1e-9)
+    # somewhere else: the cost is higher than at the optimum and the start is kept as given
+    h = fit_nested(b, (f.frame, 0.3, [0.7], [[100, 50, 25]], ("spherical",)),
+                   total_sill=1.0, weighting="cressie", make_model=False, optimise=False)
+    assert h.objective > f.objective
+    assert np.allclose(h.ranges, [[100, 50, 25]]) and h.nugget == pytest.approx(0.3)
+
+
 def test_select_structures_prefers_the_true_count(rng):
     R = Rotation.from_euler("zyx", [10, 20, 30], degrees=True).as_matrix()
     b1 = noisy_bins(rng, R, 0.2, [0.8], [(120, 60, 20)], ["spherical"])

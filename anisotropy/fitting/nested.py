@@ -275,7 +275,7 @@ def fit_nested(bins, start, *, n_structures=None, kinds=None, fixed_frame=None,
                fixed_nugget=None, total_sill=None, loss="soft_l1", f_scale=0.25,
                max_nfev=None, min_range=None, max_range=None, planar=False,
                ftol=1e-8, weighting="fixed_point", outer=3, shared_ratios=False,
-               make_model=True) -> NestedFit:
+               make_model=True, optimise=True) -> NestedFit:
     """Fit a nested geometric-anisotropy model to all fit bins at once.
 
     Parameters
@@ -324,6 +324,12 @@ def fit_nested(bins, start, *, n_structures=None, kinds=None, fixed_frame=None,
     make_model : bool
         Build the :class:`~anisotropy.models.NestedModel` (set False in inner
         loops that only need the parameters).
+    optimise : bool
+        False: no search; the start (after the ``total_sill`` scaling and the
+        bounds) is returned with its residuals against the bins, for a model
+        whose parameters come from elsewhere (``objective`` is then the
+        soft-L1 cost, or half the residual sum of squares for
+        ``loss="linear"``).
 
     Returns
     -------
@@ -367,6 +373,24 @@ def fit_nested(bins, start, *, n_structures=None, kinds=None, fixed_frame=None,
     p0 = prob.pack(frame0, nug0 if fixed_nugget is None else fixed_nugget, sills0, ranges0)
     lo, hi = prob.bounds()
     p0 = np.clip(p0, lo + 1e-9, hi - 1e-9)
+    if not optimise:
+        if loss not in ("soft_l1", "linear"):
+            raise ValueError(f"optimise=False supports the soft_l1 and linear losses, not {loss!r}")
+        if weighting != "cressie":
+            prob.gw = np.maximum(prob.gamma_model(p0), 1e-3 * prob.scale)
+        z = prob.residuals(p0) ** 2
+        cost = (0.5 * np.sum(z) if loss == "linear" else
+                f_scale ** 2 * np.sum(np.sqrt(1.0 + z / f_scale ** 2) - 1.0))
+        frame, nug, sills, ranges = prob.unpack(p0)
+        gm = prob.gamma_model(p0)
+        rel = prob.gamma / gm - 1.0
+        resid = prob.sw * rel
+        model = _to_model(frame, nug, sills, ranges, kinds) if make_model else None
+        return NestedFit(model=model, objective=float(cost), residuals=resid,
+                         n_params=len(p0), wrss=float(np.sum(resid ** 2)), relative=rel,
+                         frame=frame, nugget=float(nug), sills=sills, ranges=ranges,
+                         kinds=kinds, success=True, nfev=1,
+                         info={"x": p0, "message": "evaluated at the start (optimise=False)"})
     n_outer = 1 if weighting == "cressie" else max(int(outer), 1)
     nfev = 0
     x = p0
