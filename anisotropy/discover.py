@@ -867,7 +867,12 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
         One of ``anisotropy.estimators.ESTIMATORS``.
     structures : "auto" or int
         Number of nested structures (auto: 1..3 by the criterion of
-        :func:`anisotropy.fitting.select_structures`).
+        :func:`anisotropy.fitting.select_structures`, then a second, shorter
+        structure when the samples' likelihood supports it). With two
+        structures from the variogram (asked for or chosen), the likelihood
+        that refines the frame is started both from that fit and from the
+        one-structure answer with a shorter structure added; the higher
+        likelihood wins (``diagnostics.frame_refinement``).
     lag, n_lags : optional
         Unit lag (m) and number of lags (default: from the spacing).
     angular_tolerance : float, optional
