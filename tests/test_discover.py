@@ -474,18 +474,27 @@ def test_plunging_shoot_second_structure_found_by_the_likelihood():
     assert "likelihood" in why and "BIC" in why
 
 
+def shoot_benchmark_realisation(seed):
+    """Realisation ``seed`` of the issue-4 scattered shoot benchmark (its layout and field).
+
+    Two spherical structures by Cholesky of the formulas (Journel & Huijbregts 1978,
+    ch. II), 2,000 samples in a 260 x 260 x 200 m box; returns the true frame and table.
+    """
+    F = frame_from_trend_plunge(135.0, 35.0, -15.0)
+    coords = np.random.default_rng(seed).uniform([0, 0, 0], [260, 260, 200], size=(2000, 3))
+    v = simulate(coords, F, 0.05, [("spherical", 0.45, (35, 25, 10)),
+                                   ("spherical", 0.5, (160, 70, 30))], seed=1000 + seed)
+    return F, table(coords, v + 10)
+
+
 @pytest.mark.slow
 def test_nested_refit_keeps_the_likelihoods_axes():
-    # realisation 116 of the issue-4 shoot benchmark (Cholesky of the spherical formulas,
-    # Journel & Huijbregts 1978, ch. II): the likelihood's nested model has the right
-    # frame, but the two-structure variogram refit with that frame held traded ranges
+    # realisation 116 of the issue-4 shoot benchmark: the likelihood's nested model has
+    # the right frame, but the two-structure variogram refit with that frame held traded ranges
     # between its structures and made the semi-major column the longest (a major axis
     # reported 89 degrees off); such a refit is not reported
-    F = frame_from_trend_plunge(135.0, 35.0, -15.0)
-    coords = np.random.default_rng(116).uniform([0, 0, 0], [260, 260, 200], size=(2000, 3))
-    v = simulate(coords, F, 0.05, [("spherical", 0.45, (35, 25, 10)),
-                                   ("spherical", 0.5, (160, 70, 30))], seed=1116)
-    D = anisotropy.discover(table(coords, v + 10), value="grade", transform="raw", seed=116)
+    F, df = shoot_benchmark_realisation(116)
+    D = anisotropy.discover(df, value="grade", transform="raw", seed=116)
     for i in range(3):
         assert axis_err(D.frame[:, i], F[:, i]) < 10.0
     rec = D.diagnostics["frame_refinement"]
@@ -499,18 +508,14 @@ def test_nested_refit_keeps_the_likelihoods_axes():
 
 @pytest.mark.slow
 def test_two_structures_asked_for_start_from_the_one_structure_answer_too():
-    # realisation 110 of the issue-4 shoot benchmark (Cholesky of the spherical formulas,
-    # Journel & Huijbregts 1978, ch. II) with two structures asked for: the variogram's
-    # two-exponential fit runs a long structure with a tenth of the sill to the range limit
-    # and its likelihood search stays in that basin (major axis 73 degrees off); the second
-    # start, the one-structure likelihood with a shorter structure added, reaches a higher
-    # likelihood, and the variogram refit, which relabels that frame's axes, is not used
-    F = frame_from_trend_plunge(135.0, 35.0, -15.0)
-    coords = np.random.default_rng(110).uniform([0, 0, 0], [260, 260, 200], size=(2000, 3))
-    v = simulate(coords, F, 0.05, [("spherical", 0.45, (35, 25, 10)),
-                                   ("spherical", 0.5, (160, 70, 30))], seed=1110)
-    D = anisotropy.discover(table(coords, v + 10), value="grade", transform="raw", seed=110,
-                            structures=2)
+    # realisation 110 of the issue-4 shoot benchmark with two structures asked for: the
+    # variogram's two-exponential fit runs a long structure with a tenth of the sill to
+    # the range limit and its likelihood search stays in that basin (major axis 73 degrees
+    # off); the second start, the one-structure likelihood with a shorter structure added,
+    # reaches a higher likelihood, and the variogram refit, which relabels that frame's
+    # axes, is not used
+    F, df = shoot_benchmark_realisation(110)
+    D = anisotropy.discover(df, value="grade", transform="raw", seed=110, structures=2)
     rec = D.diagnostics["frame_refinement"]
     starts = rec["two_structure_starts"]
     assert starts["chosen"] == "one_structure_plus_shorter"

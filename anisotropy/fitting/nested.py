@@ -375,7 +375,8 @@ def fit_nested(bins, start, *, n_structures=None, kinds=None, fixed_frame=None,
     p0 = np.clip(p0, lo + 1e-9, hi - 1e-9)
     if not optimise:
         if loss not in ("soft_l1", "linear"):
-            raise ValueError(f"optimise=False supports the soft_l1 and linear losses, not {loss!r}")
+            raise ValueError("optimise=False supports the soft_l1 and linear losses, "
+                             f"not {loss!r}")
         if weighting != "cressie":
             prob.gw = np.maximum(prob.gamma_model(p0), 1e-3 * prob.scale)
         z = prob.residuals(p0) ** 2
