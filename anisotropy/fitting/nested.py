@@ -382,16 +382,8 @@ def fit_nested(bins, start, *, n_structures=None, kinds=None, fixed_frame=None,
         z = prob.residuals(p0) ** 2
         cost = (0.5 * np.sum(z) if loss == "linear" else
                 f_scale ** 2 * np.sum(np.sqrt(1.0 + z / f_scale ** 2) - 1.0))
-        frame, nug, sills, ranges = prob.unpack(p0)
-        gm = prob.gamma_model(p0)
-        rel = prob.gamma / gm - 1.0
-        resid = prob.sw * rel
-        model = _to_model(frame, nug, sills, ranges, kinds) if make_model else None
-        return NestedFit(model=model, objective=float(cost), residuals=resid,
-                         n_params=len(p0), wrss=float(np.sum(resid ** 2)), relative=rel,
-                         frame=frame, nugget=float(nug), sills=sills, ranges=ranges,
-                         kinds=kinds, success=True, nfev=1,
-                         info={"x": p0, "message": "evaluated at the start (optimise=False)"})
+        return _fit_result(prob, p0, cost, success=True, nfev=1, make_model=make_model,
+                           message="evaluated at the start (optimise=False)")
     n_outer = 1 if weighting == "cressie" else max(int(outer), 1)
     nfev = 0
     x = p0
@@ -413,13 +405,18 @@ def fit_nested(bins, start, *, n_structures=None, kinds=None, fixed_frame=None,
             x = res.x
             if change < 0.02:
                 break
-    frame, nug, sills, ranges = prob.unpack(res.x)
-    gm = prob.gamma_model(res.x)
-    rel = prob.gamma / gm - 1.0
-    resid = prob.sw * rel  # Cressie (1985) residuals at the optimum
-    model = _to_model(frame, nug, sills, ranges, kinds) if make_model else None
-    return NestedFit(model=model, objective=float(res.cost), residuals=resid,
-                     n_params=len(res.x), wrss=float(np.sum(resid ** 2)), relative=rel,
-                     frame=frame, nugget=float(nug), sills=sills, ranges=ranges, kinds=kinds,
-                     success=bool(res.status > 0), nfev=int(nfev),
-                     info={"x": res.x, "message": str(res.message)})
+    return _fit_result(prob, res.x, res.cost, success=bool(res.status > 0), nfev=nfev,
+                       make_model=make_model, message=str(res.message))
+
+
+def _fit_result(prob, x, cost, *, success, nfev, make_model, message):
+    """The :class:`NestedFit` of parameters ``x`` with its residuals against the bins."""
+    frame, nug, sills, ranges = prob.unpack(x)
+    rel = prob.gamma / prob.gamma_model(x) - 1.0
+    resid = prob.sw * rel  # Cressie (1985) residuals at x
+    model = _to_model(frame, nug, sills, ranges, prob.kinds) if make_model else None
+    return NestedFit(model=model, objective=float(cost), residuals=resid,
+                     n_params=len(x), wrss=float(np.sum(resid ** 2)), relative=rel,
+                     frame=frame, nugget=float(nug), sills=sills, ranges=ranges,
+                     kinds=prob.kinds, success=success, nfev=int(nfev),
+                     info={"x": x, "message": message})
