@@ -1452,10 +1452,7 @@ def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings,
             if alt.negloglik < lk.negloglik:
                 starts["chosen"] = "one_structure_plus_shorter"
                 lk = alt
-                tot = float(f.nugget + np.sum(f.sills))
-                f = fit_nested(bins, (lk.frame, tot * lk.nugget_share,
-                                      tot * np.asarray(lk.shares, float),
-                                      np.asarray(lk.ranges, float), tuple(fit.kinds)),
+                f = fit_nested(bins, _likelihood_model(lk, f, fit.kinds),
                                fixed_frame=lk.frame, **kw)
         held = None
         if len(f.sills) > 1 and _axis_order(f.ranges) != _axis_order(lk.ranges):
@@ -1463,13 +1460,10 @@ def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings,
             # the axes the likelihood's frame was fitted for: the likelihood's own
             # ranges and shares are reported instead (scaled to the refit's total sill)
             tot = float(f.nugget + np.sum(f.sills))
-            f = fit_nested(bins, (lk.frame, tot * lk.nugget_share,
-                                  tot * np.asarray(lk.shares, float),
-                                  np.asarray(lk.ranges, float), tuple(f.kinds)),
-                           fixed_frame=lk.frame, optimise=False, **kw)
-            held = ("the variogram refit with the likelihood's frame held changed which "
-                    "axis is the major, semi-major or minor; the likelihood's ranges and "
-                    "sill shares are reported")
+            f = fit_nested(bins, _likelihood_model(lk, f, f.kinds), fixed_frame=lk.frame,
+                           optimise=False, **kw)
+            held = (f"the variogram refit with the likelihood's frame held {_RELABELLED}; "
+                    "the likelihood's ranges and sill shares are reported")
             warnings.append(f"{held} (scaled to a total sill of {tot:.3g}); compare them "
                             "with the experimental variograms")
         if len(f.sills) == 1:
@@ -1501,9 +1495,7 @@ def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings,
                                fixed_frame=lk2.frame, **kw)
                 if add_structure:
                     tot = float(f.nugget + np.sum(f.sills))
-                    two = fit_nested(bins, (lk2.frame, tot * lk2.nugget_share,
-                                            tot * np.asarray(lk2.shares, float),
-                                            np.asarray(lk2.ranges, float), (f.kinds[0],) * 2),
+                    two = fit_nested(bins, _likelihood_model(lk2, f, (f.kinds[0],) * 2),
                                      fixed_frame=lk2.frame, **kw)
                     if np.min(two.sills) < LIKELIHOOD_MIN_SHARE * tot:
                         nested["not_added"] = (f"a structure kept under "
@@ -1512,8 +1504,7 @@ def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings,
                         # the variogram traded ranges between the two structures
                         # and relabelled the axes the likelihood's frame was fitted for
                         nested["not_added"] = ("the variogram refit with the frame held "
-                                               "changed which axis is the major, semi-major "
-                                               "or minor")
+                                               + _RELABELLED)
                     else:
                         f = two
                         nested["structure_added"] = True
@@ -1548,6 +1539,17 @@ def _refine_frame(fit, bins, coords, values, seed, common, choices, warnings,
                             "likelihood_model_reported": held}
     f.info["frame_correction"] = np.asarray(lk.frame, float) @ np.asarray(fit.frame, float).T
     return f
+
+
+#: What a variogram refit did when it moved the longest range to another column.
+_RELABELLED = "changed which axis is the major, semi-major or minor"
+
+
+def _likelihood_model(lk, fit, kinds):
+    """A likelihood fit's model as a ``fit_nested`` start, scaled to ``fit``'s total sill."""
+    tot = float(fit.nugget + np.sum(fit.sills))
+    return (lk.frame, tot * lk.nugget_share, tot * np.asarray(lk.shares, float),
+            np.asarray(lk.ranges, float), tuple(kinds))
 
 
 def _axis_order(ranges):
