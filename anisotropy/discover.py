@@ -734,36 +734,81 @@ def _worst_direction_line(rows):
             f"(mean {mean:+.0f} %) over {w['n_lags']} lags, {w['pairs']:,} pairs")
 
 
-def _resolution_warnings(bins, fit_model, frame, lag_info, spacing, holes, warnings, min_pairs):
-    """Say which axes the sampling cannot resolve (no short lags along them)."""
+def _resolution_warnings(bins, fit_model, frame, spacing, holes, warnings, min_pairs):
+    """Say which ranges the lag bins cannot resolve, and which directions that leaves open.
+
+    A range along an axis is resolved when at least two well-paired lag bins
+    within 25 degrees of the axis lie shorter than it (the variogram's rise is
+    seen by more than one point).  On drill holes and benches an unresolved
+    range leaves its axis's direction open too (the hole or bench spacing is
+    all the sampling says about that direction).  Scattered samples surround
+    every direction at every distance, so there an axis whose range alone is
+    unresolved keeps its direction (it is square to the two resolved axes);
+    two unresolved ranges leave their axes free to turn about the third.
+
+    Returns
+    -------
+    axes : list of str
+        Axes whose direction the sampling does not resolve.
+    ranges : list of str
+        Axes whose range the sampling does not resolve.
+    """
     st = max(fit_model.structures, key=lambda s: s.ranges[0])
     L = bins.lags
     d = np.linalg.norm(L, axis=1)
     u = L / np.maximum(d, 1e-12)[:, None]
-    unresolved = []
+    layout = getattr(spacing, "layout", None) if spacing is not None else None
+    scattered = layout == "scattered" and not holes
+    nearest = getattr(spacing, "nearest", None) if spacing is not None else None
+    across = getattr(spacing, "across_hole", None) if (holes and spacing is not None) else None
+    ranges, texts = [], []
     for i, name in enumerate(AXES):
         r = st.ranges[i]
-        cos = np.abs(u @ frame[:, i])
-        near = (cos > np.cos(np.radians(25))) & (d < r) & (bins.pairs >= min_pairs)
-        if near.sum() < 2:
-            shortest = float(d[cos > np.cos(np.radians(25))].min()) if np.any(
-                cos > np.cos(np.radians(25))) else float("nan")
-            unresolved.append(name)
-            if np.isfinite(shortest):
-                seen = (f"is shorter than the shortest lag seen near that axis "
-                        f"({shortest:.3g} m)")
-            else:
-                seen = "cannot be checked: no lag bin lies within 25 degrees of that axis"
-            msg = (f"the {name.replace('_', '-')} axis is not resolved by the sampling: its "
-                   f"fitted range ({r:.3g} m) {seen}")
-            if holes and spacing is not None and getattr(spacing, "across_hole", None):
-                msg += (f"; the across-hole spacing is {spacing.across_hole:.3g} m. Closer "
-                        "holes, or holes drilled along this axis, would resolve it; until then "
-                        "treat this axis and its range as a guess bounded by the spacing")
-            else:
-                msg += "; closer samples along this axis would resolve it"
-            warnings.append(msg)
-    return unresolved
+        along = np.abs(u @ frame[:, i]) > np.cos(np.radians(25))
+        short = np.sort(d[along & (d < r) & (bins.pairs >= min_pairs)])
+        if short.size >= 2:
+            continue
+        ranges.append(name)
+        label = name.replace("_", "-")
+        if not np.any(along):
+            seen = "cannot be checked: no lag bin lies within 25 degrees of that axis"
+        elif short.size == 1:
+            seen = (f"rests on one lag bin: only the bin at {short[0]:.3g} m, within 25 degrees "
+                    "of that axis, is shorter than it")
+        else:
+            seen = (f"is shorter than the shortest lag seen near that axis "
+                    f"({float(d[along].min()):.3g} m)")
+        what = "range" if scattered else "axis"
+        msg = f"the {label} {what} is not resolved by the sampling: its fitted range ({r:.3g} m) {seen}"
+        if across:
+            msg += (f"; the across-hole spacing is {across:.3g} m. Closer holes, or holes "
+                    "drilled along this axis, would resolve it; until then treat this axis and "
+                    "its range as a guess bounded by the spacing")
+        elif nearest and nearest < 0.5 * r:
+            msg += (f"; the samples are about {nearest:.3g} m apart, so a shorter unit lag "
+                    "(--lag) would resolve it")
+        else:
+            msg += "; closer samples along this axis would resolve it"
+        texts.append(msg)
+    if not scattered:
+        axes = list(ranges)
+    elif len(ranges) == 1:
+        axes = []
+        texts[0] += (". Its direction is still fixed: the samples surround it, and it is "
+                     "square to the other two axes, whose ranges are resolved")
+    else:
+        axes = list(ranges)
+        if len(ranges) == 2:
+            other = next(a for a in AXES if a not in ranges).replace("_", "-")
+            a, b = (x.replace("_", "-") for x in ranges)
+            texts.append(f"the {a} and {b} axes are not resolved in direction: with neither "
+                         f"range resolved they may turn about the {other} axis; treat their "
+                         "directions as a guess and check them against the geology")
+        elif len(ranges) == 3:
+            texts.append("no range is resolved along any axis: the whole frame is a guess; "
+                         "check it against the geology and the sampling before using it")
+    warnings.extend(texts)
+    return axes, ranges
 
 
 #: Units printed after the numeric value of a choice in the summary.
@@ -1297,10 +1342,11 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
     res_dir = _residuals_by_direction(model, fan_dirs, dist, gval, npairs, min_pairs=mp_fan,
                                       tolerance=tol_dir, flags=dr_final.flag)
 
-    unresolved = _resolution_warnings(bins, model, frame, lag_info, spacing,
-                                      holes is not None, warnings, mp_bin)
-    if planar:
+    unresolved, unresolved_ranges = _resolution_warnings(bins, model, frame, spacing,
+                                                         holes is not None, warnings, mp_bin)
+    if planar:  # the pole of one bench is assumed, not resolved, and so is its range
         unresolved = sorted(set(unresolved) | {"minor"})
+        unresolved_ranges = sorted(set(unresolved_ranges) | {"minor"})
     major_r = longest.ranges[0]
     if major_r > lag_info["max_distance"]:
         warnings.append(f"the major range ({major_r:.3g} m) is longer than the longest lag "
@@ -1331,6 +1377,7 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
         "bins": bins.to_dict(),
         "units": units,
         "unresolved_axes": unresolved,
+        "unresolved_ranges": unresolved_ranges,
         "selection": sel.to_dict(),
         "frame_refinement": fit.info.get("likelihood"),
         "starts": tried,
