@@ -402,6 +402,10 @@ def nominal_spacing(coords, holes=None, *, bench_tolerance: float = 1.0,
     ``bench_tolerance``); with two or more well-filled levels the data are
     treated as blast holes: ``bench`` is the median gap between levels and
     ``across_hole`` the median in-bench nearest-neighbour distance in plan.
+    One level is a single bench only when its elevations spread over no more
+    than three bench tolerances or the plan spacing, whichever is larger;
+    elevations spread continuously over more than that (no gap wider than
+    the tolerance) are a scattered 3D cloud.
     Unit lags are set to about the nominal spacing and the lag tolerance to
     half the lag (common practice).
     """
@@ -451,10 +455,14 @@ def nominal_spacing(coords, holes=None, *, bench_tolerance: float = 1.0,
         label, centres, spreads = _bench_levels(c[:, 2], float(bench_tolerance))
         n_lv = len(centres)
         per_level = np.bincount(label)
-        if n_lv == 1:
+        plan_nn = _nn_median(c[:, :2]) if n_lv == 1 else None
+        if n_lv == 1 and spreads[0] <= max(3.0 * float(bench_tolerance), plan_nn or 0.0):
+            # one thin level (a bench): elevations vary less than the plan spacing
             layout = "single_level"
             n_levels, levels = 1, centres.tolist()
-            across = _nn_median(c[:, :2])
+            across = plan_nn
+        elif n_lv == 1:
+            pass  # elevations spread continuously: a 3D cloud, not a bench
         elif np.median(per_level) >= min_per_level:
             gaps = np.diff(centres)
             bench_gap = float(np.median(gaps))

@@ -244,6 +244,25 @@ def test_spacing_blast_holes_known_bench(rng):
     assert one.layout == "single_level" and one.suggested_lag["vertical"] is None
 
 
+def test_spacing_scattered_cloud_is_not_a_single_bench(rng):
+    # uniform 3D cloud: the sorted elevations never jump by more than the 1 m
+    # bench tolerance, yet they spread over 80 m; it is not one bench, so the
+    # spacing is the 3D nearest-neighbour median, checked here by brute force
+    # over all pairs (numpy), not the much shorter plan spacing of a bench
+    coords = rng.uniform([0, 0, 0], [320, 320, 80], size=(800, 3))
+    s = nominal_spacing(coords)
+    d = np.linalg.norm(coords[:, None, :] - coords[None, :, :], axis=-1)
+    np.fill_diagonal(d, np.inf)
+    nn3 = float(np.median(d.min(axis=1)))
+    dp = np.linalg.norm(coords[:, None, :2] - coords[None, :, :2], axis=-1)
+    np.fill_diagonal(dp, np.inf)
+    assert s.layout == "scattered"
+    assert s.nearest == pytest.approx(nn3)
+    assert s.suggested_lag["omni"] == pytest.approx(nn3, rel=0.05)   # rounded
+    assert s.suggested_lag["vertical"] is not None
+    assert np.median(dp.min(axis=1)) < 0.6 * nn3   # what the old label used instead
+
+
 # ---------------------------------------------------------------------------
 # trend
 # ---------------------------------------------------------------------------
