@@ -462,6 +462,16 @@ def _choose_lags(samples, spacing, lag, n_lags, choices, pair_budget=None):
         reason = (f"the nominal {'across-hole' if base_key == 'across_hole' else 'sample'} "
                   f"spacing {base:.3g} m (common practice: unit lag about the nominal spacing)")
         lag = float(base)
+        if not holes and getattr(spacing, "layout", None) == "scattered":
+            # scattered samples (no holes, no benches) give pairs at every separation
+            # and in every direction: the lag is set by the number of lags, not by a
+            # sampling pattern, but not under half the spacing (the first lags would
+            # hold few pairs)
+            lag = max(max_d / MAX_LAGS_AUTO, 0.5 * lag)
+            reason = (f"scattered samples (no holes, no benches; median 3D nearest-neighbour "
+                      f"distance {base:.3g} m): pairs come at every separation, so the lag "
+                      f"gives {MAX_LAGS_AUTO} lags out to half the domain extent "
+                      f"({max_d:.0f} m), but not under half that spacing")
         if max_d / lag > MAX_LAGS_AUTO:
             lag = max_d / MAX_LAGS_AUTO
             reason += (f", lengthened to keep {MAX_LAGS_AUTO} lags out to half the domain "

@@ -672,3 +672,30 @@ def test_two_unresolved_ranges_leave_their_axes_free_to_turn():
     assert axes == unresolved == ["semi_major", "minor"]
     assert any("turn about the major axis" in t for t in w)
     assert all("shorter than the shortest lag seen near that axis (9 m)" in t for t in w[:2])
+
+
+@pytest.mark.parametrize("n, box", [(2000, (320.0, 320.0, 80.0)), (500, (200.0, 200.0, 200.0))])
+def test_scattered_samples_get_twenty_lags_but_not_under_half_their_spacing(n, box):
+    # scattered samples: 20 lags out to half the largest extent, unless that is under half
+    # the median 3D nearest-neighbour distance (computed here by brute force over all pairs
+    # with numpy). Dense case: 160 m / 20 = 8 m wins; sparse case: half the spacing wins
+    from types import SimpleNamespace
+    from anisotropy.explore import nominal_spacing
+    disc = importlib.import_module("anisotropy.discover")
+    coords = np.random.default_rng(4).uniform([0, 0, 0], box, size=(n, 3))
+    d = np.linalg.norm(coords[:, None, :] - coords[None, :, :], axis=-1)
+    np.fill_diagonal(d, np.inf)
+    nn = float(np.median(d.min(axis=1)))
+    half_extent = 0.5 * float(np.max(coords.max(axis=0) - coords.min(axis=0)))
+    spacing = nominal_spacing(coords)
+    assert spacing.layout == "scattered"
+    choices = []
+    info = disc._choose_lags(SimpleNamespace(coords=coords, holes=None), spacing, None, None,
+                             choices)
+    base = spacing.suggested_lag["omni"]            # the spacing, rounded to 2 digits
+    assert base == pytest.approx(nn, rel=0.05)
+    want = max(half_extent / 20, 0.5 * base)
+    assert info["unit_lag"] == pytest.approx(want, rel=0.01)
+    assert (want == half_extent / 20) == (n == 2000)   # each case exercises its branch
+    why = next(c for c in choices if c["choice"] == "unit lag")["reason"]
+    assert why.startswith("scattered samples") and "nearest-neighbour" in why
