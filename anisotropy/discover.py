@@ -459,19 +459,21 @@ def _choose_lags(samples, spacing, lag, n_lags, choices, pair_budget=None):
     else:
         base_key = "across_hole" if holes and sl.get("across_hole") else "omni"
         base = sl.get(base_key) or spacing.nearest or max_d / MIN_LAGS
-        reason = (f"the nominal {'across-hole' if base_key == 'across_hole' else 'sample'} "
-                  f"spacing {base:.3g} m (common practice: unit lag about the nominal spacing)")
-        lag = float(base)
         if not holes and getattr(spacing, "layout", None) == "scattered":
             # scattered samples (no holes, no benches) give pairs at every separation
             # and in every direction: the lag is set by the number of lags, not by a
             # sampling pattern, but not under half the spacing (the first lags would
             # hold few pairs)
-            lag = max(max_d / MAX_LAGS_AUTO, 0.5 * lag)
+            lag = max(max_d / MAX_LAGS_AUTO, 0.5 * float(base))
             reason = (f"scattered samples (no holes, no benches; median 3D nearest-neighbour "
                       f"distance {base:.3g} m): pairs come at every separation, so the lag "
                       f"gives {MAX_LAGS_AUTO} lags out to half the domain extent "
                       f"({max_d:.0f} m), but not under half that spacing")
+        else:
+            lag = float(base)
+            reason = (f"the nominal {'across-hole' if base_key == 'across_hole' else 'sample'} "
+                      f"spacing {base:.3g} m (common practice: unit lag about the nominal "
+                      "spacing)")
         if max_d / lag > MAX_LAGS_AUTO:
             lag = max_d / MAX_LAGS_AUTO
             reason += (f", lengthened to keep {MAX_LAGS_AUTO} lags out to half the domain "
@@ -767,10 +769,9 @@ def _resolution_warnings(bins, fit_model, frame, spacing, holes, warnings, min_p
     L = bins.lags
     d = np.linalg.norm(L, axis=1)
     u = L / np.maximum(d, 1e-12)[:, None]
-    layout = getattr(spacing, "layout", None) if spacing is not None else None
-    scattered = layout == "scattered" and not holes
-    nearest = getattr(spacing, "nearest", None) if spacing is not None else None
-    across = getattr(spacing, "across_hole", None) if (holes and spacing is not None) else None
+    scattered = getattr(spacing, "layout", None) == "scattered" and not holes
+    nearest = getattr(spacing, "nearest", None)
+    across = getattr(spacing, "across_hole", None) if holes else None
     ranges, texts = [], []
     for i, name in enumerate(AXES):
         r = st.ranges[i]

@@ -455,14 +455,14 @@ def nominal_spacing(coords, holes=None, *, bench_tolerance: float = 1.0,
         label, centres, spreads = _bench_levels(c[:, 2], float(bench_tolerance))
         n_lv = len(centres)
         per_level = np.bincount(label)
-        plan_nn = _nn_median(c[:, :2]) if n_lv == 1 else None
-        if n_lv == 1 and spreads[0] <= max(3.0 * float(bench_tolerance), plan_nn or 0.0):
-            # one thin level (a bench): elevations vary less than the plan spacing
-            layout = "single_level"
-            n_levels, levels = 1, centres.tolist()
-            across = plan_nn
-        elif n_lv == 1:
-            pass  # elevations spread continuously: a 3D cloud, not a bench
+        if n_lv == 1:
+            plan_nn = _nn_median(c[:, :2])
+            # one thin level is a bench; elevations spread continuously over more
+            # than the plan spacing are a 3D cloud (layout stays "scattered")
+            if spreads[0] <= max(3.0 * float(bench_tolerance), plan_nn):
+                layout = "single_level"
+                n_levels, levels = 1, centres.tolist()
+                across = plan_nn
         elif np.median(per_level) >= min_per_level:
             gaps = np.diff(centres)
             bench_gap = float(np.median(gaps))
