@@ -61,13 +61,18 @@ cells with progress after each batch.
 from __future__ import annotations
 
 import math
-import sys
 import time
+import warnings
 from dataclasses import dataclass, field
 
+import numba
 import numpy as np
 
+from .. import geometry
+from ..constants import CHANNEL_INDEX as CH
+from ..constants import CHANNELS
 from ..errors import DataError, InputError
+from ..progress import note
 from . import _cells, _kernels, _lattice
 
 __all__ = [
@@ -75,6 +80,9 @@ __all__ = [
     "LagVolume",
     "RunPlan",
     "build_volume",
+    "exact_sums",
+    "check_angular_tolerance",
+    "check_bandwidth",
     "estimate_pair_count",
     "plan_run",
     "direction_vector",
@@ -84,9 +92,6 @@ __all__ = [
     "ESTIMATOR_CHANNELS",
 ]
 
-CHANNELS = ("count", "dist", "sq", "abs", "sqrt", "head", "tail", "head2", "tail2",
-            "cross", "rel", "rel_n", "dx", "dy", "dz")
-CH = {name: i for i, name in enumerate(CHANNELS)}
 #: Channels every set of bins keeps (pair count, mean distance, mean lag vector).
 CORE_CHANNELS = ("count", "dist", "dx", "dy", "dz")
 #: Channels that are kept or dropped together in block and map sums.
@@ -136,12 +141,7 @@ def _columns(kept):
 #: Fixed number of work chunks (each with its own accumulator slice). Fixed so
 #: that sums do not depend on the thread count; at least the thread count.
 def _n_chunks() -> int:
-    try:
-        import numba
-
-        return max(4, int(numba.get_num_threads()))
-    except Exception:  # pragma: no cover
-        return 4
+    return max(4, int(numba.get_num_threads()))
 
 
 #: Pairs above which a run announces its estimate and reports progress.
@@ -198,8 +198,6 @@ def direction_vector(direction) -> np.ndarray:
 
     Returned in the canonical (lower-hemisphere) orientation.
     """
-    from .. import geometry
-
     d = np.asarray(direction, dtype=float).ravel()
     if d.shape == (2,):
         if not np.all(np.isfinite(d)) or not (-1e-9 <= d[1] <= 90 + 1e-9):
@@ -372,13 +370,6 @@ def plan_run(coords, max_distance, *, divisions=_cells.DEFAULT_CELL_DIVISIONS,
         batches=batches,
         cell=float(grid.cell),
     )
-
-
-def _announce(progress, message):
-    if progress is True:
-        print(message, file=sys.stderr, flush=True)
-    elif callable(progress):
-        progress(message)
 
 
 # ---------------------------------------------------------------- the volume
@@ -719,7 +710,7 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
     loud = callable(progress) or (progress is True and work.sum() > ANNOUNCE_PAIRS)
     if loud:
         est = estimate_pair_count(cl, max_distance)
-        _announce(progress, (
+        note(progress, (
             f"pair engine: about {est:,} pairs within {max_distance:g} m among {n:,} samples "
             f"({int(work.sum()):,} candidates, {len(batches)} batch(es), "
             f"{memory / 2**20:.0f} MB of accumulators)"))
@@ -758,7 +749,7 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
                                  fcols, bcols, mcols, block_major)
         if loud and len(batches) > 1:
             done = float(work[:q1].sum() / max(work.sum(), 1))
-            _announce(progress, f"pair engine: batch {bi + 1}/{len(batches)} done "
+            note(progress, f"pair engine: batch {bi + 1}/{len(batches)} done "
                                 f"({100 * done:.0f} % of candidates)")
     sums = _merge(acc_fine, fkeep).reshape(n_cls, n_fine, nch)
     del acc_fine
@@ -789,22 +780,107 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
     )
 
 
+# ------------------------------------------------------------ the exact pass
+def check_angular_tolerance(angular_tolerance) -> float:
+    """Angular tolerance as a float in (0, 90] degrees, or an InputError."""
+    try:
+        a = float(angular_tolerance)
+    except (TypeError, ValueError):
+        raise InputError(f"angular tolerance must be degrees in (0, 90]; got {angular_tolerance!r}.") from None
+    if not (0.0 < a <= 90.0):
+        raise InputError(f"angular tolerance must be degrees in (0, 90]; got {a}.")
+    return a
+
+
+def check_bandwidth(bandwidth):
+    """Bandwidth as a positive float in metres, None kept, or an InputError."""
+    if bandwidth is None:
+        return None
+    b = float(bandwidth)
+    if not (b > 0) or not math.isfinite(b):
+        raise InputError(f"bandwidth must be a positive distance in metres or None; got {bandwidth!r}.")
+    return b
+
+
+def exact_sums(coords, values, *, lag, n_lags, direction=None, angular_tolerance=22.5,
+               lag_tolerance=None, bandwidth=None, channels=None) -> np.ndarray:
+    """Exact channel sums (n_lags + 1, n_ch) of a directional variogram (row 0 unused).
+
+    The exact directional pass: every pair closer than ``n_lags lag + tol``
+    is visited once and tested against the lag-class, angle and bandwidth
+    rules on its own lag vector (the rules are spelled out in
+    :func:`anisotropy.directional.experimental_variogram`, which reads its
+    values from these sums). ``channels``
+    (see :func:`anisotropy.pairs.resolve_channels`): None keeps all 15; an
+    estimator name keeps count, dist and what that estimator reads (not the
+    lag-vector sums dx, dy, dz, which no variogram value needs, unless they
+    are named), and the pass does no work for the others, which are NaN.
+    """
+    c, v = _check_coords_values(coords, values)
+    lag, n_lags = _check_lag(lag, n_lags)
+    tol = 0.5 * lag if lag_tolerance is None else float(lag_tolerance)
+    if not (tol > 0) or not math.isfinite(tol):
+        raise InputError(f"lag tolerance must be a positive distance in metres; got {lag_tolerance!r}.")
+    ang = check_angular_tolerance(angular_tolerance)
+    band = check_bandwidth(bandwidth)
+    omni = direction is None
+    u = np.zeros(3) if omni else direction_vector(direction)
+    kept = resolve_channels(channels)
+    asked = {channels} if isinstance(channels, str) else set(channels or ())
+    if kept != CHANNELS and not asked & {"dx", "dy", "dz"}:
+        # a variogram value needs no mean lag vector unless it was asked for by name
+        kept = tuple(name for name in kept if name not in ("dx", "dy", "dz"))
+    need = np.array([name in kept for name in ("abs", "sqrt", "head", "rel", "dx")], dtype=np.int64)
+    n_chunks = _n_chunks()
+    acc = np.zeros((n_chunks, (n_lags + 1) * len(CHANNELS)))
+    stats = np.zeros((n_chunks, 2), dtype=np.int64)
+    if len(c) >= 2:
+        radius = n_lags * lag + tol
+        cl = c - c.min(axis=0)
+        grid = _cells.make_grid(cl, radius)
+        off = _cells.half_stencil(grid.cell, radius, grid.dims)
+        work = _kernels.cell_work(grid.start, grid.dims, grid.occupied, off)
+        o = grid.order
+        x, y, z, vv = (np.ascontiguousarray(a) for a in (cl[o, 0], cl[o, 1], cl[o, 2], v[o]))
+        # 90 degrees: every direction (-1 so that perpendicular lags are not lost to rounding)
+        cos_tol = math.cos(math.radians(ang)) if ang < 90.0 else -1.0
+        maxd2 = (radius * (1 + 1e-12)) ** 2
+        # class bounds of the rule k lag - tol < d <= k lag + tol, as the rule computes them
+        k = np.arange(n_lags + 3)
+        lo = k * lag - tol
+        hi = k * lag + tol
+        pad = (k == 0) | (k > n_lags)  # never match (the kernel also reads index -1)
+        lo[pad] = np.inf
+        hi[pad] = -np.inf
+        narrow = bool(tol <= 0.5 * lag)
+        lean_omni = omni and narrow and not need.any()  # the semivariogram, every direction
+        for q0, q1 in _plan_batches(work, 4e8):
+            if lean_omni:
+                _kernels.omni_pass(x, y, z, vv, grid.start, grid.dims, grid.occupied, off, q0, q1,
+                                   n_chunks, maxd2, 1.0 / lag, lo, hi, n_lags, acc, stats)
+                continue
+            _kernels.exact_pass(x, y, z, vv, grid.start, grid.dims, grid.occupied, off, q0, q1,
+                                n_chunks, maxd2, 1.0 / lag, tol, lo, hi, narrow, n_lags, omni,
+                                u[0], u[1], u[2], cos_tol, band is not None,
+                                0.0 if band is None else band * band, need, acc, stats)
+    out = acc.sum(axis=0).reshape(n_lags + 1, len(CHANNELS))
+    out[:, [CHANNELS.index(name) for name in CHANNELS if name not in kept]] = np.nan
+    return out
+
+
 def warm_up() -> float:
-    """Compile (or load from Numba's on-disk cache) the kernels a discovery uses.
+    """Compile (or load from Numba's on-disk cache) the pair kernels a discovery uses.
 
     The kernels are compiled for argument *types*, so a pass over a few random
     samples with the options ``anisotropy.discover`` passes (blocks, map, one
-    estimator's channels) and an exact variogram compile everything a real
-    run needs. Call it once in a parent process before starting several
+    estimator's channels) and an exact directional pass compile everything a
+    real run needs. Call it once in a parent process before starting several
     worker processes: otherwise, on a fresh installation, every worker
     compiles the same kernels at the same time (about half a minute each on
-    two cores). Returns the seconds it took (one to two once cached: loading the
-    cached kernels).
+    two cores). :func:`anisotropy.parallel.warm_up` also compiles the
+    likelihood kernels of ``anisotropy.fitting``. Returns the seconds it took
+    (one to two once cached: loading the cached kernels).
     """
-    from ..directional import experimental_variogram
-
-    import warnings
-
     t0 = time.perf_counter()
     rng = np.random.default_rng(0)
     c = rng.random((60, 3)) * 20.0
@@ -814,8 +890,8 @@ def warm_up() -> float:
         for est in ("semivariogram", None):
             build_volume(c, v, lag=2.0, n_lags=4, progress=False, channels=est,
                          block_channels=est, map_channels=est)
+        # the calls anisotropy.directional.experimental_variogram makes
         for est in ("semivariogram", "correlogram"):
-            experimental_variogram(c, v, lag=2.0, n_lags=4, estimator=est)
-            experimental_variogram(c, v, lag=2.0, n_lags=4, direction=(0.0, 0.0),
-                                   estimator=est)
+            exact_sums(c, v, lag=2.0, n_lags=4, channels=est)
+            exact_sums(c, v, lag=2.0, n_lags=4, direction=(0.0, 0.0), channels=est)
     return time.perf_counter() - t0
