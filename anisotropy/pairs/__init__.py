@@ -90,7 +90,13 @@ __all__ = [
     "warm_up",
     "CORE_CHANNELS",
     "ESTIMATOR_CHANNELS",
+    "DEFAULT_FINE_SPACING",
+    "DEFAULT_COARSE_SPACING",
 ]
+
+#: Default spacings (degrees) of the fine and coarse direction lattices.
+DEFAULT_FINE_SPACING = _lattice.DEFAULT_FINE_SPACING
+DEFAULT_COARSE_SPACING = _lattice.DEFAULT_COARSE_SPACING
 
 #: Channels every set of bins keeps (pair count, mean distance, mean lag vector).
 CORE_CHANNELS = ("count", "dist", "dx", "dy", "dz")
