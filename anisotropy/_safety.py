@@ -12,7 +12,9 @@ This module keeps each of those uses harmless:
   formula;
 * :func:`atomic_write_bytes` and friends write through a temporary file in
   the same folder and :func:`os.replace`, so an interrupted run never leaves
-  a half-written file behind.
+  a half-written file behind;
+* :func:`json_ready` is the package's one conversion to JSON types (NumPy
+  values, tuples, paths; NaN and infinity become ``null``).
 
 Nothing here unpickles or evaluates any input.
 """
@@ -30,7 +32,9 @@ import re
 import tempfile
 import unicodedata
 from pathlib import Path
-from typing import Any, Iterable, Mapping, Sequence
+from typing import Any, Callable, Iterable, Mapping, Sequence
+
+import numpy as np
 
 from anisotropy.errors import InputError
 
@@ -46,6 +50,7 @@ __all__ = [
     "atomic_write_json",
     "atomic_write_csv",
     "json_ready",
+    "finite_or_none",
 ]
 
 # ---------------------------------------------------------------------------
@@ -261,31 +266,51 @@ def csv_text(rows: Sequence[Mapping[str, Any]], columns: Sequence[str]) -> str:
 # ---------------------------------------------------------------------------
 
 
-def json_ready(obj: Any) -> Any:
-    """Convert numpy scalars/arrays, tuples, paths and non-finite floats to JSON types.
+def finite_or_none(x: Any) -> float | None:
+    """``float(x)``, or None when ``x`` is None, NaN or infinite (JSON has no NaN)."""
+    if x is None:
+        return None
+    x = float(x)
+    return x if math.isfinite(x) else None
 
-    Non-finite floats become ``None`` (JSON has no NaN).
+
+def _to_text(obj: Any) -> str:
+    return str(obj)
+
+
+def json_ready(obj: Any, *, default: Callable[[Any], Any] | None = _to_text) -> Any:
+    """Plain JSON types from NumPy values, containers, paths and non-finite floats.
+
+    Mappings become dicts with text keys; lists, tuples, sets and arrays
+    become lists; NumPy scalars become Python ones; non-finite floats become
+    ``None`` (JSON has no NaN); paths become text.
+
+    Parameters
+    ----------
+    obj : any
+    default : callable or None
+        Applied to any other object (default: ``str``). None leaves such
+        objects as they are, for a caller whose JSON encoder handles them.
+
+    Returns
+    -------
+    Plain dicts, lists, str, int, float, bool and None (and, with
+    ``default=None``, the unconverted objects).
     """
-    try:
-        import numpy as np
-    except ImportError:  # pragma: no cover
-        np = None
     if isinstance(obj, Mapping):
-        return {str(k): json_ready(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple, set)):
-        return [json_ready(v) for v in obj]
-    if np is not None:
-        if isinstance(obj, np.ndarray):
-            return json_ready(obj.tolist())
-        if isinstance(obj, np.generic):
-            obj = obj.item()
+        return {str(k): json_ready(v, default=default) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple, set, np.ndarray)):
+        items = obj.tolist() if isinstance(obj, np.ndarray) else obj
+        return [json_ready(v, default=default) for v in items]
+    if isinstance(obj, np.generic):
+        obj = obj.item()
     if isinstance(obj, float):
-        return obj if math.isfinite(obj) else None
+        return finite_or_none(obj)
     if isinstance(obj, (str, int, bool)) or obj is None:
         return obj
     if isinstance(obj, os.PathLike):
         return os.fspath(obj)
-    return str(obj)
+    return obj if default is None else default(obj)
 
 
 # ---------------------------------------------------------------------------

@@ -35,6 +35,7 @@ The config file (TOML) has this layout (all keys optional)::
 from __future__ import annotations
 
 import hashlib
+import inspect
 import json
 import os
 import sys
@@ -44,14 +45,27 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Mapping, Sequence
 
+import pandas as pd
+from threadpoolctl import threadpool_limits
+
 from anisotropy import _safety as S
+from anisotropy import parallel
+from anisotropy.check import Interpretation, check_interpretation, parse_orientation
+from anisotropy.constants import AXES as _AXES
+from anisotropy.constants import MIN_SAMPLES
+from anisotropy.discover import discover
 from anisotropy.errors import AnisotropyError, InputError, InsufficientDataError
+from anisotropy.progress import note
+from anisotropy.report.html import render_report
+from anisotropy.report.index import render_index
+from anisotropy.samples import domain_codes, domain_values, find_column, read_table
+
+try:
+    import tomllib
+except ImportError:  # pragma: no cover - Python 3.10
+    import tomli as tomllib
 
 __all__ = ["run_batch", "BatchResult", "load_config", "SUMMARY_COLUMNS", "MIN_SAMPLES"]
-
-#: fewest samples a domain needs before discovery is attempted (common practice:
-#: a few hundred pairs per lag need at least ~30-50 samples; below 30 it is noise)
-MIN_SAMPLES = 30
 
 MARKER = ".complete"
 ROW_FILE = "row.json"
@@ -68,7 +82,6 @@ SUMMARY_COLUMNS = (
     "verdict", "warnings", "seconds",
 )
 
-_AXES = ("major", "semi_major", "minor")
 # config keys that are ours, not discover's
 _OWN_KEYS = {"skip", "interpretation", "topcut", "min_samples"}
 
@@ -101,10 +114,6 @@ def load_config(config: str | os.PathLike | Mapping | None) -> dict:
         data = dict(config)
         source = "<config>"
     else:
-        try:
-            import tomllib
-        except ImportError:  # pragma: no cover - Python 3.10
-            import tomli as tomllib
         source = str(config)
         try:
             with open(config, "rb") as fh:
@@ -134,8 +143,6 @@ def load_config(config: str | os.PathLike | Mapping | None) -> dict:
 
 def _interpretation(spec: Mapping, domain: str):
     """An Interpretation from a config table."""
-    from anisotropy.check import Interpretation, parse_orientation
-
     where = f"[domain.\"{domain}\".interpretation]"
     try:
         if "plane" in spec:
@@ -226,10 +233,6 @@ def _run_domain(task: Mapping, frame=None) -> dict:
     domain ran (the summation order of a multi-threaded BLAS moves the last
     digits of a fit, which a bootstrap with few replicates can amplify).
     """
-    try:
-        from threadpoolctl import threadpool_limits
-    except ImportError:  # pragma: no cover - threadpoolctl comes with scikit-learn
-        return _run_domain_inner(task, frame)
     with threadpool_limits(limits=1):
         return _run_domain_inner(task, frame)
 
@@ -272,10 +275,6 @@ def _run_domain_inner(task: Mapping, frame) -> dict:
 
 
 def _discover_domain(task: Mapping, df, row: dict, dom_dir: Path) -> dict:
-    import pandas as pd
-
-    from anisotropy.discover import discover
-
     if not isinstance(df, pd.DataFrame):
         df = pd.DataFrame(df)
     source = task.get("source", "<table>")
@@ -300,14 +299,10 @@ def _discover_domain(task: Mapping, df, row: dict, dom_dir: Path) -> dict:
     check = None
     check_dict = None
     if task.get("interpretation"):
-        from anisotropy.check import check_interpretation
-
         check = check_interpretation(disc, _interpretation(task["interpretation"], task["domain"]))
         check_dict = check.to_dict()
         S.atomic_write_json(dom_dir / "check.json", check_dict)
     if task.get("report", True):
-        from anisotropy.report.html import render_report
-
         render_report(disc, dom_dir, check=check, topcut=task.get("topcut"))
     row["status"] = "ok"
     return _row_from_result(row, d, check_dict)
@@ -358,8 +353,6 @@ class BatchResult:
 
     def to_frame(self):
         """The summary as a pandas DataFrame."""
-        import pandas as pd
-
         return pd.DataFrame(self.rows, columns=list(SUMMARY_COLUMNS))
 
     def summary(self) -> str:
@@ -441,10 +434,6 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
     InputError
         The table, columns, domain names or config cannot be used.
     """
-    import pandas as pd
-
-    from anisotropy.samples import domain_values, read_table
-
     t0 = time.perf_counter()
     if isinstance(data, pd.DataFrame):
         df = data
@@ -475,9 +464,9 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
     columns = {k: v for k, v in {"x": x, "y": y, "z": z, "hole": hole}.items() if v is not None}
 
     _check_option_names(discover_options, cfg)
-    if unknown_cfg and progress:
-        print(f"note: {_notes(unknown_cfg)[0]} (domains in the table: "
-              f"{', '.join(all_domains[:30])})", file=sys.stderr, flush=True)
+    if unknown_cfg:
+        note(progress, f"note: {_notes(unknown_cfg)[0]} (domains in the table: "
+                       f"{', '.join(all_domains[:30])})")
     tasks, rows, resumed = [], {}, []
     for name in selected:
         over = dict(cfg["domain"].get(name, {}))
@@ -525,16 +514,12 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
                    config=cfg.get("source"), config_domains_not_in_table=unknown_cfg)
     S.atomic_write_csv(out / "summary.csv", ordered, SUMMARY_COLUMNS)
     S.atomic_write_json(out / "summary.json", summary)
-    from anisotropy.report.index import render_index
-
     render_index(ordered, out / "index.html", source=source, value=value,
                  domain_column=col, notes=_notes(unknown_cfg))
     return result
 
 
 def _data_hash(df, mask) -> str:
-    import pandas as pd
-
     h = pd.util.hash_pandas_object(df.loc[mask], index=True).to_numpy()
     return hashlib.sha256(h.tobytes()).hexdigest()[:16]
 
@@ -545,10 +530,6 @@ _INTAKE_OPTIONS = {"missing_codes", "below_detection", "duplicates", "source"}
 
 def _check_option_names(discover_options, cfg):
     """Refuse unknown discover options (a typo would otherwise fail every domain)."""
-    import inspect
-
-    from anisotropy.discover import discover
-
     params = inspect.signature(discover).parameters
     known = {n for n, p in params.items() if p.kind is not inspect.Parameter.VAR_KEYWORD}
     known = (known | _INTAKE_OPTIONS | _OWN_KEYS) - {"data", "value", "domain", "domain_value",
@@ -570,24 +551,16 @@ def _notes(unknown_cfg):
 
 
 def _domain_column(df, domain, source):
-    from anisotropy.samples import find_column
-
     return find_column(df, domain, role="domain", option="--domain", source=source)
 
 
 def _domain_codes(series):
     """Domain codes as text, compared the way :func:`anisotropy.samples.domain_values` lists them."""
-    from anisotropy.samples import domain_codes
-
     return domain_codes(series)
 
 
 def _apply_topcut(df, mask, value, topcut, source):
     """Cap the grade column of one domain's rows (``mask``) at ``topcut``; returns (frame, n_capped)."""
-    import pandas as pd
-
-    from anisotropy.samples import find_column
-
     col = find_column(df, value, role="grade", option="--value", source=source)
     grades = pd.to_numeric(df[col], errors="coerce")
     over = (grades > topcut).to_numpy() & mask
@@ -599,67 +572,30 @@ def _apply_topcut(df, mask, value, topcut, source):
 
 
 def _execute(tasks: Sequence[Mapping], frame, *, jobs, scheduler, progress):
+    """Run the domains (this process, local processes or a Dask cluster); rows in task order."""
     if not tasks:
         return []
+    jobs = 1 if jobs is None else parallel.check_jobs(jobs)
 
-    def say(row):
-        if progress:
-            print(f"  {row['domain']}: {row['status']}"
-                  + (f" ({row['reason']})" if row["reason"] else "")
-                  + f" [{row['seconds']} s]", flush=True)
-        return row
+    def say(k, row):
+        note(progress, f"  {row['domain']}: {row['status']}"
+                       + (f" ({row['reason']})" if row["reason"] else "")
+                       + f" [{row['seconds']} s]", stream=sys.stdout)
 
-    if scheduler is not None:
-        return _execute_dask(tasks, frame, scheduler, say)
-    if jobs is None or int(jobs) == 1 or len(tasks) == 1:
-        return [say(_run_domain(t, frame)) for t in tasks]
-    from joblib import Parallel, delayed
-
-    n = int(jobs)
-    if n == 0:
-        raise InputError("--jobs must be a positive number of processes (or -1 for all cores)")
-    _warm_up(progress)
-    results = Parallel(n_jobs=n, backend="loky", return_as="generator_unordered")(
-        delayed(_run_domain)(t, frame) for t in tasks)
-    return [say(r) for r in results]
+    if scheduler is None and jobs != 1 and len(tasks) > 1:
+        _warm_up(progress)
+    # the table goes to a cluster's workers once, not once per domain
+    return parallel.run_tasks(_run_domain, [(t,) for t in tasks], shared={"frame": frame},
+                              n_jobs=jobs, scheduler=scheduler, on_result=say, label="domain")
 
 
 def _warm_up(progress):
-    """Compile the pair kernels once here, before the worker processes start (a fresh
+    """Compile the kernels once here, before the worker processes start (a fresh
     installation would otherwise compile them in every worker at once)."""
-    from anisotropy.pairs import warm_up
-
-    seconds = warm_up()
-    if progress and seconds > 2.0:
-        print(f"  compiled the pair kernels once for all workers ({seconds:.0f} s, cached "
-              "on disk for later runs)", flush=True)
-
-
-def _execute_dask(tasks, frame, scheduler, say):
-    try:
-        from dask.distributed import Client
-    except ImportError:
-        raise InputError("--scheduler needs dask.distributed: pip install 'anisotropy[distributed]'") from None
-    own = False
-    if isinstance(scheduler, Client):
-        client = scheduler
-    else:
-        try:
-            client = Client(scheduler, timeout="20s", set_as_default=False)
-        except (OSError, TimeoutError) as exc:
-            raise InputError(f"cannot reach the Dask scheduler at '{scheduler}': {exc}; "
-                             "check the address (tcp://host:8786) and that it is running") from None
-        own = True
-    try:
-        # the table goes to the workers once, not once per domain
-        shared = client.scatter(frame, broadcast=True)
-        futures = [client.submit(_run_domain, t, shared, pure=False, key=f"anisotropy-domain-{i}")
-                   for i, t in enumerate(tasks)]
-        # in submission order (as_completed would need a default client)
-        return [say(f.result()) for f in futures]
-    finally:
-        if own:
-            client.close()
+    seconds = parallel.warm_up()
+    if seconds > 2.0:
+        note(progress, f"  compiled the pair and likelihood kernels once for all workers "
+                       f"({seconds:.0f} s, cached on disk for later runs)", stream=sys.stdout)
 
 
 # ---------------------------------------------------------------------------
@@ -709,8 +645,6 @@ def run_demo(out="fenwright_demo", *, jobs=2, bootstrap=None, resume=False, prog
         for over in cfg["domain"].values():
             over.pop("bootstrap", None)
     cfg.pop("source", None)
-    from anisotropy.samples import read_table
-
     table = read_table(paths["composites"])
     # a stable, machine-independent name in every record and page
     table.attrs["source"] = f"anisotropy/data/{DEMO_TABLE}"

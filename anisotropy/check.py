@@ -57,6 +57,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from anisotropy.constants import AXES
 from anisotropy.errors import InputError, InterpretationError
 from anisotropy.geometry import (axis_angle, frame_from_axes, line_from_pitch, line_to_vector,
                                  pitch_of, plane_to_pole, pole_to_plane, to_lower_hemisphere,
@@ -86,7 +87,7 @@ DEFAULT_THRESHOLDS = {
     "max_ratio_replicates": 100,
 }
 
-AXIS_NAMES = ("major", "semi_major", "minor")
+AXIS_NAMES = AXES  # the frame's columns, in order
 
 _ORIENT = re.compile(r"^\s*([+-]?\d+(?:\.\d*)?|[+-]?\.\d+)\s*/\s*([+-]?\d+(?:\.\d*)?|[+-]?\.\d+)\s*$")
 

@@ -2,16 +2,22 @@
 
 Two routes:
 
-* :func:`experimental_variogram` is exact: a compiled pass over every pair
-  that applies the lag-class, angle and bandwidth rules of design.md to the
+* :func:`experimental_variogram` is exact: it reads
+  :func:`anisotropy.pairs.exact_sums`, a compiled pass over every pair that
+  applies the lag-class, angle and bandwidth rules of design.md to the
   pair's own lag vector;
-* :func:`variogram_fan`, :func:`variogram_map` and :func:`map_volume` read a
-  :class:`anisotropy.pairs.LagVolume` and never touch the pairs again. They
+* :func:`variogram_fan`, :func:`cone_variogram`, :func:`variogram_map` and
+  :func:`map_volume` read a :class:`anisotropy.pairs.LagVolume` and never
+  touch the pairs again. They
   are cell-resolution approximations: a fan direction gathers the fine cells
   whose lattice axis is within the tolerance (so the pair set differs from
   the exact one only for pairs whose angle to the direction is within one
   cell radius of the tolerance), its bandwidth is applied at class centres,
   and a map pixel holds the pairs whose lag rounds to that map cell.
+
+:func:`model_over_pairs` and :func:`volume_model_view` give a fitted model
+as a directional variogram's own pairs see it (see "The model over a
+cone's pairs" below), so that points and model are compared like for like.
 """
 
 from __future__ import annotations
@@ -23,110 +29,27 @@ import numpy as np
 import pandas as pd
 
 from . import geometry
+from .constants import CHANNEL_INDEX, CHANNELS
 from .errors import InputError
-from .estimators import ESTIMATORS, estimate, mean_distance
-from .pairs import (CHANNELS, LagVolume, _cells, _check_coords_values, _check_lag, _kernels,
-                    _n_chunks, _plan_batches, direction_vector, resolve_channels)
+from .estimators import check_estimator, estimate, mean_distance
+from .pairs import (LagVolume, check_angular_tolerance, check_bandwidth, direction_vector,
+                    exact_sums)
 
 __all__ = [
     "experimental_variogram",
     "variogram_fan",
     "variogram_map",
     "map_volume",
+    "cone_variogram",
+    "model_over_pairs",
+    "volume_model_view",
     "Fan",
+    "ConeVariogram",
     "MapSlice",
     "MapVolume",
 ]
 
 _NCH = len(CHANNELS)
-
-
-def _check_estimator(estimator):
-    if estimator not in ESTIMATORS:
-        raise InputError(
-            f"unknown estimator {estimator!r}; choose one of {', '.join(ESTIMATORS)}."
-        )
-
-
-def _check_tolerance(angular_tolerance):
-    try:
-        a = float(angular_tolerance)
-    except (TypeError, ValueError):
-        raise InputError(f"angular tolerance must be degrees in (0, 90]; got {angular_tolerance!r}.") from None
-    if not (0.0 < a <= 90.0):
-        raise InputError(f"angular tolerance must be degrees in (0, 90]; got {a}.")
-    return a
-
-
-def _check_bandwidth(bandwidth):
-    if bandwidth is None:
-        return None
-    b = float(bandwidth)
-    if not (b > 0) or not math.isfinite(b):
-        raise InputError(f"bandwidth must be a positive distance in metres or None; got {bandwidth!r}.")
-    return b
-
-
-def exact_sums(coords, values, *, lag, n_lags, direction=None, angular_tolerance=22.5,
-               lag_tolerance=None, bandwidth=None, channels=None) -> np.ndarray:
-    """Exact channel sums (n_lags + 1, n_ch) of a directional variogram (row 0 unused).
-
-    Same rules and parameters as :func:`experimental_variogram`. ``channels``
-    (see :func:`anisotropy.pairs.resolve_channels`): None keeps all 15; an
-    estimator name keeps count, dist and what that estimator reads (not the
-    lag-vector sums dx, dy, dz, which no variogram value needs, unless they
-    are named), and the pass does no work for the others, which are NaN.
-    """
-    c, v = _check_coords_values(coords, values)
-    lag, n_lags = _check_lag(lag, n_lags)
-    tol = 0.5 * lag if lag_tolerance is None else float(lag_tolerance)
-    if not (tol > 0) or not math.isfinite(tol):
-        raise InputError(f"lag tolerance must be a positive distance in metres; got {lag_tolerance!r}.")
-    ang = _check_tolerance(angular_tolerance)
-    band = _check_bandwidth(bandwidth)
-    omni = direction is None
-    u = np.zeros(3) if omni else direction_vector(direction)
-    kept = resolve_channels(channels)
-    asked = {channels} if isinstance(channels, str) else set(channels or ())
-    if kept != CHANNELS and not asked & {"dx", "dy", "dz"}:
-        # a variogram value needs no mean lag vector unless it was asked for by name
-        kept = tuple(name for name in kept if name not in ("dx", "dy", "dz"))
-    need = np.array([name in kept for name in ("abs", "sqrt", "head", "rel", "dx")], dtype=np.int64)
-    n_chunks = _n_chunks()
-    acc = np.zeros((n_chunks, (n_lags + 1) * _NCH))
-    stats = np.zeros((n_chunks, 2), dtype=np.int64)
-    if len(c) >= 2:
-        radius = n_lags * lag + tol
-        cl = c - c.min(axis=0)
-        grid = _cells.make_grid(cl, radius)
-        off = _cells.half_stencil(grid.cell, radius, grid.dims)
-        work = _kernels.cell_work(grid.start, grid.dims, grid.occupied, off)
-        o = grid.order
-        x, y, z, vv = (np.ascontiguousarray(a) for a in (cl[o, 0], cl[o, 1], cl[o, 2], v[o]))
-        # 90 degrees: every direction (-1 so that perpendicular lags are not lost to rounding)
-        cos_tol = math.cos(math.radians(ang)) if ang < 90.0 else -1.0
-        maxd2 = (radius * (1 + 1e-12)) ** 2
-        # class bounds of the rule k lag - tol < d <= k lag + tol, as the rule computes them
-        k = np.arange(n_lags + 3)
-        lo = k * lag - tol
-        hi = k * lag + tol
-        pad = (k == 0) | (k > n_lags)  # never match (the kernel also reads index -1)
-        lo[pad] = np.inf
-        hi[pad] = -np.inf
-        narrow = bool(tol <= 0.5 * lag)
-        lean_omni = omni and narrow and not need.any()  # the semivariogram, every direction
-        for q0, q1 in _plan_batches(work, 4e8):
-            if lean_omni:
-                _kernels.omni_pass(x, y, z, vv, grid.start, grid.dims, grid.occupied, off, q0, q1,
-                                   n_chunks, maxd2, 1.0 / lag, lo, hi, n_lags, acc, stats)
-                continue
-            _kernels.exact_pass(x, y, z, vv, grid.start, grid.dims, grid.occupied, off, q0, q1,
-                                n_chunks, maxd2, 1.0 / lag, tol, lo, hi, narrow, n_lags, omni,
-                                u[0], u[1], u[2], cos_tol, band is not None,
-                                0.0 if band is None else band * band, need, acc, stats)
-    out = acc.sum(axis=0).reshape(n_lags + 1, _NCH)
-    out[:, [CHANNELS.index(name) for name in CHANNELS if name not in kept]] = np.nan
-    return out
 
 
 def experimental_variogram(coords, values, *, lag, n_lags, direction=None, angular_tolerance=22.5,
@@ -177,7 +100,7 @@ def experimental_variogram(coords, values, *, lag, n_lags, direction=None, angul
     InputError
         Mismatched lengths, non-positive lag or tolerances, unknown estimator.
     """
-    _check_estimator(estimator)
+    check_estimator(estimator)
     sums = exact_sums(coords, values, lag=lag, n_lags=n_lags, direction=direction, channels=estimator,
                       angular_tolerance=angular_tolerance, lag_tolerance=lag_tolerance,
                       bandwidth=bandwidth)[1:]
@@ -288,9 +211,9 @@ def variogram_fan(volume: LagVolume, directions, *, angular_tolerance, bandwidth
     Fan
         Classes 1..n_lags.
     """
-    _check_estimator(estimator)
-    ang = _check_tolerance(angular_tolerance)
-    band = _check_bandwidth(bandwidth)
+    check_estimator(estimator)
+    ang = check_angular_tolerance(angular_tolerance)
+    band = check_bandwidth(bandwidth)
     U = _directions_array(directions)
     c = np.minimum(np.abs(U @ volume.directions.T), 1.0)  # (n_dir, n_fine)
     sel = c >= math.cos(math.radians(ang)) if ang < 90.0 else np.ones_like(c, dtype=bool)
@@ -312,6 +235,208 @@ def variogram_fan(volume: LagVolume, directions, *, angular_tolerance, bandwidth
         value=estimate(sums, estimator), pairs=sums[..., 0].round().astype(np.int64),
         angular_tolerance=ang, bandwidth=band, estimator=estimator,
     )
+
+
+# ------------------------------------------------ the model over a cone's pairs
+# The fitted model as seen by the pairs of a directional variogram.
+#
+# A directional experimental variogram pools every pair inside an angular
+# cone. With strong anisotropy those pairs are not "along the axis": a pair
+# 15 degrees off a 124 m major axis at 30 m has about 8 m along a 10 m minor
+# axis, so its variogram is far higher than the model evaluated exactly along
+# the axis. Comparing the points with the along-axis curve then suggests a bad
+# fit where the joint fit (which uses each bin's mean lag vector) is right.
+#
+# :func:`model_over_pairs` gives the like-for-like comparison: for each lag
+# class, the pair-weighted mean of the model evaluated at the mean lag vector
+# of each fine bin the cone takes. A bin's lag is the mean lag vector's
+# direction at the bin's mean distance, with the same rim rule as
+# :func:`anisotropy.fitting.bins_from_sums` (the cell direction where the mean
+# vector has shrunk below 90 % of the mean distance), so it is what the fit
+# itself sees. Inside one fine bin (one lag class, about 2 degrees of
+# direction) the model is taken as constant at that lag: the value is exact
+# when every bin holds pairs with one lag vector, and otherwise off by at most
+# the model's change across a bin.
+
+#: mean vector shorter than this fraction of the mean distance: use the cell
+#: direction (the rim rule of anisotropy.fitting.bins_from_sums)
+RIM_FRACTION = 0.9
+
+
+def model_over_pairs(sums, directions, mask, variogram):
+    """Pair-weighted mean of a model over the fine bins a direction takes.
+
+    Parameters
+    ----------
+    sums : ndarray, shape (n_lags + 1, n_fine, n_channels)
+        Fine sums of a :class:`anisotropy.pairs.LagVolume` (channels in
+        ``anisotropy.constants.CHANNELS`` order; ``count``, ``dist``, ``dx``,
+        ``dy``, ``dz`` are used).
+    directions : ndarray, shape (n_fine, 3)
+        Axes of the fine cells (``LagVolume.directions``).
+    mask : ndarray of bool, shape (n_lags + 1, n_fine)
+        Bins that count for the direction (``LagVolume.cell_mask``).
+    variogram : callable or model
+        Either an object with a ``variogram(lags)`` method (a
+        :class:`anisotropy.NestedModel`) or a callable mapping lag vectors
+        (m, 3) to values (m,).
+
+    Returns
+    -------
+    ndarray, shape (n_lags + 1,)
+        Per lag class, ``sum_b n_b gamma(h_b) / sum_b n_b`` over the masked
+        bins ``b`` with pairs; NaN where the class has no pairs.
+    """
+    sums = np.asarray(sums, dtype=float)
+    dirs = np.asarray(directions, dtype=float)
+    mask = np.asarray(mask, dtype=bool)
+    if sums.ndim != 3 or dirs.shape != (sums.shape[1], 3) or mask.shape != sums.shape[:2]:
+        raise InputError(
+            f"model view needs sums (n_lags+1, n_fine, n_ch), directions (n_fine, 3) and a "
+            f"mask (n_lags+1, n_fine); got {sums.shape}, {dirs.shape}, {mask.shape}."
+        )
+    gamma = variogram.variogram if hasattr(variogram, "variogram") else variogram
+    count = sums[..., CHANNEL_INDEX["count"]]
+    use = mask & (count > 0)
+    k_idx, f_idx = np.nonzero(use)
+    out = np.full(sums.shape[0], np.nan)
+    if k_idx.size == 0:
+        return out
+    n = count[k_idx, f_idx]
+    sel = sums[k_idx, f_idx]
+    mean_vec = np.stack([sel[:, CHANNEL_INDEX[c]] for c in ("dx", "dy", "dz")], axis=1) / n[:, None]
+    dist = sel[:, CHANNEL_INDEX["dist"]] / n
+    norm = np.linalg.norm(mean_vec, axis=1)
+    shrunk = norm < RIM_FRACTION * dist
+    lags = np.where(shrunk[:, None], dirs[f_idx] * dist[:, None],
+                    mean_vec * (dist / np.maximum(norm, 1e-300))[:, None])
+    g = np.asarray(gamma(lags), dtype=float).reshape(-1)
+    num = np.bincount(k_idx, weights=n * g, minlength=sums.shape[0])
+    den = np.bincount(k_idx, weights=n, minlength=sums.shape[0])
+    with np.errstate(invalid="ignore", divide="ignore"):
+        out = np.where(den > 0, num / np.where(den > 0, den, 1.0), np.nan)
+    return out
+
+
+def volume_model_view(volume, model, direction, angular_tolerance, bandwidth=None):
+    """:func:`model_over_pairs` for the cone ``LagVolume.aggregate`` takes.
+
+    Parameters
+    ----------
+    volume : anisotropy.pairs.LagVolume
+    model : NestedModel or callable (m, 3) -> (m,)
+    direction : (trend, plunge) or vector
+    angular_tolerance : float, degrees
+    bandwidth : float or None, metres
+
+    Returns
+    -------
+    ndarray, shape (n_lags + 1,)
+    """
+    mask = volume.cell_mask(direction, angular_tolerance, bandwidth)
+    return model_over_pairs(volume.sums, volume.directions, mask, model)
+
+
+@dataclass
+class ConeVariogram:
+    """One directional variogram read from a lag volume, with the model over its pairs.
+
+    Attributes
+    ----------
+    direction : ndarray (3,)
+        Unit vector (canonical orientation).
+    trend, plunge : float
+        The direction in degrees.
+    distance : ndarray (n_lags + 1,)
+        Mean pair distance per class, class 0 included (NaN where empty).
+    value : ndarray (n_lags + 1,)
+        Estimator value per class (NaN where empty).
+    pairs : ndarray (n_lags + 1,)
+        The count channel of the sums (whole numbers for a volume's own sums).
+    model_over_pairs : ndarray (n_lags + 1,) or None
+        :func:`model_over_pairs` of the model given, per class.
+    angular_tolerance : float
+    bandwidth : float or None
+    estimator : str
+    """
+
+    direction: np.ndarray
+    trend: float
+    plunge: float
+    distance: np.ndarray
+    value: np.ndarray
+    pairs: np.ndarray
+    model_over_pairs: np.ndarray | None
+    angular_tolerance: float
+    bandwidth: float | None
+    estimator: str
+
+    def to_dict(self) -> dict:
+        return {
+            "direction": [float(x) for x in self.direction],
+            "trend": float(self.trend), "plunge": float(self.plunge),
+            "angular_tolerance": float(self.angular_tolerance),
+            "bandwidth": None if self.bandwidth is None else float(self.bandwidth),
+            "estimator": self.estimator,
+            "distance": _rows([self.distance])[0], "value": _rows([self.value])[0],
+            "pairs": _rows([self.pairs])[0],
+            "model_over_pairs": (None if self.model_over_pairs is None
+                                 else _rows([self.model_over_pairs])[0]),
+        }
+
+    def to_frame(self) -> pd.DataFrame:
+        """One row per lag class (class 0 included)."""
+        n = len(self.value)
+        return pd.DataFrame({
+            "lag_index": np.arange(n), "distance": self.distance, "pairs": self.pairs,
+            "value": self.value,
+            "model_over_pairs": (np.full(n, np.nan) if self.model_over_pairs is None
+                                 else self.model_over_pairs),
+        })
+
+
+def cone_variogram(volume: LagVolume, direction, *, angular_tolerance, bandwidth=None,
+                   estimator="semivariogram", model=None) -> ConeVariogram:
+    """The directional variogram of one cone, and the model averaged over the cone's pairs.
+
+    The cone is that of :meth:`anisotropy.pairs.LagVolume.aggregate` (fine
+    cells whose axis is within the tolerance; the bandwidth at class
+    centres), so the values are a cell-resolution approximation of
+    :func:`experimental_variogram` (see the module docstring).
+
+    Parameters
+    ----------
+    volume : LagVolume
+    direction : (trend, plunge) degrees or (3,) vector
+    angular_tolerance : float
+        Degrees in (0, 90].
+    bandwidth : float or None
+        Metres.
+    estimator : str
+        One of :data:`anisotropy.estimators.ESTIMATORS`.
+    model : NestedModel or callable, optional
+        When given, :func:`volume_model_view` of the same cone is returned
+        as ``model_over_pairs``.
+
+    Returns
+    -------
+    ConeVariogram
+        Classes 0..n_lags.
+    """
+    check_estimator(estimator)
+    ang = check_angular_tolerance(angular_tolerance)
+    band = check_bandwidth(bandwidth)
+    u = direction_vector(direction)
+    sums = volume.aggregate(u, ang, band) if band is not None else volume.aggregate(u, ang)
+    n = sums[:, CHANNEL_INDEX["count"]]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        dist = np.where(n > 0, sums[:, CHANNEL_INDEX["dist"]] / np.maximum(n, 1), np.nan)
+    seen = None if model is None else volume_model_view(volume, model, u, ang, band)
+    trend, plunge = geometry.vector_to_line(u)
+    return ConeVariogram(direction=u, trend=float(trend), plunge=float(plunge), distance=dist,
+                         value=np.asarray(estimate(sums, estimator), float), pairs=n,
+                         model_over_pairs=seen, angular_tolerance=ang, bandwidth=band,
+                         estimator=estimator)
 
 
 # -------------------------------------------------------------------- maps
@@ -402,7 +527,7 @@ def _require_map(volume):
 
 def map_volume(volume: LagVolume, *, estimator="semivariogram") -> MapVolume:
     """The whole Cartesian variogram volume, symmetrised (see :meth:`LagVolume.full_map`)."""
-    _check_estimator(estimator)
+    check_estimator(estimator)
     _require_map(volume)
     centres, full = volume.full_map()
     return MapVolume(centres=centres, value=estimate(full, estimator),
@@ -459,7 +584,7 @@ def variogram_map(volume: LagVolume, *, plane="horizontal", normal=None,
     -------
     MapSlice
     """
-    _check_estimator(estimator)
+    check_estimator(estimator)
     _require_map(volume)
     e1, e2, n = _plane_axes(plane, normal)
     centres, full = volume.full_map()

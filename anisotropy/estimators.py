@@ -1,7 +1,7 @@
 """Variogram estimators computed from accumulated pair sums.
 
 Every estimator reads the channel axis (the last axis) of an array of sums
-in the order of :data:`anisotropy.pairs.CHANNELS` (count, dist, sq, abs,
+in the order of :data:`anisotropy.constants.CHANNELS` (count, dist, sq, abs,
 sqrt, head, tail, head2, tail2, cross, rel, rel_n, dx, dy, dz), with
 delta = head - tail for each pair (head = tail + canonical lag vector). With
 N the pair count of a bin:
@@ -29,9 +29,10 @@ import warnings
 
 import numpy as np
 
+from .constants import CHANNEL_INDEX as _C
 from .errors import InputError
 
-__all__ = ["ESTIMATORS", "estimate", "mean_distance", "ROBUST_A", "ROBUST_B"]
+__all__ = ["ESTIMATORS", "check_estimator", "estimate", "mean_distance", "ROBUST_A", "ROBUST_B"]
 
 ESTIMATORS = ("semivariogram", "correlogram", "pairwise_relative", "madogram", "robust")
 
@@ -45,10 +46,14 @@ ESTIMATORS = ("semivariogram", "correlogram", "pairwise_relative", "madogram", "
 ROBUST_A = 0.457
 ROBUST_B = 0.494
 
-# channel positions (kept here to avoid importing the compiled engine)
-_C = {name: i for i, name in enumerate(("count", "dist", "sq", "abs", "sqrt", "head", "tail",
-                                        "head2", "tail2", "cross", "rel", "rel_n",
-                                        "dx", "dy", "dz"))}
+
+def check_estimator(estimator) -> str:
+    """``estimator`` if it is one of :data:`ESTIMATORS`, else an InputError naming them."""
+    if not isinstance(estimator, str) or estimator not in ESTIMATORS:
+        raise InputError(
+            f"unknown estimator {estimator!r}; choose one of {', '.join(ESTIMATORS)}."
+        )
+    return estimator
 
 
 def _ch(s, name):
@@ -79,10 +84,7 @@ def estimate(sums, estimator="semivariogram") -> np.ndarray:
         NaN where a bin has no pairs (and, for the correlogram, where head or
         tail values do not vary; a ``RuntimeWarning`` says how many bins).
     """
-    if estimator not in ESTIMATORS:
-        raise InputError(
-            f"unknown estimator {estimator!r}; choose one of {', '.join(ESTIMATORS)}."
-        )
+    check_estimator(estimator)
     s = np.asarray(sums, dtype=np.float64)
     if s.shape[-1] != len(_C):
         raise InputError(f"sums must have {len(_C)} channels on the last axis; got {s.shape}.")

@@ -59,7 +59,6 @@ This module imports fitting-side modules only and never
 from __future__ import annotations
 
 import math
-import sys
 import time
 import warnings as _warnings
 from dataclasses import dataclass, field
@@ -69,8 +68,14 @@ import numpy as np
 from scipy.optimize import linear_sum_assignment
 from scipy.special import ndtr, ndtri
 
-from anisotropy.errors import InputError, InsufficientDataError
+from anisotropy.constants import AXES as AXIS_NAMES
+from anisotropy.errors import AnisotropyError, InputError, InsufficientDataError
+from anisotropy.estimators import check_estimator, estimate
 from anisotropy.geometry import axis_angle, to_lower_hemisphere, vector_to_line
+from anisotropy.pairs import build_volume
+from anisotropy.parallel import check_jobs, n_workers, run_tasks
+from anisotropy.progress import Bar, note
+from anisotropy.simulate import simulate_field
 
 __all__ = [
     "AXIS_NAMES",
@@ -95,8 +100,6 @@ __all__ = [
     "trend_plunge_intervals",
     "fixed_frame_objectives",
 ]
-
-AXIS_NAMES = ("major", "semi_major", "minor")
 
 #: Fewest occupied blocks the resampling should have (common practice: with
 #: fewer than a few dozen blocks the bootstrap distribution is too coarse).
@@ -940,92 +943,34 @@ class BootstrapResult:
 # running replicates
 # ---------------------------------------------------------------------------
 
-class _Progress:
-    """A text progress bar on stderr (no extra dependency)."""
-
-    def __init__(self, total, label, enabled):
-        self.total, self.label, self.enabled = total, label, enabled
-        self.done, self.t0, self._last = 0, time.perf_counter(), 0.0
-
-    def update(self, k=1):
-        self.done += k
-        if not self.enabled:
-            return
-        now = time.perf_counter()
-        if now - self._last < 0.2 and self.done < self.total:
-            return
-        self._last = now
-        frac = self.done / max(self.total, 1)
-        bar = "#" * int(30 * frac) + "." * (30 - int(30 * frac))
-        print(f"\r{self.label} [{bar}] {self.done}/{self.total} {now - self.t0:6.1f} s",
-              end="", file=sys.stderr, flush=True)
-        if self.done >= self.total:
-            print(file=sys.stderr, flush=True)
+#: Errors a replicate's refit may end in for a reason the fitting states (too
+#: few bins with pairs, no convergence: ``FitError``; a volume that cannot be
+#: built: ``InputError``), an optimiser's own non-convergence (``RuntimeError``)
+#: or a numerical breakdown. Such a replicate is counted and its message
+#: reported; any other exception (a ``TypeError``, ``IndexError`` or a shape
+#: ``ValueError``: a bug) stops the run instead of thinning the bands.
+REPLICATE_ERRORS = (AnisotropyError, RuntimeError, np.linalg.LinAlgError, FloatingPointError)
 
 
-def _semivariogram(sums):
-    try:
-        from anisotropy.estimators import estimate
-        return estimate(sums, "semivariogram")
-    except Exception:  # noqa: BLE001 - estimators not available: the formula itself
-        cnt = sums[..., 0]
-        with np.errstate(invalid="ignore", divide="ignore"):
-            return np.where(cnt > 0, sums[..., 2] / (2.0 * cnt), np.nan)
-
-
-def _run_chunk(block_sums, weights, refit, start, keep_experimental, estimator):
+def _run_chunk(weights, refit, start, keep_experimental, estimator, *, block_sums):
     """Refit a chunk of replicates; returns a list of (model, objective, exp, error)."""
     out = []
     for w in weights:
         sums = reweighted_sums(block_sums, w)
-        exp = None
-        if keep_experimental:
-            try:
-                from anisotropy.estimators import estimate
-                exp = np.asarray(estimate(sums, estimator), dtype=float)
-            except Exception:  # noqa: BLE001
-                exp = np.asarray(_semivariogram(sums), dtype=float)
+        exp = np.asarray(estimate(sums, estimator), dtype=float) if keep_experimental else None
         try:
             model, obj = refit(sums, start=start)
             out.append((model, float(obj), exp, None))
-        except Exception as exc:  # noqa: BLE001 - counted and reported, never hidden
+        except REPLICATE_ERRORS as exc:  # counted and reported, never hidden
             out.append((None, math.nan, exp, f"{type(exc).__name__}: {exc}"))
     return out
 
 
-def _run_replicates(fn, payloads, *, n_jobs, scheduler, progress, label):
-    """Run ``fn(*payload)`` over chunks, in order, with joblib or Dask."""
-    bar = _Progress(sum(len(p[1]) for p in payloads), label, progress)
-    results = [None] * len(payloads)
-    if scheduler is not None:
-        try:
-            from dask.distributed import Client, as_completed
-        except ImportError as exc:  # pragma: no cover - optional dependency
-            raise InputError("a scheduler address was given but dask.distributed is not "
-                             "installed; pip install 'anisotropy[distributed]'") from exc
-        client = scheduler if hasattr(scheduler, "submit") else Client(scheduler)
-        try:
-            big = client.scatter(payloads[0][0], broadcast=True)
-            futs = {client.submit(fn, big, *p[1:], pure=False): k for k, p in enumerate(payloads)}
-            for fut in as_completed(list(futs)):
-                k = futs[fut]
-                results[k] = fut.result()
-                bar.update(len(payloads[k][1]))
-        finally:
-            if not hasattr(scheduler, "submit"):
-                client.close()
-        return results
-    if n_jobs == 1:
-        for k, p in enumerate(payloads):
-            results[k] = fn(*p)
-            bar.update(len(p[1]))
-        return results
-    from joblib import Parallel, delayed
-    par = Parallel(n_jobs=n_jobs, return_as="generator")
-    for k, res in enumerate(par(delayed(fn)(*p) for p in payloads)):
-        results[k] = res
-        bar.update(len(payloads[k][1]))
-    return results
+def _run_replicates(fn, tasks, *, shared, n_jobs, scheduler, progress, label):
+    """Run ``fn(*task, **shared)`` over chunks of replicates, in order, counting them."""
+    with Bar(progress, sum(len(t[0]) for t in tasks), label) as bar:
+        return run_tasks(fn, tasks, shared=shared, n_jobs=n_jobs, scheduler=scheduler,
+                         on_result=lambda k, res: bar.update(len(tasks[k][0])), label=label)
 
 
 def _collect(reference, outcomes):
@@ -1085,8 +1030,7 @@ def _check_common(n_replicates, confidence, n_jobs):
         raise InputError(f"the bootstrap needs at least 2 replicates (got {n_replicates}); "
                          "use 0 to turn it off at the command line, or 200 (the default)")
     _alpha(confidence)
-    if n_jobs is None or int(n_jobs) == 0:
-        raise InputError("n_jobs must be a positive number of processes, or -1 for all cores")
+    check_jobs(n_jobs)
 
 
 def block_bootstrap(volume, refit: Callable, reference, *, n_replicates=DEFAULT_REPLICATES,
@@ -1140,6 +1084,8 @@ def block_bootstrap(volume, refit: Callable, reference, *, n_replicates=DEFAULT_
     BootstrapResult
     """
     _check_common(n_replicates, confidence, n_jobs)
+    check_estimator(estimator)
+    _check_interval(interval)
     t0 = time.perf_counter()
     ref_frame = np.asarray(reference.frame, dtype=float)
     major_range = float(reference.range_along(ref_frame[:, 0]))
@@ -1147,14 +1093,14 @@ def block_bootstrap(volume, refit: Callable, reference, *, n_replicates=DEFAULT_
     counts = resample_weights(grouping.n_groups, int(n_replicates), seed)
     weights = block_weights_from_groups(counts, grouping.group_of_block)
     block_sums = np.ascontiguousarray(volume.block_sums, dtype=float)
-    n_workers = 1 if (n_jobs == 1 and scheduler is None) else \
-        (max(1, (__import__("os").cpu_count() or 1)) if n_jobs == -1 else abs(int(n_jobs)))
-    n_chunks = max(1, min(len(weights), 4 * n_workers if (n_workers > 1 or scheduler) else 1))
+    workers = n_workers(n_jobs, scheduler)
+    n_chunks = max(1, min(len(weights), 4 * workers if (workers > 1 or scheduler) else 1))
     chunks = np.array_split(np.arange(len(weights)), n_chunks)
-    payloads = [(block_sums, weights[c], refit, reference, keep_experimental, estimator)
-                for c in chunks if len(c)]
-    results = _run_replicates(_run_chunk, payloads, n_jobs=n_jobs, scheduler=scheduler,
-                              progress=progress, label="bootstrap")
+    tasks = [(weights[c], refit, reference, keep_experimental, estimator)
+             for c in chunks if len(c)]
+    results = _run_replicates(_run_chunk, tasks, shared={"block_sums": block_sums},
+                              n_jobs=n_jobs, scheduler=scheduler, progress=progress,
+                              label="bootstrap")
     outcomes = [o for r in results for o in r]
     arrays, keep, n_failed, failures = _collect(reference, outcomes)
     warnings = list(grouping.warnings)
@@ -1177,18 +1123,17 @@ def block_bootstrap(volume, refit: Callable, reference, *, n_replicates=DEFAULT_
     if not keep_experimental:
         res.experimental = None
     res.seconds = time.perf_counter() - t0
-    if progress:
-        print(f"bootstrap blocks: {grouping.reason}", file=sys.stderr)
+    note(progress, f"bootstrap blocks: {grouping.reason}")
     return res
 
 
-def _fixed_chunk(block_sums, weights, refit, frame, start):
+def _fixed_chunk(weights, refit, frame, start, *, block_sums):
     out = []
     for w in weights:
         try:
             _, obj = refit(reweighted_sums(block_sums, w), fixed_frame=frame, start=start)
             out.append(float(obj))
-        except Exception:  # noqa: BLE001 - counted by the caller as NaN
+        except REPLICATE_ERRORS:  # counted by the caller as NaN
             out.append(math.nan)
     return out
 
@@ -1231,15 +1176,14 @@ def fixed_frame_objectives(result, volume, refit, frame, *, max_replicates=100, 
     n_chunks = 1 if (n_jobs == 1 and scheduler is None) else max(1, min(m, 8))
     chunks = [c for c in np.array_split(np.arange(m), n_chunks) if len(c)]
     frame = np.asarray(frame, dtype=float)
-    payloads = [(block_sums, weights[c], refit, frame, result.reference) for c in chunks]
-    res = _run_replicates(_fixed_chunk, payloads, n_jobs=n_jobs, scheduler=scheduler,
-                          progress=progress, label="fixed-frame refits")
+    tasks = [(weights[c], refit, frame, result.reference) for c in chunks]
+    res = _run_replicates(_fixed_chunk, tasks, shared={"block_sums": block_sums},
+                          n_jobs=n_jobs, scheduler=scheduler, progress=progress,
+                          label="fixed-frame refits")
     return np.asarray([o for r in res for o in r], dtype=float), result.objectives[:m].copy()
 
 
-def _model_chunk(coords, fields, transform, build_kwargs, refit, start, estimator):
-    from anisotropy.pairs import build_volume
-
+def _model_chunk(fields, transform, build_kwargs, refit, start, estimator, *, coords):
     out = []
     for v in fields:
         vals = transform(v) if transform is not None else v
@@ -1247,10 +1191,10 @@ def _model_chunk(coords, fields, transform, build_kwargs, refit, start, estimato
             vol = build_volume(coords, np.asarray(vals, dtype=float), progress=False,
                                **build_kwargs)
             sums = vol.coarse_sums()
-            exp = np.asarray(_semivariogram(sums), dtype=float) if estimator else None
+            exp = np.asarray(estimate(sums, estimator), dtype=float) if estimator else None
             model, obj = refit(sums, start=start)
             out.append((model, float(obj), exp, None))
-        except Exception as exc:  # noqa: BLE001 - counted and reported
+        except REPLICATE_ERRORS as exc:  # counted and reported
             out.append((None, math.nan, None, f"{type(exc).__name__}: {exc}"))
     return out
 
@@ -1292,9 +1236,8 @@ def model_bootstrap(coords, model, refit: Callable, *, volume, transform=None,
     BootstrapResult
         ``method == "model"``.
     """
-    from anisotropy.simulate import simulate_field
-
     _check_common(n_replicates, confidence, n_jobs)
+    _check_interval(interval)
     t0 = time.perf_counter()
     coords = np.asarray(coords, dtype=float)
     fields = simulate_field(coords, model, n_realisations=int(n_replicates), seed=seed,
@@ -1307,12 +1250,12 @@ def model_bootstrap(coords, model, refit: Callable, *, volume, transform=None,
                         coarse_directions=np.asarray(volume.coarse_directions),
                         channels=getattr(volume, "channels", None),
                         blocks=False, map_cell=False)
-    n_workers = 1 if n_jobs == 1 else max(2, abs(int(n_jobs)))
-    chunks = np.array_split(np.arange(len(fields)), max(1, min(len(fields), 2 * n_workers)))
-    payloads = [(coords, fields[c], transform, build_kwargs, refit, model, "semivariogram")
-                for c in chunks if len(c)]
-    results = _run_replicates(_model_chunk, payloads, n_jobs=n_jobs, scheduler=scheduler,
-                              progress=progress, label="model bootstrap")
+    workers = 1 if n_jobs == 1 else max(2, abs(int(n_jobs)))
+    chunks = np.array_split(np.arange(len(fields)), max(1, min(len(fields), 2 * workers)))
+    tasks = [(fields[c], transform, build_kwargs, refit, model, "semivariogram")
+             for c in chunks if len(c)]
+    results = _run_replicates(_model_chunk, tasks, shared={"coords": coords}, n_jobs=n_jobs,
+                              scheduler=scheduler, progress=progress, label="model bootstrap")
     outcomes = [o for r in results for o in r]
     arrays, keep, n_failed, failures = _collect(model, outcomes)
     warnings = []

@@ -11,8 +11,28 @@ import anisotropy
 
 
 def test_every_public_name_resolves():
+    # each listed name is a class or function defined in the package, and the package
+    # hands out the very object its module defines (not a copy or a stand-in)
     for name in anisotropy.__all__:
-        assert getattr(anisotropy, name) is not None, name
+        obj = getattr(anisotropy, name)
+        if name == "__version__":
+            continue
+        assert inspect.isclass(obj) or inspect.isfunction(obj), name
+        assert obj.__module__.startswith("anisotropy."), (name, obj.__module__)
+        assert getattr(importlib.import_module(obj.__module__), name) is obj, name
+
+
+def test_version_is_the_project_version():
+    # the version in pyproject.toml (read with the standard library's TOML parser)
+    try:
+        import tomllib
+    except ImportError:  # Python 3.10
+        import tomli as tomllib
+    from pathlib import Path
+
+    project = tomllib.loads((Path(__file__).resolve().parents[1] / "pyproject.toml")
+                            .read_text(encoding="utf-8"))["project"]
+    assert anisotropy.__version__ == project["version"]
 
 
 def test_functions_named_like_their_modules_stay_functions():

@@ -12,6 +12,7 @@ Outside references:
 from __future__ import annotations
 
 import json
+import re
 
 import numpy as np
 import pytest
@@ -208,15 +209,30 @@ def test_plane_only_checks_the_pole(chain):
     res = check_interpretation(chain, Interpretation.from_plane(dd, dip),
                                thresholds={"max_ratio_replicates": 20})
     assert set(res.angles) == {"minor"}
-    assert res.verdict in ("consistent", "uncertain")
+    # the true plane is consistent (its pole is the truth's minor axis, which the fit found)
+    assert res.verdict == "consistent", res.summary()
     assert any("plane only" in r for r in res.reasons)
+    # and the check can tell: the same plane dipping 40 degrees more (its pole turned
+    # 40 degrees about the strike, scipy Rotation) is not consistent
+    strike = line_to_vector(dd - 90.0, 0.0)
+    pole = Rotation.from_rotvec(np.radians(40.0) * strike).apply(chain.truth_frame[:, 2])
+    assert axis_angle(pole, chain.truth_frame[:, 2]) == pytest.approx(40.0)
+    dd2, dip2 = pole_to_plane(pole)
+    off = check_interpretation(chain, Interpretation.from_plane(dd2, dip2),
+                               thresholds={"max_ratio_replicates": 20})
+    assert off.angles["minor"] > 30.0, off.summary()
+    assert off.verdict != "consistent", off.summary()
 
 
 def test_default_thresholds_documented():
+    # every threshold the module docstring states with a value is the value the code uses
     import anisotropy.check as C
 
-    for key in ("confidence", "practical_deg", "ratio_share", "swap_rate"):
-        assert key in DEFAULT_THRESHOLDS and key in C.__doc__
+    stated = {k: float(v) for k, v in re.findall(r"``(\w+)``[ ,(]+(\d+(?:\.\d+)?)", C.__doc__)}
+    assert set(stated) == {"confidence", "practical_deg", "ratio_share", "strong_share",
+                           "swap_rate"}
+    for key, value in stated.items():
+        assert DEFAULT_THRESHOLDS[key] == value, key
 
 
 # ---------------------------------------------------------------------------

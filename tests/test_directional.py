@@ -312,3 +312,65 @@ def test_exact_classes_on_bounds(lag, lag_tol):
     ref = brute(c, v, lag=lag, n_lags=6, lag_tol=lag_tol)
     df = experimental_variogram(c, v, lag=lag, n_lags=6, lag_tolerance=lag_tol)
     np.testing.assert_array_equal(df["pairs"], [r[1] for r in ref])
+
+
+# ---------------------------------------------------------------------------
+# one cone read from the volume, with the model over its pairs
+# ---------------------------------------------------------------------------
+
+
+def test_cone_variogram_omni_tolerance_equals_brute_force(data, volume):
+    # 90 degrees takes every cell: class by class the same pairs as the exact rule
+    # (brute force over numpy.triu_indices), so pairs, mean distance and value agree
+    from anisotropy.directional import cone_variogram
+
+    c, v = data
+    cone = cone_variogram(volume, (30.0, 20.0), angular_tolerance=90.0)
+    want = brute(c, v, lag=6.0, n_lags=6, direction=(30.0, 20.0), tol_deg=90.0)
+    assert cone.pairs.shape == (7,)  # class 0 included
+    np.testing.assert_array_equal(cone.pairs[1:], [w[1] for w in want])
+    np.testing.assert_allclose(cone.distance[1:], [w[0] for w in want], rtol=1e-12)
+    np.testing.assert_allclose(cone.value[1:],
+                               [brute_value(*w[2:], "semivariogram") for w in want], rtol=1e-10)
+    assert cone.model_over_pairs is None
+    assert len(cone.to_frame()) == 7 and cone.to_dict()["estimator"] == "semivariogram"
+
+
+def test_cone_variogram_along_and_across_a_line_of_samples():
+    # samples on an east-west line: every pair lies along 090/00, none along 000/00
+    from anisotropy.directional import cone_variogram
+
+    c = np.column_stack([np.arange(30) * 2.0, np.zeros(30), np.zeros(30)])
+    v = np.sin(np.arange(30) / 3.0)
+    vol = build_volume(c, v, lag=2.0, n_lags=5, progress=False)
+    along = cone_variogram(vol, (90.0, 0.0), angular_tolerance=10.0, estimator="madogram")
+    across = cone_variogram(vol, (0.0, 0.0), angular_tolerance=10.0)
+    # k lags of 2 m on 30 samples: 30 - k pairs (exact count)
+    np.testing.assert_array_equal(along.pairs[1:], [30 - k for k in range(1, 6)])
+    for k in range(1, 6):
+        assert along.value[k] == pytest.approx(np.mean(np.abs(v[k:] - v[:-k])) / 2, rel=1e-12)
+    assert np.all(across.pairs == 0) and np.all(np.isnan(across.value))
+
+
+def test_cone_variogram_model_over_pairs_of_a_linear_model(data, volume):
+    # an isotropic model linear in the distance, gamma(h) = 0.01 |h|: averaged over a
+    # class's pairs it is 0.01 x the class's mean pair distance (exact, brute force)
+    from anisotropy.directional import cone_variogram
+
+    c, v = data
+    cone = cone_variogram(volume, (120.0, 0.0), angular_tolerance=90.0,
+                          model=lambda h: 0.01 * np.linalg.norm(h, axis=1))
+    want = brute(c, v, lag=6.0, n_lags=6, direction=(120.0, 0.0), tol_deg=90.0)
+    np.testing.assert_allclose(cone.model_over_pairs[1:], [0.01 * w[0] for w in want],
+                               rtol=1e-9)
+
+
+def test_cone_variogram_validation(volume):
+    from anisotropy.directional import cone_variogram
+
+    with pytest.raises(InputError, match="estimator"):
+        cone_variogram(volume, (0.0, 0.0), angular_tolerance=20.0, estimator="variance")
+    with pytest.raises(InputError, match="angular tolerance"):
+        cone_variogram(volume, (0.0, 0.0), angular_tolerance=120.0)
+    with pytest.raises(InputError, match="bandwidth"):
+        cone_variogram(volume, (0.0, 0.0), angular_tolerance=20.0, bandwidth=-1.0)

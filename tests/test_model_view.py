@@ -25,7 +25,7 @@ import pytest
 
 from anisotropy.models import NestedModel, Structure
 from anisotropy.pairs import CHANNELS, build_volume, direction_vector
-from anisotropy.report._model_view import model_over_pairs, volume_model_view
+from anisotropy.directional import model_over_pairs, volume_model_view
 
 LAG, N_LAGS = 1.0, 8
 

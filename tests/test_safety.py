@@ -168,3 +168,40 @@ def test_json_arrays_of_numbers_on_one_line_round_trip(tmp_path):
     assert '"lags": [1, 2.5, -3e-05, null, true, false]' in text
     assert '"d": [0.5, 1.5]' in text
     assert '"a , b",\n' in text  # string arrays keep one element per line
+
+
+# ---------------------------------------------------------------------------
+# the one JSON conversion
+# ---------------------------------------------------------------------------
+
+
+def test_json_ready_gives_what_the_json_module_accepts_strictly():
+    from pathlib import Path
+
+    obj = {1: np.float32(0.5), "a": (np.int64(3), np.bool_(True), None),
+           "arr": np.array([[1.0, np.nan], [np.inf, -2.0]]), "set": {np.int16(4)},
+           "path": Path("out") / "x.json", "nan": float("nan"), "f": np.float64(-np.inf)}
+    out = S.json_ready(obj)
+    # the standard library's encoder with allow_nan=False refuses NaN/inf and NumPy types
+    text = json.dumps(out, allow_nan=False)
+    assert json.loads(text) == {"1": 0.5, "a": [3, True, None],
+                                "arr": [[1.0, None], [None, -2.0]], "set": [4],
+                                "path": os.path.join("out", "x.json"), "nan": None, "f": None}
+    assert type(out["a"][0]) is int and type(out["a"][1]) is bool
+
+
+def test_json_ready_other_objects_as_text_or_kept():
+    class Thing:
+        def __str__(self):
+            return "a thing"
+
+    t = Thing()
+    assert S.json_ready({"k": t}) == {"k": "a thing"}
+    kept = S.json_ready({"k": [t, np.float64(1.5)]}, default=None)
+    assert kept["k"][0] is t and kept["k"][1] == 1.5
+
+
+def test_finite_or_none():
+    assert S.finite_or_none(None) is None
+    assert S.finite_or_none(float("nan")) is None and S.finite_or_none(np.inf) is None
+    assert S.finite_or_none(np.float32(2.5)) == 2.5 and type(S.finite_or_none(3)) is float

@@ -418,6 +418,38 @@ def test_failed_refits_are_counted(rng):
     assert d["failed"] == 4 and any("failed" in w for w in d["warnings"])
 
 
+def test_unknown_estimator_is_refused_before_any_replicate(rng):
+    # an estimator name that is not one of anisotropy.estimators.ESTIMATORS must raise,
+    # not give semivariogram bands with no error recorded
+    vol = _StandInVolume((8, 8, 1), (10, 10, 10), rng, _truth())
+    ref = _reference(vol)
+    calls = {"n": 0}
+
+    def counting(sums, *, fixed_frame=None, start=None):
+        calls["n"] += 1
+        return _stand_in_refit(sums, fixed_frame=fixed_frame, start=start)
+
+    with pytest.raises(InputError, match="unknown estimator 'semivariance'"):
+        U.block_bootstrap(vol, counting, ref, n_replicates=10, seed=0, estimator="semivariance")
+    assert calls["n"] == 0
+    with pytest.raises(InputError, match="interval"):
+        U.block_bootstrap(vol, counting, ref, n_replicates=10, seed=0, interval="student")
+    assert calls["n"] == 0
+
+
+def test_a_bug_in_the_refit_is_not_counted_as_a_failed_replicate(rng):
+    # only the errors a fit states (FitError, non-convergence, numerical breakdown) are
+    # counted as failed replicates; a programming error stops the run
+    vol = _StandInVolume((8, 8, 1), (10, 10, 10), rng, _truth())
+    ref = _reference(vol)
+
+    def buggy(sums, *, fixed_frame=None, start=None):
+        return sums[None][7, 7, 7]  # IndexError
+
+    with pytest.raises(IndexError):
+        U.block_bootstrap(vol, buggy, ref, n_replicates=6, seed=0)
+
+
 # ---------------------------------------------------------------------------
 # the real pair engine and joint fit on simulated fields (slow)
 # ---------------------------------------------------------------------------

@@ -25,13 +25,11 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-__all__ = ["FitBins", "bins_from_sums", "CHANNEL_INDEX", "DEFAULT_MIN_PAIRS"]
+# the pair engine's channel order, from the one place it is written
+from anisotropy.constants import CHANNEL_INDEX
+from anisotropy.constants import CHANNELS as _CHANNELS
 
-# The pair engine's channel order (CONTRIBUTING.md, ``pairs/``).  Kept here as
-# the contract so that fitting stays importable without the compiled engine.
-_CHANNELS = ("count", "dist", "sq", "abs", "sqrt", "head", "tail", "head2", "tail2",
-             "cross", "rel", "rel_n", "dx", "dy", "dz")
-CHANNEL_INDEX = {name: i for i, name in enumerate(_CHANNELS)}
+__all__ = ["FitBins", "bins_from_sums", "CHANNEL_INDEX", "DEFAULT_MIN_PAIRS"]
 
 DEFAULT_MIN_PAIRS = 10
 

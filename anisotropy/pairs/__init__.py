@@ -61,13 +61,18 @@ cells with progress after each batch.
 from __future__ import annotations
 
 import math
-import sys
 import time
+import warnings
 from dataclasses import dataclass, field
 
+import numba
 import numpy as np
 
+from .. import geometry
+from ..constants import CHANNEL_INDEX as CH
+from ..constants import CHANNELS
 from ..errors import DataError, InputError
+from ..progress import note
 from . import _cells, _kernels, _lattice
 
 __all__ = [
@@ -75,6 +80,9 @@ __all__ = [
     "LagVolume",
     "RunPlan",
     "build_volume",
+    "exact_sums",
+    "check_angular_tolerance",
+    "check_bandwidth",
     "estimate_pair_count",
     "plan_run",
     "direction_vector",
@@ -82,11 +90,14 @@ __all__ = [
     "warm_up",
     "CORE_CHANNELS",
     "ESTIMATOR_CHANNELS",
+    "DEFAULT_FINE_SPACING",
+    "DEFAULT_COARSE_SPACING",
 ]
 
-CHANNELS = ("count", "dist", "sq", "abs", "sqrt", "head", "tail", "head2", "tail2",
-            "cross", "rel", "rel_n", "dx", "dy", "dz")
-CH = {name: i for i, name in enumerate(CHANNELS)}
+#: Default spacings (degrees) of the fine and coarse direction lattices.
+DEFAULT_FINE_SPACING = _lattice.DEFAULT_FINE_SPACING
+DEFAULT_COARSE_SPACING = _lattice.DEFAULT_COARSE_SPACING
+
 #: Channels every set of bins keeps (pair count, mean distance, mean lag vector).
 CORE_CHANNELS = ("count", "dist", "dx", "dy", "dz")
 #: Channels that are kept or dropped together in block and map sums.
@@ -136,12 +147,7 @@ def _columns(kept):
 #: Fixed number of work chunks (each with its own accumulator slice). Fixed so
 #: that sums do not depend on the thread count; at least the thread count.
 def _n_chunks() -> int:
-    try:
-        import numba
-
-        return max(4, int(numba.get_num_threads()))
-    except Exception:  # pragma: no cover
-        return 4
+    return max(4, int(numba.get_num_threads()))
 
 
 #: Pairs above which a run announces its estimate and reports progress.
@@ -198,8 +204,6 @@ def direction_vector(direction) -> np.ndarray:
 
     Returned in the canonical (lower-hemisphere) orientation.
     """
-    from .. import geometry
-
     d = np.asarray(direction, dtype=float).ravel()
     if d.shape == (2,):
         if not np.all(np.isfinite(d)) or not (-1e-9 <= d[1] <= 90 + 1e-9):
@@ -372,13 +376,6 @@ def plan_run(coords, max_distance, *, divisions=_cells.DEFAULT_CELL_DIVISIONS,
         batches=batches,
         cell=float(grid.cell),
     )
-
-
-def _announce(progress, message):
-    if progress is True:
-        print(message, file=sys.stderr, flush=True)
-    elif callable(progress):
-        progress(message)
 
 
 # ---------------------------------------------------------------- the volume
@@ -581,6 +578,61 @@ def _merge(acc, kept):
     return out
 
 
+def _announce_start(progress, cl, max_distance, work, batches, memory) -> int:
+    """Send the estimated pair count of a run to ``progress``; returns the estimate."""
+    est = estimate_pair_count(cl, max_distance)
+    note(progress, (
+        f"pair engine: about {est:,} pairs within {max_distance:g} m among {len(cl):,} samples "
+        f"({int(work.sum()):,} candidates, {len(batches)} batch(es), "
+        f"{memory / 2**20:.0f} MB of accumulators)"))
+    return est
+
+
+def _lattices(fine_directions, coarse_directions):
+    """Fine and coarse lattices, the fine-to-coarse map and the fine lookup table."""
+    fine = _lattice.lattice(fine_directions, _lattice.DEFAULT_FINE_SPACING)
+    if fine_directions is None or np.isscalar(fine_directions):
+        # generated lattice: number it along a Z-order curve for cache locality
+        fine = np.ascontiguousarray(fine[_lattice.spatial_order(fine)])
+    coarse = _lattice.lattice(coarse_directions, _lattice.DEFAULT_COARSE_SPACING)
+    return fine, coarse, _lattice.nearest_axis(fine, coarse), _lattice.direction_table(fine)
+
+
+def _block_grid(blocks, cl, hi, max_distance, per_block, block_memory):
+    """Block side (3,), grid shape (3,), block count and each sample's flat block index.
+
+    ``blocks``: None (cubes of side ``max_distance``), a side or three sides in
+    metres, or False (no blocks: zeros). The side grows by 25 % steps until
+    the blocks' accumulators (``per_block`` bytes each) fit ``block_memory``.
+    """
+    if blocks is False:
+        return np.zeros(3), np.ones(3, dtype=np.int64), 0, np.zeros(len(cl), dtype=np.int64)
+    if blocks is None:
+        size = np.full(3, max_distance)
+    else:
+        size = np.broadcast_to(np.asarray(blocks, dtype=float), (3,)).astype(float).copy()
+        if not np.all(np.isfinite(size)) or np.any(size <= 0):
+            raise InputError(f"block size must be positive metres; got {blocks!r}.")
+    while True:
+        shape = np.maximum(np.ceil(np.maximum(hi, 1e-12) / size), 1).astype(np.int64)
+        if int(np.prod(shape)) * per_block <= block_memory or np.prod(shape) == 1:
+            break
+        size = size * 1.25
+    bidx = np.minimum(np.floor(cl / size).astype(np.int64), shape - 1)
+    block_of_sample = (bidx[:, 0] * shape[1] + bidx[:, 1]) * shape[2] + bidx[:, 2]
+    return size, shape, int(np.prod(shape)), block_of_sample
+
+
+def _map_grid(map_cell, lag, max_distance):
+    """Map cell (None without a map) and the map's half-width in cells."""
+    if map_cell is False:
+        return None, 0
+    mc = float(lag if map_cell is None else map_cell)
+    if not (mc > 0) or not math.isfinite(mc):
+        raise InputError(f"map_cell must be a positive distance in metres; got {map_cell!r}.")
+    return mc, int(math.ceil(max_distance / mc))
+
+
 def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_directions=None,
                  blocks=None, map_cell=None, progress=True, block_memory=BLOCK_MEMORY,
                  cell_divisions=_cells.DEFAULT_CELL_DIVISIONS,
@@ -635,62 +687,23 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
     t_start = time.perf_counter()
     c, v = _check_coords_values(coords, values)
     lag, n_lags = _check_lag(lag, n_lags)
-    n = len(c)
     max_distance = (n_lags + 0.5) * lag
-    origin = c.min(axis=0) if n else np.zeros(3)
+    origin = c.min(axis=0) if len(c) else np.zeros(3)
     cl = c - origin
-    hi = cl.max(axis=0) if n else np.zeros(3)
+    hi = cl.max(axis=0) if len(c) else np.zeros(3)
 
-    fine = _lattice.lattice(fine_directions, _lattice.DEFAULT_FINE_SPACING)
-    if fine_directions is None or np.isscalar(fine_directions):
-        # generated lattice: number it along a Z-order curve for cache locality
-        fine = np.ascontiguousarray(fine[_lattice.spatial_order(fine)])
-    coarse = _lattice.lattice(coarse_directions, _lattice.DEFAULT_COARSE_SPACING)
-    f2c = _lattice.nearest_axis(fine, coarse)
-    table = _lattice.direction_table(fine)
+    fine, coarse, f2c, table = _lattices(fine_directions, coarse_directions)
     n_fine, n_coarse, n_cls, nch = len(fine), len(coarse), n_lags + 1, len(CHANNELS)
     n_chunks = _n_chunks()
-    fkeep = resolve_channels(channels)
-    fcols, fwidth = _columns(fkeep)
-    bkeep = resolve_channels(block_channels)
-    mkeep = resolve_channels(map_channels)
-    bcols, bwidth = _columns(bkeep)
-    mcols, mwidth = _columns(mkeep)
+    fkeep, bkeep, mkeep = (resolve_channels(k) for k in (channels, block_channels, map_channels))
+    (fcols, fwidth), (bcols, bwidth), (mcols, mwidth) = (_columns(k) for k in (fkeep, bkeep,
+                                                                                mkeep))
 
-    # blocks
-    do_blocks = blocks is not False
-    if do_blocks:
-        if blocks is None:
-            size = np.full(3, max_distance)
-        else:
-            size = np.broadcast_to(np.asarray(blocks, dtype=float), (3,)).astype(float).copy()
-            if not np.all(np.isfinite(size)) or np.any(size <= 0):
-                raise InputError(f"block size must be positive metres; got {blocks!r}.")
-        per_block = n_cls * n_coarse * 8 * (bwidth * n_chunks + nch)
-        while True:
-            shape = np.maximum(np.ceil(np.maximum(hi, 1e-12) / size), 1).astype(np.int64)
-            if int(np.prod(shape)) * per_block <= block_memory or np.prod(shape) == 1:
-                break
-            size = size * 1.25
-        bshape = shape
-        n_blocks = int(np.prod(bshape))
-        bidx = np.minimum(np.floor(cl / size).astype(np.int64), bshape - 1)
-        block_of_sample = (bidx[:, 0] * bshape[1] + bidx[:, 1]) * bshape[2] + bidx[:, 2]
-    else:
-        size = np.zeros(3)
-        bshape = np.ones(3, dtype=np.int64)
-        n_blocks = 0
-        block_of_sample = np.zeros(n, dtype=np.int64)
-    # map
-    do_map = map_cell is not False
-    if do_map:
-        mc = float(lag if map_cell is None else map_cell)
-        if not (mc > 0) or not math.isfinite(mc):
-            raise InputError(f"map_cell must be a positive distance in metres; got {map_cell!r}.")
-        mhalf = int(math.ceil(max_distance / mc))
-    else:
-        mc = None
-        mhalf = 0
+    do_blocks, do_map = blocks is not False, map_cell is not False
+    size, bshape, n_blocks, block_of_sample = _block_grid(
+        blocks, cl, hi, max_distance, n_cls * n_coarse * 8 * (bwidth * n_chunks + nch),
+        block_memory)
+    mc, mhalf = _map_grid(map_cell, lag, max_distance)
     mny, mnz = 2 * mhalf + 1, mhalf + 1
 
     # accumulators (chunk slices)
@@ -708,26 +721,14 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
     # pairs inside one block cost no per-pair block work (the grid starts at the shifted
     # origin 0, which the block-major kernel's cell ranges assume)
     block_major = bool(do_blocks and set(bkeep) <= set(fkeep) and np.all(grid.origin == 0.0))
+    acc_scratch = _aligned_zeros(acc_fine.shape) if block_major else np.zeros((1, 1, 1))
+    touched = np.zeros(acc_fine.shape[:2] if block_major else (1, 1), dtype=np.int64)
     if block_major:
-        acc_scratch = _aligned_zeros(acc_fine.shape)
-        touched = np.zeros(acc_fine.shape[:2], dtype=np.int64)
         memory += acc_scratch.nbytes + touched.nbytes
-    else:
-        acc_scratch = np.zeros((1, 1, 1))
-        touched = np.zeros((1, 1), dtype=np.int64)
-    est = None
     loud = callable(progress) or (progress is True and work.sum() > ANNOUNCE_PAIRS)
-    if loud:
-        est = estimate_pair_count(cl, max_distance)
-        _announce(progress, (
-            f"pair engine: about {est:,} pairs within {max_distance:g} m among {n:,} samples "
-            f"({int(work.sum()):,} candidates, {len(batches)} batch(es), "
-            f"{memory / 2**20:.0f} MB of accumulators)"))
-    order = grid.order
-    x = np.ascontiguousarray(cl[order, 0])
-    y = np.ascontiguousarray(cl[order, 1])
-    z = np.ascontiguousarray(cl[order, 2])
-    vv = np.ascontiguousarray(v[order])
+    est = _announce_start(progress, cl, max_distance, work, batches, memory) if loud else None
+    o = grid.order
+    x, y, z, vv = (np.ascontiguousarray(a) for a in (cl[o, 0], cl[o, 1], cl[o, 2], v[o]))
     occ_index, cell_lo, cell_hi = _cells.cell_bounds(grid, np.column_stack([x, y, z]))
     maxd2 = (max_distance * (1 + 1e-12)) ** 2
     inv_pix = table.shape[0] / 2.0  # the plane coordinates cover [-1, 1]
@@ -758,29 +759,24 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
                                  fcols, bcols, mcols, block_major)
         if loud and len(batches) > 1:
             done = float(work[:q1].sum() / max(work.sum(), 1))
-            _announce(progress, f"pair engine: batch {bi + 1}/{len(batches)} done "
-                                f"({100 * done:.0f} % of candidates)")
+            note(progress, f"pair engine: batch {bi + 1}/{len(batches)} done "
+                           f"({100 * done:.0f} % of candidates)")
     sums = _merge(acc_fine, fkeep).reshape(n_cls, n_fine, nch)
     del acc_fine
-    if do_blocks:
-        block_sums = _merge(acc_blk, bkeep).reshape(n_blocks, n_cls, n_coarse, nch)
-    else:
-        block_sums = np.zeros((0, n_cls, n_coarse, nch))
+    block_sums = (_merge(acc_blk, bkeep).reshape(n_blocks, n_cls, n_coarse, nch) if do_blocks
+                  else np.zeros((0, n_cls, n_coarse, nch)))
     del acc_blk
-    if do_map:
-        map_sums = _merge(acc_map, mkeep).reshape(mny, mny, mnz, nch)
-    else:
-        map_sums = np.zeros((1, 1, 1, nch))
+    map_sums = (_merge(acc_map, mkeep).reshape(mny, mny, mnz, nch) if do_map
+                else np.zeros((1, 1, 1, nch)))
     del acc_map
     st = stats.sum(axis=0)
-    seconds = time.perf_counter() - t_start
     return LagVolume(
         lag=lag, n_lags=n_lags, max_distance=max_distance,
         directions=fine, sums=sums, coarse_directions=coarse, fine_to_coarse=f2c,
         block_shape=tuple(int(b) for b in bshape) if do_blocks else (0, 0, 0),
         block_origin=origin.copy(), block_size=size, block_of_sample=block_of_sample,
         block_sums=block_sums, map_cell=mc, map_sums=map_sums,
-        n_pairs=int(st[1]), seconds=seconds, memory_bytes=int(memory),
+        n_pairs=int(st[1]), seconds=time.perf_counter() - t_start, memory_bytes=int(memory),
         stats={"candidates": int(st[0]), "cell": float(grid.cell), "batches": len(batches),
                "chunks": int(n_chunks), "table_size": int(table.shape[0]),
                "block_bytes": int(block_sums.nbytes),
@@ -789,22 +785,107 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
     )
 
 
+# ------------------------------------------------------------ the exact pass
+def check_angular_tolerance(angular_tolerance) -> float:
+    """Angular tolerance as a float in (0, 90] degrees, or an InputError."""
+    try:
+        a = float(angular_tolerance)
+    except (TypeError, ValueError):
+        raise InputError(f"angular tolerance must be degrees in (0, 90]; got {angular_tolerance!r}.") from None
+    if not (0.0 < a <= 90.0):
+        raise InputError(f"angular tolerance must be degrees in (0, 90]; got {a}.")
+    return a
+
+
+def check_bandwidth(bandwidth):
+    """Bandwidth as a positive float in metres, None kept, or an InputError."""
+    if bandwidth is None:
+        return None
+    b = float(bandwidth)
+    if not (b > 0) or not math.isfinite(b):
+        raise InputError(f"bandwidth must be a positive distance in metres or None; got {bandwidth!r}.")
+    return b
+
+
+def exact_sums(coords, values, *, lag, n_lags, direction=None, angular_tolerance=22.5,
+               lag_tolerance=None, bandwidth=None, channels=None) -> np.ndarray:
+    """Exact channel sums (n_lags + 1, n_ch) of a directional variogram (row 0 unused).
+
+    The exact directional pass: every pair closer than ``n_lags lag + tol``
+    is visited once and tested against the lag-class, angle and bandwidth
+    rules on its own lag vector (the rules are spelled out in
+    :func:`anisotropy.directional.experimental_variogram`, which reads its
+    values from these sums). ``channels``
+    (see :func:`anisotropy.pairs.resolve_channels`): None keeps all 15; an
+    estimator name keeps count, dist and what that estimator reads (not the
+    lag-vector sums dx, dy, dz, which no variogram value needs, unless they
+    are named), and the pass does no work for the others, which are NaN.
+    """
+    c, v = _check_coords_values(coords, values)
+    lag, n_lags = _check_lag(lag, n_lags)
+    tol = 0.5 * lag if lag_tolerance is None else float(lag_tolerance)
+    if not (tol > 0) or not math.isfinite(tol):
+        raise InputError(f"lag tolerance must be a positive distance in metres; got {lag_tolerance!r}.")
+    ang = check_angular_tolerance(angular_tolerance)
+    band = check_bandwidth(bandwidth)
+    omni = direction is None
+    u = np.zeros(3) if omni else direction_vector(direction)
+    kept = resolve_channels(channels)
+    asked = {channels} if isinstance(channels, str) else set(channels or ())
+    if kept != CHANNELS and not asked & {"dx", "dy", "dz"}:
+        # a variogram value needs no mean lag vector unless it was asked for by name
+        kept = tuple(name for name in kept if name not in ("dx", "dy", "dz"))
+    need = np.array([name in kept for name in ("abs", "sqrt", "head", "rel", "dx")], dtype=np.int64)
+    n_chunks = _n_chunks()
+    acc = np.zeros((n_chunks, (n_lags + 1) * len(CHANNELS)))
+    stats = np.zeros((n_chunks, 2), dtype=np.int64)
+    if len(c) >= 2:
+        radius = n_lags * lag + tol
+        cl = c - c.min(axis=0)
+        grid = _cells.make_grid(cl, radius)
+        off = _cells.half_stencil(grid.cell, radius, grid.dims)
+        work = _kernels.cell_work(grid.start, grid.dims, grid.occupied, off)
+        o = grid.order
+        x, y, z, vv = (np.ascontiguousarray(a) for a in (cl[o, 0], cl[o, 1], cl[o, 2], v[o]))
+        # 90 degrees: every direction (-1 so that perpendicular lags are not lost to rounding)
+        cos_tol = math.cos(math.radians(ang)) if ang < 90.0 else -1.0
+        maxd2 = (radius * (1 + 1e-12)) ** 2
+        # class bounds of the rule k lag - tol < d <= k lag + tol, as the rule computes them
+        k = np.arange(n_lags + 3)
+        lo = k * lag - tol
+        hi = k * lag + tol
+        pad = (k == 0) | (k > n_lags)  # never match (the kernel also reads index -1)
+        lo[pad] = np.inf
+        hi[pad] = -np.inf
+        narrow = bool(tol <= 0.5 * lag)
+        lean_omni = omni and narrow and not need.any()  # the semivariogram, every direction
+        for q0, q1 in _plan_batches(work, 4e8):
+            if lean_omni:
+                _kernels.omni_pass(x, y, z, vv, grid.start, grid.dims, grid.occupied, off, q0, q1,
+                                   n_chunks, maxd2, 1.0 / lag, lo, hi, n_lags, acc, stats)
+                continue
+            _kernels.exact_pass(x, y, z, vv, grid.start, grid.dims, grid.occupied, off, q0, q1,
+                                n_chunks, maxd2, 1.0 / lag, tol, lo, hi, narrow, n_lags, omni,
+                                u[0], u[1], u[2], cos_tol, band is not None,
+                                0.0 if band is None else band * band, need, acc, stats)
+    out = acc.sum(axis=0).reshape(n_lags + 1, len(CHANNELS))
+    out[:, [CHANNELS.index(name) for name in CHANNELS if name not in kept]] = np.nan
+    return out
+
+
 def warm_up() -> float:
-    """Compile (or load from Numba's on-disk cache) the kernels a discovery uses.
+    """Compile (or load from Numba's on-disk cache) the pair kernels a discovery uses.
 
     The kernels are compiled for argument *types*, so a pass over a few random
     samples with the options ``anisotropy.discover`` passes (blocks, map, one
-    estimator's channels) and an exact variogram compile everything a real
-    run needs. Call it once in a parent process before starting several
+    estimator's channels) and an exact directional pass compile everything a
+    real run needs. Call it once in a parent process before starting several
     worker processes: otherwise, on a fresh installation, every worker
     compiles the same kernels at the same time (about half a minute each on
-    two cores). Returns the seconds it took (one to two once cached: loading the
-    cached kernels).
+    two cores). :func:`anisotropy.parallel.warm_up` also compiles the
+    likelihood kernels of ``anisotropy.fitting``. Returns the seconds it took
+    (one to two once cached: loading the cached kernels).
     """
-    from ..directional import experimental_variogram
-
-    import warnings
-
     t0 = time.perf_counter()
     rng = np.random.default_rng(0)
     c = rng.random((60, 3)) * 20.0
@@ -814,8 +895,8 @@ def warm_up() -> float:
         for est in ("semivariogram", None):
             build_volume(c, v, lag=2.0, n_lags=4, progress=False, channels=est,
                          block_channels=est, map_channels=est)
+        # the calls anisotropy.directional.experimental_variogram makes
         for est in ("semivariogram", "correlogram"):
-            experimental_variogram(c, v, lag=2.0, n_lags=4, estimator=est)
-            experimental_variogram(c, v, lag=2.0, n_lags=4, direction=(0.0, 0.0),
-                                   estimator=est)
+            exact_sums(c, v, lag=2.0, n_lags=4, channels=est)
+            exact_sums(c, v, lag=2.0, n_lags=4, direction=(0.0, 0.0), channels=est)
     return time.perf_counter() - t0

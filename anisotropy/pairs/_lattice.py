@@ -47,6 +47,7 @@ import numpy as np
 from scipy.spatial import cKDTree
 
 from .. import geometry
+from ..errors import InputError
 
 __all__ = [
     "DEFAULT_FINE_SPACING",
@@ -84,8 +85,6 @@ def lattice(spec, default_spacing: float) -> np.ndarray:
     -------
     ndarray, shape (n, 3)
     """
-    from ..errors import InputError
-
     if spec is None:
         dirs = geometry.fan_for_spacing(default_spacing)
     elif np.isscalar(spec):

@@ -504,7 +504,7 @@ def directional_variograms_figure(curves, *, sill=None, value_label="semivariogr
         its own distances, optional ``model_distance``/``model_value`` (fitted
         nested model along this direction, solid line, label ``model_label``),
         optional ``pair_model_value`` (the model averaged over the pairs of
-        each lag, see :func:`anisotropy.report._model_view.model_over_pairs`;
+        each lag, see :func:`anisotropy.directional.model_over_pairs`;
         open markers on a dashed line at ``pair_model_distance``, default
         ``distance``; label ``pair_model_label``), optional ``axis`` (``major``,
         ``semi_major``, ``minor``; others go on the last panel together,

@@ -20,13 +20,19 @@ warnings that quote them) is escaped.
 from __future__ import annotations
 
 import base64
+import io
 import math
 from pathlib import Path
 from typing import Mapping
 
+import matplotlib
 import numpy as np
 
 from anisotropy import _safety as S
+from anisotropy.constants import AXES as _AXES
+from anisotropy.directional import cone_variogram, variogram_map
+from anisotropy.geometry import line_to_vector, plane_to_pole, vector_to_line
+from anisotropy.report import figures as F
 from anisotropy.report.style import CAUTION, DOMAINING_NOTE, page
 
 __all__ = ["render_report", "REPORT_FIGURES"]
@@ -43,7 +49,6 @@ REPORT_FIGURES = {
     "model_table": "Nested model",
 }
 
-_AXES = ("major", "semi_major", "minor")
 _AXIS_WORD = {"major": "major", "semi_major": "semi-major", "minor": "minor"}
 
 
@@ -145,8 +150,6 @@ def _raw_grades(disc):
 
 
 def _fig_histogram(disc, path, topcut):
-    from anisotropy.report import figures as F
-
     lab = _labels(disc)
     return F.histogram_figure(_raw_grades(disc), title=f"Histogram of {lab['value_name']}"
                               + (" (top-cut applied)" if topcut is not None else " (top-cut candidates)"),
@@ -154,8 +157,6 @@ def _fig_histogram(disc, path, topcut):
 
 
 def _fig_logprob(disc, path, topcut):
-    from anisotropy.report import figures as F
-
     lab = _labels(disc)
     return F.logprob_figure(_raw_grades(disc), title=f"Log-probability plot of {lab['value_name']}",
                             candidates=_marks(disc, topcut), path=path, **lab)
@@ -189,9 +190,6 @@ def _map_plane_basis(normal):
 
 
 def _fig_map(disc, path, which):
-    from anisotropy.directional import variogram_map
-    from anisotropy.report import figures as F
-
     R = _frame(disc)
     plane_info = (disc.to_dict().get("plane") or {})
     if which == "plan":
@@ -244,8 +242,6 @@ def _num(x, fmt):
 
 
 def _axis_label(vec):
-    from anisotropy.geometry import vector_to_line
-
     tr, pl = vector_to_line(np.asarray(vec, float))
     return f"distance toward {float(tr):03.0f}/{float(pl):02.0f} (m)"
 
@@ -314,14 +310,10 @@ def _interpreted_pole(check):
     plane = _attr(_attr(check, "interpretation"), "plane")
     if plane is None:
         return None
-    from anisotropy.geometry import plane_to_pole
-
     return np.asarray(plane_to_pole(float(plane[0]), float(plane[1])), float)
 
 
 def _fig_stereonet(disc, path, check):
-    from anisotropy.report import figures as F
-
     R = _frame(disc)
     d = disc.to_dict()
     unc = d.get("uncertainty") or {}
@@ -335,12 +327,6 @@ def _fig_stereonet(disc, path, check):
 
 
 def _fig_directional(disc, path):
-    from anisotropy.estimators import estimate
-    from anisotropy.geometry import line_to_vector, vector_to_line
-    from anisotropy.pairs import CHANNELS
-    from anisotropy.report import figures as F
-    from anisotropy.report._model_view import volume_model_view
-
     vol = disc.volume_
     R = _frame(disc)
     lags = disc.lags or {}
@@ -348,14 +334,13 @@ def _fig_directional(disc, path):
     tol = float(lags.get("angular_tolerance")
                 or (dirs_diag.get("angular_tolerance") if isinstance(dirs_diag, Mapping) else None)
                 or 22.5)
-    bw = lags.get("bandwidth")
+    bw = lags.get("bandwidth") or None
     estimator = _estimator(disc)
     dirs = [(a, R[:, i], f"{_AXIS_WORD[a]} axis") for i, a in enumerate(_AXES)]
     for tr, pl in ((0.0, 0.0), (90.0, 0.0), (0.0, 90.0)):
         v = line_to_vector(tr, pl)
         if min(float(np.degrees(np.arccos(min(1.0, abs(float(v @ R[:, i])))))) for i in range(3)) > 15:
             dirs.append((None, v, f"{tr:03.0f}/{pl:02.0f}"))
-    i_count, i_dist = CHANNELS.index("count"), CHANNELS.index("dist")
     dmax = float(vol.max_distance)
     grid = np.linspace(0.0, dmax, 120)
     bands = None
@@ -364,19 +349,18 @@ def _fig_directional(disc, path):
         bands = unc.variogram_bands(np.stack([d[1] for d in dirs]), grid)
     curves = []
     for k, (axis, u, label) in enumerate(dirs):
-        sums = vol.aggregate(u, tol, bw) if bw else vol.aggregate(u, tol)
-        n = sums[:, i_count]
-        with np.errstate(invalid="ignore", divide="ignore"):
-            dist = np.where(n > 0, sums[:, i_dist] / np.maximum(n, 1), np.nan)
-        val = np.asarray(estimate(sums, estimator), float)
+        # the cone's points and the model as the cone's own pairs see it (their lags
+        # leave the axis), computed in anisotropy.directional
+        cone = cone_variogram(vol, u, angular_tolerance=tol, bandwidth=bw, estimator=estimator,
+                              model=disc.model)
         tr, pl = vector_to_line(u)
         name = label if axis is None else f"{label} {float(tr):03.0f}/{float(pl):02.0f}"
-        # the model as the cone's own pairs see it (their lags leave the axis)
-        seen = volume_model_view(vol, disc.model, u, tol, bw if bw else None)
-        c = {"label": name, "axis": axis, "distance": dist, "value": val, "pairs": n,
+        c = {"label": name, "axis": axis, "distance": cone.distance, "value": cone.value,
+             "pairs": cone.pairs,
              "model_distance": grid, "model_value": disc.model.variogram_along(u, grid),
              "model_label": "model along the axis" if axis else "model along the direction",
-             "pair_model_value": seen, "pair_model_label": "model averaged over this lag's pairs"}
+             "pair_model_value": cone.model_over_pairs,
+             "pair_model_label": "model averaged over this lag's pairs"}
         if bands is not None:
             c.update(lo=bands["lo"][k], hi=bands["hi"][k], band_distance=grid,
                      band_label=f"bootstrap band of the model ({unc.confidence * 100:.0f} %)")
@@ -395,8 +379,6 @@ def _fig_table(disc, path):
 
 
 def _draw_all(disc, fig_dir: Path, check, topcut):
-    import matplotlib
-
     matplotlib.use("Agg", force=False)
     makers = {
         "histogram": lambda p: _fig_histogram(disc, p, topcut),
@@ -408,10 +390,6 @@ def _draw_all(disc, fig_dir: Path, check, topcut):
         "directional": lambda p: _fig_directional(disc, p),
         "model_table": lambda p: _fig_table(disc, p),
     }
-    import io
-
-    from anisotropy.report import figures as F
-
     out = {}
     for key, make in makers.items():
         path = fig_dir / f"{key}.png"
