@@ -42,7 +42,7 @@ from anisotropy.geometry import to_lower_hemisphere, vector_to_line
 
 __all__ = ["FrameStart", "PolishedFrame", "FrameChoice", "frame_starts",
            "dominant_directions", "choose_frame", "likelihood_margin", "axis_swap_shares",
-           "AXIS_NAMES"]
+           "global_frame_choice", "AXIS_NAMES"]
 
 AXIS_NAMES = ("major", "semi_major", "minor")
 #: Axes of two frames that differ by more than this are "elsewhere" (degrees):
@@ -338,3 +338,59 @@ def axis_swap_shares(frame, replicate_frames) -> dict:
             n += bool(c[b, a] > c[a, a] or c[a, b] > c[b, b])
         out[f"{AXIS_NAMES[a]}-{AXIS_NAMES[b]}"] = n / len(reps)
     return out
+
+
+def global_frame_choice(coords, values, frame, ranges, nugget, sills, kinds, *, holes=None,
+                        other_frames=(), seed=0, n_neighbours=30, max_samples=2000,
+                        confidence=0.9, ftol=1e-4) -> FrameChoice:
+    """Every candidate start polished by one shared likelihood, and the best kept.
+
+    The conditioning sets are built once, in the plain Euclidean metric
+    (neutral between candidates that exchange axes: a metric taken from one
+    candidate's ranges would reach along that candidate's major axis and
+    favour it) and, on drill holes, with the across-hole rule of
+    :func:`~anisotropy.fitting.likelihood.vecchia_neighbours`.  Every
+    candidate is then searched on the same samples, order and neighbours, so
+    their log-likelihoods are comparable.
+
+    Parameters
+    ----------
+    coords, values : ndarray
+        Samples and the analysed variable.
+    frame, ranges, nugget, sills, kinds
+        The variogram fit (columns major, semi-major, minor; ranges (K, 3)).
+    holes : array_like (n,), optional
+        Drill-hole labels: across-hole conditioning, and a candidate with an
+        axis along each dominant hole direction.
+    other_frames : sequence of (name, frame)
+        Other good frames of the variogram search.
+    seed, n_neighbours, max_samples :
+        As for :func:`~anisotropy.fitting.likelihood.refine_frame_likelihood`.
+    confidence : float
+        Sets the rival margin (:func:`likelihood_margin`).
+    ftol : float
+        Stopping tolerance of each candidate's search.
+
+    Returns
+    -------
+    FrameChoice
+    """
+    from anisotropy.fitting.likelihood import refine_frame_likelihood, vecchia_setup
+    from anisotropy.fitting.resolution import hole_axes
+
+    dirs = []
+    if holes is not None:
+        ha = hole_axes(coords, holes)
+        ok = np.all(np.isfinite(ha.directions), axis=1)
+        if ok.any():
+            dirs = dominant_directions(ha.directions[ok], ha.counts[ok])
+    setup = vecchia_setup(coords, values, metric=np.eye(3), n_neighbours=n_neighbours,
+                          max_samples=max_samples, seed=seed, holes=holes)
+    starts = frame_starts(frame, ranges, hole_directions=dirs, other_frames=other_frames)
+
+    def polish(F, R):
+        return refine_frame_likelihood(coords, values, F, R, nugget, sills, kinds,
+                                       setup=setup, ftol=ftol, seed=seed,
+                                       n_neighbours=n_neighbours, max_samples=max_samples)
+
+    return choose_frame(starts, polish, confidence=confidence)
