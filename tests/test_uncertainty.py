@@ -372,11 +372,18 @@ def test_result_schema_and_json(rng):
     d = json.loads(json.dumps(res.to_dict()))  # plain types only
     assert d["method"] == "block_bootstrap" and d["replicates"] == 30
     assert d["confidence"] == 0.9
-    for name in ("major", "semi_major", "minor"):
+    ranges = res.reference_ranges
+    for i, name in enumerate(("major", "semi_major", "minor")):
         assert set(d[name]) >= {"cone_deg", "trend", "plunge", "range"}
         lo, hi = d[name]["range"]
-        assert lo <= hi
-    assert len(d["sills"]) == 1 and len(d["nugget"]) == 2
+        # every interval holds its estimate; a bound beyond the longest lag is None
+        if lo is not None and hi is not None:
+            assert lo <= ranges[i] <= hi
+        else:
+            assert "longest lag" in d[name]["range_note"]
+            assert ranges[i] > res.longest_lag or hi is None
+    assert len(d["sills"]) == 1
+    assert d["nugget"] is None or d["nugget"][0] <= ref.nugget <= d["nugget"][1]
     assert 0.0 <= d["swap_rate"]["major_semi_major"] <= 1.0
     bands = res.variogram_bands(np.eye(3), np.linspace(0, 200, 11))
     assert bands["lo"].shape == (3, 11)
@@ -500,8 +507,10 @@ def test_bands_shrink_as_data_grow_real_chain():
         _, vol, refit, model, _ = _lean_chain(n, (150.0, 80.0, 40.0))
         res = U.block_bootstrap(vol, refit, model, n_replicates=30, seed=0)
         d = res.to_dict()
-        out.append((d["major"]["cone_deg"], d["minor"]["cone_deg"],
-                    np.log(d["major"]["range"][1] / d["major"]["range"][0])))
+        # the replicates' own spread of the major range (the reported interval may be
+        # unbounded when it reaches past the longest lag)
+        lo, hi = np.percentile(np.log(res.ranges[:, 0]), [5, 95])
+        out.append((d["major"]["cone_deg"], d["minor"]["cone_deg"], hi - lo))
     small, large = out
     assert large[0] < small[0] and large[1] < small[1] and large[2] < small[2], out
 
@@ -539,4 +548,33 @@ def test_model_bootstrap_runs_and_is_seeded():
     assert da == db and da["method"] == "model_bootstrap"
     assert a.n_replicates + a.n_failed == 8 and a.n_replicates >= 6
     lo, hi = da["major"]["range"]
-    assert lo <= hi
+    est = a.reference_ranges[0]
+    assert (lo is None or lo <= est) and (hi is None or est <= hi)
+
+
+def test_interval_helpers_hold_the_estimate_and_drop_bounds_beyond_the_lags():
+    # by hand: an interval that misses its estimate is widened to it, never narrowed
+    assert U.holding_estimate([488.0, 10557.0], 314.0) == ([314.0, 10557.0], True)
+    assert U.holding_estimate([100.0, 200.0], 150.0) == ([100.0, 200.0], False)
+    # bounds beyond the longest lag (261 m) are unbounded
+    assert U.bounded_by_lags([120.0, 400.0], 261.0)[0] == [120.0, None]
+    iv, note = U.bounded_by_lags([300.0, 400.0], 261.0)
+    assert iv == [None, None] and "> 261 m" in note
+    assert U.bounded_by_lags([120.0, 200.0], 261.0) == ([120.0, 200.0], None)
+    assert U.range_text([120.0, None], 261.0) == "120 m to > 261 m"
+    assert U.range_text([None, None], 261.0) == "> 261 m"
+    # a value every replicate repeats was held fixed; a spread one was not
+    assert U.held_fixed([0.2, 0.2, 0.2], 0.2)
+    assert not U.held_fixed([0.2, 0.21, 0.19], 0.2)
+
+
+def test_nugget_held_in_the_replicates_has_no_interval(rng):
+    # the stand-in refit holds its nugget at 0.1 in every replicate (as the down-hole
+    # nugget is held in the real chain's replicates)
+    vol = _StandInVolume((8, 8, 1), (10, 10, 10), rng, _truth())
+    res = U.block_bootstrap(vol, _stand_in_refit, _reference(vol), n_replicates=20, seed=3)
+    assert np.all(res.nugget == 0.1)
+    d = res.to_dict()
+    assert d["nugget"] is None
+    assert any("nugget is held fixed" in n for n in d["notes"])
+    assert "nugget held fixed" in res.summary()
