@@ -44,6 +44,11 @@ divided by sqrt(n)) is at most :data:`PLANAR_ABSOLUTE` metres or
 flagged ``planar=True`` with a warning: the direction across that plane
 cannot be studied.
 
+Column names must differ: a table in which two columns share a name (after
+stripping spaces) is refused, naming the positions of both columns; pandas
+would otherwise rename the second (``Au.1``) and one of them would be used
+without a word.
+
 Row numbers in messages are *data row numbers*: 1 for the first row under
 the header line, so data row ``k`` is row ``k + 1`` in a spreadsheet that
 shows the header on row 1.
@@ -73,6 +78,7 @@ __all__ = [
     "detect_coordinate_columns",
     "find_column",
     "domain_codes",
+    "check_unique_columns",
     "MISSING_CODE_THRESHOLD",
     "DUPLICATE_TOLERANCE",
     "PLANAR_ABSOLUTE",
@@ -398,11 +404,19 @@ def read_table(path) -> pd.DataFrame:
                              "pip install 'anisotropy[parquet]', or save the table as CSV."
                              ) from None
         try:
+            import pyarrow.parquet as pq
+
+            names = pq.read_schema(p).names
+        except Exception:  # noqa: BLE001 - an unreadable file is reported just below
+            names = []
+        check_unique_columns(names, str(p))
+        try:
             df = pd.read_parquet(p)
         except Exception as exc:  # noqa: BLE001 - any reader failure is bad input
             raise InputError(f"Could not read '{p}' as Parquet ({exc}). Check that the "
                              "file is a complete Parquet file, or save the table as CSV."
                              ) from None
+        check_unique_columns(df.columns, str(p))
         df.columns = [str(c).strip() for c in df.columns]
         df.attrs["table"] = {"format": "parquet", "separator": None, "decimal": None}
         return df
@@ -425,6 +439,7 @@ def read_table(path) -> pd.DataFrame:
         raise InputError(f"'{p}' looks like a binary file, not a text table. Give a CSV "
                          "file or a Parquet file (ending .parquet).")
     sep, decimal = _sniff(text[:262144])
+    check_unique_columns(_header_names(text[:262144], sep), str(p))
     try:
         df = pd.read_csv(
             io.StringIO(text), sep=sep, decimal=decimal,
@@ -460,6 +475,55 @@ def _looks_numeric(s) -> bool:
         return True
     except ValueError:
         return False
+
+
+def _header_names(text: str, sep: str) -> list[str]:
+    """The column names on the header line of a CSV text, as written (stripped).
+
+    pandas renames a repeated name (``Au``, ``Au`` becomes ``Au``, ``Au.1``),
+    so repeats are found here, on the header line itself.
+    """
+    for line in text.splitlines():
+        if not line.strip():
+            continue
+        if sep == r"\s+":
+            return line.split()
+        try:
+            return [c.strip() for c in next(csv.reader([line], delimiter=sep))]
+        except (csv.Error, StopIteration):
+            return []
+    return []
+
+
+def check_unique_columns(names, source: str) -> None:
+    """Refuse a table in which two columns share a name.
+
+    Parameters
+    ----------
+    names : sequence
+        Column names in table order (compared after stripping spaces).
+    source : str
+        File name for the message.
+
+    Raises
+    ------
+    InputError
+        A name occurs more than once; the message gives the 1-based
+        positions of the columns that share it.
+    """
+    where: dict[str, list[int]] = {}
+    for i, c in enumerate(names, start=1):
+        where.setdefault(str(c).strip(), []).append(i)
+    repeated = {c: pos for c, pos in where.items() if len(pos) > 1}
+    if not repeated:
+        return
+    parts = [f"{c!r} is the name of columns {', '.join(map(str, pos[:-1]))} and {pos[-1]}"
+             for c, pos in repeated.items()]
+    raise InputError(
+        f"In '{source}': {'; '.join(parts)} (counting from 1 at the left). A repeated name "
+        "leaves it unclear which column is meant, so the table is not read. Rename the "
+        "columns in the header line so that each has its own name (for example Au_1 and "
+        "Au_2), or delete the column that is not wanted.")
 
 
 # ---------------------------------------------------------------------------
@@ -793,6 +857,7 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
     if len(df.columns) == 0:
         raise InputError(f"'{source}' has no columns.")
     table_info = dict(df.attrs.get("table", {}))
+    check_unique_columns(df.columns, source)
     df = df.copy(deep=False)
     df.columns = [str(c) for c in df.columns]
     if value is None:
