@@ -30,6 +30,11 @@ EXIT_BAD_INPUT = 2
 # shared option groups
 # ---------------------------------------------------------------------------
 
+_Z_HELP = ("elevation column (detected if omitted; a table with no elevation column and "
+           "none named like one is read as two-dimensional, on one plane at z = 0, with a "
+           "warning; 'none' asks for that)")
+
+
 def _add_input_options(p: argparse.ArgumentParser, *, value_required: bool = True) -> None:
     """The sample-table options every data command takes."""
     p.add_argument("file", help="sample table: CSV (any common separator) or Parquet")
@@ -38,7 +43,7 @@ def _add_input_options(p: argparse.ArgumentParser, *, value_required: bool = Tru
                    help="grade column to study")
     g.add_argument("--x", metavar="COL", help="easting column (detected if omitted)")
     g.add_argument("--y", metavar="COL", help="northing column (detected if omitted)")
-    g.add_argument("--z", metavar="COL", help="elevation column (detected if omitted)")
+    g.add_argument("--z", metavar="COL", help=_Z_HELP)
     g.add_argument("--domain", metavar="COL", help="domain column")
     g.add_argument("--domain-value", metavar="VALUE",
                    help="study only the samples of this domain")
@@ -167,6 +172,9 @@ def _intake_lines(samples, args) -> list:
     lines = ["Reading the table", "-----------------"]
     given = {"x": args.x, "y": args.y, "z": args.z}
     for role in ("x", "y", "z"):
+        if samples.columns.get(role) is None:
+            lines.append(f"  {role}: none, the table is read as two-dimensional (z = 0)")
+            continue
         how = f"given with --{role}" if given[role] is not None else "detected from its name"
         lines.append(f"  {role}: column {samples.columns[role]!r} ({how})")
     lines.append(f"  grade: column {samples.columns['value']!r}")
@@ -489,7 +497,7 @@ def _add_batch(p: argparse.ArgumentParser) -> None:
     g.add_argument("--domain", required=True, metavar="COL", help="domain column")
     g.add_argument("--x", metavar="COL", help="easting column (detected if omitted)")
     g.add_argument("--y", metavar="COL", help="northing column (detected if omitted)")
-    g.add_argument("--z", metavar="COL", help="elevation column (detected if omitted)")
+    g.add_argument("--z", metavar="COL", help=_Z_HELP)
     g.add_argument("--hole", metavar="COL",
                    help="hole or string identifier (enables down-hole spacing)")
     g = p.add_argument_group("assay codes and duplicates")

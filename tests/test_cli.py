@@ -284,3 +284,23 @@ def test_unreachable_scheduler_exits_2_before_the_run(good_csv, tmp_path, capsys
     assert code == EXIT_BAD_INPUT
     assert "Cannot reach the Dask scheduler" in err and addr in err and "Traceback" not in err
     assert not (tmp_path / "o" / "discovery.json").exists()
+
+
+def test_explore_reads_a_table_without_elevation_as_two_dimensional(tmp_path, capsys, rng):
+    # issue 17: x, y and grade only; the reference is the same table with a constant
+    # elevation column, read by the 3D path (the old advice)
+    df = pd.DataFrame({"Easting": 1000 + rng.uniform(0, 80, 60),
+                       "Northing": 2000 + rng.uniform(0, 80, 60),
+                       "au": rng.lognormal(0, 0.7, 60)})
+    p2, p3 = tmp_path / "plan.csv", tmp_path / "plan_z.csv"
+    df.to_csv(p2, index=False)
+    df.assign(Elevation=0.0).to_csv(p3, index=False)
+    code, out, err = run(["explore", p2, "--value", "au", "--out", tmp_path / "a"], capsys)
+    assert code == EXIT_OK, err
+    assert "z: none, the table is read as two-dimensional" in out
+    code, _, err = run(["explore", p3, "--value", "au", "--out", tmp_path / "b"], capsys)
+    assert code == EXIT_OK, err
+    a = json.loads((tmp_path / "a" / "explore.json").read_text())
+    b = json.loads((tmp_path / "b" / "explore.json").read_text())
+    assert a["samples"]["planar"] and a["samples"]["columns"]["z"] is None
+    assert a["spacing"] == b["spacing"] and a["mean"] == b["mean"]

@@ -628,3 +628,46 @@ def test_a_repeated_name_in_parquet_is_refused(tmp_path):
     pq.write_table(table, p)
     with pytest.raises(InputError, match="columns 4 and 5"):
         read_table(p)
+
+
+# ---------------------------------------------------------------------------
+# two-dimensional tables (issue 17)
+# ---------------------------------------------------------------------------
+
+def _plan_table(n=30, seed=3):
+    rng = np.random.default_rng(seed)
+    return pd.DataFrame({"Easting": 500.0 + rng.uniform(0, 100, n),
+                         "Northing": 7000.0 + rng.uniform(0, 100, n),
+                         "Cu_pct": rng.lognormal(0, 0.5, n)})
+
+
+def test_a_table_without_elevation_is_read_on_one_plane(tmp_path):
+    df = _plan_table()
+    p = write(tmp_path, df.to_csv(index=False))
+    s = read_samples(p, value="Cu_pct")
+    # reference: the old advice, the same table with a constant elevation column added,
+    # read by the unchanged 3D path
+    with_z = df.assign(RL=0.0)
+    q = read_samples(write(tmp_path, with_z.to_csv(index=False), "z.csv"), value="Cu_pct")
+    np.testing.assert_array_equal(s.coords, q.coords)
+    np.testing.assert_array_equal(s.values, q.values)
+    assert s.planar and q.planar
+    assert s.columns["z"] is None and s.to_dict()["columns"]["z"] is None
+    assert any("two-dimensional" in w and "--z" in w for w in s.warnings)
+    assert s.n == len(df) and not s.dropped
+
+
+def test_z_none_reads_a_table_as_two_dimensional_on_request():
+    df = _plan_table().assign(Elev=np.linspace(100, 130, 30))
+    s = samples_from_frame(df, value="Cu_pct", z="none")
+    assert s.columns["z"] is None and s.planar
+    np.testing.assert_array_equal(s.coords[:, 2], np.zeros(len(df)))
+    assert any("as asked" in w for w in s.warnings)
+
+
+def test_a_near_miss_elevation_is_still_refused_not_read_as_2d():
+    # 'Elevaton' is one letter off 'elevation' (difflib ratio >= 0.6): a typo, not a 2D table
+    df = _plan_table().assign(Elevaton=1.0)
+    with pytest.raises(ColumnError, match="closest match is 'Elevaton'") as e:
+        samples_from_frame(df, value="Cu_pct")
+    assert "--z none" in str(e.value)
