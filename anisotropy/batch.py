@@ -20,7 +20,8 @@ The config file (TOML) has this layout (all keys optional)::
 
     [domain."oxide"]       # overrides for one domain (name quoted as in the table)
     transform = "log"
-    topcut = 25.0          # grade cap applied before the transform
+    topcut = 25.0          # top-cut grade applied before the transform, or "auto"
+    topcut_mode = "cap"    # "cap" grades above it (default) or "exclude" those samples
     lag = 10.0
     n_lags = 12
     estimator = "correlogram"
@@ -64,13 +65,14 @@ SUMMARY_COLUMNS = (
     "minor_trend", "minor_plunge",
     "range_major", "range_semi_major", "range_minor",
     "nugget", "total_sill", "n_structures", "transform", "estimator", "topcut", "n_capped",
+    "topcut_mode", "n_excluded",
     "cone_major", "cone_semi_major", "cone_minor", "replicates",
     "verdict", "warnings", "seconds",
 )
 
 _AXES = ("major", "semi_major", "minor")
 # config keys that are ours, not discover's
-_OWN_KEYS = {"skip", "interpretation", "topcut", "min_samples"}
+_OWN_KEYS = {"skip", "interpretation", "topcut", "topcut_mode", "min_samples"}
 
 
 # ---------------------------------------------------------------------------
@@ -279,21 +281,17 @@ def _discover_domain(task: Mapping, df, row: dict, dom_dir: Path) -> dict:
     if not isinstance(df, pd.DataFrame):
         df = pd.DataFrame(df)
     source = task.get("source", "<table>")
-    notes = []
-    if task.get("topcut") is not None:
-        mask = (_domain_codes(df[task["domain_column"]]) == task["domain"]).to_numpy()
-        df, n_capped = _apply_topcut(df, mask, task["value"], task["topcut"], source)
-        row["topcut"], row["n_capped"] = task["topcut"], n_capped
-        notes.append(f"top-cut {task['topcut']:g} from the batch config: {n_capped} grade(s) "
-                     "above it were set to it before discovery")
     opts = dict(task["options"])
     cols = task["columns"]
     opts.setdefault("source", source)
+    # a top-cut (options top_cut / top_cut_mode) is applied and counted by discover
     disc = discover(df, value=task["value"], domain=task["domain_column"],
                     domain_value=task["domain"], **cols, **opts)
-    if notes:
-        disc.warnings.extend(notes)
     d = disc.to_dict()
+    cut = (d.get("transform") or {}).get("top_cut")
+    if cut:
+        row.update(topcut=cut["threshold"], n_capped=cut["n_capped"],
+                   topcut_mode=cut["mode"], n_excluded=cut["n_excluded"])
     if getattr(disc, "exploration", None) is not None:
         S.atomic_write_json(dom_dir / "explore.json", disc.exploration.to_dict())
     S.atomic_write_json(dom_dir / "discovery.json", d)
@@ -308,7 +306,7 @@ def _discover_domain(task: Mapping, df, row: dict, dom_dir: Path) -> dict:
     if task.get("report", True):
         from anisotropy.report.html import render_report
 
-        render_report(disc, dom_dir, check=check, topcut=task.get("topcut"))
+        render_report(disc, dom_dir, check=check)
     row["status"] = "ok"
     return _row_from_result(row, d, check_dict)
 
@@ -485,8 +483,7 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
                    **{k: v for k, v in over.items() if k not in _OWN_KEYS}}
         for k in ("skip", "interpretation", "min_samples"):
             over.setdefault(k, cfg["options"].get(k))
-        topcut = over.get("topcut", cfg["options"].get("topcut"))
-        options.pop("topcut", None)
+        topcut = _top_cut_options(options, over, cfg["options"], name)
         options.pop("skip", None)
         options.pop("interpretation", None)
         options.pop("min_samples", None)
@@ -500,7 +497,7 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
             "options": options, "interpretation": over.get("interpretation"),
             "skip": bool(over.get("skip") or False), "n_rows": n_rows,
             "min_samples": int(over.get("min_samples") or min_samples), "report": bool(report),
-            "source": source, "topcut": None if topcut is None else float(topcut),
+            "source": source, "topcut": topcut,
             # resume must notice when the domain's data changed, not only the options
             "data_hash": _data_hash(df, in_domain),
         }
@@ -582,20 +579,27 @@ def _domain_codes(series):
     return domain_codes(series)
 
 
-def _apply_topcut(df, mask, value, topcut, source):
-    """Cap the grade column of one domain's rows (``mask``) at ``topcut``; returns (frame, n_capped)."""
-    import pandas as pd
+def _top_cut_options(options, over, cfg_options, name):
+    """Move the config's ``topcut``/``topcut_mode`` into discover's ``top_cut``/``top_cut_mode``.
 
-    from anisotropy.samples import find_column
+    The domain's table wins over ``[options]``, which wins over the call's
+    (command-line) options. Returns the top-cut setting (grade, "auto" or
+    None) for the resume fingerprint; refuses a bad one before any domain runs.
+    """
+    from anisotropy.transform import parse_top_cut
 
-    col = find_column(df, value, role="grade", option="--value", source=source)
-    grades = pd.to_numeric(df[col], errors="coerce")
-    over = (grades > topcut).to_numpy() & mask
-    n = int(over.sum())
-    if n:
-        df = df.copy()
-        df.loc[over, col] = topcut
-    return df, n
+    for cfg_key, key in (("topcut", "top_cut"), ("topcut_mode", "top_cut_mode")):
+        v = over.get(cfg_key, cfg_options.get(cfg_key))
+        options.pop(cfg_key, None)
+        if v is not None:
+            options[key] = v
+    try:
+        topcut, mode = parse_top_cut(options.get("top_cut"), options.get("top_cut_mode", "cap"))
+    except InputError as exc:
+        raise InputError(f"domain {name!r}: {exc}") from None
+    if topcut is not None:
+        options["top_cut"] = topcut
+    return topcut
 
 
 def _execute(tasks: Sequence[Mapping], frame, *, jobs, scheduler, progress):

@@ -83,6 +83,40 @@ def _add_bootstrap_options(p: argparse.ArgumentParser, *, default: int = DEFAULT
     return g
 
 
+_KIND_HELP = ("structure kind, one of: spherical (reaches its sill at the range), exponential "
+              "and gaussian (ranges are practical ranges, 95%% of the sill), cubic (reaches "
+              "its sill at the range); repeat once per structure, e.g. --kind spherical "
+              "--kind exponential (default: the better fit of spherical and exponential)")
+
+
+def _top_cut_arg(text):
+    """``--top-cut`` value: a positive grade or 'auto' (argparse type)."""
+    from anisotropy.transform import parse_top_cut
+
+    try:
+        return parse_top_cut(text)[0]
+    except InputError as exc:
+        raise argparse.ArgumentTypeError(str(exc)) from None
+
+
+def _add_top_cut_options(p: argparse.ArgumentParser, *, per_domain: bool = False):
+    """``--top-cut GRADE|auto`` and ``--top-cut-mode cap|exclude``; returns the group."""
+    g = p.add_argument_group("top-cut")
+    over = (" The config's topcut and topcut_mode keys override these per domain."
+            if per_domain else "")
+    g.add_argument("--top-cut", type=_top_cut_arg, default=None, metavar="GRADE|auto",
+                   help="top-cut the grades before the transform: a grade in the grade's "
+                        "units, or 'auto' to take the exploration's suggestion (the "
+                        "log-probability break, else the 99%% quantile, never one removing "
+                        "more than 10%% of the metal when another does not), with the reason "
+                        "printed. The samples affected are counted in the record and the "
+                        "report. Default: none." + over)
+    g.add_argument("--top-cut-mode", choices=["cap", "exclude"], default=None,
+                   help="cap: grades above the top-cut are set to it (default); exclude: "
+                        "those samples are left out (the older practice)" + over)
+    return g
+
+
 def _add_output_option(p: argparse.ArgumentParser, default: str) -> None:
     p.add_argument("--out", metavar="DIR", default=default,
                    help=f"folder for the results (default: {default})")
@@ -305,6 +339,7 @@ def _add_discover(p: argparse.ArgumentParser) -> None:
                         "the coverage study in benchmarks/RESULTS.md); model: simulate fields "
                         "with the fitted model at the data locations (slower: a pass over the "
                         "pairs per replicate; a check on the block bands)")
+    _add_top_cut_options(p)
     _add_output_option(p, "discovery")
     p.add_argument("--no-report", action="store_true",
                    help="write the JSON result only, without report.html and its figures")
@@ -329,7 +364,8 @@ def _cmd_discover(args) -> int:
                       bootstrap=args.bootstrap, confidence=args.confidence, seed=args.seed,
                       n_jobs=args.jobs, scheduler=args.scheduler, threshold=args.threshold,
                       shared_ratios=args.shared_ratios, progress=True,
-                      bootstrap_method=args.bootstrap_method)
+                      bootstrap_method=args.bootstrap_method, top_cut=args.top_cut,
+                      top_cut_mode=args.top_cut_mode or "cap")
     print(result.summary())
     path = result.to_json(out / "discovery.json")
     if not args.no_report:
@@ -404,7 +440,8 @@ def _cmd_check(args) -> int:
                       bootstrap=args.bootstrap, confidence=args.confidence, seed=args.seed,
                       n_jobs=args.jobs, scheduler=scheduler, threshold=args.threshold,
                       shared_ratios=args.shared_ratios, progress=True,
-                      bootstrap_method=args.bootstrap_method)
+                      bootstrap_method=args.bootstrap_method, top_cut=args.top_cut,
+                      top_cut_mode=args.top_cut_mode or "cap")
     checked = check_interpretation(result, interpretation,
                                    thresholds={"confidence": args.confidence},
                                    n_jobs=args.jobs, scheduler=scheduler, progress=True)
@@ -455,6 +492,7 @@ def _add_batch_chain_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--seed", type=int, default=0, help="random seed (default: 0)")
     g.add_argument("--min-samples", type=int, default=None, metavar="N",
                    help="domains with fewer samples are recorded as skipped (default: 30)")
+    _add_top_cut_options(p, per_domain=True)
     g = p.add_argument_group("running")
     g.add_argument("--domains", metavar="A,B", default=None,
                    help="only these domains (comma-separated, as written in the table)")
@@ -484,6 +522,10 @@ def _batch_options(args) -> dict:
         opts["kinds"] = list(args.kind)
     if getattr(args, "shared_ratios", False):
         opts["shared_ratios"] = True
+    if getattr(args, "top_cut", None) is not None:
+        opts["top_cut"] = args.top_cut
+    if getattr(args, "top_cut_mode", None) is not None:
+        opts["top_cut_mode"] = args.top_cut_mode
     for name in ("missing_codes", "below_detection", "duplicates"):
         if hasattr(args, name):
             opts[name] = getattr(args, name)

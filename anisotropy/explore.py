@@ -45,6 +45,7 @@ __all__ = [
     "nominal_spacing",
     "Spacing",
     "topcut_candidates",
+    "suggested_topcut",
     "detect_logprob_break",
     "trend_check",
     "TrendCheck",
@@ -662,6 +663,52 @@ def topcut_candidates(values, *, quantiles=TOPCUT_QUANTILES) -> list[dict]:
     return sorted(out, key=lambda d: d["value"])
 
 
+def suggested_topcut(candidates) -> dict | None:
+    """The one top-cut candidate taken by ``--top-cut auto``, with the reason.
+
+    Parameters
+    ----------
+    candidates : list of dict
+        As returned by :func:`topcut_candidates`.
+
+    Returns
+    -------
+    dict or None
+        The chosen candidate (a copy) with ``reason`` saying why it was
+        chosen; None when there is no candidate.
+
+    Notes
+    -----
+    The rule: among the candidates that are not aggressive (remove at most
+    ``AGGRESSIVE_METAL_PCT`` % of the metal), the log-probability break when
+    one was found (it is read off this domain's own distribution), else the
+    99 % quantile (common practice), else the highest such candidate; when
+    every candidate is aggressive, the highest (the one removing least).
+    """
+    cands = [dict(c) for c in candidates or []]
+    if not cands:
+        return None
+    mild = [c for c in cands if not c.get("aggressive")]
+    by = {c["method"]: c for c in mild}
+    if "logprob_break" in by:
+        c, why = by["logprob_break"], "the break in the log-probability plot"
+    elif f"quantile_{_qkey(0.99)}" in by:
+        c, why = by[f"quantile_{_qkey(0.99)}"], ("no usable break in the log-probability plot; "
+                                                 "the 99 % quantile (common practice)")
+    elif mild:
+        c, why = max(mild, key=lambda d: d["value"]), ("the highest candidate removing at most "
+                                                       f"{AGGRESSIVE_METAL_PCT:g} % of the metal")
+    else:
+        c, why = max(cands, key=lambda d: d["value"]), (
+            f"every candidate removes more than {AGGRESSIVE_METAL_PCT:g} % of the metal; the "
+            "highest, which removes least")
+    c["reason"] = (f"{why}: {c['reason']}; caps {c['n_capped']} "
+                   f"{'sample' if c['n_capped'] == 1 else 'samples'} and removes "
+                   + ("an unknown share" if c.get("metal_removed_pct") is None
+                      else f"{c['metal_removed_pct']:.1f} %") + " of the metal")
+    return c
+
+
 # ---------------------------------------------------------------------------
 # trend
 # ---------------------------------------------------------------------------
@@ -831,6 +878,7 @@ class Exploration:
             "declustered": self.declustering.to_dict(),
             "spacing": self.spacing.to_dict(),
             "topcut": {"candidates": [dict(d) for d in self.topcut],
+                       "suggested": suggested_topcut(self.topcut),
                        "strongly_skewed": bool(self.strongly_skewed),
                        "strong_skew_cv": STRONG_SKEW_CV,
                        "note": "candidates only: the top-cut is the geologist's decision"},
@@ -891,11 +939,14 @@ class Exploration:
                      f"(tolerance {m(s.lag_tolerance.get(k))}): {s.reasons.get(k, '')}")
         L.append("")
         L.append("Top-cut candidates (the choice is yours):")
+        pick = suggested_topcut(self.topcut)
         for c in self.topcut:
             L.append(f"  {c['value']:.4g}  {c['method']:<16} caps {c['n_capped']} "
                      f"{'sample' if c['n_capped'] == 1 else 'samples'}, removes "
                      f"{g(c['metal_removed_pct'], '.1f')} % of the metal"
-                     + ("  [aggressive]" if c.get("aggressive") else ""))
+                     + ("  [aggressive]" if c.get("aggressive") else "")
+                     + ("  [taken by --top-cut auto]" if pick and c["method"] == pick["method"]
+                        else ""))
         if self.strongly_skewed:
             L.append(f"  CV {self.cv:.2f} > {STRONG_SKEW_CV:g}: strongly skewed; prefer normal "
                      "scores or a robust estimator (common practice).")

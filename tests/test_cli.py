@@ -304,3 +304,36 @@ def test_explore_reads_a_table_without_elevation_as_two_dimensional(tmp_path, ca
     b = json.loads((tmp_path / "b" / "explore.json").read_text())
     assert a["samples"]["planar"] and a["samples"]["columns"]["z"] is None
     assert a["spacing"] == b["spacing"] and a["mean"] == b["mean"]
+
+
+def test_discover_top_cut_auto_by_exclusion_is_counted_and_printed(tmp_path, capsys):
+    # issue 17: --top-cut auto --top-cut-mode exclude; references: numpy's 99 % quantile
+    # (the rule of thumb taken when the log-probability plot shows no break, common
+    # practice) and a brute-force count of the grades above it in the table written here
+    from anisotropy.explore import detect_logprob_break
+
+    rng = np.random.default_rng(5)
+    n = 500
+    c = rng.uniform([0, 0, 0], [150, 150, 60], (n, 3))
+    g = np.round(np.abs(rng.normal(4.0, 1.0, n) + 0.02 * c[:, 0]), 4)
+    assert detect_logprob_break(g) is None
+    p = tmp_path / "t.csv"
+    pd.DataFrame({"x": c[:, 0], "y": c[:, 1], "z": c[:, 2], "cu": g}).to_csv(p, index=False)
+    code, out, err = run(["discover", p, "--value", "cu", "--top-cut", "auto",
+                          "--top-cut-mode", "exclude", "--bootstrap", "0", "--structures", "1",
+                          "--no-report", "--out", tmp_path / "o"], capsys)
+    assert code == EXIT_OK, err
+    thr = np.quantile(g, 0.99)
+    n_over = int((g > thr).sum())
+    d = json.loads((tmp_path / "o" / "discovery.json").read_text())
+    tc = d["transform"]["top_cut"]
+    assert tc["threshold"] == pytest.approx(thr, rel=1e-12) and tc["mode"] == "exclude"
+    assert tc["n_excluded"] == n_over > 0 and d["input"]["n_used"] == n - n_over
+    assert [v for k, v in d["input"]["dropped"].items() if k.startswith("top-cut")] == [n_over]
+    assert "top-cut" in out and "99 % quantile" in out   # the reason is printed
+
+
+def test_top_cut_option_refuses_a_word(tmp_path, capsys):
+    with pytest.raises(SystemExit):
+        main(["discover", "f.csv", "--value", "au", "--top-cut", "high"])
+    assert "neither a grade nor 'auto'" in capsys.readouterr().err

@@ -448,7 +448,8 @@ def _topcut(disc):
     rec = _transform_record(disc)
     for k in ("cap", "topcut", "top_cut"):
         if rec.get(k) is not None:
-            return float(rec[k])
+            v = rec[k]   # top_cut is the record of anisotropy.transform.TopCut
+            return float(v["threshold"] if isinstance(v, dict) else v)
     return None
 
 
