@@ -29,7 +29,9 @@ The config file (TOML) has this layout (all keys optional)::
 
     [domain."oxide".interpretation]
     plane = "150/70"       # dip direction / dip of the plane of greatest continuity
-    pitch = 35             # optional pitch of the major axis in that plane
+                           # (or "strike:060/70", strike / dip by the right-hand rule)
+    pitch = 35             # optional pitch of the major axis in that plane, 0-180 from
+                           # the strike (or "40E": 0-90 from the strike line's east end)
     # or: major = "045/20" (trend/plunge) and optionally minor = "..."
 """
 
@@ -136,20 +138,18 @@ def load_config(config: str | os.PathLike | Mapping | None) -> dict:
 
 def _interpretation(spec: Mapping, domain: str):
     """An Interpretation from a config table."""
-    from anisotropy.check import Interpretation, parse_orientation
+    from anisotropy.check import Interpretation, parse_orientation, parse_pitch, parse_plane
 
     where = f"[domain.\"{domain}\".interpretation]"
     try:
         if "plane" in spec:
-            dd, dip = parse_orientation(str(spec["plane"]))
-            pitch = spec.get("pitch")
-            if pitch is not None:
-                try:
-                    pitch = float(pitch)
-                except (TypeError, ValueError):
-                    raise InputError(f"{where}: pitch must be a number of degrees (0-180); "
-                                     f"got {pitch!r}") from None
-            return Interpretation.from_plane(dd, dip, pitch)
+            dd, dip = parse_plane(str(spec["plane"]))   # "150/70" or "strike:060/70"
+            pitch = spec.get("pitch")   # 0-180 from the strike, or "40E" (check.PITCH_FORMS)
+            if pitch is not None and not isinstance(pitch, (int, float, str)) \
+                    or isinstance(pitch, bool):
+                raise InputError(f"{where}: pitch must be a number of degrees (0-180) or "
+                                 f"text such as \"40E\"; got {pitch!r}")
+            return Interpretation.from_plane(dd, dip, parse_pitch(pitch, dd, dip))
         if "major" in spec:
             major = parse_orientation(str(spec["major"]))
             minor = spec.get("minor")

@@ -318,9 +318,7 @@ def _add_discover(p: argparse.ArgumentParser) -> None:
                    help="number of nested structures (default auto: chosen by a penalised "
                         "criterion)")
     g.add_argument("--kind", action="append", metavar="KIND",
-                   choices=["spherical", "exponential", "gaussian", "cubic"],
-                   help="structure kind (repeat per structure; default the better of "
-                        "spherical and exponential)")
+                   choices=["spherical", "exponential", "gaussian", "cubic"], help=_KIND_HELP)
     g.add_argument("--shared-ratios", action="store_true",
                    help="nested structures share one anisotropy shape, each with its own "
                         "scale (default: each structure has its own three ranges)")
@@ -388,11 +386,13 @@ def _add_check(p: argparse.ArgumentParser) -> None:
         have["out"].default = "check"
         have["out"].help = "folder for discovery.json and check.json (default: check)"
     g = p.add_argument_group("interpretation (structural notation, degrees)")
-    g.add_argument("--plane", metavar="DIPDIR/DIP",
-                   help="plane of greatest continuity, e.g. 150/70")
-    g.add_argument("--pitch", type=float, metavar="DEG",
-                   help="pitch of the major axis in the plane, from the strike (right-hand "
-                        "rule) towards the dip direction, 0-180")
+    from anisotropy.check import PITCH_FORMS, PLANE_FORMS
+
+    g.add_argument("--plane", metavar="DIPDIR/DIP|strike:STRIKE/DIP",
+                   help="plane of greatest continuity, as " + PLANE_FORMS.replace("%", "%%"))
+    g.add_argument("--pitch", metavar="DEG|DEG<side>",
+                   help="pitch of the major axis in the plane, as "
+                        + PITCH_FORMS.replace("%", "%%"))
     g.add_argument("--major", metavar="TREND/PLUNGE",
                    help="major axis, e.g. 060/20 (with --plane: must lie in the plane)")
     g.add_argument("--minor", metavar="TREND/PLUNGE",
@@ -400,17 +400,18 @@ def _add_check(p: argparse.ArgumentParser) -> None:
 
 
 def _interpretation_from_args(args):
-    from anisotropy.check import Interpretation, parse_orientation
+    from anisotropy.check import Interpretation, parse_pitch, parse_plane
 
     if args.plane is None and args.major is None:
-        raise InputError("give the interpretation: --plane DIPDIR/DIP [--pitch DEG] or "
-                         "--major TREND/PLUNGE [--minor TREND/PLUNGE]")
+        raise InputError("give the interpretation: --plane DIPDIR/DIP (or strike:STRIKE/DIP) "
+                         "[--pitch DEG] or --major TREND/PLUNGE [--minor TREND/PLUNGE]")
     if args.plane is not None:
         if args.minor is not None:
             raise InputError("--minor goes with --major, not with --plane (the plane's pole "
                              "is the minor axis)")
-        dd, dip = parse_orientation(args.plane)
-        return Interpretation.from_plane(dd, dip, pitch=args.pitch, major=args.major)
+        dd, dip = parse_plane(args.plane)
+        return Interpretation.from_plane(dd, dip, pitch=parse_pitch(args.pitch, dd, dip),
+                                         major=args.major)
     if args.pitch is not None:
         raise InputError("--pitch needs --plane (a pitch is measured inside a plane)")
     return Interpretation.from_axes(args.major, args.minor)
@@ -480,9 +481,7 @@ def _add_batch_chain_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--structures", default=None, choices=["auto", "1", "2", "3"],
                    help="number of nested structures (default: auto, a penalised criterion)")
     g.add_argument("--kind", action="append", default=None, metavar="KIND",
-                   choices=["spherical", "exponential", "gaussian", "cubic"],
-                   help="structure kind (repeat per structure; default the better of "
-                        "spherical and exponential)")
+                   choices=["spherical", "exponential", "gaussian", "cubic"], help=_KIND_HELP)
     g.add_argument("--shared-ratios", action="store_true",
                    help="nested structures share one anisotropy shape, each with its own scale")
     g.add_argument("--bootstrap", type=int, default=None, metavar="N",
