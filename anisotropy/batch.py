@@ -22,6 +22,7 @@ The config file (TOML) has this layout (all keys optional)::
     transform = "log"
     topcut = 25.0          # top-cut grade applied before the transform, or "auto"
     topcut_mode = "cap"    # "cap" grades above it (default) or "exclude" those samples
+    units = "g/t"          # grade units for the record and the figure labels
     lag = 10.0
     n_lags = 12
     estimator = "correlogram"
@@ -74,7 +75,7 @@ SUMMARY_COLUMNS = (
 
 _AXES = ("major", "semi_major", "minor")
 # config keys that are ours, not discover's
-_OWN_KEYS = {"skip", "interpretation", "topcut", "topcut_mode", "min_samples"}
+_OWN_KEYS = {"skip", "interpretation", "topcut", "topcut_mode", "min_samples", "units"}
 
 
 # ---------------------------------------------------------------------------
@@ -287,6 +288,8 @@ def _discover_domain(task: Mapping, df, row: dict, dom_dir: Path) -> dict:
     # a top-cut (options top_cut / top_cut_mode) is applied and counted by discover
     disc = discover(df, value=task["value"], domain=task["domain_column"],
                     domain_value=task["domain"], **cols, **opts)
+    if task.get("units"):
+        disc.diagnostics["grade_units"] = str(task["units"])
     d = disc.to_dict()
     cut = (d.get("transform") or {}).get("top_cut")
     if cut:
@@ -484,6 +487,8 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
         for k in ("skip", "interpretation", "min_samples"):
             over.setdefault(k, cfg["options"].get(k))
         topcut = _top_cut_options(options, over, cfg["options"], name)
+        units = over.get("units", cfg["options"].get("units", options.get("units")))
+        options.pop("units", None)   # grade units label the record, not discover's input
         options.pop("skip", None)
         options.pop("interpretation", None)
         options.pop("min_samples", None)
@@ -497,7 +502,7 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
             "options": options, "interpretation": over.get("interpretation"),
             "skip": bool(over.get("skip") or False), "n_rows": n_rows,
             "min_samples": int(over.get("min_samples") or min_samples), "report": bool(report),
-            "source": source, "topcut": topcut,
+            "source": source, "topcut": topcut, "units": units,
             # resume must notice when the domain's data changed, not only the options
             "data_hash": _data_hash(df, in_domain),
         }

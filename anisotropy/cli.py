@@ -72,7 +72,8 @@ def _add_bootstrap_options(p: argparse.ArgumentParser, *, default: int = DEFAULT
     g.add_argument("--bootstrap", type=int, default=default, metavar="N",
                    help=f"block-bootstrap replicates for the confidence cones and intervals "
                         f"(default {default}: enough for stable 90 %% bands, common practice; "
-                        "0 = off)")
+                        "0 = off; the same default in discover, check and batch, the demo "
+                        "takes fewer from its config)")
     g.add_argument("--confidence", type=float, default=0.9, metavar="P",
                    help="confidence of the cones and intervals (default 0.9)")
     g.add_argument("--jobs", type=int, default=1, metavar="N",
@@ -115,6 +116,18 @@ def _add_top_cut_options(p: argparse.ArgumentParser, *, per_domain: bool = False
                    help="cap: grades above the top-cut are set to it (default); exclude: "
                         "those samples are left out (the older practice)" + over)
     return g
+
+
+def _add_units_option(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--units", metavar="TEXT", default=None,
+                   help="grade units, e.g. g/t or %%: written to the record "
+                        "(diagnostics.grade_units) and used in the report's figure labels")
+
+
+def _record_units(result, units) -> None:
+    """Put ``--units`` in the discovery record (diagnostics.grade_units)."""
+    if units:
+        result.diagnostics["grade_units"] = str(units)
 
 
 def _add_output_option(p: argparse.ArgumentParser, default: str) -> None:
@@ -338,6 +351,7 @@ def _add_discover(p: argparse.ArgumentParser) -> None:
                         "with the fitted model at the data locations (slower: a pass over the "
                         "pairs per replicate; a check on the block bands)")
     _add_top_cut_options(p)
+    _add_units_option(p)
     _add_output_option(p, "discovery")
     p.add_argument("--no-report", action="store_true",
                    help="write the JSON result only, without report.html and its figures")
@@ -364,6 +378,7 @@ def _cmd_discover(args) -> int:
                       shared_ratios=args.shared_ratios, progress=True,
                       bootstrap_method=args.bootstrap_method, top_cut=args.top_cut,
                       top_cut_mode=args.top_cut_mode or "cap")
+    _record_units(result, args.units)
     print(result.summary())
     path = result.to_json(out / "discovery.json")
     if not args.no_report:
@@ -446,6 +461,7 @@ def _cmd_check(args) -> int:
     checked = check_interpretation(result, interpretation,
                                    thresholds={"confidence": args.confidence},
                                    n_jobs=args.jobs, scheduler=scheduler, progress=True)
+    _record_units(result, args.units)
     print(result.summary())
     print()
     print(checked.summary())
@@ -485,7 +501,13 @@ def _add_batch_chain_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--shared-ratios", action="store_true",
                    help="nested structures share one anisotropy shape, each with its own scale")
     g.add_argument("--bootstrap", type=int, default=None, metavar="N",
-                   help="bootstrap replicates per domain (default: 100; 0 for none)")
+                   help=f"block-bootstrap replicates per domain (default {DEFAULT_BOOTSTRAP}, "
+                        "as for discover and check: enough for stable 90%% bands, common "
+                        "practice; 0 for none)")
+    g.add_argument("--bootstrap-method", choices=["block", "model"], default=None,
+                   help="block: resample spatial blocks of the data (default, as for "
+                        "discover); model: simulate fields with the fitted model at the data "
+                        "locations (slower; a check on the block bands)")
     g.add_argument("--confidence", type=float, default=None, metavar="P",
                    help="confidence level of the bands (default: 0.9)")
     g.add_argument("--seed", type=int, default=0, help="random seed (default: 0)")
@@ -505,12 +527,14 @@ def _add_batch_chain_options(p: argparse.ArgumentParser) -> None:
                    help="skip domains already complete in --out with the same options")
     g.add_argument("--no-report", action="store_true",
                    help="write results only, no HTML report per domain")
+    _add_units_option(p)
 
 
 def _batch_options(args) -> dict:
-    opts = {"seed": args.seed, "bootstrap": 100 if args.bootstrap is None else args.bootstrap}
+    opts = {"seed": args.seed,
+            "bootstrap": DEFAULT_BOOTSTRAP if args.bootstrap is None else args.bootstrap}
     for name in ("transform", "estimator", "lag", "n_lags", "angular_tolerance", "confidence",
-                 "bandwidth", "threshold"):
+                 "bandwidth", "threshold", "bootstrap_method"):
         v = getattr(args, name, None)
         if v is not None:
             opts[name] = v
@@ -567,19 +591,33 @@ def _cmd_batch(args) -> int:
         args.file, value=args.value, domain=args.domain, out=args.out, domains=domains,
         jobs=args.jobs, scheduler=args.scheduler, config=args.config, resume=args.resume,
         min_samples=args.min_samples or MIN_SAMPLES, report=not args.no_report, progress=True,
-        x=args.x, y=args.y, z=args.z, hole=args.hole, **_batch_options(args))
+        x=args.x, y=args.y, z=args.z, hole=args.hole, units=args.units,
+        **_batch_options(args))
     print(res.summary())
     return EXIT_OK if any(r["status"] == "ok" for r in res.rows) else EXIT_INTERNAL
 # <<< batch
 
 # >>> demo
+def _demo_bootstrap():
+    """The bundled demo config's replicates (for the help text)."""
+    try:
+        from anisotropy.batch import demo_paths, load_config
+
+        return load_config(demo_paths()["config"])["options"].get("bootstrap", "none")
+    except Exception:  # noqa: BLE001 - the help must not fail on a damaged installation
+        return "from the config"
+
+
 def _add_demo(p: argparse.ArgumentParser) -> None:
     p.add_argument("--out", metavar="DIR", default="fenwright_demo",
                    help="folder for the results (default: fenwright_demo)")
     p.add_argument("--jobs", type=int, default=2, metavar="N",
                    help="domains run at once on local processes (default: 2)")
     p.add_argument("--bootstrap", type=int, default=None, metavar="N",
-                   help="bootstrap replicates per domain (default: from the bundled config)")
+                   help=f"block-bootstrap replicates per domain (default: {_demo_bootstrap()}, "
+                        f"from the bundled config: fewer than the {DEFAULT_BOOTSTRAP} of discover, check and "
+                        "batch so that the demo finishes in minutes; its bands are a little "
+                        f"rougher; give --bootstrap {DEFAULT_BOOTSTRAP} for the same bands)")
     p.add_argument("--resume", action="store_true",
                    help="skip domains already complete in --out")
 

@@ -321,7 +321,7 @@ def test_discover_top_cut_auto_by_exclusion_is_counted_and_printed(tmp_path, cap
     pd.DataFrame({"x": c[:, 0], "y": c[:, 1], "z": c[:, 2], "cu": g}).to_csv(p, index=False)
     code, out, err = run(["discover", p, "--value", "cu", "--top-cut", "auto",
                           "--top-cut-mode", "exclude", "--bootstrap", "0", "--structures", "1",
-                          "--no-report", "--out", tmp_path / "o"], capsys)
+                          "--units", "%", "--no-report", "--out", tmp_path / "o"], capsys)
     assert code == EXIT_OK, err
     thr = np.quantile(g, 0.99)
     n_over = int((g > thr).sum())
@@ -331,9 +331,54 @@ def test_discover_top_cut_auto_by_exclusion_is_counted_and_printed(tmp_path, cap
     assert tc["n_excluded"] == n_over > 0 and d["input"]["n_used"] == n - n_over
     assert [v for k, v in d["input"]["dropped"].items() if k.startswith("top-cut")] == [n_over]
     assert "top-cut" in out and "99 % quantile" in out   # the reason is printed
+    assert d["diagnostics"]["grade_units"] == "%"
 
 
 def test_top_cut_option_refuses_a_word(tmp_path, capsys):
     with pytest.raises(SystemExit):
         main(["discover", "f.csv", "--value", "au", "--top-cut", "high"])
     assert "neither a grade nor 'auto'" in capsys.readouterr().err
+
+
+def test_bootstrap_defaults_agree_and_the_demo_says_why_it_differs(monkeypatch):
+    # issue 17: one default for discover, check and batch; the demo's, read from its
+    # bundled TOML with the standard library's tomllib, is explained in its help
+    import tomllib
+
+    from anisotropy import cli
+    from anisotropy.batch import demo_paths
+
+    parser = cli.build_parser()
+    d = parser.parse_args(["discover", "f.csv", "--value", "au"])
+    c = parser.parse_args(["check", "f.csv", "--value", "au", "--plane", "150/70"])
+    b = parser.parse_args(["batch", "f.csv", "--value", "au", "--domain", "zone"])
+    assert d.bootstrap == c.bootstrap == cli._batch_options(b)["bootstrap"] == cli.DEFAULT_BOOTSTRAP
+    with open(demo_paths()["config"], "rb") as fh:
+        demo_n = tomllib.load(fh)["options"]["bootstrap"]
+    sub = parser._subparsers._group_actions[0].choices
+    demo_help = next(a.help for a in sub["demo"]._actions if a.dest == "bootstrap")
+    assert f"default: {demo_n}" in demo_help and str(cli.DEFAULT_BOOTSTRAP) in demo_help
+
+
+def test_batch_takes_units_and_the_bootstrap_method(monkeypatch, tmp_path):
+    from anisotropy import batch as B
+    from anisotropy import cli
+
+    seen = {}
+
+    class Res:
+        rows = [{"status": "ok"}]
+
+        def summary(self):
+            return ""
+
+    def fake_run_batch(*a, **kw):
+        seen.update(kw)
+        return Res()
+
+    monkeypatch.setattr(B, "run_batch", fake_run_batch)
+    code = cli.main(["batch", "t.csv", "--value", "au", "--domain", "zone", "--units", "g/t",
+                     "--bootstrap-method", "model", "--out", str(tmp_path / "o")])
+    assert code == cli.EXIT_OK
+    assert seen["units"] == "g/t" and seen["bootstrap_method"] == "model"
+    assert seen["bootstrap"] == cli.DEFAULT_BOOTSTRAP

@@ -163,7 +163,8 @@ def _fig_logprob(disc, path, topcut):
 
 def _labels(disc) -> dict:
     cols = getattr(disc.samples, "columns", {}) or {}
-    return {"value_name": str(cols.get("value") or "grade")}
+    units = str((getattr(disc, "diagnostics", None) or {}).get("grade_units") or "")  # --units
+    return {"value_name": str(cols.get("value") or "grade"), "units": units}
 
 
 def _map_plane_basis(normal):
