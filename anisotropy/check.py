@@ -217,7 +217,9 @@ def parse_pitch(value, dip_direction, dip):
     t = value.strip().upper().replace(" ", "")
     m = re.fullmatch(r"(\d+(?:\.\d*)?|\.\d+)([NSEW]{1,2})?", t)
     if not m or (m.group(2) and m.group(2) not in PITCH_SIDES):
-        raise InterpretationError(f"cannot read the pitch {value!r}: write it as {PITCH_FORMS}")
+        raise InterpretationError(f"the pitch must be a number of degrees, or degrees with a "
+                                  f"compass side; cannot read {value!r}: write it as "
+                                  f"{PITCH_FORMS}")
     p = float(m.group(1))
     if m.group(2) is None:
         return p
