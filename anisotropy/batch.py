@@ -20,7 +20,9 @@ The config file (TOML) has this layout (all keys optional)::
 
     [domain."oxide"]       # overrides for one domain (name quoted as in the table)
     transform = "log"
-    topcut = 25.0          # grade cap applied before the transform
+    topcut = 25.0          # top-cut grade applied before the transform, or "auto"
+    topcut_mode = "cap"    # "cap" grades above it (default) or "exclude" those samples
+    units = "g/t"          # grade units for the record and the figure labels
     lag = 10.0
     n_lags = 12
     estimator = "correlogram"
@@ -28,7 +30,9 @@ The config file (TOML) has this layout (all keys optional)::
 
     [domain."oxide".interpretation]
     plane = "150/70"       # dip direction / dip of the plane of greatest continuity
-    pitch = 35             # optional pitch of the major axis in that plane
+                           # (or "strike:060/70", strike / dip by the right-hand rule)
+    pitch = 35             # optional pitch of the major axis in that plane, 0-180 from
+                           # the strike (or "40E": 0-90 from the strike line's east end)
     # or: major = "045/20" (trend/plunge) and optionally minor = "..."
 """
 
@@ -50,7 +54,8 @@ from threadpoolctl import threadpool_limits
 
 from anisotropy import _safety as S
 from anisotropy import parallel
-from anisotropy.check import Interpretation, check_interpretation, parse_orientation
+from anisotropy.check import (Interpretation, check_interpretation, parse_orientation, parse_pitch,
+                             parse_plane)
 from anisotropy.constants import AXES as _AXES
 from anisotropy.constants import MIN_SAMPLES
 from anisotropy.discover import discover
@@ -59,6 +64,7 @@ from anisotropy.progress import note
 from anisotropy.report.html import render_report
 from anisotropy.report.index import render_index
 from anisotropy.samples import domain_codes, domain_values, find_column, read_table
+from anisotropy.transform import parse_top_cut
 
 try:
     import tomllib
@@ -78,12 +84,13 @@ SUMMARY_COLUMNS = (
     "minor_trend", "minor_plunge",
     "range_major", "range_semi_major", "range_minor",
     "nugget", "total_sill", "n_structures", "transform", "estimator", "topcut", "n_capped",
+    "topcut_mode", "n_excluded",
     "cone_major", "cone_semi_major", "cone_minor", "replicates",
     "verdict", "warnings", "seconds",
 )
 
 # config keys that are ours, not discover's
-_OWN_KEYS = {"skip", "interpretation", "topcut", "min_samples"}
+_OWN_KEYS = {"skip", "interpretation", "topcut", "topcut_mode", "min_samples", "units"}
 
 
 # ---------------------------------------------------------------------------
@@ -146,15 +153,13 @@ def _interpretation(spec: Mapping, domain: str):
     where = f"[domain.\"{domain}\".interpretation]"
     try:
         if "plane" in spec:
-            dd, dip = parse_orientation(str(spec["plane"]))
-            pitch = spec.get("pitch")
-            if pitch is not None:
-                try:
-                    pitch = float(pitch)
-                except (TypeError, ValueError):
-                    raise InputError(f"{where}: pitch must be a number of degrees (0-180); "
-                                     f"got {pitch!r}") from None
-            return Interpretation.from_plane(dd, dip, pitch)
+            dd, dip = parse_plane(str(spec["plane"]))   # "150/70" or "strike:060/70"
+            pitch = spec.get("pitch")   # 0-180 from the strike, or "40E" (check.PITCH_FORMS)
+            if pitch is not None and not isinstance(pitch, (int, float, str)) \
+                    or isinstance(pitch, bool):
+                raise InputError(f"{where}: pitch must be a number of degrees (0-180) or "
+                                 f"text such as \"40E\"; got {pitch!r}")
+            return Interpretation.from_plane(dd, dip, parse_pitch(pitch, dd, dip))
         if "major" in spec:
             major = parse_orientation(str(spec["major"]))
             minor = spec.get("minor")
@@ -278,21 +283,19 @@ def _discover_domain(task: Mapping, df, row: dict, dom_dir: Path) -> dict:
     if not isinstance(df, pd.DataFrame):
         df = pd.DataFrame(df)
     source = task.get("source", "<table>")
-    notes = []
-    if task.get("topcut") is not None:
-        mask = (_domain_codes(df[task["domain_column"]]) == task["domain"]).to_numpy()
-        df, n_capped = _apply_topcut(df, mask, task["value"], task["topcut"], source)
-        row["topcut"], row["n_capped"] = task["topcut"], n_capped
-        notes.append(f"top-cut {task['topcut']:g} from the batch config: {n_capped} grade(s) "
-                     "above it were set to it before discovery")
     opts = dict(task["options"])
     cols = task["columns"]
     opts.setdefault("source", source)
+    # a top-cut (options top_cut / top_cut_mode) is applied and counted by discover
     disc = discover(df, value=task["value"], domain=task["domain_column"],
                     domain_value=task["domain"], **cols, **opts)
-    if notes:
-        disc.warnings.extend(notes)
+    if task.get("units"):
+        disc.diagnostics["grade_units"] = str(task["units"])
     d = disc.to_dict()
+    cut = (d.get("transform") or {}).get("top_cut")
+    if cut:
+        row.update(topcut=cut["threshold"], n_capped=cut["n_capped"],
+                   topcut_mode=cut["mode"], n_excluded=cut["n_excluded"])
     if getattr(disc, "exploration", None) is not None:
         S.atomic_write_json(dom_dir / "explore.json", disc.exploration.to_dict())
     S.atomic_write_json(dom_dir / "discovery.json", d)
@@ -303,7 +306,7 @@ def _discover_domain(task: Mapping, df, row: dict, dom_dir: Path) -> dict:
         check_dict = check.to_dict()
         S.atomic_write_json(dom_dir / "check.json", check_dict)
     if task.get("report", True):
-        render_report(disc, dom_dir, check=check, topcut=task.get("topcut"))
+        render_report(disc, dom_dir, check=check)
     row["status"] = "ok"
     return _row_from_result(row, d, check_dict)
 
@@ -474,8 +477,9 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
                    **{k: v for k, v in over.items() if k not in _OWN_KEYS}}
         for k in ("skip", "interpretation", "min_samples"):
             over.setdefault(k, cfg["options"].get(k))
-        topcut = over.get("topcut", cfg["options"].get("topcut"))
-        options.pop("topcut", None)
+        topcut = _top_cut_options(options, over, cfg["options"], name)
+        units = over.get("units", cfg["options"].get("units", options.get("units")))
+        options.pop("units", None)   # grade units label the record, not discover's input
         options.pop("skip", None)
         options.pop("interpretation", None)
         options.pop("min_samples", None)
@@ -489,7 +493,7 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
             "options": options, "interpretation": over.get("interpretation"),
             "skip": bool(over.get("skip") or False), "n_rows": n_rows,
             "min_samples": int(over.get("min_samples") or min_samples), "report": bool(report),
-            "source": source, "topcut": None if topcut is None else float(topcut),
+            "source": source, "topcut": topcut, "units": units,
             # resume must notice when the domain's data changed, not only the options
             "data_hash": _data_hash(df, in_domain),
         }
@@ -559,16 +563,25 @@ def _domain_codes(series):
     return domain_codes(series)
 
 
-def _apply_topcut(df, mask, value, topcut, source):
-    """Cap the grade column of one domain's rows (``mask``) at ``topcut``; returns (frame, n_capped)."""
-    col = find_column(df, value, role="grade", option="--value", source=source)
-    grades = pd.to_numeric(df[col], errors="coerce")
-    over = (grades > topcut).to_numpy() & mask
-    n = int(over.sum())
-    if n:
-        df = df.copy()
-        df.loc[over, col] = topcut
-    return df, n
+def _top_cut_options(options, over, cfg_options, name):
+    """Move the config's ``topcut``/``topcut_mode`` into discover's ``top_cut``/``top_cut_mode``.
+
+    The domain's table wins over ``[options]``, which wins over the call's
+    (command-line) options. Returns the top-cut setting (grade, "auto" or
+    None) for the resume fingerprint; refuses a bad one before any domain runs.
+    """
+    for cfg_key, key in (("topcut", "top_cut"), ("topcut_mode", "top_cut_mode")):
+        v = over.get(cfg_key, cfg_options.get(cfg_key))
+        options.pop(cfg_key, None)
+        if v is not None:
+            options[key] = v
+    try:
+        topcut, mode = parse_top_cut(options.get("top_cut"), options.get("top_cut_mode", "cap"))
+    except InputError as exc:
+        raise InputError(f"domain {name!r}: {exc}") from None
+    if topcut is not None:
+        options["top_cut"] = topcut
+    return topcut
 
 
 def _execute(tasks: Sequence[Mapping], frame, *, jobs, scheduler, progress):

@@ -68,6 +68,8 @@ __all__ = [
     "PLANE_TOLERANCE_DEG",
     "PERPENDICULAR_TOLERANCE_DEG",
     "parse_orientation",
+    "parse_plane",
+    "parse_pitch",
     "Interpretation",
     "CheckResult",
     "check_interpretation",
@@ -117,6 +119,127 @@ def parse_orientation(text: str):
             "slash, dip direction/dip for a plane (e.g. 150/70) or trend/plunge for a line "
             "(e.g. 060/20)")
     return float(m.group(1)), float(m.group(2))
+
+
+#: Prefix marking a plane written as strike/dip (right-hand rule): ``strike:060/70``.
+STRIKE_PREFIX = "strike:"
+#: Prefix marking a plane written as dip direction/dip (the default form): ``dipdir:150/70``.
+DIPDIR_PREFIX = "dipdir:"
+#: Compass points accepted after a 0-90 pitch (``40E``), as azimuths in degrees.
+PITCH_SIDES = {"N": 0.0, "NE": 45.0, "E": 90.0, "SE": 135.0, "S": 180.0, "SW": 225.0,
+               "W": 270.0, "NW": 315.0}
+#: A pitch side must lie within this angle of one end of the strike line.
+PITCH_SIDE_TOLERANCE_DEG = 67.5
+
+PLANE_FORMS = ("DIPDIR/DIP (e.g. 150/70: dips 70 towards 150; 'dipdir:150/70' says so "
+               "explicitly) or strike:STRIKE/DIP with the right-hand rule (e.g. strike:060/70: "
+               "the plane dips to the right of the strike direction, so its dip direction is "
+               "the strike + 90, here 150)")
+PITCH_FORMS = ("DEG, 0-180, measured in the plane from the strike direction (right-hand rule) "
+               "down towards the dip direction (90 = straight down-dip); or DEG plus a compass "
+               "side, 0-90, measured from the end of the strike line that points to that side "
+               "(e.g. 40E, 35SW; the side must name one end of the strike line clearly)")
+
+
+def parse_plane(text):
+    """Parse a plane written as dip direction/dip or, marked, as strike/dip.
+
+    Parameters
+    ----------
+    text : str
+        ``"150/70"`` or ``"dipdir:150/70"``: dip direction/dip;
+        ``"strike:060/70"``: strike/dip by the right-hand rule (the plane
+        dips to the right when looking along the strike, so the dip
+        direction is the strike + 90).
+
+    Returns
+    -------
+    (float, float)
+        Dip direction in [0, 360) and dip.
+
+    Raises
+    ------
+    InterpretationError
+        Text in another form; a dip-quadrant letter (``060/70SE``) is
+        refused with the two forms that are read.
+    """
+    t = str(text).strip()
+    low = t.lower().replace(" ", "")
+    if low.startswith(STRIKE_PREFIX):
+        strike, dip = _plane_numbers(t[t.lower().index(":") + 1:], t)
+        _check_angle(strike, "strike", 0.0, 360.0, "the plane")
+        return (strike + 90.0) % 360.0, dip
+    if low.startswith(DIPDIR_PREFIX):
+        t = t[t.lower().index(":") + 1:]
+    return _plane_numbers(t, text)
+
+
+def _plane_numbers(t, text):
+    try:
+        return parse_orientation(t)
+    except InterpretationError:
+        raise InterpretationError(
+            f"cannot read the plane {text!r}: write it as {PLANE_FORMS}. Other notations "
+            "(a dip quadrant such as 060/70SE, or a strike without the strike: mark) are not "
+            "read, because the same two numbers mean different planes in them") from None
+
+
+def parse_pitch(value, dip_direction, dip):
+    """Parse a pitch: 0-180 from the strike, or 0-90 from a named end of the strike line.
+
+    Parameters
+    ----------
+    value : float or str
+        A number, 0-180, measured in the plane from the strike direction
+        (right-hand rule, azimuth dip direction - 90) down towards the dip
+        direction; or text ``"40E"``: 0-90 measured from the end of the
+        strike line that points to that compass side (one of
+        :data:`PITCH_SIDES`), down-dip.
+    dip_direction, dip : float
+        The plane, degrees.
+
+    Returns
+    -------
+    float
+        The pitch from the strike direction, [0, 180].
+
+    Raises
+    ------
+    InterpretationError
+        An unreadable form, a side-marked pitch over 90, or a side that names
+        neither end of the strike line (more than
+        :data:`PITCH_SIDE_TOLERANCE_DEG` from both, e.g. N on an east-west
+        strike).
+    """
+    if value is None:
+        return None
+    if not isinstance(value, str):
+        return float(value)
+    t = value.strip().upper().replace(" ", "")
+    m = re.fullmatch(r"(\d+(?:\.\d*)?|\.\d+)([NSEW]{1,2})?", t)
+    if not m or (m.group(2) and m.group(2) not in PITCH_SIDES):
+        raise InterpretationError(f"the pitch must be a number of degrees, or degrees with a "
+                                  f"compass side; cannot read {value!r}: write it as "
+                                  f"{PITCH_FORMS}")
+    p = float(m.group(1))
+    if m.group(2) is None:
+        return p
+    side = m.group(2)
+    if p > 90.0:
+        raise InterpretationError(
+            f"the pitch {value!r} is over 90 degrees: a pitch with a side (40E) is measured "
+            "from the nearer end of the strike line and lies between 0 and 90; give the "
+            "other side with 180 - pitch, or a plain 0-180 pitch from the strike")
+    strike = (float(dip_direction) - 90.0) % 360.0
+    off = abs((PITCH_SIDES[side] - strike + 180.0) % 360.0 - 180.0)   # 0..180
+    if min(off, 180.0 - off) > PITCH_SIDE_TOLERANCE_DEG:
+        ends = f"{strike:03.0f} and {(strike + 180.0) % 360.0:03.0f}"
+        raise InterpretationError(
+            f"the pitch side {side} of {value!r} names neither end of the strike line "
+            f"(azimuths {ends}) clearly: it is {min(off, 180 - off):.0f} degrees from the "
+            f"nearer end (at most {PITCH_SIDE_TOLERANCE_DEG:g} accepted). Name the side an end "
+            "points to, or give the pitch as 0-180 from the strike direction")
+    return p if off <= 90.0 else 180.0 - p
 
 
 def _check_angle(value, name, lo, hi, what):

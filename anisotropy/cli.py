@@ -30,6 +30,11 @@ EXIT_BAD_INPUT = 2
 # shared option groups
 # ---------------------------------------------------------------------------
 
+_Z_HELP = ("elevation column (detected if omitted; a table with no elevation column and "
+           "none named like one is read as two-dimensional, on one plane at z = 0, with a "
+           "warning; 'none' asks for that)")
+
+
 def _add_input_options(p: argparse.ArgumentParser, *, value_required: bool = True) -> None:
     """The sample-table options every data command takes."""
     p.add_argument("file", help="sample table: CSV (any common separator) or Parquet")
@@ -38,7 +43,7 @@ def _add_input_options(p: argparse.ArgumentParser, *, value_required: bool = Tru
                    help="grade column to study")
     g.add_argument("--x", metavar="COL", help="easting column (detected if omitted)")
     g.add_argument("--y", metavar="COL", help="northing column (detected if omitted)")
-    g.add_argument("--z", metavar="COL", help="elevation column (detected if omitted)")
+    g.add_argument("--z", metavar="COL", help=_Z_HELP)
     g.add_argument("--domain", metavar="COL", help="domain column")
     g.add_argument("--domain-value", metavar="VALUE",
                    help="study only the samples of this domain")
@@ -67,7 +72,8 @@ def _add_bootstrap_options(p: argparse.ArgumentParser, *, default: int = DEFAULT
     g.add_argument("--bootstrap", type=int, default=default, metavar="N",
                    help=f"block-bootstrap replicates for the confidence cones and intervals "
                         f"(default {default}: enough for stable 90 %% bands, common practice; "
-                        "0 = off)")
+                        "0 = off; the same default in discover, check and batch, the demo "
+                        "takes fewer from its config)")
     g.add_argument("--confidence", type=float, default=0.9, metavar="P",
                    help="confidence of the cones and intervals (default 0.9)")
     g.add_argument("--jobs", type=int, default=1, metavar="N",
@@ -76,6 +82,52 @@ def _add_bootstrap_options(p: argparse.ArgumentParser, *, default: int = DEFAULT
                    help="run the bootstrap replicates on the Dask cluster at this address "
                         "(e.g. tcp://scheduler-host:8786)")
     return g
+
+
+_KIND_HELP = ("structure kind, one of: spherical (reaches its sill at the range), exponential "
+              "and gaussian (ranges are practical ranges, 95%% of the sill), cubic (reaches "
+              "its sill at the range); repeat once per structure, e.g. --kind spherical "
+              "--kind exponential (default: the better fit of spherical and exponential)")
+
+
+def _top_cut_arg(text):
+    """``--top-cut`` value: a positive grade or 'auto' (argparse type)."""
+    from anisotropy.transform import parse_top_cut
+
+    try:
+        return parse_top_cut(text)[0]
+    except InputError as exc:
+        raise argparse.ArgumentTypeError(str(exc)) from None
+
+
+def _add_top_cut_options(p: argparse.ArgumentParser, *, per_domain: bool = False):
+    """``--top-cut GRADE|auto`` and ``--top-cut-mode cap|exclude``; returns the group."""
+    g = p.add_argument_group("top-cut")
+    over = (" The config's topcut and topcut_mode keys override these per domain."
+            if per_domain else "")
+    g.add_argument("--top-cut", type=_top_cut_arg, default=None, metavar="GRADE|auto",
+                   help="top-cut the grades before the transform: a grade in the grade's "
+                        "units, or 'auto' to take the exploration's suggestion (the "
+                        "log-probability break, else the 99%% quantile, never one removing "
+                        "more than 10%% of the metal when another does not), with the reason "
+                        "printed. The samples affected are counted in the record and the "
+                        "report. Default: none." + over)
+    g.add_argument("--top-cut-mode", choices=["cap", "exclude"], default=None,
+                   help="cap: grades above the top-cut are set to it (default); exclude: "
+                        "those samples are left out (the older practice)" + over)
+    return g
+
+
+def _add_units_option(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--units", metavar="TEXT", default=None,
+                   help="grade units, e.g. g/t or %%: written to the record "
+                        "(diagnostics.grade_units) and used in the report's figure labels")
+
+
+def _record_units(result, units) -> None:
+    """Put ``--units`` in the discovery record (diagnostics.grade_units)."""
+    if units:
+        result.diagnostics["grade_units"] = str(units)
 
 
 def _add_output_option(p: argparse.ArgumentParser, default: str) -> None:
@@ -161,6 +213,9 @@ def _intake_lines(samples, args) -> list:
     lines = ["Reading the table", "-----------------"]
     given = {"x": args.x, "y": args.y, "z": args.z}
     for role in ("x", "y", "z"):
+        if samples.columns.get(role) is None:
+            lines.append(f"  {role}: none, the table is read as two-dimensional (z = 0)")
+            continue
         how = f"given with --{role}" if given[role] is not None else "detected from its name"
         lines.append(f"  {role}: column {samples.columns[role]!r} ({how})")
     lines.append(f"  grade: column {samples.columns['value']!r}")
@@ -270,9 +325,7 @@ def _add_discover(p: argparse.ArgumentParser) -> None:
                    help="number of nested structures (default auto: chosen by a penalised "
                         "criterion)")
     g.add_argument("--kind", action="append", metavar="KIND",
-                   choices=["spherical", "exponential", "gaussian", "cubic"],
-                   help="structure kind (repeat per structure; default the better of "
-                        "spherical and exponential)")
+                   choices=["spherical", "exponential", "gaussian", "cubic"], help=_KIND_HELP)
     g.add_argument("--shared-ratios", action="store_true",
                    help="nested structures share one anisotropy shape, each with its own "
                         "scale (default: each structure has its own three ranges)")
@@ -291,6 +344,8 @@ def _add_discover(p: argparse.ArgumentParser) -> None:
                         "the coverage study in benchmarks/RESULTS.md); model: simulate fields "
                         "with the fitted model at the data locations (slower: a pass over the "
                         "pairs per replicate; a check on the block bands)")
+    _add_top_cut_options(p)
+    _add_units_option(p)
     _add_output_option(p, "discovery")
     p.add_argument("--no-report", action="store_true",
                    help="write the JSON result only, without report.html and its figures")
@@ -315,7 +370,9 @@ def _cmd_discover(args) -> int:
                       bootstrap=args.bootstrap, confidence=args.confidence, seed=args.seed,
                       n_jobs=args.jobs, scheduler=args.scheduler, threshold=args.threshold,
                       shared_ratios=args.shared_ratios, progress=True,
-                      bootstrap_method=args.bootstrap_method)
+                      bootstrap_method=args.bootstrap_method, top_cut=args.top_cut,
+                      top_cut_mode=args.top_cut_mode or "cap")
+    _record_units(result, args.units)
     print(result.summary())
     path = result.to_json(out / "discovery.json")
     if not args.no_report:
@@ -338,11 +395,13 @@ def _add_check(p: argparse.ArgumentParser) -> None:
         have["out"].default = "check"
         have["out"].help = "folder for discovery.json and check.json (default: check)"
     g = p.add_argument_group("interpretation (structural notation, degrees)")
-    g.add_argument("--plane", metavar="DIPDIR/DIP",
-                   help="plane of greatest continuity, e.g. 150/70")
-    g.add_argument("--pitch", type=float, metavar="DEG",
-                   help="pitch of the major axis in the plane, from the strike (right-hand "
-                        "rule) towards the dip direction, 0-180")
+    from anisotropy.check import PITCH_FORMS, PLANE_FORMS
+
+    g.add_argument("--plane", metavar="DIPDIR/DIP|strike:STRIKE/DIP",
+                   help="plane of greatest continuity, as " + PLANE_FORMS.replace("%", "%%"))
+    g.add_argument("--pitch", metavar="DEG|DEG<side>",
+                   help="pitch of the major axis in the plane, as "
+                        + PITCH_FORMS.replace("%", "%%"))
     g.add_argument("--major", metavar="TREND/PLUNGE",
                    help="major axis, e.g. 060/20 (with --plane: must lie in the plane)")
     g.add_argument("--minor", metavar="TREND/PLUNGE",
@@ -350,17 +409,18 @@ def _add_check(p: argparse.ArgumentParser) -> None:
 
 
 def _interpretation_from_args(args):
-    from anisotropy.check import Interpretation, parse_orientation
+    from anisotropy.check import Interpretation, parse_pitch, parse_plane
 
     if args.plane is None and args.major is None:
-        raise InputError("give the interpretation: --plane DIPDIR/DIP [--pitch DEG] or "
-                         "--major TREND/PLUNGE [--minor TREND/PLUNGE]")
+        raise InputError("give the interpretation: --plane DIPDIR/DIP (or strike:STRIKE/DIP) "
+                         "[--pitch DEG] or --major TREND/PLUNGE [--minor TREND/PLUNGE]")
     if args.plane is not None:
         if args.minor is not None:
             raise InputError("--minor goes with --major, not with --plane (the plane's pole "
                              "is the minor axis)")
-        dd, dip = parse_orientation(args.plane)
-        return Interpretation.from_plane(dd, dip, pitch=args.pitch, major=args.major)
+        dd, dip = parse_plane(args.plane)
+        return Interpretation.from_plane(dd, dip, pitch=parse_pitch(args.pitch, dd, dip),
+                                         major=args.major)
     if args.pitch is not None:
         raise InputError("--pitch needs --plane (a pitch is measured inside a plane)")
     return Interpretation.from_axes(args.major, args.minor)
@@ -390,10 +450,12 @@ def _cmd_check(args) -> int:
                       bootstrap=args.bootstrap, confidence=args.confidence, seed=args.seed,
                       n_jobs=args.jobs, scheduler=scheduler, threshold=args.threshold,
                       shared_ratios=args.shared_ratios, progress=True,
-                      bootstrap_method=args.bootstrap_method)
+                      bootstrap_method=args.bootstrap_method, top_cut=args.top_cut,
+                      top_cut_mode=args.top_cut_mode or "cap")
     checked = check_interpretation(result, interpretation,
                                    thresholds={"confidence": args.confidence},
                                    n_jobs=args.jobs, scheduler=scheduler, progress=True)
+    _record_units(result, args.units)
     print(result.summary())
     print()
     print(checked.summary())
@@ -429,18 +491,23 @@ def _add_batch_chain_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--structures", default=None, choices=["auto", "1", "2", "3"],
                    help="number of nested structures (default: auto, a penalised criterion)")
     g.add_argument("--kind", action="append", default=None, metavar="KIND",
-                   choices=["spherical", "exponential", "gaussian", "cubic"],
-                   help="structure kind (repeat per structure; default the better of "
-                        "spherical and exponential)")
+                   choices=["spherical", "exponential", "gaussian", "cubic"], help=_KIND_HELP)
     g.add_argument("--shared-ratios", action="store_true",
                    help="nested structures share one anisotropy shape, each with its own scale")
     g.add_argument("--bootstrap", type=int, default=None, metavar="N",
-                   help="bootstrap replicates per domain (default: 100; 0 for none)")
+                   help=f"block-bootstrap replicates per domain (default {DEFAULT_BOOTSTRAP}, "
+                        "as for discover and check: enough for stable 90%% bands, common "
+                        "practice; 0 for none)")
+    g.add_argument("--bootstrap-method", choices=["block", "model"], default=None,
+                   help="block: resample spatial blocks of the data (default, as for "
+                        "discover); model: simulate fields with the fitted model at the data "
+                        "locations (slower; a check on the block bands)")
     g.add_argument("--confidence", type=float, default=None, metavar="P",
                    help="confidence level of the bands (default: 0.9)")
     g.add_argument("--seed", type=int, default=0, help="random seed (default: 0)")
     g.add_argument("--min-samples", type=int, default=None, metavar="N",
                    help="domains with fewer samples are recorded as skipped (default: 30)")
+    _add_top_cut_options(p, per_domain=True)
     g = p.add_argument_group("running")
     g.add_argument("--domains", metavar="A,B", default=None,
                    help="only these domains (comma-separated, as written in the table)")
@@ -454,12 +521,14 @@ def _add_batch_chain_options(p: argparse.ArgumentParser) -> None:
                    help="skip domains already complete in --out with the same options")
     g.add_argument("--no-report", action="store_true",
                    help="write results only, no HTML report per domain")
+    _add_units_option(p)
 
 
 def _batch_options(args) -> dict:
-    opts = {"seed": args.seed, "bootstrap": 100 if args.bootstrap is None else args.bootstrap}
+    opts = {"seed": args.seed,
+            "bootstrap": DEFAULT_BOOTSTRAP if args.bootstrap is None else args.bootstrap}
     for name in ("transform", "estimator", "lag", "n_lags", "angular_tolerance", "confidence",
-                 "bandwidth", "threshold"):
+                 "bandwidth", "threshold", "bootstrap_method"):
         v = getattr(args, name, None)
         if v is not None:
             opts[name] = v
@@ -470,6 +539,10 @@ def _batch_options(args) -> dict:
         opts["kinds"] = list(args.kind)
     if getattr(args, "shared_ratios", False):
         opts["shared_ratios"] = True
+    if getattr(args, "top_cut", None) is not None:
+        opts["top_cut"] = args.top_cut
+    if getattr(args, "top_cut_mode", None) is not None:
+        opts["top_cut_mode"] = args.top_cut_mode
     for name in ("missing_codes", "below_detection", "duplicates"):
         if hasattr(args, name):
             opts[name] = getattr(args, name)
@@ -483,7 +556,7 @@ def _add_batch(p: argparse.ArgumentParser) -> None:
     g.add_argument("--domain", required=True, metavar="COL", help="domain column")
     g.add_argument("--x", metavar="COL", help="easting column (detected if omitted)")
     g.add_argument("--y", metavar="COL", help="northing column (detected if omitted)")
-    g.add_argument("--z", metavar="COL", help="elevation column (detected if omitted)")
+    g.add_argument("--z", metavar="COL", help=_Z_HELP)
     g.add_argument("--hole", metavar="COL",
                    help="hole or string identifier (enables down-hole spacing)")
     g = p.add_argument_group("assay codes and duplicates")
@@ -512,19 +585,33 @@ def _cmd_batch(args) -> int:
         args.file, value=args.value, domain=args.domain, out=args.out, domains=domains,
         jobs=args.jobs, scheduler=args.scheduler, config=args.config, resume=args.resume,
         min_samples=args.min_samples or MIN_SAMPLES, report=not args.no_report, progress=True,
-        x=args.x, y=args.y, z=args.z, hole=args.hole, **_batch_options(args))
+        x=args.x, y=args.y, z=args.z, hole=args.hole, units=args.units,
+        **_batch_options(args))
     print(res.summary())
     return EXIT_OK if any(r["status"] == "ok" for r in res.rows) else EXIT_INTERNAL
 # <<< batch
 
 # >>> demo
+def _demo_bootstrap():
+    """The bundled demo config's replicates (for the help text)."""
+    try:
+        from anisotropy.batch import demo_paths, load_config
+
+        return load_config(demo_paths()["config"])["options"].get("bootstrap", "none")
+    except Exception:  # noqa: BLE001 - the help must not fail on a damaged installation
+        return "from the config"
+
+
 def _add_demo(p: argparse.ArgumentParser) -> None:
     p.add_argument("--out", metavar="DIR", default="fenwright_demo",
                    help="folder for the results (default: fenwright_demo)")
     p.add_argument("--jobs", type=int, default=2, metavar="N",
                    help="domains run at once on local processes (default: 2)")
     p.add_argument("--bootstrap", type=int, default=None, metavar="N",
-                   help="bootstrap replicates per domain (default: from the bundled config)")
+                   help=f"block-bootstrap replicates per domain (default: {_demo_bootstrap()}, "
+                        f"from the bundled config: fewer than the {DEFAULT_BOOTSTRAP} of discover, check and "
+                        "batch so that the demo finishes in minutes; its bands are a little "
+                        f"rougher; give --bootstrap {DEFAULT_BOOTSTRAP} for the same bands)")
     p.add_argument("--resume", action="store_true",
                    help="skip domains already complete in --out")
 

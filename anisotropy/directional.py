@@ -10,7 +10,8 @@ Two routes:
   :func:`map_volume` read a :class:`anisotropy.pairs.LagVolume` and never
   touch the pairs again. They
   are cell-resolution approximations: a fan direction gathers the fine cells
-  whose lattice axis is within the tolerance (so the pair set differs from
+  whose lattice axis is within the tolerance, head and tail turned round in
+  the cells whose pairs point against the direction (so the pair set differs from
   the exact one only for pairs whose angle to the direction is within one
   cell radius of the tolerance), its bandwidth is applied at class centres,
   and a map pixel holds the pairs whose lag rounds to that map cell.
@@ -32,8 +33,8 @@ from . import geometry
 from .constants import CHANNEL_INDEX, CHANNELS
 from .errors import InputError
 from .estimators import check_estimator, estimate, mean_distance
-from .pairs import (LagVolume, check_angular_tolerance, check_bandwidth, direction_vector,
-                    exact_sums)
+from .pairs import (LagVolume, against_cells, check_angular_tolerance, check_bandwidth,
+                    direction_vector, exact_sums, turn_round)
 
 __all__ = [
     "experimental_variogram",
@@ -65,7 +66,9 @@ def experimental_variogram(coords, values, *, lag, n_lags, direction=None, angul
     as ``|v|^2 - (v . u)^2 <= b^2``). Each unordered pair counts once.
     Coincident samples (zero lag) have no direction: they count only in the
     omnidirectional variogram, and only in a class whose interval holds 0.
-    Head and tail: head = tail + lag vector in the canonical orientation of
+    Head and tail: along a direction, the head is the sample further along it
+    (so a cone crossing the horizontal does not mix the two ways round);
+    omnidirectional, head = tail + lag vector in the canonical orientation of
     :func:`anisotropy.geometry.to_lower_hemisphere`.
 
     Parameters
@@ -218,15 +221,18 @@ def variogram_fan(volume: LagVolume, directions, *, angular_tolerance, bandwidth
     c = np.minimum(np.abs(U @ volume.directions.T), 1.0)  # (n_dir, n_fine)
     sel = c >= math.cos(math.radians(ang)) if ang < 90.0 else np.ones_like(c, dtype=bool)
     S = volume.sums[1:]
+    against = against_cells(S, volume.directions, U)   # their pairs point the other way
     if band is None:
         sums = np.einsum("df,kfc->dkc", sel.astype(np.float64), S, optimize=True)
+        turn_round(sums, sel & against, S, "df,kf->dk")   # head = further along (issue 17)
     else:
         sin = np.sqrt(np.maximum(0.0, 1.0 - c * c))
         centres = volume.class_centres[1:]
         sums = np.empty((len(U), volume.n_lags, _NCH))
         for k in range(volume.n_lags):
-            m = (sel & (centres[k] * sin <= band)).astype(np.float64)
-            sums[:, k] = m @ S[k]
+            m = sel & (centres[k] * sin <= band)
+            sums[:, k] = m.astype(np.float64) @ S[k]
+            turn_round(sums[:, k], m & against, S[k], "df,f->d")
     trend, plunge = geometry.vector_to_line(U)
     return Fan(
         directions=U, trend=np.atleast_1d(np.asarray(trend, dtype=float)),

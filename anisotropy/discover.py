@@ -908,7 +908,7 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
              confidence=0.9, seed=0, n_jobs=1, scheduler=None, progress=False,
              kinds=None, sill="variance", threshold=None, fan_spacing=DEFAULT_FAN_SPACING,
              coarse_spacing=None, min_pairs=None, pair_budget=None, shared_ratios=False,
-             bootstrap_method="block", **intake) -> Discovery:
+             bootstrap_method="block", top_cut=None, top_cut_mode="cap", **intake) -> Discovery:
     """Discover the 3D continuity of one grade in one domain.
 
     Parameters
@@ -976,6 +976,13 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
     pair_budget : float, optional
         With automatic lags, the maximum distance is shortened until the
         estimated pair count is within this (default ``PAIR_BUDGET``, 1.5e8).
+    top_cut : float or "auto", optional
+        Top-cut grade applied to the samples before anything else, or
+        "auto" for the exploration's suggestion (see
+        :func:`anisotropy.transform.apply_top_cut`); counted in
+        ``input.changed``/``dropped`` and in ``transform.top_cut``.
+    top_cut_mode : {"cap", "exclude"}
+        Cap grades above the top-cut (default), or leave those samples out.
     **intake
         Passed to the sample reader (missing_codes, below_detection, duplicates).
 
@@ -1006,6 +1013,8 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
         raise InputError("the model-based bootstrap simulates Gaussian fields, which indicators "
                          "are not; use the block bootstrap for indicator variograms")
     samples = _intake(data, value, x, y, z, domain, domain_value, hole, intake)
+    from anisotropy.transform import apply_top_cut
+    samples, cut = apply_top_cut(samples, top_cut, top_cut_mode, choices=choices)
     warnings.extend(getattr(samples, "warnings", []) or [])
     if samples.n < MIN_SAMPLES:
         raise InsufficientDataError(
@@ -1045,6 +1054,8 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
     if relative and transform == "auto":
         choices[-1]["reason"] = ("the pairwise relative estimator needs positive raw grades "
                                  "(normal scores and logs change sign), so no transform")
+    if cut is not None:
+        tr.record["top_cut"] = cut.to_dict()
     tv = np.asarray(tr.values, float)
     if np.nanstd(tv) == 0:
         raise InsufficientDataError("the transformed values are all equal (e.g. an indicator "

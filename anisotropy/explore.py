@@ -30,7 +30,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 from scipy import stats
-from scipy.spatial import cKDTree
+from scipy.spatial import ConvexHull, QhullError, cKDTree
 
 from anisotropy.errors import DataError, InputError, InsufficientDataError
 
@@ -45,6 +45,8 @@ __all__ = [
     "nominal_spacing",
     "Spacing",
     "topcut_candidates",
+    "footprint_spacing",
+    "suggested_topcut",
     "detect_logprob_break",
     "trend_check",
     "TrendCheck",
@@ -285,8 +287,8 @@ class Spacing:
     ----------
     across_hole : float or None
         Median distance from each hole (centroid of its samples) to the
-        nearest other hole centroid, in 3D; for blast holes, the median
-        in-bench nearest-neighbour distance in plan.
+        nearest other hole centroid, in 3D; for blast holes (and one level),
+        the pattern spacing from the area per sample (``pattern``).
     across_hole_plan : float or None
         The same hole-centroid distance measured in plan (x, y only).
     down_hole : float or None
@@ -307,6 +309,14 @@ class Spacing:
     n_holes, n_levels : int or None
     levels : list of float
         Detected bench elevations (local coordinates).
+    pattern : float or None
+        Bench or level layouts: the pattern spacing read from the area per
+        sample of each level's footprint (see :func:`footprint_spacing`),
+        the median over the levels; ``across_hole`` takes this value.
+    plan_nearest : float or None
+        Bench or level layouts: the median in-level nearest-neighbour
+        distance in plan, reported beside ``pattern`` (it understates a
+        jittered pattern's spacing).
     """
 
     across_hole: float | None
@@ -321,10 +331,14 @@ class Spacing:
     n_levels: int | None = None
     levels: list = field(default_factory=list)
     across_hole_plan: float | None = None
+    pattern: float | None = None
+    plan_nearest: float | None = None
 
     def to_dict(self) -> dict:
         """JSON-ready dictionary."""
         return {
+            "pattern": _f(self.pattern), "plan_nearest": _f(self.plan_nearest),
+            "pattern_method": (PATTERN_METHOD if self.pattern is not None else None),
             "across_hole": _f(self.across_hole), "across_hole_plan": _f(self.across_hole_plan),
             "down_hole": _f(self.down_hole),
             "bench": _f(self.bench), "nearest": _f(self.nearest), "layout": self.layout,
@@ -346,6 +360,70 @@ def _nn_median(points: np.ndarray) -> float | None:
     d = np.where(d > 0, d, np.inf)[:, 1:].min(axis=1)
     d = d[np.isfinite(d)]
     return float(np.median(d)) if d.size else None
+
+
+#: How :func:`footprint_spacing` reads a pattern, in words (for the record).
+PATTERN_METHOD = ("square root of the area per sample on each level: the level's convex hull "
+                  "grown by half a spacing, divided by its distinct sample positions; median "
+                  "over the levels")
+
+
+def footprint_spacing(points) -> float | None:
+    """Pattern spacing of one level from the area per sample of its footprint.
+
+    The footprint is the convex hull of the distinct plan positions
+    (``scipy.spatial.ConvexHull``: area ``A``, perimeter ``P``) grown by half
+    a spacing ``s`` all round, since each sample stands for a cell of side
+    ``s`` centred on it; growing a convex set by a disc of radius ``r`` adds
+    ``P r + pi r^2`` (Steiner's formula). Setting ``n s^2 = A + P s/2 +
+    pi s^2/4`` for ``n`` positions gives
+    ``s = (P/2 + sqrt(P^2/4 + 4 (n - pi/4) A)) / (2 (n - pi/4))``.
+    For a regular ``a x b`` pattern this is ``sqrt(a b)`` (the equivalent
+    square spacing) to within a few per cent on a few hundred holes; it
+    overstates the spacing of a footprint that is far from convex (an L-shaped
+    bench), where the hull takes in unsampled ground.
+
+    Parameters
+    ----------
+    points : array_like, shape (n, 2)
+        Plan positions (x, y) of one level.
+
+    Returns
+    -------
+    float or None
+        None for fewer than three distinct positions or positions on a line.
+    """
+    p = np.unique(np.round(np.asarray(points, dtype=float), 3), axis=0)
+    n = len(p)
+    if n < 3:
+        return None
+    try:
+        hull = ConvexHull(p)
+    except QhullError:   # every position on one line
+        return None
+    area, perimeter = float(hull.volume), float(hull.area)   # 2D: volume is the area
+    if area <= 0:
+        return None
+    a = n - math.pi / 4.0
+    half_p = 0.5 * perimeter
+    return float((half_p + math.sqrt(half_p * half_p + 4.0 * a * area)) / (2.0 * a))
+
+
+def _level_spacings(c: np.ndarray, label: np.ndarray, n_levels: int):
+    """(pattern, plan nearest neighbour) over the levels: medians, None when unknown."""
+    patterns, nn = [], []
+    for k in range(n_levels):
+        pts = c[label == k, :2]
+        if len(pts) >= 2:
+            d, _ = cKDTree(pts).query(pts, k=min(len(pts), 4))
+            d = np.where(d > 0, d, np.inf)[:, 1:].min(axis=1)
+            nn.append(d[np.isfinite(d)])
+        s = footprint_spacing(pts)
+        if s is not None:
+            patterns.append(s)
+    nn = np.concatenate(nn) if nn else np.array([])
+    return (float(np.median(patterns)) if patterns else None,
+            float(np.median(nn)) if nn.size else None)
 
 
 def _bench_levels(z: np.ndarray, tolerance: float):
@@ -401,7 +479,13 @@ def nominal_spacing(coords, holes=None, *, bench_tolerance: float = 1.0,
     Without hole ids the elevations are split into levels (see
     ``bench_tolerance``); with two or more well-filled levels the data are
     treated as blast holes: ``bench`` is the median gap between levels and
-    ``across_hole`` the median in-bench nearest-neighbour distance in plan.
+    ``across_hole`` the pattern spacing, the square root of the area per
+    sample on each level's footprint (:func:`footprint_spacing`, the median
+    over levels), as a pattern is read off a plan; the median in-level
+    nearest-neighbour distance in plan is reported beside it
+    (``plan_nearest``): on a jittered pattern it comes out well under the
+    pattern spacing (a jittered 5 x 5 m pattern gives about 4 m). One level
+    (``single_level``) is read the same way.
     One level is a single bench only when its elevations spread over no more
     than three bench tolerances or the plan spacing, whichever is larger;
     elevations spread continuously over more than that (no gap wider than
@@ -416,7 +500,7 @@ def nominal_spacing(coords, holes=None, *, bench_tolerance: float = 1.0,
     if n < 2:
         raise InsufficientDataError("Spacing needs at least two samples.")
     nearest = _nn_median(c)
-    across = down = bench = across_plan = None
+    across = down = bench = across_plan = pattern = plan_nearest = None
     n_holes = n_levels = None
     levels: list = []
     reasons: dict = {}
@@ -462,7 +546,8 @@ def nominal_spacing(coords, holes=None, *, bench_tolerance: float = 1.0,
             if spreads[0] <= max(3.0 * float(bench_tolerance), plan_nn):
                 layout = "single_level"
                 n_levels, levels = 1, centres.tolist()
-                across = plan_nn
+                pattern, plan_nearest = _level_spacings(c, label, 1)
+                across = pattern if pattern is not None else plan_nn
         elif np.median(per_level) >= min_per_level:
             gaps = np.diff(centres)
             bench_gap = float(np.median(gaps))
@@ -470,15 +555,8 @@ def nominal_spacing(coords, holes=None, *, bench_tolerance: float = 1.0,
                 layout = "benches"
                 bench = bench_gap
                 n_levels, levels = int(n_lv), centres.tolist()
-                nn = []
-                for k in range(n_lv):
-                    pts = c[label == k, :2]
-                    if len(pts) >= 2:
-                        d, _ = cKDTree(pts).query(pts, k=min(len(pts), 4))
-                        d = np.where(d > 0, d, np.inf)[:, 1:].min(axis=1)
-                        nn.append(d[np.isfinite(d)])
-                nn = np.concatenate(nn) if nn else np.array([])
-                across = float(np.median(nn)) if nn.size else None
+                pattern, plan_nearest = _level_spacings(c, label, n_lv)
+                across = pattern if pattern is not None else plan_nearest
     lags: dict = {}
 
     def put(cls, val, why):
@@ -498,11 +576,16 @@ def nominal_spacing(coords, holes=None, *, bench_tolerance: float = 1.0,
             if across else "across-hole spacing")
     elif layout == "benches":
         put("along_hole", bench, "blast holes sample one bench each: about the bench spacing")
-        put("across_hole", across, "about the in-bench blast-hole spacing in plan")
+        put("across_hole", across, "about the in-bench blast-hole pattern spacing (area per "
+            "hole on each bench)" if pattern is not None else "about the in-bench blast-hole "
+            "spacing in plan")
         put("vertical", bench, "about the bench spacing")
-        put("omni", across, "about the in-bench blast-hole spacing")
+        put("omni", across, "about the in-bench blast-hole pattern spacing (area per hole)"
+            if pattern is not None else "about the in-bench blast-hole spacing")
     else:
-        what = ("single level: in-plane nearest-neighbour spacing" if layout == "single_level"
+        what = ("single level: the pattern spacing from the area per sample of its footprint"
+                if layout == "single_level" and pattern is not None else
+                "single level: in-plane nearest-neighbour spacing" if layout == "single_level"
                 else "no hole ids and no benches: median 3D nearest-neighbour distance "
                      "(give the hole column for down-hole spacing)")
         base = across if layout == "single_level" else nearest
@@ -516,7 +599,8 @@ def nominal_spacing(coords, holes=None, *, bench_tolerance: float = 1.0,
     return Spacing(across_hole=across, down_hole=down, bench=bench, suggested_lag=lags,
                    reasons=reasons, nearest=nearest, layout=layout, lag_tolerance=tol,
                    n_holes=n_holes, n_levels=n_levels, levels=levels,
-                   across_hole_plan=across_plan if layout == "drill_holes" else across)
+                   across_hole_plan=across_plan if layout == "drill_holes" else across,
+                   pattern=pattern, plan_nearest=plan_nearest)
 
 
 # ---------------------------------------------------------------------------
@@ -660,6 +744,52 @@ def topcut_candidates(values, *, quantiles=TOPCUT_QUANTILES) -> list[dict]:
         d["aggressive"] = bool(d["metal_removed_pct"] is not None
                                and d["metal_removed_pct"] > AGGRESSIVE_METAL_PCT)
     return sorted(out, key=lambda d: d["value"])
+
+
+def suggested_topcut(candidates) -> dict | None:
+    """The one top-cut candidate taken by ``--top-cut auto``, with the reason.
+
+    Parameters
+    ----------
+    candidates : list of dict
+        As returned by :func:`topcut_candidates`.
+
+    Returns
+    -------
+    dict or None
+        The chosen candidate (a copy) with ``reason`` saying why it was
+        chosen; None when there is no candidate.
+
+    Notes
+    -----
+    The rule: among the candidates that are not aggressive (remove at most
+    ``AGGRESSIVE_METAL_PCT`` % of the metal), the log-probability break when
+    one was found (it is read off this domain's own distribution), else the
+    99 % quantile (common practice), else the highest such candidate; when
+    every candidate is aggressive, the highest (the one removing least).
+    """
+    cands = [dict(c) for c in candidates or []]
+    if not cands:
+        return None
+    mild = [c for c in cands if not c.get("aggressive")]
+    by = {c["method"]: c for c in mild}
+    if "logprob_break" in by:
+        c, why = by["logprob_break"], "the break in the log-probability plot"
+    elif f"quantile_{_qkey(0.99)}" in by:
+        c, why = by[f"quantile_{_qkey(0.99)}"], ("no usable break in the log-probability plot; "
+                                                 "the 99 % quantile (common practice)")
+    elif mild:
+        c, why = max(mild, key=lambda d: d["value"]), ("the highest candidate removing at most "
+                                                       f"{AGGRESSIVE_METAL_PCT:g} % of the metal")
+    else:
+        c, why = max(cands, key=lambda d: d["value"]), (
+            f"every candidate removes more than {AGGRESSIVE_METAL_PCT:g} % of the metal; the "
+            "highest, which removes least")
+    c["reason"] = (f"{why}: {c['reason']}; caps {c['n_capped']} "
+                   f"{'sample' if c['n_capped'] == 1 else 'samples'} and removes "
+                   + ("an unknown share" if c.get("metal_removed_pct") is None
+                      else f"{c['metal_removed_pct']:.1f} %") + " of the metal")
+    return c
 
 
 # ---------------------------------------------------------------------------
@@ -831,6 +961,7 @@ class Exploration:
             "declustered": self.declustering.to_dict(),
             "spacing": self.spacing.to_dict(),
             "topcut": {"candidates": [dict(d) for d in self.topcut],
+                       "suggested": suggested_topcut(self.topcut),
                        "strongly_skewed": bool(self.strongly_skewed),
                        "strong_skew_cv": STRONG_SKEW_CV,
                        "note": "candidates only: the top-cut is the geologist's decision"},
@@ -886,16 +1017,23 @@ class Exploration:
                  f"(in plan {m(s.across_hole_plan)}), "
                  f"down-hole {m(s.down_hole)}, bench {m(s.bench)}, "
                  f"nearest neighbour {m(s.nearest)}")
+        if s.pattern is not None:
+            L.append(f"  pattern spacing {m(s.pattern)} from the area per sample on each level "
+                     f"(in-level nearest neighbour in plan {m(s.plan_nearest)}, which "
+                     "understates a jittered pattern)")
         for k, lag in s.suggested_lag.items():
             L.append(f"  suggested unit lag {k.replace('_', ' '):<11} {m(lag):>9}  "
                      f"(tolerance {m(s.lag_tolerance.get(k))}): {s.reasons.get(k, '')}")
         L.append("")
         L.append("Top-cut candidates (the choice is yours):")
+        pick = suggested_topcut(self.topcut)
         for c in self.topcut:
             L.append(f"  {c['value']:.4g}  {c['method']:<16} caps {c['n_capped']} "
                      f"{'sample' if c['n_capped'] == 1 else 'samples'}, removes "
                      f"{g(c['metal_removed_pct'], '.1f')} % of the metal"
-                     + ("  [aggressive]" if c.get("aggressive") else ""))
+                     + ("  [aggressive]" if c.get("aggressive") else "")
+                     + ("  [taken by --top-cut auto]" if pick and c["method"] == pick["method"]
+                        else ""))
         if self.strongly_skewed:
             L.append(f"  CV {self.cv:.2f} > {STRONG_SKEW_CV:g}: strongly skewed; prefer normal "
                      "scores or a robust estimator (common practice).")

@@ -44,6 +44,17 @@ divided by sqrt(n)) is at most :data:`PLANAR_ABSOLUTE` metres or
 flagged ``planar=True`` with a warning: the direction across that plane
 cannot be studied.
 
+Column names must differ: a table in which two columns share a name (after
+stripping spaces) is refused, naming the positions of both columns; pandas
+would otherwise rename the second (``Au.1``) and one of them would be used
+without a word.
+
+Two-dimensional tables: when no elevation column is given and no column is
+named like one (``z``, ``elev``, ``rl``, ... or a near miss, which is
+refused with the closest match instead), or with ``z="none"``
+(``--z none``), the table is read as planar data at elevation 0 with a
+warning saying so, and flagged ``planar=True``; ``columns["z"]`` is None.
+
 Row numbers in messages are *data row numbers*: 1 for the first row under
 the header line, so data row ``k`` is row ``k + 1`` in a spreadsheet that
 shows the header on row 1.
@@ -73,12 +84,16 @@ __all__ = [
     "detect_coordinate_columns",
     "find_column",
     "domain_codes",
+    "check_unique_columns",
     "MISSING_CODE_THRESHOLD",
     "DUPLICATE_TOLERANCE",
     "PLANAR_ABSOLUTE",
     "PLANAR_RELATIVE",
+    "NO_ELEVATION",
 ]
 
+#: ``z=`` value (``--z none``) that reads a table without elevations as two-dimensional.
+NO_ELEVATION = "none"
 #: Grades at or below this are missing-value codes (-99, -999, ...).
 MISSING_CODE_THRESHOLD = -90.0
 #: Coordinates equal after rounding to this many metres share a location.
@@ -398,11 +413,19 @@ def read_table(path) -> pd.DataFrame:
                              "pip install 'anisotropy[parquet]', or save the table as CSV."
                              ) from None
         try:
+            import pyarrow.parquet as pq
+
+            names = pq.read_schema(p).names
+        except Exception:  # noqa: BLE001 - an unreadable file is reported just below
+            names = []
+        check_unique_columns(names, str(p))
+        try:
             df = pd.read_parquet(p)
         except Exception as exc:  # noqa: BLE001 - any reader failure is bad input
             raise InputError(f"Could not read '{p}' as Parquet ({exc}). Check that the "
                              "file is a complete Parquet file, or save the table as CSV."
                              ) from None
+        check_unique_columns(df.columns, str(p))
         df.columns = [str(c).strip() for c in df.columns]
         df.attrs["table"] = {"format": "parquet", "separator": None, "decimal": None}
         return df
@@ -425,6 +448,7 @@ def read_table(path) -> pd.DataFrame:
         raise InputError(f"'{p}' looks like a binary file, not a text table. Give a CSV "
                          "file or a Parquet file (ending .parquet).")
     sep, decimal = _sniff(text[:262144])
+    check_unique_columns(_header_names(text[:262144], sep), str(p))
     try:
         df = pd.read_csv(
             io.StringIO(text), sep=sep, decimal=decimal,
@@ -460,6 +484,55 @@ def _looks_numeric(s) -> bool:
         return True
     except ValueError:
         return False
+
+
+def _header_names(text: str, sep: str) -> list[str]:
+    """The column names on the header line of a CSV text, as written (stripped).
+
+    pandas renames a repeated name (``Au``, ``Au`` becomes ``Au``, ``Au.1``),
+    so repeats are found here, on the header line itself.
+    """
+    for line in text.splitlines():
+        if not line.strip():
+            continue
+        if sep == r"\s+":
+            return line.split()
+        try:
+            return [c.strip() for c in next(csv.reader([line], delimiter=sep))]
+        except (csv.Error, StopIteration):
+            return []
+    return []
+
+
+def check_unique_columns(names, source: str) -> None:
+    """Refuse a table in which two columns share a name.
+
+    Parameters
+    ----------
+    names : sequence
+        Column names in table order (compared after stripping spaces).
+    source : str
+        File name for the message.
+
+    Raises
+    ------
+    InputError
+        A name occurs more than once; the message gives the 1-based
+        positions of the columns that share it.
+    """
+    where: dict[str, list[int]] = {}
+    for i, c in enumerate(names, start=1):
+        where.setdefault(str(c).strip(), []).append(i)
+    repeated = {c: pos for c, pos in where.items() if len(pos) > 1}
+    if not repeated:
+        return
+    parts = [f"{c!r} is the name of columns {', '.join(map(str, pos[:-1]))} and {pos[-1]}"
+             for c, pos in repeated.items()]
+    raise InputError(
+        f"In '{source}': {'; '.join(parts)} (counting from 1 at the left). A repeated name "
+        "leaves it unclear which column is meant, so the table is not read. Rename the "
+        "columns in the header line so that each has its own name (for example Au_1 and "
+        "Au_2), or delete the column that is not wanted.")
 
 
 # ---------------------------------------------------------------------------
@@ -515,7 +588,10 @@ def detect_coordinate_columns(df, *, x=None, y=None, z=None, exclude=(), source=
     Returns
     -------
     dict
-        ``{"x": name, "y": name, "z": name}``.
+        ``{"x": name, "y": name, "z": name}``; ``"z"`` is None for a
+        two-dimensional table: no elevation column was given and no column
+        name is like one (a near miss such as ``Elevaton`` is refused with
+        the closest match instead), or ``z="none"`` was given.
 
     Raises
     ------
@@ -534,9 +610,14 @@ def detect_coordinate_columns(df, *, x=None, y=None, z=None, exclude=(), source=
     given = {"x": x, "y": y, "z": z}
     out = {}
     excluded = {str(c) for c in exclude if c is not None}
+    cols = {str(c) for c in df.columns}
     for axis in "xyz":
         option = f"--{axis} ({axis}= in Python)"
         word = _AXIS_WORDS[axis][0]
+        if axis == "z" and isinstance(z, str) and z.strip().lower() == NO_ELEVATION \
+                and z not in cols:
+            out["z"] = None   # asked for: a two-dimensional table
+            continue
         if given[axis] is not None:
             out[axis] = _find_column(df, given[axis], f"{word} ({axis})", option, source)
             continue
@@ -559,10 +640,15 @@ def detect_coordinate_columns(df, *, x=None, y=None, z=None, exclude=(), source=
                 s = difflib.SequenceMatcher(None, _norm(c), nm).ratio()
                 if s > best_score:
                     best, best_score = str(c), s
-        hint = f" The closest match is {best!r}." if best is not None and best_score >= 0.6 else ""
+        close = best is not None and best_score >= 0.6
+        if axis == "z" and not close:
+            out["z"] = None   # no elevation column and nothing like one: a 2D table
+            continue
+        hint = f" The closest match is {best!r}." if close else ""
         examples = {"x": "x, east, easting, mid_x", "y": "y, north, northing, mid_y",
                     "z": "z, elev, elevation, rl, mid_z"}[axis]
-        extra = (" If the data are two-dimensional, add a column with a constant elevation."
+        extra = (f" If the table is two-dimensional (no elevation), give --z {NO_ELEVATION} "
+                 f"(z='{NO_ELEVATION}' in Python) to read it on one plane."
                  if axis == "z" else "")
         raise ColumnError(
             f"In '{source}': no {word} ({axis}) column was found (looked for names like "
@@ -793,6 +879,7 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
     if len(df.columns) == 0:
         raise InputError(f"'{source}' has no columns.")
     table_info = dict(df.attrs.get("table", {}))
+    check_unique_columns(df.columns, source)
     df = df.copy(deep=False)
     df.columns = [str(c) for c in df.columns]
     if value is None:
@@ -807,6 +894,8 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
     roles = {"x": xyz["x"], "y": xyz["y"], "z": xyz["z"], "value": vcol}
     seen = {}
     for r, c in roles.items():
+        if c is None:
+            continue
         if c in seen:
             raise ColumnError(f"In '{source}': column {c!r} is given both as {seen[c]} and as "
                               f"{r}. Give a different column for each.")
@@ -889,7 +978,12 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
     # numbers
     decimal = table_info.get("decimal") or "."
     parsed = {}
-    for axis in "xyz":
+    two_d = xyz["z"] is None
+    if two_d:   # no elevation: every sample on the plane z = 0
+        none = np.zeros(n_read, dtype=bool)
+        parsed["z"] = (np.zeros(n_read), none, none)
+        warnings.append(_two_d_warning(z))
+    for axis in ("xy" if two_d else "xyz"):
         parsed[axis] = _numeric(df[xyz[axis]], column=xyz[axis],
                                 role=f"{_AXIS_WORDS[axis][0]} ({axis})",
                                 option=f"--{axis}", source=source, data_rows=data_rows,
@@ -1042,7 +1136,7 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
             if holes is not None:
                 holes = holes[keep_idx]
 
-    planar = _planarity(coords, warnings)
+    planar = True if two_d else _planarity(coords, warnings)
     if len(values) > 1 and np.ptp(values) == 0:
         warnings.append(f"All {len(values)} grades are equal ({values[0]:g}); there is no "
                         "variability to study.")
@@ -1068,6 +1162,18 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
         dropped_rows=dropped_rows,
         changed_rows=changed_rows,
     )
+
+
+def _two_d_warning(z) -> str:
+    """The sentence saying a table was read as two-dimensional, and why."""
+    why = (f"as asked (z={z!r})" if z is not None else
+           "because it has no elevation column and no column named like one (z, elev, "
+           "elevation, rl, mid_z, ...)")
+    return (f"The table was read as two-dimensional {why}: every sample is placed at "
+            "elevation 0 m, on one horizontal plane, and is studied as a single level. Only "
+            "directions in the horizontal plane are meaningful; nothing can be said about "
+            "continuity across it. If the table does have an elevation column, name it with "
+            "--z COL (z= in Python).")
 
 
 def _planarity(coords: np.ndarray, warnings: list) -> bool:

@@ -577,3 +577,207 @@ def apply_transform(values, kind, *, weights=None, threshold=None, quantile=None
         back = ns.back_transform
         record["mean"], record["variance"] = float(np.mean(out)), float(np.var(out))
     return TransformResult(values=out, kind=kind, record=record, forward=forward, back=back)
+
+
+# ---------------------------------------------------------------------------
+# top-cut of a sample set (cap or exclude), issue 17
+# ---------------------------------------------------------------------------
+
+#: What a top-cut does to a grade above it: set it to the top-cut, or leave the sample out.
+TOP_CUT_MODES = ("cap", "exclude")
+
+
+@dataclass
+class TopCut:
+    """A top-cut applied to the grades of a sample set.
+
+    Attributes
+    ----------
+    threshold : float
+        The top-cut grade.
+    mode : {"cap", "exclude"}
+        "cap": grades above the threshold were set to it; "exclude": samples
+        above it were left out (the older practice).
+    n_capped, n_excluded : int
+        Samples capped or left out (one of the two is zero).
+    reason : str
+        Why this threshold: given, or explore's suggestion and why.
+    method : str
+        "given", or the explore candidate taken by ``"auto"``
+        (``logprob_break``, ``quantile_0.99``, ...).
+    metal_removed_pct : float or None
+        Sum of ``grade - threshold`` over the affected samples (all of their
+        grade when excluded), as a percentage of the total, unweighted.
+    rows : list of int
+        Data rows (1 = first row under the header) of the affected samples.
+    """
+
+    threshold: float
+    mode: str
+    n_capped: int
+    n_excluded: int
+    reason: str
+    method: str = "given"
+    metal_removed_pct: float | None = None
+    rows: list = field(default_factory=list)
+
+    @property
+    def n_affected(self) -> int:
+        """Samples capped or left out."""
+        return self.n_capped + self.n_excluded
+
+    def to_dict(self) -> dict:
+        """JSON-ready record (the ``top_cut`` key of the transform record)."""
+        return {"threshold": float(self.threshold), "mode": self.mode,
+                "n_capped": int(self.n_capped), "n_excluded": int(self.n_excluded),
+                "reason": self.reason, "method": self.method,
+                "metal_removed_pct": (None if self.metal_removed_pct is None
+                                      else float(self.metal_removed_pct)),
+                "rows": [int(r) for r in self.rows]}
+
+
+def parse_top_cut(top_cut, mode="cap"):
+    """Check a top-cut setting: a positive grade or ``"auto"``, and a mode.
+
+    Parameters
+    ----------
+    top_cut : float, str or None
+        A grade (number or numeric text), ``"auto"``, or None (no top-cut).
+    mode : {"cap", "exclude"}
+
+    Returns
+    -------
+    (float, "auto" or None, str)
+        The setting and the mode.
+
+    Raises
+    ------
+    InputError
+        Not a finite positive number nor "auto", or an unknown mode.
+    """
+    if mode not in TOP_CUT_MODES:
+        raise InputError(f"top-cut mode {mode!r} is not known; use 'cap' (grades above the "
+                         "top-cut are set to it) or 'exclude' (samples above it are left out).")
+    if top_cut is None:
+        return None, mode
+    if isinstance(top_cut, str):
+        text = top_cut.strip().lower()
+        if text == "auto":
+            return "auto", mode
+        try:
+            top_cut = float(text)
+        except ValueError:
+            raise InputError(f"top-cut {top_cut!r} is neither a grade nor 'auto'; give a "
+                             "number such as 25 (in the grade's units) or 'auto' to take "
+                             "the exploration's suggestion.") from None
+    if isinstance(top_cut, bool) or not isinstance(top_cut, (int, float, np.number)):
+        raise InputError(f"top-cut {top_cut!r} is neither a grade nor 'auto'.")
+    c = float(top_cut)
+    if not np.isfinite(c) or c <= 0:
+        raise InputError(f"top-cut {top_cut!r}: a top-cut must be a positive grade (in the "
+                         "grade's units), or 'auto'.")
+    return c, mode
+
+
+def choose_top_cut(values, top_cut) -> tuple[float, str, str]:
+    """The threshold of a top-cut setting, with its method and reason.
+
+    Parameters
+    ----------
+    values : array_like
+        Grades (used by ``"auto"`` only).
+    top_cut : float or "auto"
+
+    Returns
+    -------
+    (threshold, method, reason)
+
+    Raises
+    ------
+    InsufficientDataError
+        ``"auto"`` on too few samples for any candidate.
+    """
+    from anisotropy.explore import suggested_topcut, topcut_candidates
+
+    if top_cut != "auto":
+        return float(top_cut), "given", "as requested"
+    pick = suggested_topcut(topcut_candidates(values))
+    if pick is None:
+        raise InsufficientDataError("--top-cut auto: too few samples for the exploration to "
+                                    "suggest a top-cut; give the grade with --top-cut GRADE.")
+    return float(pick["value"]), str(pick["method"]), "explore's suggestion, " + pick["reason"]
+
+
+def apply_top_cut(samples, top_cut, mode="cap", *, choices=None):
+    """Top-cut the grades of a sample set by capping or by exclusion, and count it.
+
+    Parameters
+    ----------
+    samples : anisotropy.samples.SampleSet
+    top_cut : float, "auto" or None
+        The top-cut grade, ``"auto"`` for the suggestion of
+        :func:`anisotropy.explore.suggested_topcut` (computed on these
+        samples' grades), or None for none.
+    mode : {"cap", "exclude"}
+        Set grades above the top-cut to it (default), or leave those samples
+        out (the older practice).
+    choices : list, optional
+        When given, a ``{"choice": "top-cut", "value", "reason"}`` entry is
+        appended (the discovery's list of choices made).
+
+    Returns
+    -------
+    (SampleSet, TopCut or None)
+        A new sample set (the input is not modified) whose ``changed``
+        (cap) or ``dropped`` (exclude) counts and rows carry the top-cut
+        under its own reason, with a warning saying what was done; and the
+        record. With ``top_cut=None`` the input and None.
+    """
+    import dataclasses
+
+    top_cut, mode = parse_top_cut(top_cut, mode)
+    if top_cut is None:
+        return samples, None
+    v = np.asarray(samples.values, dtype=float)
+    thr, method, reason = choose_top_cut(v, top_cut)
+    over = v > thr
+    k = int(over.sum())
+    total = float(v.sum())
+    removed = float(np.sum(v[over] - (thr if mode == "cap" else 0.0)))
+    rows = [] if samples.rows is None else [int(r) for r in np.asarray(samples.rows)[over]]
+    cut = TopCut(threshold=thr, mode=mode, n_capped=k if mode == "cap" else 0,
+                 n_excluded=k if mode == "exclude" else 0, reason=reason, method=method,
+                 metal_removed_pct=(100.0 * removed / total) if total > 0 else None, rows=rows)
+    changed, dropped = dict(samples.changed), dict(samples.dropped)
+    changed_rows, dropped_rows = dict(samples.changed_rows), dict(samples.dropped_rows)
+    metal = ("" if cut.metal_removed_pct is None
+             else f", removing {cut.metal_removed_pct:.1f} % of the metal")
+    new = {}
+    if mode == "cap":
+        key = f"top-cut: grade above {thr:.6g} set to {thr:.6g}"
+        values = np.minimum(v, thr)
+        if k:
+            changed[key], changed_rows[key] = k, rows
+        said = f"{k} {'grade' if k == 1 else 'grades'} above it set to it"
+    else:
+        key = f"top-cut: grade above {thr:.6g}, sample left out"
+        keep = ~over
+        values = v[keep]
+        new = {"coords": samples.coords[keep],
+               "holes": None if samples.holes is None else samples.holes[keep],
+               "rows": None if samples.rows is None else samples.rows[keep]}
+        if k:
+            dropped[key], dropped_rows[key] = k, rows
+        said = f"{k} {'sample' if k == 1 else 'samples'} above it left out (the older practice)"
+    note = (f"A top-cut {thr:.6g} ({reason}) was applied by "
+            f"{'capping' if mode == 'cap' else 'exclusion'}: {said}{metal}.")
+    out = dataclasses.replace(samples, values=np.ascontiguousarray(values), changed=changed,
+                              dropped=dropped, changed_rows=changed_rows,
+                              dropped_rows=dropped_rows,
+                              warnings=list(samples.warnings) + [note], **new)
+    if choices is not None:
+        choices.append({"choice": "top-cut", "value": f"{thr:.6g} ({mode})", "reason": reason})
+    return out, cut
+
+
+__all__ += ["TopCut", "TOP_CUT_MODES", "parse_top_cut", "choose_top_cut", "apply_top_cut"]

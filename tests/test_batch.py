@@ -31,7 +31,7 @@ CONFIG = {
         "alpha": {"interpretation": {"plane": "020/70", "pitch": 25}},
         "broken": {"interpretation": {"plane": "200/95"}},  # a dip of 95 is impossible
         HOSTILE: {"transform": "log", "lag": 8.0, "n_lags": 10, "estimator": "robust",
-                  "topcut": 5.0},
+                  "topcut": 5.0, "units": "g/t"},
         "not_in_table": {"transform": "log"},
     },
 }
@@ -122,6 +122,10 @@ def test_per_domain_overrides_reach_that_domain_only(batch, table):
     assert rows[HOSTILE]["n_capped"] == int((grades > 5.0).sum()) > 0
     assert rows["alpha"]["topcut"] is None
     assert any("top-cut 5" in w for w in hostile["diagnostics"]["warnings"])
+    # the top-cut is in the transform record too, with the same brute-force count (issue 17)
+    assert hostile["transform"]["top_cut"]["n_capped"] == rows[HOSTILE]["n_capped"]
+    assert hostile["diagnostics"]["grade_units"] == "g/t"
+    assert "grade_units" not in alpha["diagnostics"]
 
 
 def test_demo_config_matches_the_bundled_deposit():

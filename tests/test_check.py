@@ -264,7 +264,8 @@ def test_cli_check_options():
     a = build_parser().parse_args(["check", "f.csv", "--value", "g", "--plane", "150/70",
                                    "--pitch", "35"])
     assert a.bootstrap == DEFAULT_BOOTSTRAP and a.confidence == 0.9 and a.out == "check"
-    assert a.plane == "150/70" and a.pitch == 35.0 and a.scheduler is None
+    # the pitch stays text until the plane is known (it may carry a side, issue 17: "35E")
+    assert a.plane == "150/70" and a.pitch == "35" and a.scheduler is None
 
 
 def test_verdict_rule_truth_table():
@@ -289,3 +290,103 @@ def test_verdict_rule_truth_table():
     assert decide_verdict(outside=False, worse=True, placed=True, strong=False,
                           close=True) == "consistent"
 
+
+
+# ---------------------------------------------------------------------------
+# strike/dip planes and side-marked pitches (issue 17)
+# ---------------------------------------------------------------------------
+
+def _rhr_vectors(strike, dip):
+    """Strike and down-dip unit vectors written out with numpy (east, north, up).
+
+    Right-hand rule: looking along the strike, the plane dips to the right, so
+    the down-dip direction has azimuth strike + 90 (design.md, Conventions).
+    """
+    s, d = np.radians(strike), np.radians(dip)
+    sv = np.array([np.sin(s), np.cos(s), 0.0])
+    a = s + np.pi / 2
+    dv = np.array([np.sin(a) * np.cos(d), np.cos(a) * np.cos(d), -np.sin(d)])
+    return sv, dv
+
+
+@pytest.mark.parametrize("strike,dip", [(60, 70), (0, 45), (275.5, 12), (350, 89), (180, 0)])
+def test_strike_dip_gives_the_plane_of_its_dip_direction_dip(strike, dip):
+    from anisotropy.check import parse_plane
+
+    dd, dp = parse_plane(f"strike:{strike}/{dip}")
+    # right-hand rule: dip direction = strike + 90
+    assert dd == pytest.approx((strike + 90) % 360) and dp == dip
+    assert parse_plane(f"{(strike + 90) % 360}/{dip}") == (dd, dp)
+    assert parse_plane(f"dipdir:{(strike + 90) % 360}/{dip}") == (dd, dp)
+    # independent pole: the cross product of the strike and down-dip vectors
+    sv, dv = _rhr_vectors(strike, dip)
+    pole = np.cross(sv, dv)
+    a = Interpretation.from_plane(*parse_plane(f"STRIKE: {strike}/{dip}"))
+    assert axis_angle(a.axes["minor"], pole) < 1e-9
+
+
+@pytest.mark.parametrize("bad", ["060/70SE", "N60E/70", "strike:060", "strike 060/70",
+                                 "s:060/70", "060/70/1"])
+def test_other_plane_notations_are_refused_with_the_forms_read(bad):
+    from anisotropy.check import parse_plane
+
+    with pytest.raises(InterpretationError, match="strike:STRIKE/DIP"):
+        parse_plane(bad)
+
+
+@pytest.mark.parametrize("dd,dip,side,pitch,from_reverse", [
+    (150, 70, "40E", 40, False),   # strike 060: its ENE end is the strike direction
+    (150, 70, "40W", 40, True),    # the WSW end is the reverse strike
+    (150, 70, "40NE", 40, False),
+    (150, 70, "25SW", 25, True),
+    (270, 60, "30S", 30, False),   # strike 180: the south end is the strike direction
+    (270, 60, "30N", 30, True),
+    (45, 30, "90E", 90, False),    # straight down-dip whichever end
+    (45, 30, "0W", 0, False),      # strike 315: its end is the west-north-west one
+    (45, 30, "0E", 0, True),
+])
+def test_side_marked_pitch_gives_the_same_major_axis(dd, dip, side, pitch, from_reverse):
+    from anisotropy.check import parse_pitch
+    from anisotropy.geometry import line_from_pitch
+
+    p = parse_pitch(side, dd, dip)
+    # independent vector: cos(p) along the named end of the strike line + sin(p) down-dip
+    sv, dv = _rhr_vectors(dd - 90, dip)
+    r = np.radians(pitch)
+    expected = np.cos(r) * (-sv if from_reverse else sv) + np.sin(r) * dv
+    a = Interpretation.from_plane(dd, dip, pitch=p)
+    assert axis_angle(a.axes["major"], expected) < 1e-6
+    # and the plain 0-180 pitch from the strike that means the same (geometry.line_from_pitch)
+    plain = 180 - pitch if from_reverse else pitch
+    assert p == pytest.approx(plain)
+    assert axis_angle(line_from_pitch(dd, dip, plain), expected) < 1e-6
+
+
+@pytest.mark.parametrize("dd,value,match", [
+    (180, "40N", "names neither end"),    # strike 090 runs east-west: north is neither end
+    (180, "40S", "names neither end"),
+    (150, "100E", "over 90"),
+    (150, "40X", "cannot read"),
+    (150, "E40", "cannot read"),
+    (150, "-40", "cannot read"),
+])
+def test_ambiguous_pitch_forms_are_refused(dd, value, match):
+    from anisotropy.check import parse_pitch
+
+    with pytest.raises(InterpretationError, match=match):
+        parse_pitch(value, dd, 60)
+
+
+def test_cli_reads_the_strike_form_and_side_pitch_like_the_default_form():
+    import argparse
+
+    from anisotropy.cli import _interpretation_from_args
+
+    def interp(plane, pitch):
+        return _interpretation_from_args(argparse.Namespace(plane=plane, pitch=pitch,
+                                                            major=None, minor=None))
+
+    a = interp("strike:060/70", "40W")
+    b = interp("150/70", "140")
+    np.testing.assert_allclose(a.frame, b.frame, atol=1e-12)
+    assert a.pitch == pytest.approx(140.0)

@@ -284,3 +284,101 @@ def test_unreachable_scheduler_exits_2_before_the_run(good_csv, tmp_path, capsys
     assert code == EXIT_BAD_INPUT
     assert "Cannot reach the Dask scheduler" in err and addr in err and "Traceback" not in err
     assert not (tmp_path / "o" / "discovery.json").exists()
+
+
+def test_explore_reads_a_table_without_elevation_as_two_dimensional(tmp_path, capsys, rng):
+    # issue 17: x, y and grade only; the reference is the same table with a constant
+    # elevation column, read by the 3D path (the old advice)
+    df = pd.DataFrame({"Easting": 1000 + rng.uniform(0, 80, 60),
+                       "Northing": 2000 + rng.uniform(0, 80, 60),
+                       "au": rng.lognormal(0, 0.7, 60)})
+    p2, p3 = tmp_path / "plan.csv", tmp_path / "plan_z.csv"
+    df.to_csv(p2, index=False)
+    df.assign(Elevation=0.0).to_csv(p3, index=False)
+    code, out, err = run(["explore", p2, "--value", "au", "--out", tmp_path / "a"], capsys)
+    assert code == EXIT_OK, err
+    assert "z: none, the table is read as two-dimensional" in out
+    code, _, err = run(["explore", p3, "--value", "au", "--out", tmp_path / "b"], capsys)
+    assert code == EXIT_OK, err
+    a = json.loads((tmp_path / "a" / "explore.json").read_text())
+    b = json.loads((tmp_path / "b" / "explore.json").read_text())
+    assert a["samples"]["planar"] and a["samples"]["columns"]["z"] is None
+    assert a["spacing"] == b["spacing"] and a["mean"] == b["mean"]
+
+
+def test_discover_top_cut_auto_by_exclusion_is_counted_and_printed(tmp_path, capsys):
+    # issue 17: --top-cut auto --top-cut-mode exclude; references: numpy's 99 % quantile
+    # (the rule of thumb taken when the log-probability plot shows no break, common
+    # practice) and a brute-force count of the grades above it in the table written here
+    from anisotropy.explore import detect_logprob_break
+
+    rng = np.random.default_rng(5)
+    n = 500
+    c = rng.uniform([0, 0, 0], [150, 150, 60], (n, 3))
+    g = np.round(np.abs(rng.normal(4.0, 1.0, n) + 0.02 * c[:, 0]), 4)
+    assert detect_logprob_break(g) is None
+    p = tmp_path / "t.csv"
+    pd.DataFrame({"x": c[:, 0], "y": c[:, 1], "z": c[:, 2], "cu": g}).to_csv(p, index=False)
+    code, out, err = run(["discover", p, "--value", "cu", "--top-cut", "auto",
+                          "--top-cut-mode", "exclude", "--bootstrap", "0", "--structures", "1",
+                          "--units", "%", "--no-report", "--out", tmp_path / "o"], capsys)
+    assert code == EXIT_OK, err
+    thr = np.quantile(g, 0.99)
+    n_over = int((g > thr).sum())
+    d = json.loads((tmp_path / "o" / "discovery.json").read_text())
+    tc = d["transform"]["top_cut"]
+    assert tc["threshold"] == pytest.approx(thr, rel=1e-12) and tc["mode"] == "exclude"
+    assert tc["n_excluded"] == n_over > 0 and d["input"]["n_used"] == n - n_over
+    assert [v for k, v in d["input"]["dropped"].items() if k.startswith("top-cut")] == [n_over]
+    assert "top-cut" in out and "99 % quantile" in out   # the reason is printed
+    assert d["diagnostics"]["grade_units"] == "%"
+
+
+def test_top_cut_option_refuses_a_word(tmp_path, capsys):
+    with pytest.raises(SystemExit):
+        main(["discover", "f.csv", "--value", "au", "--top-cut", "high"])
+    assert "neither a grade nor 'auto'" in capsys.readouterr().err
+
+
+def test_bootstrap_defaults_agree_and_the_demo_says_why_it_differs(monkeypatch):
+    # issue 17: one default for discover, check and batch; the demo's, read from its
+    # bundled TOML with the standard library's tomllib, is explained in its help
+    import tomllib
+
+    from anisotropy import cli
+    from anisotropy.batch import demo_paths
+
+    parser = cli.build_parser()
+    d = parser.parse_args(["discover", "f.csv", "--value", "au"])
+    c = parser.parse_args(["check", "f.csv", "--value", "au", "--plane", "150/70"])
+    b = parser.parse_args(["batch", "f.csv", "--value", "au", "--domain", "zone"])
+    assert d.bootstrap == c.bootstrap == cli._batch_options(b)["bootstrap"] == cli.DEFAULT_BOOTSTRAP
+    with open(demo_paths()["config"], "rb") as fh:
+        demo_n = tomllib.load(fh)["options"]["bootstrap"]
+    sub = parser._subparsers._group_actions[0].choices
+    demo_help = next(a.help for a in sub["demo"]._actions if a.dest == "bootstrap")
+    assert f"default: {demo_n}" in demo_help and str(cli.DEFAULT_BOOTSTRAP) in demo_help
+
+
+def test_batch_takes_units_and_the_bootstrap_method(monkeypatch, tmp_path):
+    from anisotropy import batch as B
+    from anisotropy import cli
+
+    seen = {}
+
+    class Res:
+        rows = [{"status": "ok"}]
+
+        def summary(self):
+            return ""
+
+    def fake_run_batch(*a, **kw):
+        seen.update(kw)
+        return Res()
+
+    monkeypatch.setattr(B, "run_batch", fake_run_batch)
+    code = cli.main(["batch", "t.csv", "--value", "au", "--domain", "zone", "--units", "g/t",
+                     "--bootstrap-method", "model", "--out", str(tmp_path / "o")])
+    assert code == cli.EXIT_OK
+    assert seen["units"] == "g/t" and seen["bootstrap_method"] == "model"
+    assert seen["bootstrap"] == cli.DEFAULT_BOOTSTRAP

@@ -20,7 +20,11 @@ from anisotropy.pairs import _lattice, build_volume
 
 
 def brute(c, v, *, lag, n_lags, direction=None, tol_deg=22.5, lag_tol=None, band=None):
-    """Per class k = 1..n_lags: (mean distance, pairs, head values, tail values, deltas)."""
+    """Per class k = 1..n_lags: (mean distance, pairs, head values, tail values, deltas).
+
+    Head: the sample further along ``direction``; omnidirectional, head = tail +
+    the canonical (lower-hemisphere) lag.
+    """
     i, j = np.triu_indices(len(c), 1)
     V = c[j] - c[i]
     flip = (V[:, 2] > 0) | ((V[:, 2] == 0) & ((V[:, 0] < 0) | ((V[:, 0] == 0) & (V[:, 1] < 0))))
@@ -35,6 +39,9 @@ def brute(c, v, *, lag, n_lags, direction=None, tol_deg=22.5, lag_tol=None, band
             u = np.asarray(direction, float) / np.linalg.norm(direction)
         u = geometry.to_lower_hemisphere(u)
         dot = V[:, 0] * u[0] + V[:, 1] * u[1] + V[:, 2] * u[2]
+        # along a direction the head is the sample further along it (issue 17)
+        h = np.where(dot > 0, v[j], v[i])
+        t = np.where(dot > 0, v[i], v[j])
         ok &= d > 0
         if tol_deg < 90:
             ok &= np.abs(dot) >= d * math.cos(math.radians(tol_deg))
@@ -374,3 +381,102 @@ def test_cone_variogram_validation(volume):
         cone_variogram(volume, (0.0, 0.0), angular_tolerance=120.0)
     with pytest.raises(InputError, match="bandwidth"):
         cone_variogram(volume, (0.0, 0.0), angular_tolerance=20.0, bandwidth=-1.0)
+
+
+# ---------------------------------------------------------------------------
+# head and tail along a direction whose cone crosses the horizontal (issue 17)
+# ---------------------------------------------------------------------------
+
+@pytest.fixture(scope="module")
+def trend_field():
+    """Samples with a strong linear trend, so that head and tail means differ."""
+    rng = np.random.default_rng(23)
+    c = rng.random((400, 3)) * [80.0, 80.0, 30.0]
+    c -= c.min(axis=0)
+    u = geometry.line_to_vector(120.0, 0.0)
+    v = 0.08 * (c @ u) + 0.05 * c[:, 2] + rng.normal(0.0, 0.6, len(c))
+    return c, v
+
+
+def _along(c, v, u):
+    """Brute force over all pairs (i < j): lag vectors, head and tail, head = further along u."""
+    i, j = np.triu_indices(len(c), 1)
+    V = c[j] - c[i]
+    dot = V @ u
+    h = np.where(dot > 0, v[j], v[i])
+    t = np.where(dot > 0, v[i], v[j])
+    return V, h, t
+
+
+@pytest.mark.parametrize("direction,tol", [((120.0, 0.0), 20.0), ((300.0, 10.0), 20.0),
+                                           ((45.0, 5.0), 30.0)])
+def test_directional_correlogram_takes_head_along_the_direction(trend_field, direction, tol):
+    # reference: 1 - numpy.corrcoef(head, tail) over the pairs of each class, with
+    # head = the sample further along the direction (brute force over all pairs)
+    c, v = trend_field
+    u = geometry.line_to_vector(*direction)
+    i, j = np.triu_indices(len(c), 1)
+    V, h, t = _along(c, v, u)
+    d = np.linalg.norm(V, axis=1)
+    ok = np.abs(V @ u) >= d * math.cos(math.radians(tol))
+    df = experimental_variogram(c, v, lag=5.0, n_lags=8, direction=direction,
+                                angular_tolerance=tol, estimator="correlogram")
+    worst_mixed = 0.0
+    for k in range(1, 9):
+        m = ok & (k * 5.0 - 2.5 < d) & (d <= k * 5.0 + 2.5)
+        want = 1 - np.corrcoef(h[m], t[m])[0, 1]
+        assert df["value"][k - 1] == pytest.approx(want, rel=1e-9, abs=1e-12)
+        # the canonical (lower-hemisphere) head, as before the fix, is off in these cones
+        flip = (V[m, 2] > 0) | ((V[m, 2] == 0) & (V[m, 0] < 0))
+        hc = np.where(flip, v[i][m], v[j][m])
+        tc = np.where(flip, v[j][m], v[i][m])
+        worst_mixed = max(worst_mixed, abs(1 - np.corrcoef(hc, tc)[0, 1] - want))
+    assert worst_mixed > 0.01   # the test would catch the mixed pairs
+
+
+def test_fan_and_cone_correlogram_take_head_along_the_direction():
+    # Three benches at exact elevations with a grade trend: in-bench lags are horizontal,
+    # across-bench lags plunge 14-20 degrees either way, so a 20-degree cone about a
+    # horizontal direction gathers cells whose canonical lags point both ways. Reference:
+    # 1 - numpy.corrcoef(head, tail) over the same pairs (each pair's fine cell from the
+    # lattice lookup, as the kernel files it), head = the sample further along.
+    from anisotropy.estimators import estimate
+
+    rng = np.random.default_rng(29)
+    c = rng.random((450, 3)) * [80.0, 80.0, 0.0]
+    c[:, 2] = np.repeat([0.0, 10.0, 20.0], 150)
+    u0 = geometry.line_to_vector(120.0, 0.0)
+    v = 0.08 * (c @ u0) + 0.05 * c[:, 2] + rng.normal(0.0, 0.6, len(c))
+    vol = build_volume(c, v, lag=5.0, n_lags=8, progress=False)
+    table = _lattice.direction_table(vol.directions)
+    i, j = np.triu_indices(len(c), 1)
+    V = c[j] - c[i]
+    d = np.linalg.norm(V, axis=1)
+    k = np.ceil(d / 5.0 - 0.5).astype(int)
+    use = (k >= 1) & (k <= 8) & (d > 0)
+    cell = np.zeros(len(d), dtype=int)
+    cell[use] = _lattice.lookup(V[use], table)
+    dirs = [(120.0, 0.0), (300.0, 10.0), (45.0, 5.0)]
+    fan = variogram_fan(vol, dirs, angular_tolerance=20.0, estimator="correlogram")
+    fan_b = variogram_fan(vol, dirs, angular_tolerance=20.0, bandwidth=8.0,
+                          estimator="correlogram")
+    worst_mixed = 0.0
+    for n, direction in enumerate(dirs):
+        u = geometry.line_to_vector(*direction)
+        _, h, t = _along(c, v, u)
+        ang = geometry.axis_angle(vol.directions[cell], u)
+        cone = vol.aggregate(direction, 20.0)
+        mixed = estimate(np.einsum("kf,kfc->kc", vol.cell_mask(direction, 20.0).astype(float),
+                                   vol.sums), "correlogram")   # the cells summed as stored
+        for kk in range(1, 9):
+            m = use & (ang <= 20.0) & (k == kk)
+            want = 1 - np.corrcoef(h[m], t[m])[0, 1]
+            assert fan.value[n, kk - 1] == pytest.approx(want, rel=1e-9)
+            assert estimate(cone[kk:kk + 1], "correlogram")[0] == pytest.approx(want, rel=1e-9)
+            worst_mixed = max(worst_mixed, abs(mixed[kk] - want))
+            # bandwidth rule at class centres and cell axes (pairs module docstring)
+            mb = m & (kk * 5.0 * np.sin(np.radians(ang)) <= 8.0)
+            if mb.sum() > 2:
+                want_b = 1 - np.corrcoef(h[mb], t[mb])[0, 1]
+                assert fan_b.value[n, kk - 1] == pytest.approx(want_b, rel=1e-9)
+    assert worst_mixed > 0.01   # without turning the cells round the test would fail

@@ -236,7 +236,10 @@ def test_spacing_blast_holes_known_bench(rng):
     s = nominal_spacing(coords)
     assert s.layout == "benches" and s.n_levels == 4
     assert s.bench == pytest.approx(10.0, abs=0.3)     # bench height by construction (+-jitter)
-    assert s.across_hole == pytest.approx(4.0)         # burden 4 m < spacing 5 m
+    # pattern 4 x 5 m by construction: area per hole 20 m2, equivalent square spacing
+    # sqrt(20) m (issue 17); the in-bench nearest neighbour, the burden, is reported beside it
+    assert s.across_hole == pytest.approx(np.sqrt(4.0 * 5.0), rel=0.02)
+    assert s.plan_nearest == pytest.approx(4.0)        # burden 4 m < spacing 5 m
     assert s.down_hole is None
     assert s.suggested_lag["vertical"] == pytest.approx(10.0)
     # a single bench is one level, no vertical lag
@@ -375,3 +378,65 @@ def test_summary_wording_units_and_trend_direction():
     text = explore(flat, r.lognormal(0, 1, 200)).summary()
     vertical = next(ln for ln in text.splitlines() if "suggested unit lag vertical" in ln)
     assert "n/a m" not in vertical and "(tolerance n/a)" in vertical
+
+
+
+# ---------------------------------------------------------------------------
+# blast-hole pattern spacing from the area per hole (issue 17)
+# ---------------------------------------------------------------------------
+
+def _jittered_benches(rng, a, b, n=(18, 18), benches=(0.0, 10.0, 20.0), jitter=0.2):
+    """Patterns a x b m (x by y) on exact bench elevations, each hole moved up to
+    jitter * a (x) and jitter * b (y) at random, as drilled holes stray from the plan."""
+    pts = []
+    for zb in benches:
+        xx, yy = np.meshgrid(np.arange(n[0]) * a, np.arange(n[1]) * b)
+        p = np.column_stack([xx.ravel(), yy.ravel()]).astype(float)
+        p += rng.uniform(-jitter, jitter, p.shape) * [a, b]
+        pts.append(np.column_stack([p, np.full(len(p), zb)]))
+    return np.vstack(pts)
+
+
+@pytest.mark.parametrize("a,b", [(4.0, 4.0), (5.0, 5.0), (6.0, 3.0)])
+def test_pattern_spacing_of_jittered_blast_holes(rng, a, b):
+    # known pattern a x b: area per hole a b, equivalent square spacing sqrt(a b)
+    coords = _jittered_benches(rng, a, b)
+    s = nominal_spacing(coords)
+    assert s.layout == "benches" and s.n_levels == 3
+    assert s.pattern == pytest.approx(np.sqrt(a * b), rel=0.04)
+    assert s.across_hole == s.pattern
+    assert s.suggested_lag["omni"] == pytest.approx(np.sqrt(a * b), rel=0.05)  # 2 sig. figs
+    # the nearest-neighbour figure, reported beside it, understates the jittered pattern
+    # (reference: scipy's cKDTree over each bench, brute force)
+    from scipy.spatial import cKDTree
+    nn = np.concatenate([cKDTree(coords[coords[:, 2] == z, :2]).query(
+        coords[coords[:, 2] == z, :2], k=2)[0][:, 1] for z in (0.0, 10.0, 20.0)])
+    assert s.plan_nearest == pytest.approx(np.median(nn))
+    assert s.plan_nearest < 0.85 * np.sqrt(a * b)
+    d = s.to_dict()
+    assert d["pattern"] == s.pattern and d["plan_nearest"] == s.plan_nearest
+    assert "area per sample" in d["pattern_method"]
+
+
+def test_footprint_spacing_on_a_regular_grid_by_hand():
+    # 12 x 9 positions 5 m by 3 m apart: hull 55 x 24 m, perimeter 158 m, n = 108.
+    # Solving 108 s^2 = 1320 + 79 s + pi s^2 / 4 by hand (quadratic formula):
+    from anisotropy.explore import footprint_spacing
+
+    xx, yy = np.meshgrid(np.arange(12) * 5.0, np.arange(9) * 3.0)
+    p = np.column_stack([xx.ravel(), yy.ravel()])
+    a = 108 - np.pi / 4
+    want = (79.0 + np.sqrt(79.0 ** 2 + 4 * a * 1320.0)) / (2 * a)
+    assert footprint_spacing(p) == pytest.approx(want, rel=1e-12)
+    assert want == pytest.approx(np.sqrt(15.0), rel=0.02)   # the pattern's own sqrt(a b)
+    # a repeated position counts once; a line or two positions have no area
+    assert footprint_spacing(np.vstack([p, p[:5]])) == pytest.approx(want, rel=1e-12)
+    assert footprint_spacing(p[:12]) is None and footprint_spacing(p[:2]) is None
+
+
+def test_one_level_reads_the_pattern_too(rng):
+    coords = _jittered_benches(rng, 5.0, 5.0, benches=(0.0,))
+    s = nominal_spacing(coords)
+    assert s.layout == "single_level"
+    assert s.across_hole == pytest.approx(5.0, rel=0.04)
+    assert s.plan_nearest < 4.5

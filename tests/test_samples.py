@@ -580,3 +580,94 @@ def test_public_helpers_for_other_modules():
         find_column(GOOD, "domian", role="domain", option="--domain")
     # by hand: 1.0 -> "1", " a " -> "a", NaN -> None
     assert domain_codes(pd.Series([1.0, " a ", np.nan])).tolist() == ["1", "a", None]
+
+
+# ---------------------------------------------------------------------------
+# repeated column names (issue 17)
+# ---------------------------------------------------------------------------
+
+@pytest.mark.parametrize("sep", [",", ";", "\t", " "])
+def test_a_repeated_column_name_is_refused_with_both_positions(tmp_path, sep):
+    # reference: the header line written by the test; positions counted by hand
+    # (x=1, y=2, z=3, Au=4, Au=5). pandas.read_csv alone would rename the second
+    # to 'Au.1' and read the table silently.
+    head = sep.join(["x", "y", "z", "Au", "Au"])
+    body = "\n".join(sep.join(str(v) for v in (i, 2 * i, 3, 0.5 + i, 9)) for i in range(6))
+    p = write(tmp_path, head + "\n" + body + "\n")
+    assert "Au.1" in pd.read_csv(p, sep=sep if sep != " " else r"\s+").columns  # the silent way
+    with pytest.raises(InputError) as e:
+        read_table(p)
+    msg = str(e.value)
+    assert str(p) in msg and "'Au'" in msg and "columns 4 and 5" in msg
+    assert "Rename" in msg
+
+
+def test_a_repeated_name_among_spaces_is_caught(tmp_path):
+    # 'Au' and ' Au ' are the same column name once the spaces are stripped
+    p = write(tmp_path, "x,y,z,Au, Au \n1,2,3,4,5\n2,3,4,5,6\n")
+    with pytest.raises(InputError, match="columns 4 and 5"):
+        read_table(p)
+
+
+def test_a_repeated_name_in_a_dataframe_is_refused():
+    # a DataFrame may hold two columns of one name (pandas allows it)
+    df = pd.DataFrame(np.arange(12.0).reshape(3, 4), columns=["x", "au", "y", "au"])
+    df["z"] = 1.0
+    with pytest.raises(InputError, match=r"'au' is the name of columns 2 and 4"):
+        samples_from_frame(df, value="au", source="frame")
+
+
+def test_a_repeated_name_in_parquet_is_refused(tmp_path):
+    pa = pytest.importorskip("pyarrow")
+    import pyarrow.parquet as pq
+
+    # pyarrow keeps repeated field names, so a Parquet file can hold them
+    cols = [pa.array([1.0, 2.0, 3.0]) for _ in range(5)]
+    table = pa.Table.from_arrays(cols, names=["x", "y", "z", "Au", "Au"])
+    p = tmp_path / "t.parquet"
+    pq.write_table(table, p)
+    with pytest.raises(InputError, match="columns 4 and 5"):
+        read_table(p)
+
+
+# ---------------------------------------------------------------------------
+# two-dimensional tables (issue 17)
+# ---------------------------------------------------------------------------
+
+def _plan_table(n=30, seed=3):
+    rng = np.random.default_rng(seed)
+    return pd.DataFrame({"Easting": 500.0 + rng.uniform(0, 100, n),
+                         "Northing": 7000.0 + rng.uniform(0, 100, n),
+                         "Cu_pct": rng.lognormal(0, 0.5, n)})
+
+
+def test_a_table_without_elevation_is_read_on_one_plane(tmp_path):
+    df = _plan_table()
+    p = write(tmp_path, df.to_csv(index=False))
+    s = read_samples(p, value="Cu_pct")
+    # reference: the old advice, the same table with a constant elevation column added,
+    # read by the unchanged 3D path
+    with_z = df.assign(RL=0.0)
+    q = read_samples(write(tmp_path, with_z.to_csv(index=False), "z.csv"), value="Cu_pct")
+    np.testing.assert_array_equal(s.coords, q.coords)
+    np.testing.assert_array_equal(s.values, q.values)
+    assert s.planar and q.planar
+    assert s.columns["z"] is None and s.to_dict()["columns"]["z"] is None
+    assert any("two-dimensional" in w and "--z" in w for w in s.warnings)
+    assert s.n == len(df) and not s.dropped
+
+
+def test_z_none_reads_a_table_as_two_dimensional_on_request():
+    df = _plan_table().assign(Elev=np.linspace(100, 130, 30))
+    s = samples_from_frame(df, value="Cu_pct", z="none")
+    assert s.columns["z"] is None and s.planar
+    np.testing.assert_array_equal(s.coords[:, 2], np.zeros(len(df)))
+    assert any("as asked" in w for w in s.warnings)
+
+
+def test_a_near_miss_elevation_is_still_refused_not_read_as_2d():
+    # 'Elevaton' is one letter off 'elevation' (difflib ratio >= 0.6): a typo, not a 2D table
+    df = _plan_table().assign(Elevaton=1.0)
+    with pytest.raises(ColumnError, match="closest match is 'Elevaton'") as e:
+        samples_from_frame(df, value="Cu_pct")
+    assert "--z none" in str(e.value)

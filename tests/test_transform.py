@@ -188,3 +188,97 @@ def test_property_round_trip_and_monotone(z, tails):
     assert np.all((z[:, None] == z[None, :]) == (y[:, None] == y[None, :]))
     back = ns.back_transform(np.linspace(-8, 8, 401))
     assert np.all(np.diff(back) >= -1e-9 * max(1.0, np.abs(back).max()))
+
+
+# ---------------------------------------------------------------------------
+# top-cut of a sample set (issue 17)
+# ---------------------------------------------------------------------------
+
+def _sample_set(rng, n=400):
+    import pandas as pd
+
+    from anisotropy.samples import samples_from_frame
+
+    df = pd.DataFrame({"x": rng.uniform(0, 100, n), "y": rng.uniform(0, 100, n),
+                       "z": rng.uniform(0, 50, n), "au": np.round(rng.lognormal(0, 1.2, n), 3)})
+    return samples_from_frame(df, value="au", source="t.csv"), df
+
+
+def test_top_cut_by_capping_counts_and_caps_like_numpy(rng):
+    from anisotropy.transform import apply_top_cut
+
+    s, df = _sample_set(rng)
+    thr = 6.0
+    out, cut = apply_top_cut(s, thr, "cap")
+    # references: numpy.minimum and a brute-force count on the table written here
+    over = df["au"].to_numpy() > thr
+    np.testing.assert_array_equal(out.values, np.minimum(df["au"].to_numpy(), thr))
+    assert cut.n_capped == int(over.sum()) > 0 and cut.n_excluded == 0
+    assert cut.rows == [int(r) for r in np.flatnonzero(over) + 1]  # data rows count from 1
+    key = next(k for k in out.changed if k.startswith("top-cut"))
+    assert out.changed[key] == cut.n_capped and out.changed_rows[key] == cut.rows
+    removed = np.sum(df["au"].to_numpy()[over] - thr) / df["au"].sum() * 100
+    assert cut.metal_removed_pct == pytest.approx(removed, rel=1e-12)
+    assert s.values.max() > thr  # the input is left as it was
+    assert any("top-cut 6" in w and "capping" in w for w in out.warnings)
+    d = cut.to_dict()
+    assert d["threshold"] == 6.0 and d["mode"] == "cap" and d["method"] == "given"
+
+
+def test_top_cut_by_exclusion_leaves_the_samples_out_and_keeps_the_books(rng):
+    from anisotropy.transform import apply_top_cut
+
+    s, df = _sample_set(rng)
+    out, cut = apply_top_cut(s, 6.0, "exclude")
+    keep = df["au"].to_numpy() <= 6.0
+    # reference: boolean indexing of the table written here
+    np.testing.assert_array_equal(out.values, df["au"].to_numpy()[keep])
+    np.testing.assert_allclose(out.world_coords, df[["x", "y", "z"]].to_numpy()[keep])
+    assert cut.n_excluded == int((~keep).sum()) > 0 and cut.n_capped == 0
+    assert out.n_read == out.n + sum(out.dropped.values())   # nothing lost unaccounted
+    assert list(out.rows) == [int(r) for r in np.flatnonzero(keep) + 1]
+
+
+def test_top_cut_auto_takes_the_99_percent_quantile_when_there_is_no_break(rng):
+    from anisotropy.explore import detect_logprob_break
+    from anisotropy.transform import apply_top_cut
+
+    # normal grades: no steeper upper tail on the log-probability plot
+    s, _ = _sample_set(rng)
+    s.values = np.abs(rng.normal(10.0, 1.0, s.n))
+    assert detect_logprob_break(s.values) is None
+    choices = []
+    out, cut = apply_top_cut(s, "auto", choices=choices)
+    # reference: numpy's linear quantile, the 99 % rule of thumb (common practice)
+    assert cut.threshold == pytest.approx(np.quantile(s.values, 0.99), rel=1e-12)
+    assert cut.method == "quantile_0.99" and "99 % quantile" in cut.reason
+    assert choices and choices[0]["choice"] == "top-cut" and choices[0]["reason"] == cut.reason
+
+
+def test_suggested_topcut_rule_on_candidates_written_by_hand():
+    from anisotropy.explore import suggested_topcut
+
+    def c(method, value, aggressive):
+        return {"method": method, "value": value, "aggressive": aggressive, "reason": "r",
+                "n_capped": 3, "metal_removed_pct": 20.0 if aggressive else 2.0}
+
+    q = [c("quantile_0.975", 5, True), c("quantile_0.99", 8, False), c("quantile_0.995", 9, False)]
+    assert suggested_topcut(q)["method"] == "quantile_0.99"
+    assert suggested_topcut(q + [c("logprob_break", 7, False)])["method"] == "logprob_break"
+    assert suggested_topcut(q + [c("logprob_break", 4, True)])["method"] == "quantile_0.99"
+    q[1]["aggressive"] = True
+    assert suggested_topcut(q)["method"] == "quantile_0.995"
+    q[2]["aggressive"] = True
+    assert suggested_topcut(q)["value"] == 9 and "every candidate" in suggested_topcut(q)["reason"]
+    assert suggested_topcut([]) is None
+
+
+@pytest.mark.parametrize("bad", ["high", "-1", 0, float("nan"), True])
+def test_top_cut_setting_is_checked(bad):
+    from anisotropy.transform import parse_top_cut
+
+    with pytest.raises(InputError):
+        parse_top_cut(bad)
+    with pytest.raises(InputError, match="cap.*exclude"):
+        parse_top_cut(5.0, "clip")
+    assert parse_top_cut("AUTO") == ("auto", "cap") and parse_top_cut("12.5") == (12.5, "cap")

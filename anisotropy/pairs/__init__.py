@@ -108,6 +108,53 @@ ESTIMATOR_CHANNELS = {"semivariogram": ("sq",), "correlogram": ("head", "tail", 
                       "pairwise_relative": ("rel", "rel_n"), "madogram": ("abs",), "robust": ("sqrt",)}
 
 
+def against_cells(sums, directions, U) -> np.ndarray:
+    """Fine cells whose pairs' canonical lag points against each direction, (n_dir, n_fine).
+
+    Read from the cell's summed canonical lag vector (channels dx, dy, dz
+    over every class), and from the cell axis where the cell is empty. The
+    summed vector, not the axis, decides because a cell on the rim of the
+    lattice (near-horizontal lags) may be filed under an axis pointing the
+    other way round (axes are undirected; the canonical lag of an exactly
+    horizontal pair has x > 0 whatever its cell). A rim cell holding pairs of
+    both orientations (lags within a fraction of a cell of the horizontal,
+    above and below it) cannot be split from its sums; its minority keeps
+    the other orientation.
+    """
+    M = np.asarray(sums, dtype=np.float64)[..., [CH["dx"], CH["dy"], CH["dz"]]].sum(axis=0)
+    empty = ~np.any(M != 0.0, axis=1)
+    M[empty] = np.asarray(directions, dtype=np.float64)[empty]
+    return np.atleast_2d(np.asarray(U, dtype=np.float64)) @ M.T < 0.0
+
+
+def turn_round(out, against, sums, subscripts):
+    """Swap head and tail (and their squares) of the bins ``against`` in summed channels.
+
+    A directional variogram gathers bins whose canonical lag can point either
+    way along its direction (a cone crossing the horizontal). Its head must be
+    the sample further along the direction, so in the bins whose canonical lag
+    points against it head and tail are exchanged (issue 17). ``out`` holds
+    the gathered sums (channels last) and is changed in place:
+    ``out[..., head] += einsum(subscripts, against, sums[..., tail] -
+    sums[..., head])`` and ``out[..., tail]`` loses the same (likewise head2,
+    tail2); cross, the squared differences and every other channel are
+    symmetric in the two samples and are left alone.
+
+    Returns
+    -------
+    ndarray
+        ``out``.
+    """
+    w = np.asarray(against, dtype=np.float64)
+    if not w.any() or np.isnan(sums[..., CH["head"]]).all():   # no head/tail channels kept
+        return out
+    for h, t in ((CH["head"], CH["tail"]), (CH["head2"], CH["tail2"])):
+        d = np.einsum(subscripts, w, sums[..., t] - sums[..., h])
+        out[..., h] += d
+        out[..., t] -= d
+    return out
+
+
 def resolve_channels(spec) -> tuple:
     """Channels kept by block or map sums for a ``block_channels``/``map_channels`` value.
 
@@ -491,7 +538,11 @@ class LagVolume:
         bandwidth : float or None, metres (applied at class centres)
         """
         mask = self.cell_mask(direction, angular_tolerance, bandwidth)
-        return np.einsum("kf,kfc->kc", mask.astype(np.float64), self.sums)
+        out = np.einsum("kf,kfc->kc", mask.astype(np.float64), self.sums)
+        if direction is not None:   # head = the sample further along the direction
+            against = against_cells(self.sums, self.directions, direction_vector(direction))[0]
+            turn_round(out, mask & against[None, :], self.sums, "kf,kf->k")
+        return out
 
     def coarse_sums(self, block_weights=None) -> np.ndarray:
         """Sums (n_lags + 1, n_coarse, n_ch) on the coarse lattice.

@@ -943,6 +943,14 @@ def exact_pass(x, y, z, v, start, dims, occupied, offsets, q0, q1, n_chunks,
                                 continue
                             if use_band and d2 - dot * dot > band2:
                                 continue
+                            # head = the sample further along the direction (issue 17): where
+                            # the canonical lag points against it, hand _add_pair the reversed
+                            # lag, which turns head and tail round and nothing else
+                            key = dz if dz != 0.0 else (-dx if dx != 0.0 else -dy)
+                            if (dot < 0.0) != (key > 0.0):
+                                dx = -dx
+                                dy = -dy
+                                dz = -dz
                         vj = v[j]
                         if narrow:
                             # nearest class centre; a neighbour only when rounding may put d

@@ -164,7 +164,8 @@ def _fig_logprob(disc, path, topcut):
 
 def _labels(disc) -> dict:
     cols = getattr(disc.samples, "columns", {}) or {}
-    return {"value_name": str(cols.get("value") or "grade")}
+    units = str((getattr(disc, "diagnostics", None) or {}).get("grade_units") or "")  # --units
+    return {"value_name": str(cols.get("value") or "grade"), "units": units}
 
 
 def _map_plane_basis(normal):
@@ -426,7 +427,8 @@ def _topcut(disc):
     rec = _transform_record(disc)
     for k in ("cap", "topcut", "top_cut"):
         if rec.get(k) is not None:
-            return float(rec[k])
+            v = rec[k]   # top_cut is the record of anisotropy.transform.TopCut
+            return float(v["threshold"] if isinstance(v, dict) else v)
     return None
 
 
