@@ -196,48 +196,41 @@ def backward(A, k, v):
 
 
 @njit(cache=True)
-def pair_grad(S, Y, inv_r, codes, shares, a, b, out):
-    """Derivatives of ``C(a, b)`` (``a != b``) into ``out``.
+def _add_pair(S, codes, shares, a, b, wq, wl, gq, gl):
+    """``gq += wq s(a, b)`` and ``gl += wl s(a, b)`` for a pair ``a != b``.
 
-    Layout: frame entries ``F[e, d]`` at ``3 e + d``, then log ranges
-    ``9 + 3 k + d``, then shares (nugget first) ``9 + 3 K + j``.
+    ``s`` holds, per structure ``k``, the six entries of
+    ``f_k g(h_k) u u'`` (00, 11, 22, 01, 02, 12) and ``rho_k(h_k)`` at
+    ``7 k .. 7 k + 6`` (see the module notes).
     """
-    K = S.shape[0]
-    g0 = 0.0
-    g1 = 0.0
-    g2 = 0.0
-    base = 9 + 3 * K
-    out[base] = 0.0
-    for k in range(K):
+    for k in range(S.shape[0]):
         u0 = S[k, a, 0] - S[k, b, 0]
         u1 = S[k, a, 1] - S[k, b, 1]
         u2 = S[k, a, 2] - S[k, b, 2]
         h = np.sqrt(u0 * u0 + u1 * u1 + u2 * u2)
-        sg = shares[k] * slope_over_h(codes[k], h)
-        g0 += sg * u0 * inv_r[k, 0]
-        g1 += sg * u1 * inv_r[k, 1]
-        g2 += sg * u2 * inv_r[k, 2]
-        out[9 + 3 * k] = -sg * u0 * u0
-        out[10 + 3 * k] = -sg * u1 * u1
-        out[11 + 3 * k] = -sg * u2 * u2
-        out[base + 1 + k] = rho(codes[k], h)
-    for e in range(3):
-        D = Y[a, e] - Y[b, e]
-        out[3 * e] = D * g0
-        out[3 * e + 1] = D * g1
-        out[3 * e + 2] = D * g2
+        g = shares[k] * slope_over_h(codes[k], h)
+        sq = wq * g
+        sl = wl * g
+        rk = rho(codes[k], h)
+        j = 7 * k
+        gq[j] += sq * u0 * u0
+        gq[j + 1] += sq * u1 * u1
+        gq[j + 2] += sq * u2 * u2
+        gq[j + 3] += sq * u0 * u1
+        gq[j + 4] += sq * u0 * u2
+        gq[j + 5] += sq * u1 * u2
+        gq[j + 6] += wq * rk
+        gl[j] += sl * u0 * u0
+        gl[j + 1] += sl * u1 * u1
+        gl[j + 2] += sl * u2 * u2
+        gl[j + 3] += sl * u0 * u1
+        gl[j + 4] += sl * u0 * u2
+        gl[j + 5] += sl * u1 * u2
+        gl[j + 6] += wl * rk
 
 
 @njit(cache=True)
-def _add_pair(S, Y, inv_r, codes, shares, a, b, tmp, wq, wl, gq, gl):
-    pair_grad(S, Y, inv_r, codes, shares, a, b, tmp)
-    for j in range(tmp.shape[0]):
-        gq[j] += wq * tmp[j]
-        gl[j] += wl * tmp[j]
-
-
-@njit(cache=True)
-def _set_grad(S, Y, inv_r, codes, shares, i, idx, k, w, bb, e, var, tmp, gq, gl):
+def _set_grad(S, codes, shares, i, idx, k, w, bb, e, var, gq, gl):
     """One conditioning set's share of ``Gq`` and ``Gl`` (see the module notes)."""
     K = S.shape[0]
     aq = -e * e / (var * var)  # weight of dv in Gq
@@ -249,31 +242,31 @@ def _set_grad(S, Y, inv_r, codes, shares, i, idx, k, w, bb, e, var, tmp, gq, gl)
     for r in range(k):
         dq += w[r] * (aq * w[r] + bq * bb[r])
         dl += al * w[r] * w[r]
-    for j in range(K + 1):
-        gq[9 + 3 * K + j] += dq
-        gl[9 + 3 * K + j] += dl
+    gq[7 * K] += dq
+    gl[7 * K] += dl
     for r in range(k):
         a = idx[r]
         # the neighbour-sample covariances k: weight -(2 alpha w + beta b)
-        _add_pair(S, Y, inv_r, codes, shares, a, i, tmp,
+        _add_pair(S, codes, shares, a, i,
                   -(2.0 * aq * w[r] + bq * bb[r]), -2.0 * al * w[r], gq, gl)
         for t in range(r):
             wq = w[r] * (aq * w[t] + bq * bb[t]) + w[t] * (aq * w[r] + bq * bb[r])
-            _add_pair(S, Y, inv_r, codes, shares, a, idx[t], tmp, wq,
+            _add_pair(S, codes, shares, a, idx[t], wq,
                       2.0 * al * w[r] * w[t], gq, gl)
 
 
 @njit(cache=True, parallel=True)
-def vecchia_terms_grad(S, Y, y, nbr, codes, shares, nugget, inv_r):
+def vecchia_terms_grad(S, y, nbr, codes, shares, nugget):
     """As :func:`vecchia_terms`, with the raw gradients ``Gq`` and ``Gl``.
 
-    Returns ``(q, ld, Gq, Gl, ok)``; the gradients are laid out as in
-    :func:`pair_grad`. The value is computed with the same arithmetic as
+    Returns ``(q, ld, Gq, Gl, ok)``; the raw gradients hold ``7 K + 1``
+    sums: per structure the layout of :func:`_add_pair`, then the weight of
+    the diagonal (``dc0`` and ``diag dSigma``, 1 for every share). The value is computed with the same arithmetic as
     :func:`vecchia_terms` (same bits).
     """
     n, m = nbr.shape
     K = S.shape[0]
-    P = 10 + 4 * K
+    P = 7 * K + 1
     nc = TERM_CHUNKS
     qs = np.zeros(nc)
     lds = np.zeros(nc)
@@ -286,7 +279,8 @@ def vecchia_terms_grad(S, Y, y, nbr, codes, shares, nugget, inv_r):
         kv = np.empty(m)
         yv = np.empty(m)
         idx = np.empty(m, dtype=np.int64)
-        tmp = np.empty(P)
+        gq = np.zeros(P)  # thread-local, copied out at the end of the chunk
+        gl = np.zeros(P)
         q = 0.0
         ld = 0.0
         for i in range(c * n // nc, (c + 1) * n // nc):
@@ -315,9 +309,10 @@ def vecchia_terms_grad(S, Y, y, nbr, codes, shares, nugget, inv_r):
             ld += np.log(var)
             backward(A, k, kv)  # w = Sigma^-1 k
             backward(A, k, yv)  # b = Sigma^-1 y_N
-            _set_grad(S, Y, inv_r, codes, shares, i, idx, k, kv, yv, e, var, tmp,
-                      gqs[c], gls[c])
+            _set_grad(S, codes, shares, i, idx, k, kv, yv, e, var, gq, gl)
         qs[c] = q
+        gqs[c] = gq
+        gls[c] = gl
         lds[c] = ld
     gq = np.zeros(P)
     gl = np.zeros(P)

@@ -292,21 +292,40 @@ def vecchia_negloglik_grad(p, Y, y, nbr, kinds):
     """
     p = np.asarray(p, float)
     K = len(kinds)
-    codes, _, ranges, nug, shares, S = _model_arrays(p, Y, kinds)
-    Yc = np.ascontiguousarray(Y, dtype=float)
-    q, ld, gq, gl, ok = _vecchia_terms_grad(S, Yc, np.ascontiguousarray(y, dtype=float),
+    codes, frame, ranges, nug, shares, S = _model_arrays(p, Y, kinds)
+    q, ld, gq, gl, ok = _vecchia_terms_grad(S, np.ascontiguousarray(y, dtype=float),
                                             np.ascontiguousarray(nbr, dtype=np.int64),
-                                            codes, shares, nug, 1.0 / ranges)
+                                            codes, shares, nug)
     if not ok or not np.isfinite(q) or q <= 0:
         return 1e30, np.zeros_like(p)
     n = len(y)
     G = n / (2.0 * q) * gq + 0.5 * gl
-    dR = _rotation_jacobian(p[:3])
-    g_rot = np.einsum("ed,jed->j", G[:9].reshape(3, 3), dR)
-    gf = G[9 + 3 * K:]
+    g_frame, g_logr, gf = _raw_to_model(G, frame, ranges)
+    g_rot = np.einsum("ed,jed->j", g_frame, _rotation_jacobian(p[:3]))
     f = np.r_[nug, shares]
     g_logit = f * (gf - gf @ f)  # softmax chain rule; the last logit is fixed
-    return float(0.5 * (n * np.log(q / n) + ld)), np.r_[g_rot, G[9:9 + 3 * K], g_logit[:K]]
+    return float(0.5 * (n * np.log(q / n) + ld)), np.r_[g_rot, g_logr, g_logit[:K]]
+
+
+def _raw_to_model(G, frame, ranges):
+    """The kernel's raw sums to derivatives by the frame, log ranges and shares.
+
+    Per structure ``k`` the kernel sums ``M_k = sum w f_k g(h) u u'`` over
+    pairs (``u`` the scaled lag in the frame). Then ``d/d log r_kd = -M_k[d, d]``
+    and, as the lag ``y_a - y_b = F diag(r_k) u``,
+    ``d/dF = sum_k F diag(r_k) M_k diag(1 / r_k)``.
+    """
+    K = len(ranges)
+    g_frame = np.zeros((3, 3))
+    g_logr = np.empty((K, 3))
+    gf = np.full(K + 1, G[7 * K])
+    for k in range(K):
+        a = G[7 * k:7 * k + 7]
+        M = np.array([[a[0], a[3], a[4]], [a[3], a[1], a[5]], [a[4], a[5], a[2]]])
+        g_logr[k] = -np.diag(M)
+        g_frame += frame @ (ranges[k][:, None] * M / ranges[k][None, :])
+        gf[k + 1] += a[6]
+    return g_frame, g_logr.ravel(), gf
 
 
 @dataclass(frozen=True)
