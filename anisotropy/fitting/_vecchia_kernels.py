@@ -18,18 +18,22 @@ the conditional variance and innovation are ``v = c0 - k.w`` and
     dv = dc0 - 2 w.dk + w' dSigma w,      de = -b.dk + w' dSigma b.
 
 With ``q = sum e^2 / v`` and ``-log L = n/2 log(q/n) + 1/2 sum log v``, the
-kernel accumulates, per parameter, ``Gq = sum (2 e de / v - e^2 dv / v^2)``
-and ``Gl = sum dv / v``; the caller forms ``n / (2 q) Gq + Gl / 2``.
-Every ``dC`` is a sum over sample pairs of the derivatives of
-``C(a, b)`` with respect to the 3 x 3 frame entries, the log ranges and the
-shares (held independent here; the caller chains them to the rotation
-vector and the share logits).
+derivative is ``n / (2 q) Gq + Gl / 2`` with ``Gq = sum (2 e de / v - e^2 dv / v^2)``
+and ``Gl = sum dv / v`` over the sets. Both are sums over sample pairs of a
+weight (from ``w``, ``b``, ``e``, ``v``) times the derivatives of ``C(a, b)``.
 
-With ``g(h) = rho'(h) / h`` and ``u = (y_a - y_b) F / r_k`` (so ``h = |u|``):
+With ``g(h) = rho'(h) / h`` and ``u = (y_a - y_b) F / r_k`` (so ``h_k = |u|``):
 
 * ``dC / d log r_kd = -f_k g(h_k) u_d^2``;
 * ``dC / dF_ed = (y_a - y_b)_e sum_k f_k g(h_k) u_kd / r_kd``;
 * ``dC / df_k = rho_k(h_k)``, ``dC / df0 = [a == b]``.
+
+Since ``y_a - y_b = F diag(r_k) u``, both the frame and the range derivatives
+follow from the weighted moments ``M_k = sum w f_k g(h_k) u u'`` (six
+numbers per structure) and ``sum w rho_k``: the kernel accumulates those
+(thread-local, per fixed chunk) and the caller turns them into derivatives
+by the frame entries, log ranges and shares (held independent here), then
+chains them to the rotation vector and the share logits.
 
 Derivatives of the correlation functions, from the formulas above:
 spherical ``rho' = -3/2 + 3/2 h^2`` (``h < 1``); exponential

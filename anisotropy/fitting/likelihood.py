@@ -63,7 +63,9 @@ class LikelihoodFit:
     n_samples, n_neighbours : int
         Samples used (after subsampling) and neighbours per sample.
     info : dict
-        Optimiser message and evaluations.
+        Optimiser message, function and gradient evaluations (``nfev``,
+        ``njev``), the gradient used, and the conditioning setup's summary
+        (:meth:`VecchiaSetup.to_dict`: samples used, dropped, hole-aware).
     """
 
     frame: np.ndarray
@@ -75,6 +77,16 @@ class LikelihoodFit:
     n_samples: int
     n_neighbours: int
     info: dict = field(default_factory=dict)
+
+    def to_dict(self) -> dict:
+        return {"frame": np.asarray(self.frame, float).tolist(),
+                "ranges": np.asarray(self.ranges, float).tolist(),
+                "nugget_share": float(self.nugget_share),
+                "shares": [float(x) for x in self.shares],
+                "negloglik": float(self.negloglik),
+                "negloglik_start": float(self.negloglik_start),
+                "n_samples": int(self.n_samples), "n_neighbours": int(self.n_neighbours),
+                "info": dict(self.info)}
 
 
 def vecchia_neighbours(coords, m=DEFAULT_NEIGHBOURS, *, seed=0, metric=None, ordering="random",
@@ -553,7 +565,8 @@ def refine_frame_likelihood(coords, values, frame, ranges, nugget, sills, kinds,
     fr, rr, nug, sh = _unpack(p, K)
     info = {"message": str(res.message), "nfev": int(res.nfev),
             "njev": int(getattr(res, "njev", 0) or 0),
-            "gradient": gradient if method != "Nelder-Mead" else None}
+            "gradient": gradient if method != "Nelder-Mead" else None,
+            "setup": setup.to_dict()}
     return LikelihoodFit(frame=fr, ranges=rr, nugget_share=float(nug), shares=sh,
                          negloglik=float(min(res.fun, f0)),
                          negloglik_start=float(f0), n_samples=setup.n_samples,
