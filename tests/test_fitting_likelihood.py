@@ -315,3 +315,19 @@ def test_hole_aware_neighbours_follow_the_rule(m):
     # other holes), so exactly ceil(m/2) own-hole and m - ceil(m/2) other-hole ones
     L = lab[order]
     assert np.sum(L[nbr[-1]] == L[-1]) == -(-m // 2)
+
+
+def test_setup_keeps_hole_labels_with_their_rows():
+    # the labels must follow their rows through the dropped (non-finite) rows, the
+    # subsample and the order: the same brute force as above, in the start model's
+    # metric (frame / ranges of the longest structure), on the setup's own rows
+    X, lab = _three_holes([20, 20, 20])
+    y = np.random.default_rng(0).standard_normal(60)
+    y[5] = np.inf
+    R = np.array([[30.0, 20.0, 10.0]])
+    setup = vecchia_setup(X, y, frame=np.eye(3), ranges=R, n_neighbours=5, max_samples=55,
+                          seed=4, holes=lab)
+    assert setup.to_dict()["hole_aware"] and setup.n_dropped == 1 and setup.n_samples == 55
+    assert 5 not in setup.order
+    _check_hole_rule(X[setup.order] / R[0], lab[setup.order], setup.neighbours, 5)
+    np.testing.assert_allclose(setup.coords, X[setup.order] - X[setup.order].mean(axis=0))
