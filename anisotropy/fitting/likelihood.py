@@ -473,7 +473,10 @@ def _start_vector(frame, ranges, nugget, sills, K):
 
 def _search(p0, args, method, maxiter, ftol, gradient):
     """The minimisation; returns (SciPy result, value at the start)."""
-    f0 = vecchia_negloglik(p0, *args)
+    if method == "Nelder-Mead" or gradient == "numeric":
+        f0 = vecchia_negloglik(p0, *args)
+    else:  # same value; a run that needs the gradient then compiles one kernel, not two
+        f0 = vecchia_negloglik_grad(p0, *args)[0]
     if method == "Nelder-Mead":
         opts = dict(maxiter=int(maxiter), xatol=1e-3, fatol=1e-3, adaptive=True)
         return minimize(vecchia_negloglik, p0, args=args, method=method, options=opts), f0
