@@ -23,12 +23,22 @@ time, function and gradient evaluations, the negative log-likelihood
 reached, the largest angle between the two refined frames' axes, and each
 frame's major/minor-axis error against the truth.
 
-Run:  python benchmarks/bench_likelihood.py [--seed 1] [--repeats 1]
+With ``--main DIR`` (a checkout of main at 8eefe90, e.g.
+``git archive 8eefe90 | tar -x -C DIR``), the whole discovery (no
+bootstrap) of the demo's shoot domain (1,764 composites, holes given) is
+also timed for that tree and for this one, each in its own process, warm
+(the second of two runs), with the largest angle between their frames.
+
+Run:  python benchmarks/bench_likelihood.py [--seed 1] [--repeats 1] [--main DIR]
 """
 
 from __future__ import annotations
 
 import argparse
+import json
+import os
+import subprocess
+import sys
 import time
 
 import numpy as np
@@ -148,11 +158,50 @@ def bench_layout(name, X, y, holes, repeats):
     return rows
 
 
+_DISCOVER = """
+import json, sys, time
+from importlib.resources import files
+import numpy as np
+import anisotropy
+path = str(files("anisotropy") / "data" / "fenwright_composites.csv")
+for rep in range(2):
+    t, c = time.perf_counter(), time.process_time()
+    D = anisotropy.discover(path, value="au_gpt", domain="domain", domain_value="shoot",
+                            hole="hole_id", seed=20261201)
+    w, cc = time.perf_counter() - t, time.process_time() - c
+print(json.dumps({"wall": w, "cpu": cc, "frame": np.asarray(D.frame).tolist(),
+                  "file": anisotropy.__file__}))
+"""
+
+
+def discover_demo(root):
+    env = dict(os.environ, PYTHONPATH=str(root))
+    out = subprocess.run([sys.executable, "-c", _DISCOVER], cwd=root, env=env, check=True,
+                         capture_output=True, text=True).stdout
+    return json.loads(out.strip().splitlines()[-1])
+
+
+def compare_discover(main_root):
+    here = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+    print("\nwhole discovery of the demo shoot (no bootstrap), warm:")
+    runs = {"main": discover_demo(main_root), "this": discover_demo(here)}
+    for k, r in runs.items():
+        print(f"  {k:>5}: wall {r['wall']:6.1f} s  cpu {r['cpu']:6.1f} s  ({r['file']})")
+    print(f"  largest axis angle between the two frames: "
+          f"{frame_angle(np.array(runs['main']['frame']), np.array(runs['this']['frame'])):.3f} deg")
+
+
 def main():
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--seed", type=int, default=1)
     ap.add_argument("--repeats", type=int, default=1)
+    ap.add_argument("--main", default=None, help="checkout of main to time discovery against")
+    ap.add_argument("--skip-refine", action="store_true")
     a = ap.parse_args()
+    if a.main:
+        compare_discover(a.main)
+    if a.skip_refine:
+        return
     rng = np.random.default_rng(a.seed)
     # compile (or load from the cache) outside the timings
     Xw = rng.uniform(0, 50, (120, 3))
