@@ -187,8 +187,7 @@ def run(data, p: DiscoverParams) -> Discovery:
            lag=p.lag, n_lags=p.n_lags, pair_budget=p.pair_budget)
     t.say(f"pairs: unit lag {lc.unit_lag:.3g} m, {lc.n_lags} lags, {samples.n} samples")
     pv = t("volume", build_volume, samples.coords, tc.values, lc, estimator=p.estimator,
-           coarse_spacing=p.coarse_spacing, progress=p.progress, source=samples.source,
-           for_bootstrap=p.n_bootstrap > 0)
+           coarse_spacing=p.coarse_spacing, progress=p.progress, source=samples.source)
     wb = t("bins", weighted_bins, pv, samples.coords, tc.values, holes=samples.holes,
            spacing=prep.spacing, lags=lc, total=sc.total, estimator=p.estimator,
            min_pairs=p.min_pairs_bin, source=samples.source)

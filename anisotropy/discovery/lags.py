@@ -180,7 +180,7 @@ class PairVolume:
     """The lag-vector volume of the one pass over pairs, with its bootstrap blocks."""
 
     volume: LagVolume
-    block_side: float | None
+    block_side: float
     choices: tuple[dict, ...] = ()
     warnings: tuple[str, ...] = ()
 
@@ -194,8 +194,7 @@ class PairVolume:
 
 
 def build_volume(coords, values, lags: LagChoice, *, estimator="semivariogram",
-                 coarse_spacing=None, progress=False, source="<table>",
-                 for_bootstrap=False) -> PairVolume:
+                 coarse_spacing=None, progress=False, source="<table>") -> PairVolume:
     """One pass over the pairs into the lag-vector volume.
 
     Only the chosen estimator's channels are kept: everything downstream (fits,
@@ -211,8 +210,7 @@ def build_volume(coords, values, lags: LagChoice, *, estimator="semivariogram",
     InsufficientDataError
         Fewer than 100 pairs within the reach.
     """
-    side = float(engine_block_side(coords, max_side=lags.max_distance)) if for_bootstrap \
-        else None
+    side = float(engine_block_side(coords, max_side=lags.max_distance))
     choice = {"choice": "bootstrap blocks", "value": side,
               "reason": "block side giving about 100 occupied blocks, so that the block "
                         "bootstrap has room to resample "
@@ -221,11 +219,10 @@ def build_volume(coords, values, lags: LagChoice, *, estimator="semivariogram",
                              else coarse_spacing)
     volume = _build_volume(coords, values, lag=lags.unit_lag, n_lags=lags.n_lags,
                            coarse_directions=coarse, progress=progress, channels=estimator,
-                           block_channels=estimator, map_channels=estimator,
-                           **({"blocks": side} if for_bootstrap else {}))
+                           block_channels=estimator, map_channels=estimator, blocks=side)
     if int(volume.n_pairs) < 100:
         raise InsufficientDataError(
             f"{source}: only {int(volume.n_pairs)} pairs of samples within "
             f"{lags.max_distance:.3g} m; a 3D variogram needs thousands. Use a longer "
             "lag (--lag) or more lags (--n-lags), or add samples.")
-    return PairVolume(volume=volume, block_side=side, choices=(choice,) if for_bootstrap else ())
+    return PairVolume(volume=volume, block_side=side, choices=(choice,))
