@@ -44,7 +44,8 @@ from anisotropy.discovery import (CAUTION, PLANAR_CAUTION, SCHEMA, DiscoverParam
                                   search_orientation, starting_frames, weighted_bins)
 from anisotropy.discovery.params import DEFAULT_FAN_SPACING
 
-__all__ = ["discover", "Discovery", "DiscoverParams", "SCHEMA", "CAUTION", "PLANAR_CAUTION"]
+__all__ = ["discover", "run_discovery", "Discovery", "DiscoverParams", "SCHEMA", "CAUTION",
+           "PLANAR_CAUTION"]
 
 
 class _Clock:
@@ -172,10 +173,10 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
         fan_spacing=fan_spacing, coarse_spacing=coarse_spacing, min_pairs=min_pairs,
         pair_budget=pair_budget, shared_ratios=shared_ratios,
         bootstrap_method=bootstrap_method, **intake)
-    return run(data, p)
+    return run_discovery(data, p)
 
 
-def run(data, p: DiscoverParams) -> Discovery:
+def run_discovery(data, p: DiscoverParams) -> Discovery:
     """The discovery chain for settings already checked (see :func:`discover`)."""
     t = _Clock(p.progress)
     samples = t("read", read, data, p)
