@@ -15,7 +15,8 @@ Inputs (all seeded):
 Floats are compared to printed precision: equal when they agree to
 ``--digits`` significant digits (default 6, the precision of the per-lag
 lists in ``discovery.json``).  Run times (any key named ``seconds``, and the
-summary's run time) are not compared.
+summary's run time) are not compared.  Choice rows are matched by name and
+the summaries by line (a unified diff), so one added row counts once.
 
 Run from the repository root::
 
@@ -27,6 +28,7 @@ Run from the repository root::
 from __future__ import annotations
 
 import argparse
+import difflib
 import json
 import math
 import re
@@ -115,13 +117,36 @@ def _walk(a, b, where, digits, diffs):
         diffs.append((where, a, b))
 
 
+def _keyed(case):
+    """Choice rows keyed by their name, summary lines as a diff: an added row is one change."""
+    if not case:
+        return case
+    case = json.loads(json.dumps(case))
+    diag = case["result"]["diagnostics"]
+    rows = {}
+    for row in diag.get("choices", []):
+        key = row["choice"]
+        while key in rows:
+            key += "'"
+        rows[key] = row
+    diag["choices"] = rows
+    return case
+
+
+def _summary_diff(a, b):
+    return [(".summary", line, "") for line in difflib.unified_diff(a or [], b or [], n=0,
+                                                                     lineterm="")
+            if line[:1] in "+-" and not line.startswith(("+++", "---"))]
+
+
 def compare(path_a, path_b, digits=6):
     A = json.loads(Path(path_a).read_text())
     B = json.loads(Path(path_b).read_text())
     n = 0
     for name in sorted(set(A) | set(B)):
-        diffs = []
-        _walk(A.get(name), B.get(name), "", digits, diffs)
+        a, b = _keyed(A.get(name)), _keyed(B.get(name))
+        diffs = _summary_diff((a or {}).pop("summary", None), (b or {}).pop("summary", None))
+        _walk(a, b, "", digits, diffs)
         n += len(diffs)
         print(f"{name}: {len(diffs)} difference(s) at {digits} significant digits")
         for where, x, y in diffs[:40]:
