@@ -17,10 +17,16 @@ from pathlib import Path
 import numpy as np
 
 from anisotropy.errors import FitError, InputError
-from anisotropy.fitting import FitBins, bins_from_sums, fit_nested
+from anisotropy.directional import Fan
+from anisotropy.explore import Exploration
+from anisotropy.fitting import (DirectionRanges, EllipsoidFit, FitBins, NestedFit,
+                                bins_from_sums, fit_nested)
 from anisotropy.geometry import (angles_from_frame, pitch_of, pole_to_plane, strike_of,
                                  vector_to_line)
 from anisotropy.models import NestedModel
+from anisotropy.pairs import LagVolume
+from anisotropy.samples import SampleSet
+from anisotropy.transform import TransformResult
 from anisotropy.uncertainty import (DEFAULT_REPLICATES, BootstrapResult, block_bootstrap,
                                     model_bootstrap)
 
@@ -213,15 +219,15 @@ class Discovery:
         return self.refinement.frame
 
     @property
-    def samples(self):
+    def samples(self) -> SampleSet:
         return self.prepared.samples
 
     @property
-    def exploration(self):
+    def exploration(self) -> Exploration:
         return self.prepared.exploration
 
     @property
-    def transform(self):
+    def transform(self) -> TransformResult:
         return self.transform_choice.result
 
     @property
@@ -237,11 +243,11 @@ class Discovery:
         return self.prepared.planar
 
     @property
-    def volume_(self):
+    def volume_(self) -> LagVolume:
         return self.pair_volume.volume
 
     @property
-    def fan_(self):
+    def fan_(self) -> Fan:
         return self.fan_ranges.fan
 
     @property
@@ -249,15 +255,15 @@ class Discovery:
         return self.weighted.bins
 
     @property
-    def ranges_(self):
+    def ranges_(self) -> DirectionRanges:
         return self.diagnosis.direction_ranges
 
     @property
-    def ellipsoid_(self):
+    def ellipsoid_(self) -> EllipsoidFit | None:
         return self.fan_ranges.ellipsoid
 
     @property
-    def fit_(self):
+    def fit_(self) -> NestedFit:
         return self.refinement.fit
 
     @property
