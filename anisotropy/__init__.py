@@ -51,6 +51,7 @@ _PUBLIC = {
     # discovery, uncertainty, checking, batch
     "discover": "discover",
     "Discovery": "discover",
+    "DiscoverParams": "discover",
     "check_interpretation": "check",
     "CheckResult": "check",
     "run_batch": "batch",

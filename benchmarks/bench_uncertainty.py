@@ -267,14 +267,13 @@ def one_discover(name, sim, reps, refine=True):
     ``refine=False`` switches the likelihood refinement of the frame off (for
     comparison: the bands as they were before it).
     """
-    import importlib
-
     import pandas as pd
 
     from anisotropy.discover import discover
+    from anisotropy.discovery import params
 
-    # the package exports the function under the module's name: fetch the module
-    importlib.import_module("anisotropy.discover").LIKELIHOOD_REFINEMENT = bool(refine)
+    # read by the structures stage at run time
+    params.LIKELIHOOD_REFINEMENT = bool(refine)
 
     sc = SCENARIOS[name]
     coords, v, F = _scenario_field(name, sim)
@@ -290,7 +289,7 @@ def one_discover(name, sim, reps, refine=True):
     d = res.to_dict()
     ref = np.asarray(D.model.frame, float)
     lk = D.diagnostics.get("frame_refinement")
-    Q = D._refit_state.get("frame_correction")
+    Q = D.refit.frame_correction
     # the variogram fit's own frame (before the likelihood turn), same axis order
     Fv = ref if Q is None else np.asarray(Q, float).T @ ref
     out = {"scenario": name, "sim": sim, "seconds": secs, "replicates": int(res.n_replicates),

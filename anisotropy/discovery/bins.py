@@ -1,0 +1,231 @@
+"""The fit bins of the volume and their information weights (drill-hole strings).
+
+Most pairs of a drill-hole data set lie inside one hole, so a bin's pair
+count overstates its information.  The within-hole pairs of every bin are
+counted exactly (per hole, in NumPy), and the bin's information weight is
+``N_between + H_within``: the pairs between different holes plus the number
+of distinct holes contributing within-hole pairs (each hole an independent
+look at that lag).  The weights enter the Cressie (1985) objective in place
+of the pair counts, divided by the lag distance.  The nugget is taken from the
+down-hole variogram at the composite spacing (extrapolated to zero from the
+first lags) and held in the joint fit.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from anisotropy.errors import InsufficientDataError
+from anisotropy.explore import Spacing
+from anisotropy.fitting import FitBins, bins_from_sums
+from anisotropy.geometry import to_lower_hemisphere
+
+from anisotropy.discovery.lags import LagChoice, PairVolume
+
+
+@dataclass(frozen=True)
+class WeightedBins:
+    """Fit bins (one per distance class and coarse cell) with information weights.
+
+    Attributes
+    ----------
+    bins : FitBins
+        ``weight`` holds the information weights.
+    ratio : ndarray (n_lags + 1, n_coarse)
+        Information weight per pair of each (class, cell): 1 without holes.
+    fixed_nugget : float or None
+        The down-hole nugget held in the fits, None when it is fitted.
+    downhole : dict or None
+        The down-hole variogram's first points and nugget (drill holes only).
+    min_pairs : float
+        Fewest pairs of a bin.
+    """
+
+    bins: FitBins
+    ratio: np.ndarray
+    fixed_nugget: float | None
+    downhole: dict | None
+    min_pairs: float
+    choices: tuple[dict, ...] = ()
+    warnings: tuple[str, ...] = ()
+
+
+def information_weight(bins: FitBins, ratio) -> np.ndarray:
+    """Information weight of each bin: drill-hole-corrected pairs per metre of lag."""
+    r = ratio[bins.lag_index, bins.direction_index]
+    r = np.where(np.isfinite(r), r, 1.0)
+    return bins.pairs * r / np.maximum(bins.distance, 1e-9)
+
+
+def _drill_hole_ratio(pv, csums, coords, holes, values, spacing, lags, total, estimator):
+    """Information per pair of each (class, cell), the down-hole nugget, and the choices."""
+    coarse = pv.coarse_directions
+    within, within_h, dh = within_hole_pairs(coords, holes, lags.unit_lag, lags.n_lags, coarse)
+    N = csums[..., 0]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        eff = np.maximum(N - within, 0.0) + within_h
+        ratio = np.where(N > 0, eff / N, 1.0)
+    choices = [{"choice": "drill-hole weights", "value": "between-hole pairs + holes",
+                "reason": f"{int(within.sum()):,} of {pv.n_pairs:,} pairs lie inside one "
+                          "hole; each bin counts its between-hole pairs plus one per "
+                          "hole contributing within-hole pairs, so the along-hole "
+                          "direction does not dominate the fit"}]
+    composite = spacing.down_hole
+    nug, pts = downhole_nugget(dh, values, composite, total, estimator)
+    downhole = {"composite": composite, "points": pts, "nugget": nug}
+    fixed = None
+    if nug is not None and composite and composite < 0.5 * lags.unit_lag:
+        fixed = nug
+        choices.append({"choice": "nugget", "value": nug,
+                        "reason": f"from the first down-hole lags ({composite:.3g} m "
+                                  "composites), extrapolated to zero and held in the fit "
+                                  "(the joint fit's shortest lag is "
+                                  f"{lags.unit_lag:.3g} m)"})
+    return ratio, fixed, downhole, choices
+
+
+def weighted_bins(pv: PairVolume, coords, values, *, holes, spacing: Spacing,
+                  lags: LagChoice, total, estimator="semivariogram", min_pairs=10.0,
+                  source="<table>") -> WeightedBins:
+    """The fit bins of the volume, weighted by their information.
+
+    Parameters
+    ----------
+    pv : PairVolume
+    coords, values : ndarray
+        Sample coordinates and the analysed values.
+    holes : ndarray or None
+        Hole id of each sample.
+    spacing : anisotropy.explore.Spacing
+    lags : LagChoice
+    total : float or None
+        Total sill (caps the down-hole nugget).
+    estimator : str
+    min_pairs : float
+        Fewest pairs of a bin.
+
+    Raises
+    ------
+    InsufficientDataError
+        Fewer than 12 bins with enough pairs.
+    """
+    csums = pv.volume.coarse_sums()
+    bins = bins_from_sums(csums, pv.coarse_directions, estimator=estimator,
+                          min_pairs=min_pairs)
+    if bins.n < 12:
+        raise InsufficientDataError(
+            f"{source}: only {bins.n} lag-direction bins have {min_pairs:g} pairs or more "
+            f"({pv.n_pairs} pairs in all): too few for a 3D answer, which needs pairs in many "
+            "directions. Add samples or holes in other directions, widen the lag, or fit "
+            "a 2D or omnidirectional model by hand.")
+    ratio, fixed, downhole, choices = np.ones(csums.shape[:2]), None, None, []
+    if holes is not None and spacing.n_holes and spacing.n_holes > 1:
+        ratio, fixed, downhole, choices = _drill_hole_ratio(pv, csums, coords, holes, values,
+                                                            spacing, lags, total, estimator)
+    bins.weight = information_weight(bins, ratio)
+    choices.append({"choice": "bin weights", "value": "pairs / distance",
+                    "reason": "the pairs of a 3D lag bin grow with the square of the distance, "
+                              "so bins near the sill would outvote the short lags that carry "
+                              "the shape; weights are pair counts per metre of lag, inside the "
+                              "Cressie (1985) form"})
+    if fixed is None:
+        choices.append({"choice": "nugget", "value": "fitted",
+                        "reason": "fitted jointly, pinned by the shortest lags of the volume"})
+    return WeightedBins(bins=bins, ratio=ratio, fixed_nugget=fixed, downhole=downhole,
+                        min_pairs=min_pairs, choices=tuple(choices))
+
+
+def within_hole_pairs(coords, holes, lag, n_lags, coarse_dirs):
+    """Exact within-hole pair counts and distinct holes per (class, coarse cell).
+
+    Samples are sorted by hole and, inside a hole, along its principal
+    direction; pairs ``(a, a + step)`` of the same hole are formed for every
+    step (vectorised over holes).  Also returns the down-hole pairs of the
+    first six steps (distances and sample indices) for the nugget.
+    """
+    max_d = (n_lags + 0.5) * lag
+    codes, inv = np.unique(np.asarray(holes).astype(str), return_inverse=True)
+    n_c = coarse_dirs.shape[0]
+    # position along each hole's principal direction
+    pos = np.zeros(len(coords))
+    order = np.argsort(inv, kind="stable")
+    starts = np.r_[0, np.flatnonzero(np.diff(inv[order])) + 1, len(order)]
+    for a0, a1 in zip(starts[:-1], starts[1:]):
+        idx = order[a0:a1]
+        if len(idx) > 1:
+            p = coords[idx] - coords[idx].mean(axis=0)
+            _, _, vt = np.linalg.svd(p, full_matrices=False)
+            pos[idx] = p @ vt[0]
+    order = np.lexsort((pos, inv))
+    h_sorted = inv[order]
+    c_sorted = coords[order]
+    within = np.zeros((n_lags + 1, n_c))
+    keys = []
+    dh_d, dh_i, dh_j = [], [], []
+    n = len(order)
+    for step in range(1, n):
+        same = h_sorted[step:] == h_sorted[:-step]
+        if not same.any():
+            break
+        ia = np.flatnonzero(same)
+        ja = ia + step
+        v = c_sorted[ja] - c_sorted[ia]
+        d = np.linalg.norm(v, axis=1)
+        ok = (d > 0) & (d <= max_d)
+        if step <= 6:
+            dh_d.append(d[d > 0])
+            dh_i.append(order[ia[d > 0]])
+            dh_j.append(order[ja[d > 0]])
+        if not ok.any():
+            if step > 6:
+                break
+            continue
+        ia, v, d = ia[ok], v[ok], d[ok]
+        k = np.ceil(d / lag - 0.5).astype(int)
+        m = k <= n_lags
+        k, v, d, ia = k[m], v[m], d[m], ia[m]
+        u = to_lower_hemisphere(v / d[:, None])
+        cell = np.argmax(np.abs(u @ coarse_dirs.T), axis=1)
+        np.add.at(within, (k, cell), 1.0)
+        keys.append((k * n_c + cell) * len(codes) + h_sorted[ia])
+    within_holes = np.zeros((n_lags + 1) * n_c)
+    if keys:
+        uk = np.unique(np.concatenate(keys))
+        np.add.at(within_holes, uk // len(codes), 1.0)
+    within_holes = within_holes.reshape(n_lags + 1, n_c)
+    dh = (np.concatenate(dh_d) if dh_d else np.empty(0),
+          np.column_stack([np.concatenate(dh_i), np.concatenate(dh_j)]) if dh_i
+          else np.empty((0, 2), int))
+    return within, within_holes, dh
+
+
+def downhole_nugget(dh, values, composite, total, estimator):
+    """Nugget from the first down-hole lags: linear extrapolation to zero."""
+    d, ij = dh
+    if d.size < 30 or not composite or estimator not in ("semivariogram", "robust",
+                                                          "correlogram"):
+        return None, None
+    cls = np.round(d / composite).astype(int)
+    pts = []
+    for k in (1, 2, 3):
+        m = cls == k
+        if m.sum() >= 20:
+            diff = values[ij[m, 1]] - values[ij[m, 0]]
+            if estimator == "correlogram":
+                a, b = values[ij[m, 0]], values[ij[m, 1]]
+                r = np.corrcoef(a, b)[0, 1]
+                g = 1.0 - r
+            else:
+                g = 0.5 * np.mean(diff ** 2)
+            pts.append((float(np.mean(d[m])), float(g), int(m.sum())))
+    if len(pts) < 2:
+        return None, pts
+    x = np.array([p[0] for p in pts])
+    y = np.array([p[1] for p in pts])
+    slope, icpt = np.polyfit(x[:2], y[:2], 1)
+    nug = float(np.clip(icpt, 0.0, min(y[0], 0.95 * total if total else y[0])))
+    return nug, pts
+
+

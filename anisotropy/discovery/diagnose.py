@@ -1,0 +1,282 @@
+"""What the result can be trusted for: fit along the fan, resolution, cautions."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from anisotropy.fitting import DirectionRanges, FitBins, direction_ranges
+from anisotropy.geometry import vector_to_line
+from anisotropy.models import NestedModel
+
+from anisotropy.discovery.fan import FanRanges
+from anisotropy.discovery.params import WIDE_ANGULAR_TOLERANCE
+
+AXES = ("major", "semi_major", "minor")
+
+
+@dataclass(frozen=True)
+class Diagnostics:
+    """The final model held against the fan, and what the sampling resolves.
+
+    Attributes
+    ----------
+    direction_ranges : DirectionRanges
+        One range per fan direction under the final nugget and sill.
+    residuals : list of dict
+        The final model against each fan direction (see
+        :func:`residuals_by_direction`).
+    unresolved_axes, unresolved_ranges : list of str
+        Axes whose direction, and axes whose range, the sampling does not resolve.
+    """
+
+    direction_ranges: DirectionRanges
+    residuals: list
+    unresolved_axes: list
+    unresolved_ranges: list
+    choices: tuple[dict, ...] = ()
+    warnings: tuple[str, ...] = ()
+
+
+def residuals_by_direction(model, directions, distance, value, pairs, *, min_pairs,
+                            tolerance, flags):
+    """The fitted model against the experimental variogram of each fan direction.
+
+    The model is evaluated at the lag vector ``distance * direction`` of every
+    lag (:meth:`anisotropy.models.NestedModel.variogram`), and the relative
+    residual ``experimental / model - 1`` is summarised over the lags the fan's
+    range step uses (finite, positive distance and at least ``min_pairs``
+    pairs, as in :func:`anisotropy.fitting.direction_ranges`).
+
+    Parameters
+    ----------
+    model : anisotropy.models.NestedModel
+        The final model.
+    directions : ndarray (n_dir, 3)
+        Fan directions.
+    distance, value, pairs : ndarray (n_dir, n_lags)
+        Mean lag distance, estimator value and pair count per direction and lag.
+    min_pairs : float
+        Fewest pairs for a lag to count.
+    tolerance : ndarray (n_dir,)
+        Angular tolerance (degrees) each direction was read at.
+    flags : list of str
+        The direction-range flag of each direction ("" usable, "thin", ...).
+
+    Returns
+    -------
+    list of dict
+        One row per direction: ``trend``, ``plunge`` (degrees), ``vector``
+        (unit, east-north-up), ``angular_tolerance``, ``flag``, ``n_lags``
+        (lags used), ``pairs`` (in the lags used), ``mean_relative_residual``
+        and ``rms_relative_residual`` (unweighted over the lags used; None
+        without any, computed before rounding), and ``lags``: ``distance``,
+        ``experimental``, ``model`` (6 significant digits), ``pairs`` and
+        ``used`` for every lag of the direction holding pairs.
+    """
+    u = np.asarray(directions, float)
+    u = u / np.linalg.norm(u, axis=1, keepdims=True)
+    d = np.asarray(distance, float)
+    g = np.asarray(value, float)
+    n = np.asarray(pairs, float)
+    present = np.isfinite(d) & np.isfinite(g) & np.isfinite(n) & (n > 0) & (d > 0)
+    used = present & (n >= min_pairs)
+    mod = np.full(d.shape, np.nan)
+    lagv = np.where(present, d, 0.0)[..., None] * u[:, None, :]
+    mod[present] = model.variogram(lagv[present])
+    with np.errstate(invalid="ignore", divide="ignore"):
+        rel = np.where(used & (mod > 0), g / mod - 1.0, np.nan)
+    trend, plunge = vector_to_line(u)
+    trend, plunge = np.atleast_1d(trend), np.atleast_1d(plunge)
+    rows = []
+    for j in range(len(u)):
+        r = rel[j][np.isfinite(rel[j])]
+        k = present[j]
+        rows.append({
+            "trend": round(float(trend[j]), 2), "plunge": round(float(plunge[j]), 2),
+            "vector": [float(x) for x in u[j]],
+            "angular_tolerance": float(tolerance[j]), "flag": flags[j],
+            "n_lags": int(r.size), "pairs": int(n[j][used[j]].sum()),
+            "mean_relative_residual": float(r.mean()) if r.size else None,
+            "rms_relative_residual": float(np.sqrt(np.mean(r ** 2))) if r.size else None,
+            "lags": {"distance": _sig6(d[j][k]), "experimental": _sig6(g[j][k]),
+                     "model": _sig6(mod[j][k]), "pairs": [int(x) for x in n[j][k]],
+                     "used": used[j][k].tolist()}})
+    return rows
+
+
+def _sig6(a):
+    """Floats to 6 significant digits (the per-lag lists are most of discovery.json)."""
+    return [float(f"{x:.6g}") for x in np.asarray(a, float)]
+
+
+def resolution(lags, pairs, ranges, frame, *, scattered, nearest=None, across=None,
+               min_pairs=10.0):
+    """Say which ranges the lag bins cannot resolve, and which directions that leaves open.
+
+    A range along an axis is resolved when at least two well-paired lag bins
+    within 25 degrees of the axis lie shorter than it (the variogram's rise is
+    seen by more than one point).  On drill holes and benches an unresolved
+    range leaves its axis's direction open too (the hole or bench spacing is
+    all the sampling says about that direction).  Scattered samples surround
+    every direction at every distance, so there an axis whose range alone is
+    unresolved keeps its direction (it is square to the two resolved axes);
+    two unresolved ranges leave their axes free to turn about the third.
+
+    Parameters
+    ----------
+    lags : ndarray (m, 3)
+        Mean lag vector of each fit bin.
+    pairs : ndarray (m,)
+        Pairs of each fit bin.
+    ranges : sequence of 3 floats
+        Ranges of the longest structure along the frame's columns.
+    frame : ndarray (3, 3)
+        Columns major, semi-major, minor.
+    scattered : bool
+        Scattered samples (no holes, no benches).
+    nearest : float, optional
+        Nominal sample spacing (m).
+    across : float, optional
+        Across-hole spacing (m; drill holes only).
+    min_pairs : float
+        Fewest pairs of a bin that counts.
+
+    Returns
+    -------
+    axes : list of str
+        Axes whose direction the sampling does not resolve.
+    ranges : list of str
+        Axes whose range the sampling does not resolve.
+    texts : list of str
+        The warnings.
+    """
+    L = np.asarray(lags, float)
+    d = np.linalg.norm(L, axis=1)
+    u = L / np.maximum(d, 1e-12)[:, None]
+    pairs = np.asarray(pairs)
+    unresolved, texts = [], []
+    for i, name in enumerate(AXES):
+        r = ranges[i]
+        along = np.abs(u @ frame[:, i]) > np.cos(np.radians(25))
+        short = np.sort(d[along & (d < r) & (pairs >= min_pairs)])
+        if short.size >= 2:
+            continue
+        unresolved.append(name)
+        texts.append(_unresolved_text(name, r, d[along], short, scattered, nearest, across))
+    if not scattered:
+        return list(unresolved), unresolved, texts
+    if len(unresolved) == 1:
+        texts[0] += (". Its direction is still fixed: the samples surround it, and it is "
+                     "square to the other two axes, whose ranges are resolved")
+        return [], unresolved, texts
+    if len(unresolved) == 2:
+        other = next(a for a in AXES if a not in unresolved).replace("_", "-")
+        a, b = (x.replace("_", "-") for x in unresolved)
+        texts.append(f"the {a} and {b} axes are not resolved in direction: with neither "
+                     f"range resolved they may turn about the {other} axis; treat their "
+                     "directions as a guess and check them against the geology")
+    elif len(unresolved) == 3:
+        texts.append("no range is resolved along any axis: the whole frame is a guess; "
+                     "check it against the geology and the sampling before using it")
+    return list(unresolved), unresolved, texts
+
+
+def _unresolved_text(name, r, d_along, short, scattered, nearest, across):
+    label = name.replace("_", "-")
+    if not d_along.size:
+        seen = "cannot be checked: no lag bin lies within 25 degrees of that axis"
+    elif short.size == 1:
+        seen = (f"rests on one lag bin: only the bin at {short[0]:.3g} m, within 25 degrees "
+                "of that axis, is shorter than it")
+    else:
+        seen = (f"is shorter than the shortest lag seen near that axis "
+                f"({float(d_along.min()):.3g} m)")
+    what = "range" if scattered else "axis"
+    msg = f"the {label} {what} is not resolved by the sampling: its fitted range ({r:.3g} m) {seen}"
+    if across:
+        msg += (f"; the across-hole spacing is {across:.3g} m. Closer holes, or holes "
+                "drilled along this axis, would resolve it; until then treat this axis and "
+                "its range as a guess bounded by the spacing")
+    elif nearest and nearest < 0.5 * r:
+        msg += (f"; the samples are about {nearest:.3g} m apart, so a shorter unit lag "
+                "(--lag) would resolve it")
+    else:
+        msg += "; closer samples along this axis would resolve it"
+    return msg
+
+
+def _range_warnings(model, fan, *, max_distance, max_range, transform_kind, estimator):
+    """Extrapolated and unbounded ranges, thin directions, estimator and unit cautions."""
+    out = []
+    major_r = max(model.structures, key=lambda s: s.ranges[0]).ranges[0]
+    if major_r > max_distance:
+        out.append(f"the major range ({major_r:.3g} m) is longer than the longest lag "
+                   f"({max_distance:.3g} m): it is an extrapolation; a larger "
+                   "domain or longer lags (--n-lags) would show whether the variogram "
+                   "levels off")
+    if transform_kind == "indicator" and estimator in ("robust", "madogram",
+                                                       "pairwise_relative"):
+        out.append(f"the {estimator} estimator is not meaningful on 0/1 indicators "
+                   "(it is built for continuous grades); prefer the semivariogram")
+    for k, st_ in enumerate(model.structures, 1):
+        if max(st_.ranges) >= 0.99 * max_range:
+            out.append(f"structure {k}'s range reached the search limit ({max_range:.3g} m): "
+                       "the fit could not find where the variogram levels off; treat "
+                       "this model as unreliable and check the experimental variograms")
+    n_thin = fan.ranges.n_thin
+    if n_thin:
+        out.append(f"{n_thin} of {len(fan.directions)} fan directions have too few pairs "
+                   f"for a range even at {WIDE_ANGULAR_TOLERANCE:g} degrees; they are "
+                   "marked thin and not used")
+    if transform_kind == "normal_score" and estimator in ("semivariogram", "robust"):
+        out.append("sills are in normal-score units (total 1); back-transformed grade "
+                   "variograms differ in shape near the sill")
+    return out
+
+
+def diagnose(model: NestedModel, fan: FanRanges, bins: FitBins, *, spacing, has_holes,
+             planar, max_distance, max_range, min_pairs, transform_kind,
+             estimator="semivariogram") -> Diagnostics:
+    """The final model held against the fan, and what the sampling resolves.
+
+    Parameters
+    ----------
+    model : NestedModel
+        The final model (frame columns major, semi-major, minor).
+    fan : FanRanges
+    bins : FitBins
+    spacing : anisotropy.explore.Spacing
+    has_holes, planar : bool
+    max_distance : float
+        The longest lag.
+    max_range : float
+        The fits' range limit.
+    min_pairs : float
+        Fewest pairs of a fit bin.
+    transform_kind, estimator : str
+    """
+    frame = np.asarray(model.frame, float)
+    longest = max(model.structures, key=lambda s: s.ranges[0])
+    # direction ranges under the fitted nugget and sill (for the report)
+    dr = direction_ranges(fan.directions, fan.distance, fan.value, fan.pairs,
+                          nugget=model.nugget,
+                          sill=float(sum(s.sill for s in model.structures)),
+                          kind=longest.kind, min_pairs=fan.min_pairs)
+    rows = residuals_by_direction(model, fan.directions, fan.distance, fan.value, fan.pairs,
+                                  min_pairs=fan.min_pairs, tolerance=fan.tolerances,
+                                  flags=dr.flag)
+    scattered = getattr(spacing, "layout", None) == "scattered" and not has_holes
+    axes, ranges, texts = resolution(
+        bins.lags, bins.pairs, longest.ranges, frame, scattered=scattered,
+        nearest=getattr(spacing, "nearest", None),
+        across=getattr(spacing, "across_hole", None) if has_holes else None,
+        min_pairs=min_pairs)
+    if planar:  # the pole of one bench is assumed, not resolved, and so is its range
+        axes = sorted(set(axes) | {"minor"})
+        ranges = sorted(set(ranges) | {"minor"})
+    texts += _range_warnings(model, fan, max_distance=max_distance, max_range=max_range,
+                             transform_kind=transform_kind, estimator=estimator)
+    return Diagnostics(direction_ranges=dr, residuals=rows, unresolved_axes=axes,
+                       unresolved_ranges=ranges, warnings=tuple(texts))

@@ -1,0 +1,542 @@
+"""The ``Discovery`` result: the stage records of one run, the record, the summary.
+
+A :class:`Discovery` is composed of the typed records the stages returned
+(:mod:`anisotropy.discovery`); its familiar attributes (``model``, ``frame``,
+``samples``, ``lags``, ``diagnostics``...) are read from them.  Its
+:meth:`~Discovery.bootstrap` resamples the volume's blocks (or simulates from
+the model) and refits with :class:`RefitState`, without a new pass over the
+pairs for the block bootstrap.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from anisotropy.errors import FitError, InputError
+from anisotropy.directional import Fan
+from anisotropy.explore import Exploration
+from anisotropy.fitting import (DirectionRanges, EllipsoidFit, FitBins, NestedFit,
+                                bins_from_sums, fit_nested)
+from anisotropy.geometry import (angles_from_frame, pitch_of, pole_to_plane, strike_of,
+                                 vector_to_line)
+from anisotropy.models import NestedModel
+from anisotropy.pairs import LagVolume
+from anisotropy.samples import SampleSet
+from anisotropy.transform import TransformResult
+from anisotropy.uncertainty import (DEFAULT_REPLICATES, BootstrapResult, block_bootstrap,
+                                    model_bootstrap)
+
+from anisotropy.discovery.bins import WeightedBins, information_weight
+from anisotropy.discovery.diagnose import AXES, Diagnostics
+from anisotropy.discovery.fan import FanRanges
+from anisotropy.discovery.lags import LagChoice, PairVolume
+from anisotropy.discovery.params import DiscoverParams
+from anisotropy.discovery.prepare import Prepared, SillChoice, TransformChoice
+from anisotropy.discovery.search import FitSettings, Search, Start
+from anisotropy.discovery.structures import Refinement, ordered_model
+
+SCHEMA = "anisotropy.discovery/1"
+
+CAUTION = ("Automated continuity suggestions support, and do not replace, the judgement of "
+           "the competent or qualified person responsible under the public reporting code "
+           "that applies (JORC, NI 43-101, SAMREC, PERC or the local equivalent). The result "
+           "depends on the domaining: a domain that mixes populations or styles of "
+           "mineralisation gives a mixed answer.")
+
+PLANAR_CAUTION = ("The samples lie in one plane (one bench or level): only the azimuths of "
+                  "continuity within that plane are resolved; the axis across the plane and "
+                  "its range are not, and are reported only to complete the frame.")
+
+
+def _f(x):
+    if x is None:
+        return None
+    x = float(x)
+    return x if math.isfinite(x) else None
+
+
+def _plain(obj):
+    """JSON-ready plain Python types."""
+    if isinstance(obj, dict):
+        return {str(k): _plain(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_plain(v) for v in obj]
+    if isinstance(obj, np.ndarray):
+        return _plain(obj.tolist())
+    if isinstance(obj, (np.bool_, bool)):
+        return bool(obj)
+    if isinstance(obj, (np.integer,)):
+        return int(obj)
+    if isinstance(obj, (float, np.floating)):
+        return _f(obj)
+    return obj
+
+
+def _as_start(model):
+    """(frame, nugget, sills, ranges (K, 3), kinds) of a NestedModel (a fit's start)."""
+    st = list(model.structures)
+    return (np.asarray(model.frame, float), float(model.nugget),
+            np.array([s.sill for s in st], float),
+            np.array([list(s.ranges) for s in st], float), tuple(s.kind for s in st))
+
+
+@dataclass(frozen=True)
+class RefitState:
+    """Everything a bootstrap replicate's refit shares with the main fit.
+
+    Calling it, ``refit(coarse_sums, *, fixed_frame=None, start=None) ->
+    (NestedModel, objective)``, rebuilds the fit bins from (re-weighted)
+    coarse sums, re-applies the main fit's information weights (per bin, as a
+    ratio to the pair count), and refits the same number and kinds of
+    structures, warm-started from ``start`` (default: the main fit), with the
+    same nugget policy, one re-weighting pass (the Cressie denominators of the
+    warm start) and a relative cost tolerance of 1e-5; ``fixed_frame`` holds
+    the frame (for checking an interpretation).  No pass over the pairs.  The
+    returned model's frame is ordered and canonical like the main one.  Where
+    the main frame was refined by the likelihood, each replicate's frame is
+    turned by the same rotation (``frame_correction``; the refinement needs
+    the samples, which a re-weighted replicate does not have).
+    """
+
+    model: NestedModel
+    estimator: str
+    min_pairs: float
+    weight_ratio: np.ndarray
+    settings: FitSettings
+    max_nfev: int
+    shared_ratios: bool
+    frame_correction: np.ndarray | None = None
+
+    @classmethod
+    def of(cls, refinement: Refinement, weighted: WeightedBins, settings: FitSettings, *,
+           estimator, shared_ratios) -> "RefitState":
+        fit = refinement.fit
+        Q = refinement.correction
+        return cls(model=refinement.model, estimator=estimator, min_pairs=weighted.min_pairs,
+                   weight_ratio=weighted.ratio, settings=settings,
+                   # a refined fit held its frame: replicates free it (3 more parameters)
+                   max_nfev=60 * (fit.n_params + 1 + (3 if Q is not None else 0)),
+                   shared_ratios=shared_ratios, frame_correction=Q)
+
+    def __call__(self, coarse_sums, *, fixed_frame=None, start=None):
+        bins = bins_from_sums(coarse_sums, estimator=self.estimator, min_pairs=self.min_pairs)
+        bins.weight = information_weight(bins, self.weight_ratio)
+        if bins.n < 3:
+            raise FitError("a replicate has fewer than 3 fit bins with enough pairs")
+        main = self.model
+        s0 = start if start is not None else main
+        Q = self.frame_correction
+        turn = Q is not None and fixed_frame is None
+        if turn:
+            # the main frame was refined by the likelihood: the replicate's variogram fit
+            # starts from the variogram's own frame and is turned by the same rotation
+            s0 = _as_start(s0) if not isinstance(s0, tuple) else s0
+            s0 = (Q.T @ np.asarray(s0[0], float),) + tuple(s0[1:])
+        st = self.settings
+        f = fit_nested(bins, s0, n_structures=len(main.structures),
+                       kinds=tuple(x.kind for x in main.structures),
+                       fixed_frame=fixed_frame, fixed_nugget=st.fixed_nugget,
+                       total_sill=st.total_sill, max_nfev=self.max_nfev,
+                       min_range=st.min_range, max_range=st.max_range,
+                       planar=st.planar, ftol=1e-5, outer=1,
+                       shared_ratios=self.shared_ratios, make_model=False)
+        if turn:
+            f.frame = Q @ np.asarray(f.frame, float)
+        model = ordered_model(f, keep_frame=fixed_frame is not None, planar=st.planar)
+        return model, float(f.objective)
+
+
+@dataclass
+class Discovery:
+    """The continuity proposal for one domain and variable, composed of the stage records.
+
+    Attributes
+    ----------
+    params : DiscoverParams
+        The settings of the run.
+    prepared : Prepared
+        The samples and their exploration.
+    transform_choice : TransformChoice
+    sill_choice : SillChoice
+    lag_choice : LagChoice
+    pair_volume : PairVolume
+        The lag-vector volume, with bootstrap blocks.
+    weighted : WeightedBins
+        The fit bins with their information weights.
+    fan_ranges : FanRanges
+    starts : tuple of Start
+    search : Search
+        The orientation search.
+    refinement : Refinement
+        The nested model after the likelihood refinement.
+    diagnosis : Diagnostics
+    refit : RefitState
+        The refit of a bootstrap replicate (callable).
+    uncertainty : BootstrapResult or None
+    warnings : list of str
+    choices : list of dict
+        Every choice made, with its reason.
+    seconds : dict
+        Seconds per stage, and ``total``.
+
+    Derived (read from the records): ``model`` (nugget and structures in the
+    transformed variable's units; frame columns major, semi-major, minor),
+    ``frame`` (right-handed, canonical), ``samples``, ``exploration``,
+    ``transform``, ``lags``, ``estimator``, ``planar``, ``diagnostics`` and
+    the working objects ``volume_``, ``fan_``, ``bins_``, ``ranges_``,
+    ``ellipsoid_``, ``fit_``.
+    """
+
+    params: DiscoverParams
+    prepared: Prepared
+    transform_choice: TransformChoice
+    sill_choice: SillChoice
+    lag_choice: LagChoice
+    pair_volume: PairVolume
+    weighted: WeightedBins
+    fan_ranges: FanRanges
+    starts: tuple[Start, ...]
+    search: Search
+    refinement: Refinement
+    diagnosis: Diagnostics
+    refit: RefitState
+    uncertainty: BootstrapResult | None = None
+    warnings: list[str] = field(default_factory=list)
+    choices: list[dict] = field(default_factory=list)
+    seconds: dict[str, float] = field(default_factory=dict)
+
+    # -- read from the records -------------------------------------------------
+    @property
+    def model(self) -> NestedModel:
+        return self.refinement.model
+
+    @property
+    def frame(self) -> np.ndarray:
+        return self.refinement.frame
+
+    @property
+    def samples(self) -> SampleSet:
+        return self.prepared.samples
+
+    @property
+    def exploration(self) -> Exploration:
+        return self.prepared.exploration
+
+    @property
+    def transform(self) -> TransformResult:
+        return self.transform_choice.result
+
+    @property
+    def lags(self) -> dict:
+        return self.lag_choice.record()
+
+    @property
+    def estimator(self) -> str:
+        return self.params.estimator
+
+    @property
+    def planar(self) -> bool:
+        return self.prepared.planar
+
+    @property
+    def volume_(self) -> LagVolume:
+        return self.pair_volume.volume
+
+    @property
+    def fan_(self) -> Fan:
+        return self.fan_ranges.fan
+
+    @property
+    def bins_(self) -> FitBins:
+        return self.weighted.bins
+
+    @property
+    def ranges_(self) -> DirectionRanges:
+        return self.diagnosis.direction_ranges
+
+    @property
+    def ellipsoid_(self) -> EllipsoidFit | None:
+        return self.fan_ranges.ellipsoid
+
+    @property
+    def fit_(self) -> NestedFit:
+        return self.refinement.fit
+
+    @property
+    def diagnostics(self) -> dict:
+        """pairs, directions, selection, ``residuals_by_direction``, seconds, ..."""
+        fan, volume = self.fan_ranges, self.pair_volume.volume
+        return {
+            "pairs": self.pair_volume.n_pairs,
+            "pairs_estimated": self.lag_choice.pairs_estimated,
+            "directions": {"n": int(len(fan.directions)), "thin": int(fan.ranges.n_thin),
+                           "widened": int(fan.widened.sum()),
+                           "angular_tolerance": fan.tolerance,
+                           "usable": int(fan.ranges.usable.sum())},
+            "bins": self.weighted.bins.to_dict(),
+            "units": self.sill_choice.units,
+            "unresolved_axes": self.diagnosis.unresolved_axes,
+            "unresolved_ranges": self.diagnosis.unresolved_ranges,
+            "selection": self.refinement.selection.to_dict(),
+            "frame_refinement": self.refinement.record,
+            "starts": self.search.tried,
+            "kinds": self.search.kinds,
+            "ellipsoid": None if fan.ellipsoid is None else fan.ellipsoid.to_dict(),
+            "direction_ranges": self.diagnosis.direction_ranges.to_dict(),
+            "residuals_by_direction": self.diagnosis.residuals,
+            "downhole": self.weighted.downhole,
+            "volume": {"seconds": float(getattr(volume, "seconds", 0.0)),
+                       "memory_bytes": int(getattr(volume, "memory_bytes", 0) or 0),
+                       "coarse_directions": int(self.pair_volume.coarse_directions.shape[0])},
+            "seconds": dict(self.seconds),
+        }
+
+    # -- derived geometry ------------------------------------------------------
+    def axes(self) -> dict:
+        """Axis vectors, trend/plunge and range (longest-range structure)."""
+        out = {}
+        longest = max(self.model.structures, key=lambda s: s.ranges[0])
+        for i, name in enumerate(AXES):
+            v = self.frame[:, i]
+            t, p = vector_to_line(v)
+            out[name] = {"vector": [float(x) for x in v], "trend": float(t), "plunge": float(p),
+                         "range": float(longest.ranges[i])}
+        return out
+
+    def plane(self) -> dict:
+        """Plane of greatest continuity (pole = minor axis) and the major axis's pitch."""
+        dd, dip = pole_to_plane(self.frame[:, 2])
+        dd, dip = float(dd), float(dip)
+        pitch = float(pitch_of(self.frame[:, 0], dd, dip))
+        return {"dip_direction": dd, "dip": dip, "strike": float(strike_of(dd)),
+                "pitch": pitch}
+
+    def angles(self) -> dict:
+        a, p, r = angles_from_frame(self.frame)
+        return {"azimuth": float(a), "plunge": float(p), "rotation": float(r),
+                "convention": "azimuth and plunge of the major axis, then rotation of the "
+                              "semi-major axis about the major axis away from horizontal "
+                              "(anisotropy.geometry.frame_from_angles)"}
+
+    # -- record ------------------------------------------------------------------
+    def _input_record(self) -> dict:
+        s = self.samples
+        cols = getattr(s, "columns", {}) or {}
+        origin = getattr(s, "origin", None)
+        return {"file": str(getattr(s, "source", "<table>")), "value": cols.get("value"),
+                "domain": getattr(s, "domain", None), "n_samples": getattr(s, "n_read", None),
+                "n_used": int(s.n), "dropped": dict(getattr(s, "dropped", {}) or {}),
+                "changed": dict(getattr(s, "changed", {}) or {}),
+                "columns": dict(cols),
+                "origin": [float(o) for o in np.ravel(origin if origin is not None else [])]}
+
+    def _transform_record(self) -> dict:
+        """The transform's record, with the top-cut applied before it (if any)."""
+        out = dict(self.transform.record) if self.transform is not None else {}
+        if self.prepared.top_cut is not None:
+            out["top_cut"] = self.prepared.top_cut.to_dict()
+        return out
+
+    def to_dict(self) -> dict:
+        """The result record, schema ``anisotropy.discovery/1`` (design.md)."""
+        structures = [{"type": st.kind, "sill": float(st.sill),
+                       "ranges": {"major": float(st.ranges[0]),
+                                  "semi_major": float(st.ranges[1]),
+                                  "minor": float(st.ranges[2])}}
+                      for st in self.model.structures]
+        unc = {} if self.uncertainty is None else self.uncertainty.to_dict()
+        d = {
+            "schema": SCHEMA,
+            "input": self._input_record(),
+            "transform": self._transform_record(),
+            "estimator": self.estimator,
+            "lags": self.lags,
+            "axes": self.axes(),
+            "plane": self.plane(),
+            "rotation": {"matrix": self.frame.tolist(), "angles": self.angles()},
+            "model": {"nugget": float(self.model.nugget), "structures": structures,
+                      "total_sill": float(self.model.total_sill),
+                      "units": self.sill_choice.units},
+            "uncertainty": unc,
+            "diagnostics": dict(self.diagnostics, warnings=list(self.warnings),
+                                choices=list(self.choices)),
+            "planar": bool(self.planar),
+            "cautions": [CAUTION] + ([PLANAR_CAUTION] if self.planar else []),
+        }
+        return _plain(d)
+
+    def to_json(self, path) -> Path:
+        """Write :meth:`to_dict` as JSON, atomically."""
+        from anisotropy._safety import atomic_write_json
+
+        path = Path(path)
+        atomic_write_json(path, self.to_dict())
+        return path
+
+    def summary(self) -> str:
+        """The proposal in the geologist's words."""
+        return _summary(self)
+
+    # -- uncertainty -------------------------------------------------------------
+    def refit_function(self) -> RefitState:
+        """The refit of a bootstrap replicate (see :class:`RefitState`)."""
+        return self.refit
+
+    def bootstrap(self, n_resamples=DEFAULT_REPLICATES, *, method="block",
+                  confidence_level=0.9, rng=0, n_jobs=1, scheduler=None,
+                  progress=False) -> BootstrapResult:
+        """Bands on the axes, ranges, nugget and sills by resampling (after scipy.stats.bootstrap).
+
+        Parameters
+        ----------
+        n_resamples : int
+            Replicates.
+        method : {"block", "model"}
+            "block": spatial blocks of the volume resampled by re-weighting the
+            pair engine's block sums (no new pass over pairs), calibrated by
+            the coverage study. "model": fields simulated at the data locations
+            with the fitted model, a new pass over pairs and a refit per
+            replicate (uncalibrated; not for indicators).
+        confidence_level : float
+            Confidence of the cones and intervals.
+        rng : int
+            Seed of the resampling.
+        n_jobs, scheduler, progress
+            Parallel settings and progress messages.
+
+        Returns
+        -------
+        anisotropy.uncertainty.BootstrapResult
+            Not stored on the result (``discover(bootstrap=n)`` stores it as
+            ``uncertainty``).
+        """
+        if method not in ("block", "model"):
+            raise InputError(f"bootstrap method {method!r} is not known; use 'block' "
+                             "(default, calibrated) or 'model' (simulation from the fitted "
+                             "model)")
+        kw = dict(n_replicates=int(n_resamples), confidence=confidence_level, seed=rng,
+                  n_jobs=n_jobs, scheduler=scheduler, progress=progress)
+        if method == "model":
+            if self.transform.kind == "indicator":
+                raise InputError("the model-based bootstrap simulates Gaussian fields, which "
+                                 "indicators are not; use the block bootstrap for indicator "
+                                 "variograms")
+            return model_bootstrap(self.samples.coords, self.model, self.refit,
+                                   volume=self.volume_, **kw)
+        return block_bootstrap(self.volume_, self.refit, self.model, estimator=self.estimator,
+                               **kw)
+
+
+def _worst_direction_line(rows):
+    """One summary line: the typical and the worst fit among well-sampled fan directions.
+
+    Well sampled: not thin, with a residual, and at least the median pairs of
+    such directions.  None when no direction qualifies.
+    """
+    ok = [r for r in rows or [] if r.get("flag") != "thin"
+          and r.get("rms_relative_residual") is not None]
+    if not ok:
+        return None
+    med_pairs = float(np.median([r["pairs"] for r in ok]))
+    well = [r for r in ok if r["pairs"] >= med_pairs]
+    w = max(well, key=lambda r: r["rms_relative_residual"])
+    med_rms = float(np.median([r["rms_relative_residual"] for r in ok]))
+    rms, mean = 100 * w["rms_relative_residual"], 100 * w["mean_relative_residual"]
+    return (f"fit along the fan: median RMS relative residual {100 * med_rms:.0f} % over "
+            f"{len(ok)} directions; worst of the better-sampled half: trend "
+            f"{w['trend']:05.1f}, plunge {w['plunge']:4.1f}, RMS {rms:.0f} % "
+            f"(mean {mean:+.0f} %) over {w['n_lags']} lags, {w['pairs']:,} pairs")
+
+
+#: Units printed after the numeric value of a choice in the summary.
+_CHOICE_UNITS = {"unit lag": "m", "lag tolerance": "m", "angular tolerance": "degrees",
+                 "bootstrap blocks": "m", "bandwidth": "m", "maximum distance": "m"}
+
+
+def _summary(D: "Discovery") -> str:
+    return "\n".join(_summary_model(D) + _summary_run(D))
+
+
+def _summary_model(D: "Discovery") -> list:
+    """The axes, the plane and the model."""
+    a = D.axes()
+    pl = D.plane()
+    m = D.model
+    t = D.transform.kind if D.transform is not None else "raw"
+    units = D.diagnostics.get("units", "")
+    s = D.samples
+    head = f"Continuity proposal for {getattr(s, 'columns', {}).get('value', 'grade')}"
+    if getattr(s, "domain", None) is not None:
+        head += f", domain {s.domain}"
+    L = [head, "=" * len(head)]
+    L.append(f"samples used: {s.n} of {getattr(s, 'n_read', s.n)} ({getattr(s, 'source', '')})")
+    L.append(f"transform: {t}; estimator: {D.estimator}; values in {units}")
+    L.append("")
+    if D.planar:
+        L.append("PLANAR DATA: only the azimuths within the plane are resolved.")
+    L.append(f"Plane of greatest continuity: dip direction {pl['dip_direction']:05.1f}, "
+             f"dip {pl['dip']:4.1f} (strike {pl['strike']:05.1f}, right-hand rule)")
+    L.append(f"Major axis:      trend {a['major']['trend']:05.1f}, plunge "
+             f"{a['major']['plunge']:4.1f}, pitch {pl['pitch']:5.1f} in the plane; "
+             f"range {a['major']['range']:.4g} m")
+    L.append(f"Semi-major axis: trend {a['semi_major']['trend']:05.1f}, plunge "
+             f"{a['semi_major']['plunge']:4.1f}; range {a['semi_major']['range']:.4g} m")
+    minor_range = (f"range {a['minor']['range']:.4g} m" if not D.planar else
+                   f"range not resolved (planar data; {a['minor']['range']:.4g} m is a "
+                   "placeholder equal to the semi-major)")
+    L.append(f"Minor axis:      trend {a['minor']['trend']:05.1f}, plunge "
+             f"{a['minor']['plunge']:4.1f} (pole to the plane); {minor_range}")
+    L.append("")
+    L.append(f"Model ({units}): nugget {m.nugget:.3g} of total sill {m.total_sill:.3g} "
+             f"({100 * m.nugget / max(m.total_sill, 1e-300):.0f} %)")
+    for i, st in enumerate(m.structures, 1):
+        L.append(f"  structure {i}: {st.kind}, sill {st.sill:.3g}, ranges "
+                 f"{st.ranges[0]:.4g} / {st.ranges[1]:.4g} / {st.ranges[2]:.4g} m "
+                 "(major / semi-major / minor"
+                 + ("; practical range" if st.kind in ("exponential", "gaussian") else "") + ")")
+    return L
+
+
+def _summary_run(D: "Discovery") -> list:
+    """The run's figures, the bands, the choices, the warnings and the caution."""
+    dg = D.diagnostics
+    L = [""]
+    L.append(f"pairs: {dg.get('pairs', 0):,}; fan directions: "
+             f"{dg.get('directions', {}).get('n', 0)}"
+             f" ({dg.get('directions', {}).get('thin', 0)} too thin to use); "
+             f"fit bins: {dg.get('bins', {}).get('bins', 0)}; "
+             f"run time {D.seconds.get('total', 0):.1f} s")
+    worst = _worst_direction_line(dg.get("residuals_by_direction"))
+    if worst:
+        L.append(worst)
+    if D.uncertainty is not None and hasattr(D.uncertainty, "to_dict"):
+        u = D.uncertainty.to_dict()
+        for ax in AXES:
+            if ax in u and isinstance(u[ax], dict) and u[ax].get("cone_deg") is not None:
+                L.append(f"  {ax.replace('_', '-')} axis within {u[ax]['cone_deg']:.1f} degrees "
+                         f"({100 * u.get('confidence', 0.9):.0f} % of replicates)")
+    L.append("")
+    L.append("Choices made (override with the options named):")
+    for c in D.choices:
+        v = c["value"]
+        v = f"{v:.4g}" if isinstance(v, float) else str(v)
+        unit = _CHOICE_UNITS.get(c["choice"])
+        if unit and isinstance(c["value"], (int, float)) and not isinstance(c["value"], bool):
+            v = f"{v} {unit}"
+        L.append(f"  - {c['choice']}: {v} - {c['reason']}")
+    if D.warnings:
+        L.append("")
+        L.append("Warnings:")
+        for w in D.warnings:
+            L.append(f"  ! {w}")
+    L.append("")
+    L.append("Caution: " + CAUTION)
+    if D.planar:
+        L.append(PLANAR_CAUTION)
+    return L
+
+

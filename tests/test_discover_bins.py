@@ -1,0 +1,103 @@
+"""Tests of the ``weighted_bins`` stage and its drill-hole pieces.
+
+Within-hole pair counts are checked against a brute-force loop over every
+pair of every hole (lag classes by the definition of design.md: class k holds
+distances in ((k - 1/2) lag, (k + 1/2) lag]); the down-hole nugget against a
+straight line through two hand-computed semivariogram points (Matheron's
+estimator, half the mean squared difference).
+"""
+
+import itertools
+
+import numpy as np
+import pytest
+
+from anisotropy.discovery.bins import downhole_nugget, weighted_bins, within_hole_pairs
+from anisotropy.discovery.lags import LagChoice, build_volume
+from anisotropy.explore import nominal_spacing
+from anisotropy.geometry import fan_for_spacing
+
+
+def _holes(n_holes=5, n=25, step=2.0, seed=0):
+    """Straight holes of ``n`` samples ``step`` apart, random collars and directions."""
+    rng = np.random.default_rng(seed)
+    pts, ids = [], []
+    for h in range(n_holes):
+        d = rng.normal(size=3)
+        d[2] = -abs(d[2]) - 1.0
+        d /= np.linalg.norm(d)
+        pts.append(rng.uniform(0, 100, 3) + np.arange(n)[:, None] * step * d)
+        ids += [f"H{h}"] * n
+    return np.concatenate(pts), np.array(ids)
+
+
+def test_within_hole_pairs_by_brute_force():
+    coords, holes = _holes()
+    lag, n_lags = 5.0, 6
+    coarse = fan_for_spacing(20.0)
+    within, within_holes, _ = within_hole_pairs(coords, holes, lag, n_lags, coarse)
+    want = np.zeros_like(within)
+    seen = set()
+    for i, j in itertools.combinations(range(len(coords)), 2):
+        if holes[i] != holes[j]:
+            continue
+        v = coords[j] - coords[i]
+        d = float(np.linalg.norm(v))
+        k = next((k for k in range(n_lags + 1) if (k - 0.5) * lag < d <= (k + 0.5) * lag), None)
+        if k is None or d == 0:
+            continue
+        cell = int(np.argmax(np.abs(coarse @ (v / d))))   # nearest coarse axis, undirected
+        want[k, cell] += 1
+        seen.add((k, cell, holes[i]))
+    assert np.array_equal(within, want)
+    holes_per_cell = np.zeros_like(within)
+    for k, cell, _ in seen:
+        holes_per_cell[k, cell] += 1
+    assert np.array_equal(within_holes, holes_per_cell)
+
+
+def test_downhole_nugget_is_the_line_through_the_first_two_lags():
+    # 40 pairs 2 m apart differing by 1, 40 pairs 4 m apart differing by 1.2:
+    # gamma(2) = 1/2, gamma(4) = 0.72, the line through them meets zero at 0.28
+    values = np.r_[np.tile([0.0, 1.0], 40), np.tile([0.0, 1.2], 40)]
+    ij = np.arange(160).reshape(80, 2)
+    d = np.r_[np.full(40, 2.0), np.full(40, 4.0)]
+    nug, pts = downhole_nugget((d, ij), values, 2.0, 1.0, "semivariogram")
+    assert [p[:2] for p in pts] == [(2.0, pytest.approx(0.5)), (4.0, pytest.approx(0.72))]
+    assert nug == pytest.approx(2 * 0.5 - 0.72)
+    # too few down-hole pairs, or an estimator without a nugget to read: none
+    assert downhole_nugget((d[:20], ij[:20]), values, 2.0, 1.0, "semivariogram")[0] is None
+    assert downhole_nugget((d, ij), values, 2.0, 1.0, "madogram") == (None, None)
+
+
+def test_scattered_bins_are_weighted_by_pairs_per_metre():
+    rng = np.random.default_rng(1)
+    coords = rng.uniform(0, 100, (400, 3))
+    values = rng.normal(size=400)
+    lc = LagChoice(unit_lag=8.0, n_lags=6)
+    pv = build_volume(coords, values, lc)
+    wb = weighted_bins(pv, coords, values, holes=None, spacing=nominal_spacing(coords), lags=lc,
+                       total=float(np.var(values)), min_pairs=10)
+    b = wb.bins
+    assert np.all(b.pairs >= 10) and wb.fixed_nugget is None and wb.downhole is None
+    assert np.array_equal(wb.ratio, np.ones_like(wb.ratio))
+    assert b.weight == pytest.approx(b.pairs / b.distance)
+    assert [c["choice"] for c in wb.choices] == ["bin weights", "nugget"]
+
+
+def test_drill_hole_bins_count_holes_not_within_hole_pairs():
+    coords, holes = _holes(n_holes=30, n=30, step=2.0, seed=2)
+    values = np.random.default_rng(3).normal(size=len(coords))
+    lc = LagChoice(unit_lag=10.0, n_lags=6)
+    pv = build_volume(coords, values, lc)
+    wb = weighted_bins(pv, coords, values, holes=holes,
+                       spacing=nominal_spacing(coords, holes), lags=lc,
+                       total=float(np.var(values)), min_pairs=10)
+    # each bin's information is its between-hole pairs plus one per hole: never more than
+    # its pairs, so no weight exceeds pairs per metre
+    assert np.all(wb.ratio <= 1.0 + 1e-12) and np.all(wb.ratio >= 0.0)
+    assert np.all(wb.bins.weight <= wb.bins.pairs / wb.bins.distance * (1 + 1e-12))
+    assert wb.choices[0]["choice"] == "drill-hole weights"
+    assert wb.downhole is not None and wb.downhole["composite"] == pytest.approx(2.0, rel=0.05)
+    # 2 m composites under half the 10 m lag: the down-hole nugget is held in the fit
+    assert wb.fixed_nugget == wb.downhole["nugget"]

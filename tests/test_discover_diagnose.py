@@ -1,0 +1,106 @@
+"""Tests of the ``diagnose`` stage: what the sampling resolves, the fit along the fan.
+
+The lag bins are laid out by hand (exact positions on the coordinate axes), so
+which bins are shorter than a range is counted by hand; the model values of
+the residual rows are recomputed from the spherical formula (Journel &
+Huijbregts 1978, ch. II), written here.
+"""
+
+import numpy as np
+import pytest
+
+from anisotropy.discovery.diagnose import residuals_by_direction, resolution
+from anisotropy.models import NestedModel, Structure
+
+
+def _lattice(step, n=12):
+    """Lag vectors every ``step`` m along the three coordinate axes, 500 pairs each."""
+    lags = np.concatenate([np.outer(np.arange(1, n + 1) * step, e) for e in np.eye(3)])
+    return lags, np.full(len(lags), 500)
+
+
+def _resolution(ranges, scattered=True, holes=False, nearest=9.0, step=9.0):
+    lags, pairs = _lattice(step)
+    return resolution(lags, pairs, ranges, np.eye(3), scattered=scattered, nearest=nearest,
+                      across=60.0 if holes else None, min_pairs=30)
+
+
+def test_a_range_under_one_lag_bin_is_said_without_a_false_comparison():
+    # frame = coordinate axes, bins every 9 m: a 13 m minor range has exactly one bin
+    # (9 m) shorter than it (counted by hand), so its rise rests on one point
+    axes, unresolved, w = _resolution((150.0, 90.0, 13.0))
+    assert unresolved == ["minor"] and len(w) == 1
+    assert "rests on one lag bin" in w[0] and "9 m" in w[0]
+    assert "shorter than the shortest lag" not in w[0]
+    # scattered samples surround the minor axis, which is square to the two resolved
+    # axes: its direction is not in doubt (blanket benchmark: minor errors 0.1-1.2 deg
+    # on the realisations that had warned "minor axis not resolved", RESULTS.md)
+    assert axes == [] and "direction is still fixed" in w[0]
+    # samples 9 m apart against a 13 m range: closer samples are what would help
+    assert "closer samples" in w[0]
+    # samples 3 m apart: the lag bins, not the samples, are too coarse
+    assert "shorter unit lag" in _resolution((150.0, 90.0, 13.0), nearest=3.0)[2][0]
+
+
+def test_two_bins_shorter_than_every_range_resolve_them_all():
+    # 20 m ranges against 9 m bins: bins at 9 and 18 m lie shorter on every axis
+    axes, unresolved, w = _resolution((150.0, 90.0, 20.0))
+    assert axes == unresolved == [] and w == []
+
+
+def test_thin_bins_do_not_count():
+    # the same lattice with 20 pairs per bin (under the 30 asked): nothing resolved
+    lags, _ = _lattice(9.0)
+    axes, unresolved, w = resolution(lags, np.full(len(lags), 20), (150.0, 90.0, 20.0),
+                                     np.eye(3), scattered=True, min_pairs=30)
+    assert unresolved == ["major", "semi_major", "minor"] == axes
+    assert "whole frame is a guess" in w[-1]
+
+
+def test_unresolved_range_on_drill_holes_leaves_the_direction_open():
+    # on hole strings the across-hole spacing is all the data say about that direction
+    axes, unresolved, w = _resolution((150.0, 90.0, 13.0), scattered=False, holes=True)
+    assert axes == ["minor"] and unresolved == ["minor"]
+    assert "minor axis is not resolved" in w[0] and "across-hole spacing is 60 m" in w[0]
+
+
+def test_two_unresolved_ranges_leave_their_axes_free_to_turn():
+    # 8 m and 6 m ranges against 9 m bins: no bin is shorter than either
+    axes, unresolved, w = _resolution((150.0, 8.0, 6.0))
+    assert axes == unresolved == ["semi_major", "minor"]
+    assert any("turn about the major axis" in t for t in w)
+    assert all("shorter than the shortest lag seen near that axis (9 m)" in t for t in w[:2])
+
+
+def test_an_axis_without_any_bin_near_it_cannot_be_checked():
+    # bins only along x and y: nothing within 25 degrees of z
+    lags, pairs = _lattice(9.0)
+    keep = lags[:, 2] == 0
+    axes, unresolved, w = resolution(lags[keep], pairs[keep], (150.0, 90.0, 20.0), np.eye(3),
+                                     scattered=False, min_pairs=30)
+    assert unresolved == ["minor"] and "no lag bin lies within 25 degrees" in w[0]
+
+
+def test_residual_rows_against_the_spherical_formula():
+    # one spherical structure, ranges 100/50/20 along the coordinate axes, nugget 0.1
+    model = NestedModel(nugget=0.1, structures=[Structure("spherical", 0.9, (100.0, 50.0, 20.0))],
+                        frame=np.eye(3))
+    dirs = np.eye(3)
+    dist = np.tile(np.arange(1, 6) * 10.0, (3, 1))
+    pairs = np.array([[100, 100, 10, 100, 0]] * 3, float)
+
+    def gamma(h):  # Journel & Huijbregts (1978), ch. II
+        h = np.minimum(h, 1.0)
+        return 0.1 + 0.9 * (1.5 * h - 0.5 * h ** 3)
+
+    truth = np.array([gamma(dist[i] / a) for i, a in enumerate((100.0, 50.0, 20.0))])
+    value = 1.1 * truth                      # every lag 10 % above the model
+    rows = residuals_by_direction(model, dirs, dist, value, pairs, min_pairs=30,
+                                  tolerance=np.full(3, 15.0), flags=["", "", "thin"])
+    for i, r in enumerate(rows):
+        assert r["lags"]["model"] == pytest.approx(truth[i][:4], rel=1e-5)
+        assert r["lags"]["used"] == [True, True, False, True]     # 10 pairs < 30; 0: absent
+        assert r["n_lags"] == 3 and r["pairs"] == 300
+        assert r["mean_relative_residual"] == pytest.approx(0.1)
+        assert r["rms_relative_residual"] == pytest.approx(0.1)
+    assert rows[2]["flag"] == "thin" and rows[0]["plunge"] == 0.0 and rows[2]["plunge"] == 90.0

@@ -1,0 +1,86 @@
+"""Tests of the ``Discovery`` result: its records, its record file and its bootstrap.
+
+The field is simulated by Cholesky factorisation (``scipy.linalg.cholesky``)
+of the spherical covariance (Journel & Huijbregts 1978, ch. II) written
+here; the bootstrap's block side is checked against
+``anisotropy.uncertainty.engine_block_side`` and its block count against
+``numpy.unique`` of the block indices.
+"""
+
+import numpy as np
+import pandas as pd
+import pytest
+from scipy.linalg import cholesky
+
+import anisotropy
+from anisotropy.discovery import Discovery, RefitState
+from anisotropy.errors import InputError
+from anisotropy.uncertainty import MIN_BLOCKS, BootstrapResult, engine_block_side
+
+STAGES = ("read", "prepare", "transform", "sill", "lags", "volume", "bins", "fan", "starts",
+          "search", "structures", "diagnose")
+
+
+def _table(seed=5, n=500):
+    rng = np.random.default_rng(seed)
+    coords = rng.uniform([0, 0, 0], [200, 200, 100], size=(n, 3))
+    # spherical covariance, ranges 120 / 60 / 25 m along x, y, z; nugget 0.2
+    h = np.sqrt(np.sum(((coords[:, None] - coords[None]) / [120.0, 60.0, 25.0]) ** 2, -1))
+    hc = np.minimum(h, 1.0)
+    C = 0.8 * (1 - 1.5 * hc + 0.5 * hc ** 3) + 0.2 * np.eye(n)
+    v = cholesky(C, lower=True) @ rng.standard_normal(n)
+    return pd.DataFrame({"x": coords[:, 0], "y": coords[:, 1], "z": coords[:, 2],
+                         "g": v + 10.0})
+
+
+@pytest.fixture(scope="module")
+def run():
+    return anisotropy.discover(_table(), value="g", structures=1, fan_spacing=15, seed=3)
+
+
+def test_the_result_is_composed_of_the_stage_records(run):
+    D = run
+    assert isinstance(D, Discovery) and isinstance(D.refit, RefitState)
+    assert D.model is D.refinement.model and D.volume_ is D.pair_volume.volume
+    assert D.lags == D.lag_choice.record() and D.transform is D.transform_choice.result
+    # every stage timed, and the total
+    assert set(D.seconds) == set(STAGES) | {"total"}
+    d = D.to_dict()
+    assert set(d["diagnostics"]["seconds"]) == set(STAGES) | {"total"}
+    # the choices are the stages' own, in the order of the chain
+    names = [c["choice"] for c in D.choices]
+    assert names.index("transform") < names.index("unit lag") < names.index("bootstrap blocks") \
+        < names.index("bin weights") < names.index("direction fan") < names.index("structures")
+
+
+def test_blocks_are_sized_for_a_bootstrap_without_one(run):
+    # issue 14: a discovery without bootstrap keeps a volume a later bootstrap can resample
+    D = run
+    assert D.uncertainty is None and D.to_dict()["uncertainty"] == {}
+    side = engine_block_side(D.samples.coords, max_side=D.lags["max_distance"])
+    row = next(c for c in D.choices if c["choice"] == "bootstrap blocks")
+    assert row["value"] == side
+    c = D.samples.coords
+    assert len(np.unique(np.floor((c - c.min(0)) / side), axis=0)) >= MIN_BLOCKS
+
+
+def test_the_bootstrap_method_gives_what_discover_gives(run):
+    # the same blocks, seed and refit: bootstrapping a discovery later equals asking
+    # discover for the bootstrap (exact equality of the bands)
+    later = run.bootstrap(12, rng=3, confidence_level=0.9)
+    assert isinstance(later, BootstrapResult) and later.n_requested == 12
+    assert run.uncertainty is None                    # the method does not store it
+    at_once = anisotropy.discover(_table(), value="g", structures=1, fan_spacing=15, seed=3,
+                                  bootstrap=12).uncertainty
+    a, b = later.to_dict(), at_once.to_dict()
+    a.pop("seconds"), b.pop("seconds")
+    assert a == b
+    with pytest.raises(InputError, match="bootstrap method"):
+        run.bootstrap(5, method="jackknife")
+
+
+def test_the_refit_gives_back_the_main_fit(run):
+    model, objective = run.refit_function()(run.volume_.coarse_sums())
+    assert np.isfinite(objective)
+    for i in range(3):
+        assert abs(model.frame[:, i] @ run.frame[:, i]) > np.cos(np.radians(1.0))

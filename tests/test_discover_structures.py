@@ -1,0 +1,90 @@
+"""Tests of the ``choose_structures`` stage and of ``fitting.refine.refine_frame``.
+
+Fit bins are exact values of spherical models (Journel & Huijbregts 1978,
+ch. II, written here); the ordered model is checked against the frame's
+columns permuted by hand.
+"""
+
+import dataclasses
+
+import numpy as np
+import pytest
+
+from anisotropy.discovery.search import FitSettings, Search
+from anisotropy.discovery.structures import choose_structures, ordered_model
+from anisotropy.fitting import FitBins, fit_nested
+from anisotropy.fitting.refine import refine_frame
+from anisotropy.geometry import fan_for_spacing
+
+
+def _bins(F, structures, nugget=0.1):
+    dirs = fan_for_spacing(15.0)
+    dist = np.arange(1, 16) * 10.0
+    lags = (dist[None, :, None] * dirs[:, None, :]).reshape(-1, 3)
+    gamma = np.full(len(lags), nugget)
+    for sill, ranges in structures:
+        h = np.minimum(np.sqrt(np.sum((lags @ F / np.asarray(ranges)) ** 2, axis=1)), 1.0)
+        gamma += sill * (1.5 * h - 0.5 * h ** 3)
+    b = FitBins(lags=lags, distance=np.linalg.norm(lags, axis=1), gamma=gamma,
+                pairs=np.full(len(lags), 1000.0),
+                direction_index=np.repeat(np.arange(len(dirs)), len(dist)),
+                lag_index=np.tile(np.arange(1, len(dist) + 1), len(dirs)))
+    b.weight = b.pairs / b.distance
+    return b
+
+
+SETTINGS = FitSettings.for_lags(10.0, 155.0, fixed_nugget=None, total_sill=1.0, planar=False)
+
+
+def _search(bins):
+    f = fit_nested(bins, (np.eye(3), 0.1, [0.9], [[100.0, 50.0, 20.0]], ("spherical",)),
+                   **SETTINGS.kwargs())
+    return Search(best=f, tried=[], kinds=[])
+
+
+def test_one_structure_is_chosen_on_one_structure_bins():
+    bins = _bins(np.eye(3), [(0.9, (100.0, 50.0, 20.0))])
+    ref = choose_structures(bins, _search(bins), SETTINGS, coords=np.zeros((0, 3)),
+                            values=np.zeros(0), refine=False)
+    assert len(ref.model.structures) == 1 and ref.frame_refinement is None
+    assert ref.record is None and ref.correction is None
+    assert ref.choices[-1]["reason"].startswith("chosen by BIC")
+    st = ref.model.structures[0]
+    assert st.ranges == pytest.approx((100.0, 50.0, 20.0), rel=0.01)
+    asked = choose_structures(bins, _search(bins), SETTINGS, coords=np.zeros((0, 3)),
+                              values=np.zeros(0), n_structures=2, refine=False)
+    assert len(asked.model.structures) == 2
+    assert asked.choices[-1] == {"choice": "structures", "value": 2, "reason": "as requested"}
+
+
+def test_the_model_frame_is_ordered_by_the_longest_structure():
+    # the fit's columns hold ranges 20, 100, 50: the model's must be 100, 50, 20 (the fit's
+    # columns 1, 2, 0), right-handed
+    F = np.eye(3)
+    fit = dataclasses.make_dataclass("Fit", ["frame", "ranges", "sills", "kinds", "nugget"])(
+        F, np.array([[20.0, 100.0, 50.0]]), np.array([0.9]), ("spherical",), 0.1)
+    m = ordered_model(fit)
+    assert m.structures[0].ranges == (100.0, 50.0, 20.0)
+    for i, j in enumerate((1, 2, 0)):
+        assert abs(m.frame[:, i] @ F[:, j]) == pytest.approx(1.0)
+    assert np.linalg.det(m.frame) == pytest.approx(1.0)
+
+
+def test_refinement_keeps_the_fit_for_few_samples_and_catches_only_data_errors():
+    bins = _bins(np.eye(3), [(0.9, (100.0, 50.0, 20.0))])
+    fit = _search(bins).best
+    rng = np.random.default_rng(0)
+    # under 100 samples the likelihood adds nothing: the fit comes back untouched
+    few = refine_frame(fit, bins, rng.uniform(0, 100, (50, 3)), rng.normal(size=50),
+                       fit_kwargs=SETTINGS.kwargs())
+    assert few.fit is fit and few.record is None and few.warnings == ()
+    coords = rng.uniform(0, 100, (300, 3))
+    # a start without sill is a data problem (FitError): said, and the fit kept
+    no_sill = dataclasses.replace(fit, nugget=0.0, sills=np.array([0.0]))
+    out = refine_frame(no_sill, bins, coords, rng.normal(size=300),
+                       fit_kwargs=SETTINGS.kwargs())
+    assert out.fit is no_sill and out.correction is None
+    assert len(out.warnings) == 1 and "likelihood refinement of the frame failed" in out.warnings[0]
+    # a shape bug is not a data problem: it surfaces
+    with pytest.raises(ValueError):
+        refine_frame(fit, bins, coords, rng.normal(size=299), fit_kwargs=SETTINGS.kwargs())
