@@ -293,10 +293,14 @@ def _discover_domain(task: Mapping, df, row: dict, dom_dir: Path) -> dict:
                     domain_value=task["domain"], **cols, **opts)
     if notes:
         disc.warnings.extend(notes)
+    disc.run["command"] = task.get("command")
     d = disc.to_dict()
     if getattr(disc, "exploration", None) is not None:
         S.atomic_write_json(dom_dir / "explore.json", disc.exploration.to_dict())
     S.atomic_write_json(dom_dir / "discovery.json", d)
+    from anisotropy.modelfile import write_model_files
+
+    write_model_files(disc, dom_dir)
     check = None
     check_dict = None
     if task.get("interpretation"):
@@ -391,7 +395,8 @@ def _load_done(dom_dir: Path, fingerprint: str):
 
 def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None, config=None,
               resume=False, min_samples=MIN_SAMPLES, report=True, progress=False,
-              x=None, y=None, z=None, hole=None, **discover_options) -> BatchResult:
+              x=None, y=None, z=None, hole=None, command=None,
+              **discover_options) -> BatchResult:
     """Discover (and check) the continuity of every domain of a sample table.
 
     Parameters
@@ -427,6 +432,9 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
         Print one line per finished domain.
     x, y, z, hole : str, optional
         Column names (detected when omitted, as in :func:`anisotropy.discover`).
+    command : str, optional
+        The command line of a command-line run, for the audit trail
+        (``run`` in every ``discovery.json`` and in ``summary.json``).
     **discover_options
         Passed to :func:`anisotropy.discover` for every domain (for example
         ``bootstrap=100``, ``transform="log"``, ``lag=10``, ``seed=1``);
@@ -503,6 +511,7 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
             "source": source, "topcut": None if topcut is None else float(topcut),
             # resume must notice when the domain's data changed, not only the options
             "data_hash": _data_hash(df, in_domain),
+            "command": command,
         }
         task["fingerprint"] = _fingerprint(task)
         if resume:
@@ -523,6 +532,11 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
     summary = result.to_dict()
     summary.update(source=source, value=value, domain_column=col,
                    config=cfg.get("source"), config_domains_not_in_table=unknown_cfg)
+    from anisotropy.audit import run_record
+
+    summary["run"] = run_record(source, {**dict(discover_options), **cfg["options"]},
+                                {**dict(discover_options), **cfg["options"]}.get("seed", 0),
+                                command)
     S.atomic_write_csv(out / "summary.csv", ordered, SUMMARY_COLUMNS)
     S.atomic_write_json(out / "summary.json", summary)
     from anisotropy.report.index import render_index

@@ -302,6 +302,13 @@ def _add_discover(p: argparse.ArgumentParser) -> None:
                    help="write the JSON result only, without report.html and its figures")
 
 
+def _command_line(args) -> str:
+    """The command line as typed (for the audit trail)."""
+    import shlex
+
+    return "anisotropy " + shlex.join(getattr(args, "argv_", None) or sys.argv[1:])
+
+
 def _cmd_discover(args) -> int:
     """Propose the 3D continuity model of one grade in one domain."""
     from anisotropy.discover import discover
@@ -323,7 +330,10 @@ def _cmd_discover(args) -> int:
                       shared_ratios=args.shared_ratios, progress=True,
                       bootstrap_method=args.bootstrap_method)
     print(result.summary())
+    result.run["command"] = _command_line(args)
     path = result.to_json(out / "discovery.json")
+    from anisotropy.modelfile import write_model_files
+    print("written: " + ", ".join(str(p) for p in write_model_files(result, out).values()))
     if not args.no_report:
         from anisotropy.report.html import render_report
 
@@ -403,7 +413,10 @@ def _cmd_check(args) -> int:
     print(result.summary())
     print()
     print(checked.summary())
+    result.run["command"] = _command_line(args)
     p1 = result.to_json(out / "discovery.json")
+    from anisotropy.modelfile import write_model_files
+    print("written: " + ", ".join(str(p) for p in write_model_files(result, out).values()))
     p2 = atomic_write_json(out / "check.json", checked.to_dict())
     print(f"\nwritten: {p1}\nwritten: {p2}")
     if not args.no_report:
@@ -518,7 +531,8 @@ def _cmd_batch(args) -> int:
         args.file, value=args.value, domain=args.domain, out=args.out, domains=domains,
         jobs=args.jobs, scheduler=args.scheduler, config=args.config, resume=args.resume,
         min_samples=args.min_samples or MIN_SAMPLES, report=not args.no_report, progress=True,
-        x=args.x, y=args.y, z=args.z, hole=args.hole, **_batch_options(args))
+        x=args.x, y=args.y, z=args.z, hole=args.hole, command=_command_line(args),
+        **_batch_options(args))
     print(res.summary())
     return EXIT_OK if any(r["status"] == "ok" for r in res.rows) else EXIT_INTERNAL
 # <<< batch
@@ -540,7 +554,7 @@ def _cmd_demo(args) -> int:
     from anisotropy.batch import run_demo
 
     res = run_demo(args.out, jobs=args.jobs, bootstrap=args.bootstrap, resume=args.resume,
-                   progress=True)
+                   progress=True, command=_command_line(args))
     print(res.summary())
     return EXIT_OK if all(r["status"] == "ok" for r in res.rows) else EXIT_INTERNAL
 # <<< demo
@@ -581,6 +595,7 @@ def main(argv=None) -> int:
     """Run the command line; return the exit code."""
     parser = build_parser()
     args = parser.parse_args(argv)
+    args.argv_ = list(sys.argv[1:] if argv is None else argv)   # audit trail
     if getattr(args, "_run", None) is None:
         parser.print_help()
         return EXIT_BAD_INPUT

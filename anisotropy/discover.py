@@ -165,6 +165,7 @@ class Discovery:
     choices: list = field(default_factory=list)
     estimator: str = "semivariogram"
     planar: bool = False
+    run: dict = field(default_factory=dict)
     volume_: object = field(default=None, repr=False)
     fan_: object = field(default=None, repr=False)
     bins_: object = field(default=None, repr=False)
@@ -245,6 +246,7 @@ class Discovery:
             "model": {"nugget": float(self.model.nugget), "structures": structures,
                       "total_sill": float(self.model.total_sill), "units": units},
             "uncertainty": unc,
+            "run": dict(self.run),
             "diagnostics": dict(self.diagnostics, warnings=list(self.warnings),
                                 choices=list(self.choices)),
             "planar": bool(self.planar),
@@ -990,6 +992,7 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
     FitError
         The fit failed.
     """
+    run_options = {k: v for k, v in locals().items() if k != "data"}
     t0 = time.perf_counter()
     from anisotropy.explore import explore as _explore
     from anisotropy.fitting import (bins_from_sums, direction_ranges, ellipsoid_range,
@@ -1416,6 +1419,8 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
                       "max_range": hi_r, "planar": planar,
                       "shared_ratios": shared_ratios,
                       "frame_correction": fit.info.get("frame_correction")}
+    from anisotropy.audit import run_record
+    D.run = run_record(getattr(samples, "source", None), run_options, seed)
 
     if bootstrap and int(bootstrap) > 0:
         try:

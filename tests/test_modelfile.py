@@ -182,3 +182,25 @@ def test_experimental_variograms_csv_rows_lie_in_their_lag_classes(run):
     if "down_hole" in set(df["direction"]):
         dh = df[df["direction"] == "down_hole"]
         assert (dh["pairs"] > 0).all()
+
+
+def test_cli_discover_writes_the_model_files_and_the_audit_trail(tmp_path):
+    # end to end through the command line; the SHA-256 reference is hashlib
+    # over the file's bytes (standard library)
+    import hashlib
+
+    from anisotropy.cli import main
+
+    csv = tmp_path / "t.csv"
+    _table().to_csv(csv, index=False)
+    out = tmp_path / "out"
+    argv = [str(csv), "--value", "au", "--hole", "hole", "--out", str(out), "--no-report",
+            "--bootstrap", "0", "--seed", "3"]
+    assert main(["discover"] + argv) == 0
+    for name in ("discovery.json", "model.json", "model.csv", "experimental_variograms.csv"):
+        assert (out / name).is_file()
+    run = json.loads((out / "discovery.json").read_text())["run"]
+    assert run["input_sha256"] == hashlib.sha256(csv.read_bytes()).hexdigest()
+    assert run["seed"] == 3 and run["options"]["seed"] == 3
+    assert run["command"].startswith("anisotropy discover ") and "--seed 3" in run["command"]
+    assert json.loads((out / "model.json").read_text())["run"] == run
