@@ -47,7 +47,8 @@ from typing import Mapping, Sequence
 from anisotropy import _safety as S
 from anisotropy.errors import AnisotropyError, InputError, InsufficientDataError
 
-__all__ = ["run_batch", "BatchResult", "load_config", "SUMMARY_COLUMNS", "MIN_SAMPLES"]
+__all__ = ["run_batch", "BatchResult", "load_config", "SUMMARY_COLUMNS", "SUMMARY_HEADINGS",
+           "summary_heading", "MIN_SAMPLES"]
 
 #: fewest samples a domain needs before discovery is attempted (common practice:
 #: a few hundred pairs per lag need at least ~30-50 samples; below 30 it is noise)
@@ -66,7 +67,41 @@ SUMMARY_COLUMNS = (
     "nugget", "total_sill", "n_structures", "transform", "estimator", "topcut", "n_capped",
     "cone_major", "cone_semi_major", "cone_minor", "replicates",
     "verdict", "warnings", "seconds",
+    # the model to take into estimation (model.json has it in full)
+    "plane_strike", "rotation_azimuth", "rotation_plunge", "rotation_rotation", "sill_units",
+    *(f"s{k}_{f}" for k in (1, 2, 3)
+      for f in ("kind", "sill", "range_major", "range_semi_major", "range_minor")),
+    "grade_method", "grade_sill_units", "grade_nugget",
+    *(f"grade_s{k}_sill" for k in (1, 2, 3)),
+    "flags",
+    # audit trail
+    "run_utc", "version", "input_sha256", "seed",
 )
+
+#: units of the summary columns, added to the headings of summary.csv
+#: (``sill`` columns are in the units named by ``sill_units`` / ``grade_sill_units``)
+_UNITS = {"deg": ("plane_dip_direction", "plane_dip", "plane_pitch", "plane_strike",
+                  "major_trend", "major_plunge", "semi_major_trend", "semi_major_plunge",
+                  "minor_trend", "minor_plunge", "rotation_azimuth", "rotation_plunge",
+                  "rotation_rotation", "cone_major", "cone_semi_major", "cone_minor"),
+          "m": ("range_major", "range_semi_major", "range_minor",
+                *(f"s{k}_range_{a}" for k in (1, 2, 3)
+                  for a in ("major", "semi_major", "minor"))),
+          "s": ("seconds",),
+          "in_sill_units": ("nugget", "total_sill", *(f"s{k}_sill" for k in (1, 2, 3))),
+          "in_grade_sill_units": ("grade_nugget", *(f"grade_s{k}_sill" for k in (1, 2, 3)))}
+
+
+def summary_heading(column: str) -> str:
+    """Heading of a summary column in ``summary.csv``: the key with its unit (``range_major_m``)."""
+    for unit, cols in _UNITS.items():
+        if column in cols:
+            return f"{column}_{unit}"
+    return column
+
+
+#: headings of summary.csv, in the order of :data:`SUMMARY_COLUMNS`
+SUMMARY_HEADINGS = tuple(summary_heading(c) for c in SUMMARY_COLUMNS)
 
 _AXES = ("major", "semi_major", "minor")
 # config keys that are ours, not discover's
@@ -178,8 +213,53 @@ def _empty_row(domain: str, folder: str) -> dict:
     return row
 
 
-def _row_from_result(row: dict, d: Mapping, check: Mapping | None) -> dict:
-    """Fill a summary row from discovery.json (schema anisotropy.discovery/1) and check.json."""
+def _flag_text(d: Mapping, model_file: Mapping | None) -> str:
+    """Unresolved, ambiguous and extrapolated results in a few words ('' when none)."""
+    diag = d.get("diagnostics", {}) or {}
+    flags = []
+    axes = list(diag.get("unresolved_axes") or [])
+    if len(axes) >= 2:
+        flags.append("ambiguous directions: " + " and ".join(axes))
+    elif axes:
+        flags.append(f"unresolved direction: {axes[0]}")
+    if diag.get("unresolved_ranges"):
+        flags.append("unresolved ranges: " + ", ".join(diag["unresolved_ranges"]))
+    ext = ((model_file or {}).get("flags") or {}).get("extrapolated_ranges") or []
+    if ext:
+        flags.append("extrapolated ranges: " + ", ".join(
+            f"s{e['structure']} {e['axis']}" for e in ext))
+    return "; ".join(flags)
+
+
+def _model_columns(row: dict, d: Mapping, model_file: Mapping | None) -> None:
+    """Structures, rotation angles, grade-unit sills, flags and the audit trail of a row."""
+    model = d.get("model", {}) or {}
+    row["plane_strike"] = (d.get("plane", {}) or {}).get("strike")
+    ang = ((d.get("rotation", {}) or {}).get("angles") or {})
+    row["rotation_azimuth"], row["rotation_plunge"], row["rotation_rotation"] = (
+        ang.get("azimuth"), ang.get("plunge"), ang.get("rotation"))
+    row["sill_units"] = model.get("units")
+    for k, st in enumerate((model.get("structures") or [])[:3], 1):
+        r = st.get("ranges") or {}
+        row.update({f"s{k}_kind": st.get("type"), f"s{k}_sill": st.get("sill"),
+                    **{f"s{k}_range_{a}": r.get(a) for a in _AXES}})
+    grade = (model_file or {}).get("grade_units") or {}
+    row["grade_method"] = grade.get("method")
+    if grade.get("structures"):
+        row["grade_sill_units"] = grade.get("units")
+        row["grade_nugget"] = grade.get("nugget")
+        for k, st in enumerate(grade["structures"][:3], 1):
+            row[f"grade_s{k}_sill"] = st.get("sill")
+    row["flags"] = _flag_text(d, model_file)
+    run = d.get("run", {}) or {}
+    row["run_utc"], row["version"] = run.get("utc"), run.get("version")
+    row["input_sha256"], row["seed"] = run.get("input_sha256"), run.get("seed")
+
+
+def _row_from_result(row: dict, d: Mapping, check: Mapping | None,
+                     model_file: Mapping | None = None) -> dict:
+    """Fill a summary row from discovery.json (schema anisotropy.discovery/1), check.json
+    and model.json."""
     inp = d.get("input", {})
     row["n_samples"] = inp.get("n_samples")
     row["n_used"] = inp.get("n_used")
@@ -204,8 +284,10 @@ def _row_from_result(row: dict, d: Mapping, check: Mapping | None) -> dict:
         row[f"cone_{a}"] = (unc.get(a) or {}).get("cone_deg")
     row["replicates"] = unc.get("replicates")
     row["warnings"] = len((d.get("diagnostics", {}) or {}).get("warnings", []) or [])
+    row["warning_list"] = list((d.get("diagnostics", {}) or {}).get("warnings", []) or [])
     if check is not None:
         row["verdict"] = check.get("verdict")
+    _model_columns(row, d, model_file)
     for k, v in list(row.items()):
         if isinstance(v, float):
             row[k] = round(v, 4)
@@ -300,7 +382,7 @@ def _discover_domain(task: Mapping, df, row: dict, dom_dir: Path) -> dict:
     S.atomic_write_json(dom_dir / "discovery.json", d)
     from anisotropy.modelfile import write_model_files
 
-    write_model_files(disc, dom_dir)
+    model_file = json.loads(write_model_files(disc, dom_dir)["model_json"].read_text("utf-8"))
     check = None
     check_dict = None
     if task.get("interpretation"):
@@ -314,7 +396,7 @@ def _discover_domain(task: Mapping, df, row: dict, dom_dir: Path) -> dict:
 
         render_report(disc, dom_dir, check=check, topcut=task.get("topcut"))
     row["status"] = "ok"
-    return _row_from_result(row, d, check_dict)
+    return _row_from_result(row, d, check_dict, model_file)
 
 
 # ---------------------------------------------------------------------------
@@ -537,7 +619,9 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
     summary["run"] = run_record(source, {**dict(discover_options), **cfg["options"]},
                                 {**dict(discover_options), **cfg["options"]}.get("seed", 0),
                                 command)
-    S.atomic_write_csv(out / "summary.csv", ordered, SUMMARY_COLUMNS)
+    S.atomic_write_csv(out / "summary.csv",
+                       [{summary_heading(k): v for k, v in r.items()} for r in ordered],
+                       SUMMARY_HEADINGS)
     S.atomic_write_json(out / "summary.json", summary)
     from anisotropy.report.index import render_index
 
