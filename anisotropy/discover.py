@@ -1443,6 +1443,11 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
                                                 confidence=confidence, seed=seed,
                                                 n_jobs=n_jobs, scheduler=scheduler,
                                                 progress=progress, estimator=estimator)
+                used = getattr(D.uncertainty, "blocks", None) or {}
+                for c in choices:  # record the block side the bootstrap used (issue 17)
+                    if c.get("choice") == "bootstrap blocks" and used.get("side"):
+                        c.update(value=float(max(used["side"])), engine_block_side=c["value"],
+                                 reason=f"resampled blocks: {used.get('rule')}")
         D.diagnostics["seconds"] = time.perf_counter() - t0
     return D
 

@@ -396,3 +396,15 @@ def test_summary_gives_each_structure_units_flags_and_the_audit_trail(batch):
         import html as _html
 
         assert _html.escape(w, quote=True)[:40] in text or w[:40] in text
+
+
+def test_recorded_bootstrap_block_size_is_the_one_resampled(batch):
+    # consistency of the record: the choice must repeat the block grouping the
+    # bootstrap wrote (uncertainty.blocks.side, the blocks actually resampled)
+    root, out, res = batch
+    disc = json.loads((out / "alpha" / "discovery.json").read_text())
+    used = disc["uncertainty"]["blocks"]["side"]
+    ch = [c for c in disc["diagnostics"]["choices"] if c["choice"] == "bootstrap blocks"]
+    assert len(ch) == 1
+    assert ch[0]["value"] == pytest.approx(max(used))
+    assert ch[0]["engine_block_side"] <= ch[0]["value"]
