@@ -33,6 +33,7 @@ from anisotropy.errors import InputError
 from anisotropy.models import NestedModel, Structure
 
 __all__ = ["hermite_coefficients", "hermite_covariance", "GradeModel", "grade_model",
+           "downhole_check",
            "N_HERMITE", "Y_LIMIT"]
 
 N_HERMITE = 100      # terms of the expansion
@@ -237,3 +238,75 @@ def grade_model(score_model: NestedModel, anamorphosis, *, n_terms: int = N_HERM
               "held and only the sills are fitted to it")
     return GradeModel(model=model, method="hermite", reason=reason, variance=var,
                       captured=captured, max_misfit=misfit, n_terms=int(n_terms), phi=phi)
+
+
+def _downhole_pairs(coords, holes, max_step: int = 3):
+    """Pairs ``(i, j)`` of samples ``step`` apart along the same hole, steps 1..max_step.
+
+    Inside a hole the samples are ordered along the hole's principal
+    direction (first right singular vector of the centred coordinates).
+    """
+    coords = np.asarray(coords, float)
+    codes, inv = np.unique(np.asarray(holes).astype(str), return_inverse=True)
+    pos = np.zeros(len(coords))
+    for h in range(len(codes)):
+        idx = np.flatnonzero(inv == h)
+        if len(idx) > 1:
+            p = coords[idx] - coords[idx].mean(axis=0)
+            pos[idx] = p @ np.linalg.svd(p, full_matrices=False)[2][0]
+    order = np.lexsort((pos, inv))
+    pairs = []
+    for step in range(1, max_step + 1):
+        a, b = order[:-step], order[step:]
+        same = inv[a] == inv[b]
+        pairs.append(np.stack([a[same], b[same]], axis=1))
+    return np.concatenate(pairs) if pairs else np.empty((0, 2), int)
+
+
+def downhole_check(model: NestedModel, coords, grades, holes, composite, *,
+                   n_classes: int = 3, min_pairs: int = 20) -> list:
+    """The grade model against the direct grade variogram down the holes.
+
+    For the down-hole pairs in classes of ``k`` composite lengths
+    (k = 1 .. ``n_classes``, distance rounded to the nearest multiple), the
+    experimental semivariogram of the grades, ``0.5 mean (z_i - z_j)^2``
+    (unweighted), beside the model's semivariogram averaged over the same
+    pairs' lag vectors.
+
+    Parameters
+    ----------
+    model : NestedModel
+        The grade-unit model.
+    coords : array_like (n, 3)
+    grades : array_like (n,)
+    holes : array_like (n,)
+        Hole identifiers.
+    composite : float
+        Down-hole sample spacing, metres.
+
+    Returns
+    -------
+    list of dict
+        ``{lag_m, mean_distance_m, pairs, experimental, model}`` per class
+        with at least ``min_pairs`` pairs.
+    """
+    if holes is None or not composite or composite <= 0:
+        return []
+    coords = np.asarray(coords, float)
+    z = np.asarray(grades, float)
+    ij = _downhole_pairs(coords, holes, n_classes + 1)
+    if len(ij) == 0:
+        return []
+    lag = coords[ij[:, 1]] - coords[ij[:, 0]]
+    dist = np.linalg.norm(lag, axis=1)
+    cls = np.round(dist / float(composite)).astype(int)
+    out = []
+    for k in range(1, n_classes + 1):
+        m = cls == k
+        if m.sum() < min_pairs:
+            continue
+        diff = z[ij[m, 1]] - z[ij[m, 0]]
+        out.append({"lag_m": k * float(composite), "mean_distance_m": float(dist[m].mean()),
+                    "pairs": int(m.sum()), "experimental": float(0.5 * np.mean(diff * diff)),
+                    "model": float(np.mean(model.variogram(lag[m])))})
+    return out

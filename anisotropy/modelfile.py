@@ -160,7 +160,27 @@ def grade_record(D) -> dict | None:
                                       "variance_captured", "max_misfit_share",
                                       "hermite_coefficients")})
     part["same_frame_and_ranges"] = True
+    part["check_downhole"] = _grade_check(D, g.model)
     return part
+
+
+def _grade_check(D, model) -> dict:
+    """The grade model against the direct grade variogram of the first down-hole lags."""
+    from anisotropy.hermite import downhole_check
+
+    comp = ((D.diagnostics or {}).get("downhole") or {}).get("composite")
+    holes = getattr(D.samples, "holes", None)
+    tr = D.transform
+    rows = []
+    if holes is not None and comp:
+        grades = tr.back(np.asarray(tr.values, float))   # the grades the scores came from
+        rows = downhole_check(model, D.samples.coords, grades, holes, float(comp))
+    return {"rows": rows,
+            "note": "experimental: half the mean squared grade difference of the down-hole "
+                    "pairs one, two and three composite lengths apart (no declustering); "
+                    "model: the grade model's variogram averaged over the same pairs' lag "
+                    "vectors" if rows else
+                    "no down-hole pairs to check against (no hole column, or too few pairs)"}
 
 
 def model_record(D, run: dict | None = None) -> dict:

@@ -104,3 +104,39 @@ def test_grade_model_of_a_skewed_anamorphosis_keeps_the_variance():
     assert g.max_misfit == pytest.approx(np.max(np.abs(b * a - t)) / var, rel=1e-6)
     d = g.to_dict()
     assert d["method"] == "hermite" and "Hermite" in d["reason"]
+
+
+def test_downhole_check_experimental_matches_the_hermite_variogram_by_monte_carlo():
+    # Monte Carlo of the Gaussian model: normal scores simulated along holes
+    # (anisotropy.simulate, itself checked against its covariance in
+    # test_simulate), grades z = exp(0.5 y); the direct down-hole grade
+    # variogram is compared with Var Z - sum phi_n^2 rho^n (the Hermite
+    # back-transform, Rivoirard 1994), rho from the score model at each pair
+    from anisotropy.hermite import downhole_check
+    from anisotropy.simulate import simulate_field
+
+    rng = np.random.default_rng(2)
+    n_holes, per, comp = 150, 15, 2.0
+    xy = rng.uniform(0, 2000, (n_holes, 2))
+    pts = np.array([[x, y, -comp * j] for x, y in xy for j in range(per)])
+    holes = np.repeat(np.arange(n_holes), per)
+    ym = NestedModel(0.1, [Structure("spherical", 0.9, (40.0, 40.0, 12.0))],
+                     frame_from_angles(0.0, 0.0, 0.0))
+    ana = lambda y: np.exp(0.5 * np.asarray(y))  # noqa: E731
+    g = grade_model(ym, ana)
+    exp_rows = []
+    for seed in range(4):
+        z = ana(simulate_field(pts, ym, seed=seed))
+        exp_rows.append(downhole_check(g.model, pts, z, holes, comp))
+    phi, var = hermite_coefficients(ana)
+    for k in range(3):
+        vals = np.array([r[k]["experimental"] for r in exp_rows])
+        lag = np.array([0.0, 0.0, (k + 1) * comp])
+        rho = float(ym.covariance(lag[None])[0]) / ym.total_sill
+        want = var - float(hermite_covariance(phi, rho))
+        se = vals.std(ddof=1) / np.sqrt(len(vals))
+        assert vals.mean() == pytest.approx(want, abs=4 * se + 0.02 * want)
+        # the model column is the grade model's variogram at those lags (vertical holes)
+        assert exp_rows[0][k]["model"] == pytest.approx(float(g.model.variogram(lag[None])[0]),
+                                                        rel=1e-9)
+        assert exp_rows[0][k]["pairs"] == n_holes * (per - k - 1)
