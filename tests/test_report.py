@@ -384,3 +384,10 @@ def test_units_follow_the_estimator():
                            transform=SimpleNamespace(record={"kind": "normal_score"},
                                                      kind="normal_score"))
     assert _units(disc) == "correlogram units (1 - rho)"
+
+
+def test_report_gives_the_model_in_grade_units(report):
+    # the fixture's grades are lognormal, so auto chose normal scores
+    text = " ".join(_parse(report).text)
+    assert "Model in grade units" in text and "Hermite" in text
+    assert "Checked against the direct grade variogram down the holes" in text

@@ -609,6 +609,7 @@ def _section_model(disc, d) -> str:
              ("pitch of the major axis in that plane", _g(plane.get("pitch"), "05.1f"))]
     html.append(_kv(items))
     html.append(_rotation_html(_frame(disc)))
+    html.append(_grade_html(disc))
     unc = d.get("uncertainty") or {}
     if unc:
         conf = unc.get("confidence")
@@ -651,6 +652,40 @@ def _range_marks(d) -> dict:
             if m:
                 marks[(k, a)] = m
     return marks
+
+
+def _grade_html(disc) -> str:
+    """The model in grade units (normal scores only), how it was obtained and its check."""
+    from anisotropy.modelfile import grade_record
+
+    try:
+        g = grade_record(disc)
+    except Exception as exc:  # noqa: BLE001 - the report must still be written
+        return f"<p class='warn'>The model in grade units could not be computed ({S.escape(exc)}).</p>"
+    if g is None:
+        return ""
+    if not g.get("structures"):
+        return f"<h3>Model in grade units</h3><p>Not given: {S.escape(g.get('reason'))}.</p>"
+    rows = [{"structure": "0", "type": "nugget", "sill": _g(g["nugget"], ".4g")}]
+    for k, st in enumerate(g["structures"], 1):
+        r = st["practical_range_m"]
+        rows.append({"structure": str(k), "type": st["kind"], "sill": _g(st["sill"], ".4g"),
+                     "ranges major / semi-major / minor (m)":
+                         f"{r['major']:.1f} / {r['semi_major']:.1f} / {r['minor']:.1f}"})
+    html = ["<h3>Model in grade units</h3>",
+            f"<p>Sills in {S.escape(g['units'])}, same axes and ranges as above. How: "
+            f"{S.escape(g['reason'])}. Grade variance {_g(g['grade_variance'], '.4g')}; the "
+            f"held shape departs from the back-transformed covariance by up to "
+            f"{_g(100 * g['max_misfit_share'], '.1f')} % of it.</p>",
+            _table(rows, ["structure", "type", "sill", "ranges major / semi-major / minor (m)"])]
+    chk = (g.get("check_downhole") or {}).get("rows") or []
+    if chk:
+        html.append("<p>Checked against the direct grade variogram down the holes "
+                    f"({S.escape(g['check_downhole']['note'])}):</p>")
+        html.append(_table([{"lag (m)": _g(c["lag_m"], ".3g"), "pairs": c["pairs"],
+                             "experimental": _g(c["experimental"], ".4g"),
+                             "grade model": _g(c["model"], ".4g")} for c in chk]))
+    return "\n".join(html)
 
 
 def _rotation_html(R) -> str:
