@@ -160,6 +160,10 @@ def grade_record(D) -> dict | None:
                                       "variance_captured", "max_misfit_share",
                                       "hermite_coefficients")})
     part["same_frame_and_ranges"] = True
+    cap = (getattr(tr, "record", None) or {}).get("capping")
+    if cap:
+        part["reason"] += (f"; the grades are those capped before the transform "
+                           f"(top-cut {cap.get('cap', cap)})")
     part["check_downhole"] = _grade_check(D, g.model)
     return part
 
