@@ -55,6 +55,9 @@ _PUBLIC = {
     "check_interpretation": "check",
     "CheckResult": "check",
     "run_batch": "batch",
+    # the plain model export and the model in grade units
+    "write_model_files": "modelfile",
+    "grade_model": "hermite",
 }
 
 __all__ = sorted(_PUBLIC) + ["__version__"]

@@ -71,7 +71,8 @@ try:
 except ImportError:  # pragma: no cover - Python 3.10
     import tomli as tomllib
 
-__all__ = ["run_batch", "BatchResult", "load_config", "SUMMARY_COLUMNS", "MIN_SAMPLES"]
+__all__ = ["run_batch", "BatchResult", "load_config", "SUMMARY_COLUMNS", "SUMMARY_HEADINGS",
+           "summary_heading", "MIN_SAMPLES"]
 
 MARKER = ".complete"
 ROW_FILE = "row.json"
@@ -87,7 +88,41 @@ SUMMARY_COLUMNS = (
     "topcut_mode", "n_excluded",
     "cone_major", "cone_semi_major", "cone_minor", "replicates",
     "verdict", "warnings", "seconds",
+    # the model to take into estimation (model.json has it in full)
+    "plane_strike", "rotation_azimuth", "rotation_plunge", "rotation_rotation", "sill_units",
+    *(f"s{k}_{f}" for k in (1, 2, 3)
+      for f in ("kind", "sill", "range_major", "range_semi_major", "range_minor")),
+    "grade_method", "grade_sill_units", "grade_nugget",
+    *(f"grade_s{k}_sill" for k in (1, 2, 3)),
+    "flags",
+    # audit trail
+    "run_utc", "version", "input_sha256", "seed",
 )
+
+#: units of the summary columns, added to the headings of summary.csv
+#: (``sill`` columns are in the units named by ``sill_units`` / ``grade_sill_units``)
+_UNITS = {"deg": ("plane_dip_direction", "plane_dip", "plane_pitch", "plane_strike",
+                  "major_trend", "major_plunge", "semi_major_trend", "semi_major_plunge",
+                  "minor_trend", "minor_plunge", "rotation_azimuth", "rotation_plunge",
+                  "rotation_rotation", "cone_major", "cone_semi_major", "cone_minor"),
+          "m": ("range_major", "range_semi_major", "range_minor",
+                *(f"s{k}_range_{a}" for k in (1, 2, 3)
+                  for a in ("major", "semi_major", "minor"))),
+          "s": ("seconds",),
+          "in_sill_units": ("nugget", "total_sill", *(f"s{k}_sill" for k in (1, 2, 3))),
+          "in_grade_sill_units": ("grade_nugget", *(f"grade_s{k}_sill" for k in (1, 2, 3)))}
+
+
+def summary_heading(column: str) -> str:
+    """Heading of a summary column in ``summary.csv``: the key with its unit (``range_major_m``)."""
+    for unit, cols in _UNITS.items():
+        if column in cols:
+            return f"{column}_{unit}"
+    return column
+
+
+#: headings of summary.csv, in the order of :data:`SUMMARY_COLUMNS`
+SUMMARY_HEADINGS = tuple(summary_heading(c) for c in SUMMARY_COLUMNS)
 
 # config keys that are ours, not discover's
 _OWN_KEYS = {"skip", "interpretation", "topcut", "topcut_mode", "min_samples", "units"}
@@ -190,8 +225,53 @@ def _empty_row(domain: str, folder: str) -> dict:
     return row
 
 
-def _row_from_result(row: dict, d: Mapping, check: Mapping | None) -> dict:
-    """Fill a summary row from discovery.json (schema anisotropy.discovery/1) and check.json."""
+def _flag_text(d: Mapping, model_file: Mapping | None) -> str:
+    """Unresolved, ambiguous and extrapolated results in a few words ('' when none)."""
+    diag = d.get("diagnostics", {}) or {}
+    flags = []
+    axes = list(diag.get("unresolved_axes") or [])
+    if len(axes) >= 2:
+        flags.append("ambiguous directions: " + " and ".join(axes))
+    elif axes:
+        flags.append(f"unresolved direction: {axes[0]}")
+    if diag.get("unresolved_ranges"):
+        flags.append("unresolved ranges: " + ", ".join(diag["unresolved_ranges"]))
+    ext = ((model_file or {}).get("flags") or {}).get("extrapolated_ranges") or []
+    if ext:
+        flags.append("extrapolated ranges: " + ", ".join(
+            f"s{e['structure']} {e['axis']}" for e in ext))
+    return "; ".join(flags)
+
+
+def _model_columns(row: dict, d: Mapping, model_file: Mapping | None) -> None:
+    """Structures, rotation angles, grade-unit sills, flags and the audit trail of a row."""
+    model = d.get("model", {}) or {}
+    row["plane_strike"] = (d.get("plane", {}) or {}).get("strike")
+    ang = ((d.get("rotation", {}) or {}).get("angles") or {})
+    row["rotation_azimuth"], row["rotation_plunge"], row["rotation_rotation"] = (
+        ang.get("azimuth"), ang.get("plunge"), ang.get("rotation"))
+    row["sill_units"] = model.get("units")
+    for k, st in enumerate((model.get("structures") or [])[:3], 1):
+        r = st.get("ranges") or {}
+        row.update({f"s{k}_kind": st.get("type"), f"s{k}_sill": st.get("sill"),
+                    **{f"s{k}_range_{a}": r.get(a) for a in _AXES}})
+    grade = (model_file or {}).get("grade_units") or {}
+    row["grade_method"] = grade.get("method")
+    if grade.get("structures"):
+        row["grade_sill_units"] = grade.get("units")
+        row["grade_nugget"] = grade.get("nugget")
+        for k, st in enumerate(grade["structures"][:3], 1):
+            row[f"grade_s{k}_sill"] = st.get("sill")
+    row["flags"] = _flag_text(d, model_file)
+    run = d.get("run", {}) or {}
+    row["run_utc"], row["version"] = run.get("utc"), run.get("version")
+    row["input_sha256"], row["seed"] = run.get("input_sha256"), run.get("seed")
+
+
+def _row_from_result(row: dict, d: Mapping, check: Mapping | None,
+                     model_file: Mapping | None = None) -> dict:
+    """Fill a summary row from discovery.json (schema anisotropy.discovery/1), check.json
+    and model.json."""
     inp = d.get("input", {})
     row["n_samples"] = inp.get("n_samples")
     row["n_used"] = inp.get("n_used")
@@ -216,8 +296,10 @@ def _row_from_result(row: dict, d: Mapping, check: Mapping | None) -> dict:
         row[f"cone_{a}"] = (unc.get(a) or {}).get("cone_deg")
     row["replicates"] = unc.get("replicates")
     row["warnings"] = len((d.get("diagnostics", {}) or {}).get("warnings", []) or [])
+    row["warning_list"] = list((d.get("diagnostics", {}) or {}).get("warnings", []) or [])
     if check is not None:
         row["verdict"] = check.get("verdict")
+    _model_columns(row, d, model_file)
     for k, v in list(row.items()):
         if isinstance(v, float):
             row[k] = round(v, 4)
@@ -290,7 +372,8 @@ def _discover_domain(task: Mapping, df, row: dict, dom_dir: Path) -> dict:
     disc = discover(df, value=task["value"], domain=task["domain_column"],
                     domain_value=task["domain"], **cols, **opts)
     if task.get("units"):
-        disc.diagnostics["grade_units"] = str(task["units"])
+        disc.grade_units = str(task["units"])
+    disc.run["command"] = task.get("command")
     d = disc.to_dict()
     cut = (d.get("transform") or {}).get("top_cut")
     if cut:
@@ -299,6 +382,9 @@ def _discover_domain(task: Mapping, df, row: dict, dom_dir: Path) -> dict:
     if getattr(disc, "exploration", None) is not None:
         S.atomic_write_json(dom_dir / "explore.json", disc.exploration.to_dict())
     S.atomic_write_json(dom_dir / "discovery.json", d)
+    from anisotropy.modelfile import write_model_files
+
+    model_file = json.loads(write_model_files(disc, dom_dir)["model_json"].read_text("utf-8"))
     check = None
     check_dict = None
     if task.get("interpretation"):
@@ -308,7 +394,7 @@ def _discover_domain(task: Mapping, df, row: dict, dom_dir: Path) -> dict:
     if task.get("report", True):
         render_report(disc, dom_dir, check=check)
     row["status"] = "ok"
-    return _row_from_result(row, d, check_dict)
+    return _row_from_result(row, d, check_dict, model_file)
 
 
 # ---------------------------------------------------------------------------
@@ -387,7 +473,8 @@ def _load_done(dom_dir: Path, fingerprint: str):
 
 def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None, config=None,
               resume=False, min_samples=MIN_SAMPLES, report=True, progress=False,
-              x=None, y=None, z=None, hole=None, **discover_options) -> BatchResult:
+              x=None, y=None, z=None, hole=None, command=None,
+              **discover_options) -> BatchResult:
     """Discover (and check) the continuity of every domain of a sample table.
 
     Parameters
@@ -423,6 +510,9 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
         Print one line per finished domain.
     x, y, z, hole : str, optional
         Column names (detected when omitted, as in :func:`anisotropy.discover`).
+    command : str, optional
+        The command line of a command-line run, for the audit trail
+        (``run`` in every ``discovery.json`` and in ``summary.json``).
     **discover_options
         Passed to :func:`anisotropy.discover` for every domain (for example
         ``bootstrap=100``, ``transform="log"``, ``lag=10``, ``seed=1``);
@@ -496,6 +586,7 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
             "source": source, "topcut": topcut, "units": units,
             # resume must notice when the domain's data changed, not only the options
             "data_hash": _data_hash(df, in_domain),
+            "command": command,
         }
         task["fingerprint"] = _fingerprint(task)
         if resume:
@@ -516,7 +607,14 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
     summary = result.to_dict()
     summary.update(source=source, value=value, domain_column=col,
                    config=cfg.get("source"), config_domains_not_in_table=unknown_cfg)
-    S.atomic_write_csv(out / "summary.csv", ordered, SUMMARY_COLUMNS)
+    from anisotropy.audit import run_record
+
+    summary["run"] = run_record(source, {**dict(discover_options), **cfg["options"]},
+                                {**dict(discover_options), **cfg["options"]}.get("seed", 0),
+                                command)
+    S.atomic_write_csv(out / "summary.csv",
+                       [{summary_heading(k): v for k, v in r.items()} for r in ordered],
+                       SUMMARY_HEADINGS)
     S.atomic_write_json(out / "summary.json", summary)
     render_index(ordered, out / "index.html", source=source, value=value,
                  domain_column=col, notes=_notes(unknown_cfg))

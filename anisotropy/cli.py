@@ -127,7 +127,7 @@ def _add_units_option(p: argparse.ArgumentParser) -> None:
 def _record_units(result, units) -> None:
     """Put ``--units`` in the discovery record (diagnostics.grade_units)."""
     if units:
-        result.diagnostics["grade_units"] = str(units)
+        result.grade_units = str(units)
 
 
 def _add_output_option(p: argparse.ArgumentParser, default: str) -> None:
@@ -351,6 +351,13 @@ def _add_discover(p: argparse.ArgumentParser) -> None:
                    help="write the JSON result only, without report.html and its figures")
 
 
+def _command_line(args) -> str:
+    """The command line as typed (for the audit trail)."""
+    import shlex
+
+    return "anisotropy " + shlex.join(getattr(args, "argv_", None) or sys.argv[1:])
+
+
 def _cmd_discover(args) -> int:
     """Propose the 3D continuity model of one grade in one domain."""
     from anisotropy.discover import discover
@@ -374,7 +381,10 @@ def _cmd_discover(args) -> int:
                       top_cut_mode=args.top_cut_mode or "cap")
     _record_units(result, args.units)
     print(result.summary())
+    result.run["command"] = _command_line(args)
     path = result.to_json(out / "discovery.json")
+    from anisotropy.modelfile import write_model_files
+    print("written: " + ", ".join(str(p) for p in write_model_files(result, out).values()))
     if not args.no_report:
         from anisotropy.report.html import render_report
 
@@ -459,7 +469,10 @@ def _cmd_check(args) -> int:
     print(result.summary())
     print()
     print(checked.summary())
+    result.run["command"] = _command_line(args)
     p1 = result.to_json(out / "discovery.json")
+    from anisotropy.modelfile import write_model_files
+    print("written: " + ", ".join(str(p) for p in write_model_files(result, out).values()))
     p2 = atomic_write_json(out / "check.json", checked.to_dict())
     print(f"\nwritten: {p1}\nwritten: {p2}")
     if not args.no_report:
@@ -586,6 +599,7 @@ def _cmd_batch(args) -> int:
         jobs=args.jobs, scheduler=args.scheduler, config=args.config, resume=args.resume,
         min_samples=args.min_samples or MIN_SAMPLES, report=not args.no_report, progress=True,
         x=args.x, y=args.y, z=args.z, hole=args.hole, units=args.units,
+        command=_command_line(args),
         **_batch_options(args))
     print(res.summary())
     return EXIT_OK if any(r["status"] == "ok" for r in res.rows) else EXIT_INTERNAL
@@ -621,7 +635,7 @@ def _cmd_demo(args) -> int:
     from anisotropy.batch import run_demo
 
     res = run_demo(args.out, jobs=args.jobs, bootstrap=args.bootstrap, resume=args.resume,
-                   progress=True)
+                   progress=True, command=_command_line(args))
     print(res.summary())
     return EXIT_OK if all(r["status"] == "ok" for r in res.rows) else EXIT_INTERNAL
 # <<< demo
@@ -662,6 +676,7 @@ def main(argv=None) -> int:
     """Run the command line; return the exit code."""
     parser = build_parser()
     args = parser.parse_args(argv)
+    args.argv_ = list(sys.argv[1:] if argv is None else argv)   # audit trail
     if getattr(args, "_run", None) is None:
         parser.print_help()
         return EXIT_BAD_INPUT

@@ -34,9 +34,11 @@ and the :class:`~anisotropy.discovery.Discovery` result (schema
 
 from __future__ import annotations
 
+import dataclasses
 import sys
 import time
 
+from anisotropy.audit import run_record
 from anisotropy.discovery import (CAUTION, PLANAR_CAUTION, SCHEMA, DiscoverParams, Discovery,
                                   FitSettings, RefitState, build_volume, choose_lags,
                                   choose_sill, choose_structures, choose_transform, diagnose,
@@ -231,9 +233,27 @@ def run_discovery(data, p: DiscoverParams) -> Discovery:
                                       shared_ratios=p.shared_ratios),
                   warnings=[w for r in records for w in r.warnings],
                   choices=[dict(c) for r in records for c in r.choices], seconds=t.total())
+    D.run = run_record(samples.source, _options(p), p.seed)
     if p.n_bootstrap:
         D.uncertainty = t("bootstrap", D.bootstrap, p.n_bootstrap, method=p.bootstrap_method,
                           confidence_level=p.confidence, rng=p.seed, n_jobs=p.n_jobs,
                           scheduler=p.scheduler, progress=p.progress)
+        _record_bootstrap_blocks(D)
         D.seconds = t.total()
     return D
+
+
+def _options(p: DiscoverParams) -> dict:
+    """The run's settings for the audit trail (intake keywords flattened in)."""
+    out = {f.name: getattr(p, f.name) for f in dataclasses.fields(p) if f.name != "intake"}
+    out.update(p.intake)
+    return out
+
+
+def _record_bootstrap_blocks(D: Discovery) -> None:
+    """The "bootstrap blocks" choice names the block side the bootstrap resampled."""
+    used = getattr(D.uncertainty, "blocks", None) or {}
+    for c in D.choices:
+        if c.get("choice") == "bootstrap blocks" and used.get("side"):
+            c.update(value=float(max(used["side"])), engine_block_side=c["value"],
+                     reason=f"resampled blocks: {used.get('rule')}")

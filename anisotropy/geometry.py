@@ -43,6 +43,9 @@ __all__ = [
     "line_from_pitch",
     "frame_from_angles",
     "angles_from_frame",
+    "frame_from_zxz",
+    "zxz_from_frame",
+    "rotation_sequences",
     "frame_from_axes",
     "canonical_frame",
     "is_rotation",
@@ -399,6 +402,130 @@ def angles_from_frame(R):
     rot = np.where(rot <= -90.0, rot + 180.0, rot)
     rot = np.where(vertical, 0.0, rot)
     return _out(az), _out(pl), _out(rot)
+
+
+# ---------------------------------------------------------------------------
+# a second rotation-angle sequence: intrinsic z-x'-z'' (proper Euler angles)
+# ---------------------------------------------------------------------------
+
+SEQUENCE_AZIMUTH_WORDS = (
+    "sequence 1 (azimuth, plunge, rotation): start with the major axis pointing north, the "
+    "semi-major axis east and the minor axis down; turn the triad about the vertical by the "
+    "azimuth, clockwise seen from above (the major axis's trend); tilt the major axis down "
+    "by the plunge, about the horizontal semi-major axis; then turn the triad about the "
+    "major axis by the rotation, positive turning the semi-major axis downwards "
+    "(right-handed about the major axis as it points). Matrix: Rz(-azimuth) Rx(-plunge) "
+    "Ry(rotation) R0, R0 = [[0,1,0],[1,0,0],[0,0,-1]]; in SciPy "
+    "Rotation.from_euler('ZXY', [-azimuth, -plunge, rotation], degrees=True).as_matrix() @ R0"
+)
+
+SEQUENCE_ZXZ_WORDS = (
+    "sequence 2 (intrinsic z-x'-z'', angles alpha, beta, gamma): start with the major, "
+    "semi-major and minor axes along east, north and up; turn the triad about its third axis "
+    "(up) by alpha; then about its turned first axis by beta; then about its twice-turned "
+    "third axis (now the minor axis) by gamma; each turn counter-clockwise seen from the "
+    "positive end of the axis looking back at the origin (right-hand rule), so a positive "
+    "alpha is anticlockwise on the map. Matrix: Rz(alpha) Rx(beta) Rz(gamma); in SciPy "
+    "Rotation.from_euler('ZXZ', [alpha, beta, gamma], degrees=True).as_matrix(). With the "
+    "minor axis pointing down, as written here, alpha = -(dip direction) and "
+    "beta = 180 - dip"
+)
+
+
+def _rz(t):
+    c, s = np.cos(t), np.sin(t)
+    z, o = np.zeros_like(t), np.ones_like(t)
+    return np.stack([np.stack([c, -s, z], -1), np.stack([s, c, z], -1),
+                     np.stack([z, z, o], -1)], -2)
+
+
+def _rx(t):
+    c, s = np.cos(t), np.sin(t)
+    z, o = np.zeros_like(t), np.ones_like(t)
+    return np.stack([np.stack([o, z, z], -1), np.stack([z, c, -s], -1),
+                     np.stack([z, s, c], -1)], -2)
+
+
+def frame_from_zxz(alpha, beta, gamma) -> np.ndarray:
+    """Frame from intrinsic z-x'-z'' angles (sequence 2 of the model file).
+
+    ``R = Rz(alpha) @ Rx(beta) @ Rz(gamma)`` with ``Rx``, ``Rz`` right-handed
+    (counter-clockwise seen from the positive axis) rotations about east (x)
+    and up (z): the east/north/up triad is turned about up by ``alpha``,
+    about the turned east axis by ``beta`` and about the twice-turned up axis
+    by ``gamma``; the turned triad is (major, semi-major, minor).
+
+    Parameters
+    ----------
+    alpha, beta, gamma : float or array_like
+        Degrees.
+
+    Returns
+    -------
+    ndarray, shape (..., 3, 3)
+        Columns major, semi-major, minor.
+    """
+    a, b, c = np.broadcast_arrays(*(np.radians(np.asarray(v, dtype=float))
+                                    for v in (alpha, beta, gamma)))
+    return _rz(a) @ _rx(b) @ _rz(c)
+
+
+def zxz_from_frame(R):
+    """Intrinsic z-x'-z'' angles of a frame (inverse of :func:`frame_from_zxz`).
+
+    The frame is used exactly as given (column signs matter). ``beta`` is
+    in [0, 180]; ``alpha`` and ``gamma`` in [0, 360). When ``beta`` is 0 or
+    180 (minor axis vertical) only ``alpha +- gamma`` is defined; ``gamma``
+    is then reported as 0.
+
+    Parameters
+    ----------
+    R : array_like, shape (3, 3)
+
+    Returns
+    -------
+    alpha, beta, gamma : float
+        Degrees.
+    """
+    R = np.asarray(R, dtype=float)
+    if R.shape != (3, 3) or not is_rotation(R):
+        raise InputError("the frame must be a 3x3 right-handed rotation matrix.")
+    beta = math.degrees(math.acos(max(-1.0, min(1.0, R[2, 2]))))
+    if math.hypot(R[0, 2], R[1, 2]) < 1e-12:
+        gamma = 0.0
+        alpha = math.degrees(math.atan2(R[1, 0], R[0, 0]))
+    else:
+        alpha = math.degrees(math.atan2(R[0, 2], -R[1, 2]))
+        gamma = math.degrees(math.atan2(R[2, 0], R[2, 1]))
+    return float(_wrap360(alpha) + 0.0), float(beta), float(_wrap360(gamma) + 0.0)
+
+
+def rotation_sequences(R) -> dict:
+    """Both documented rotation-angle sequences of a frame, with their definitions.
+
+    Sequence 1 is :func:`frame_from_angles` (azimuth and plunge of the major
+    axis, then the rotation about it); sequence 2 is :func:`frame_from_zxz`.
+    Sequence 1 rebuilds the frame up to the signs of its columns (axes are
+    undirected); sequence 2 rebuilds the matrix exactly as given.
+
+    Parameters
+    ----------
+    R : array_like, shape (3, 3)
+
+    Returns
+    -------
+    dict
+        ``{"azimuth_plunge_rotation": {azimuth, plunge, rotation, definition},
+        "zxz": {alpha, beta, gamma, definition}}``.
+    """
+    a, p, r = angles_from_frame(R)
+    al, be, ga = zxz_from_frame(R)
+    return {
+        "azimuth_plunge_rotation": {"azimuth": float(a), "plunge": float(p),
+                                    "rotation": float(r),
+                                    "definition": SEQUENCE_AZIMUTH_WORDS},
+        "zxz": {"alpha": al, "beta": be, "gamma": ga, "definition": SEQUENCE_ZXZ_WORDS},
+    }
 
 
 def canonical_frame(R) -> np.ndarray:

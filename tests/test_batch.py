@@ -19,7 +19,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from anisotropy.batch import SUMMARY_COLUMNS, load_config, run_batch
+from anisotropy.batch import SUMMARY_COLUMNS, SUMMARY_HEADINGS, load_config, run_batch
 from anisotropy.errors import InputError
 
 HOSTILE = "../../<script>alert(1)</script>"
@@ -148,7 +148,7 @@ def test_summary_files_match_and_read_back(batch):
     # reference: the standard library csv and json readers
     with open(out / "summary.csv", newline="", encoding="utf-8") as fh:
         reader = csv.DictReader(fh)
-        assert tuple(reader.fieldnames) == SUMMARY_COLUMNS
+        assert tuple(reader.fieldnames) == SUMMARY_HEADINGS
         csv_rows = list(reader)
     js = json.loads((out / "summary.json").read_text(encoding="utf-8"))
     assert [r["domain"] for r in csv_rows] == [r["domain"] for r in js["domains"]] \
@@ -157,7 +157,7 @@ def test_summary_files_match_and_read_back(batch):
     for c, j in zip(csv_rows, js["domains"]):
         assert c["status"] == j["status"] and c["reason"] == (j["reason"] or "")
         if j["range_major"] is not None:
-            assert float(c["range_major"]) == pytest.approx(j["range_major"])
+            assert float(c["range_major_m"]) == pytest.approx(j["range_major"])
     alpha = json.loads((out / "alpha" / "check.json").read_text())
     assert alpha["verdict"] == _rows(res)["alpha"]["verdict"]
     disc = json.loads((out / "alpha" / "discovery.json").read_text())
@@ -366,3 +366,49 @@ def test_summary_says_one_domain_in_the_singular(tmp_path):
     two = BatchResult(rows=[row, dict(row, domain="vein")], out=tmp_path,
                       index=tmp_path / "index.html", ran=["shoot", "vein"])
     assert two.summary().startswith("2 domains: 2 ok")
+
+
+def test_summary_gives_each_structure_units_flags_and_the_audit_trail(batch):
+    # reference: the standard library csv and json readers; the per-domain
+    # model.json and discovery.json written by the same run
+    root, out, res = batch
+    rows = {r["domain"]: r for r in csv.DictReader(open(out / "summary.csv", newline=""))}
+    a = rows["alpha"]
+    disc = json.loads((out / "alpha" / "discovery.json").read_text())
+    model = json.loads((out / "alpha" / "model.json").read_text())
+    assert model["schema"] == "anisotropy.model/1"
+    assert (out / "alpha" / "model.csv").is_file()
+    assert (out / "alpha" / "experimental_variograms.csv").is_file()
+    st = disc["model"]["structures"][0]
+    assert a["s1_kind"] == st["type"]
+    assert float(a["s1_sill_in_sill_units"]) == pytest.approx(st["sill"], abs=1e-4)
+    assert float(a["s1_range_major_m"]) == pytest.approx(st["ranges"]["major"], abs=1e-3)
+    assert float(a["rotation_azimuth_deg"]) == pytest.approx(
+        disc["rotation"]["angles"]["azimuth"], abs=1e-3)
+    assert a["sill_units"] == disc["model"]["units"]
+    assert "flags" in a and a["input_sha256"] == (disc["run"]["input_sha256"] or "")
+    assert a["run_utc"] == disc["run"]["utc"] and a["seed"] == "7"
+    if model["grade_units"] and model["grade_units"].get("structures"):
+        assert float(a["grade_nugget_in_grade_sill_units"]) == pytest.approx(
+            model["grade_units"]["nugget"], abs=1e-4)
+    # every heading that carries a unit says so
+    for h in ("plane_dip_deg", "range_minor_m", "nugget_in_sill_units", "seconds_s"):
+        assert h in rows["alpha"]
+    # index.html shows the warnings of the domain (escaped with the standard library html)
+    text = (out / "index.html").read_text()
+    for w in disc["diagnostics"]["warnings"][:3]:
+        import html as _html
+
+        assert _html.escape(w, quote=True)[:40] in text or w[:40] in text
+
+
+def test_recorded_bootstrap_block_size_is_the_one_resampled(batch):
+    # consistency of the record: the choice must repeat the block grouping the
+    # bootstrap wrote (uncertainty.blocks.side, the blocks actually resampled)
+    root, out, res = batch
+    disc = json.loads((out / "alpha" / "discovery.json").read_text())
+    used = disc["uncertainty"]["blocks"]["side"]
+    ch = [c for c in disc["diagnostics"]["choices"] if c["choice"] == "bootstrap blocks"]
+    assert len(ch) == 1
+    assert ch[0]["value"] == pytest.approx(max(used))
+    assert ch[0]["engine_block_side"] <= ch[0]["value"]

@@ -75,7 +75,8 @@ def test_logprob_figure_points_candidates_and_png(tmp_path, rng):
     np.testing.assert_allclose(y, np.sort(v))
     t = texts(fig)
     for c in cands:
-        assert any(s.startswith(c["method"]) for s in t)
+        # not applied: each line is called a top-cut candidate, with its method
+        assert any(s.startswith(f"top-cut candidate ({c['method']})") for s in t)
     assert any("g/t" in s for s in t) and "Log-probability" in t
     assert any("probability" in s.lower() for s in t)
     assert any(s.startswith("n = 300") for s in t)

@@ -394,3 +394,59 @@ def test_vertical_axis_trend_does_not_depend_on_sign_of_zero():
     # (0, 0, 1) flipped is (-0., -0., -1); both must read as trend 0, plunge 90
     assert g.vector_to_line([0.0, 0.0, 1.0]) == (0.0, 90.0)
     assert g.vector_to_line([-0.0, -0.0, -1.0]) == (0.0, 90.0)
+
+
+# ------------------------------------------- the second rotation-angle sequence
+
+@settings(max_examples=60)
+@given(st.floats(-360.0, 360.0), st.floats(0.5, 179.5), st.floats(-360.0, 360.0))
+def test_zxz_frame_matches_scipy_intrinsic_zxz(al, be, ga):
+    # reference: scipy.spatial.transform.Rotation, intrinsic "ZXZ" (upper case)
+    ref = Rotation.from_euler("ZXZ", [al, be, ga], degrees=True).as_matrix()
+    R = g.frame_from_zxz(al, be, ga)
+    np.testing.assert_allclose(R, ref, atol=1e-12)
+    # inverse: the angles rebuild the same matrix (scipy again as the reference)
+    a2, b2, g2 = g.zxz_from_frame(R)
+    np.testing.assert_allclose(
+        Rotation.from_euler("ZXZ", [a2, b2, g2], degrees=True).as_matrix(), R, atol=1e-9)
+    assert 0.0 <= b2 <= 180.0
+
+
+@settings(max_examples=60)
+@given(trends, plunges, rotations)
+def test_zxz_angles_of_a_canonical_frame_give_the_plane(a, p, r):
+    # brute force: the plane of the minor axis from pole_to_plane; with the minor
+    # axis pointing down, alpha = -dip direction and beta = 180 - dip (derived:
+    # the third column of Rz(al) Rx(be) Rz(ga) is (sin al sin be, -cos al sin be, cos be))
+    R = g.canonical_frame(g.frame_from_angles(a, p, r))
+    al, be, ga = g.zxz_from_frame(R)
+    dd, dip = g.pole_to_plane(R[:, 2])
+    assert be == pytest.approx(180.0 - dip, abs=1e-7)
+    if 0.01 < dip < 89.99:
+        assert circ_diff(al, -dd) == pytest.approx(0.0, abs=1e-6)
+
+
+def test_zxz_vertical_minor_axis_reports_gamma_zero():
+    # exact: a horizontal plane (minor vertical) leaves only alpha + gamma defined
+    R = Rotation.from_euler("ZXZ", [30.0, 180.0, 0.0], degrees=True).as_matrix()
+    al, be, ga = g.zxz_from_frame(R)
+    assert be == pytest.approx(180.0) and ga == 0.0
+    np.testing.assert_allclose(g.frame_from_zxz(al, be, ga), R, atol=1e-12)
+
+
+@settings(max_examples=40)
+@given(trends, plunges, rotations)
+def test_rotation_sequences_rebuild_the_frame(a, p, r):
+    # sequence 1 against scipy's intrinsic ZXY composed with R0 (as in
+    # test_frame_matches_scipy), up to column signs; sequence 2 exactly
+    R = g.canonical_frame(g.frame_from_angles(a, p, r))
+    seq = g.rotation_sequences(R)
+    s1, s2 = seq["azimuth_plunge_rotation"], seq["zxz"]
+    ref1 = Rotation.from_euler("ZXY", [-s1["azimuth"], -s1["plunge"], s1["rotation"]],
+                               degrees=True).as_matrix() @ R0
+    for j in range(3):
+        assert abs(ref1[:, j] @ R[:, j]) == pytest.approx(1.0, abs=1e-9)
+    ref2 = Rotation.from_euler("ZXZ", [s2["alpha"], s2["beta"], s2["gamma"]],
+                               degrees=True).as_matrix()
+    np.testing.assert_allclose(ref2, R, atol=1e-9)
+    assert "clockwise" in s1["definition"] and "counter-clockwise" in s2["definition"]

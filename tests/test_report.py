@@ -292,3 +292,102 @@ def test_chromium_reports_a_blocked_remote_image(tmp_path):
                           capture_output=True, timeout=180)
     err = proc.stderr.decode(errors="replace")
     assert any(":CONSOLE" in ln and "Content Security Policy" in ln for ln in err.splitlines())
+
+
+# ------------------------------------------------ issue 17, report details
+
+def test_report_caution_once_audit_trail_rotation_and_no_code_paths(report):
+    import re
+
+    from anisotropy.report.style import CAUTION
+
+    text = " ".join(_parse(report).text)
+    # the caution appears once (any wording starting like it)
+    assert text.count("Automated continuity suggestions") == 1 and CAUTION in text
+    # audit trail in the header: UTC time, version, seed, input hash, options
+    assert "(UTC)" in text and "seed 1" in text and "SHA-256" in text and "Options:" in text
+    # rotation matrix with its layout, and the convention in words with its sign
+    assert "Rotation matrix: columns are the major, semi-major and minor axes" in text
+    assert "clockwise seen from above" in text and "counter-clockwise" in text
+    # no function paths or record keys in text meant for people
+    assert re.search(r"\banisotropy\.[a-z_]+\.", text) is None
+    assert re.search(r"\bdiagnostics\.[a-z_]+", text) is None
+    # a top-cut was applied in the fixture: the caption says so
+    assert "the dashed line marks the top-cut applied" in text
+
+
+def test_for_people_removes_code_paths():
+    from anisotropy.report.html import _for_people
+
+    assert _for_people("chosen by BIC with a minimum gain (see diagnostics.selection)") == \
+        "chosen by BIC with a minimum gain"
+    assert _for_people("then rotation (anisotropy.geometry.frame_from_angles)") == "then rotation"
+    assert _for_people("plain words stay") == "plain words stay"
+
+
+def test_model_table_marks_unresolved_and_extrapolated_ranges():
+    from anisotropy.report.html import _range_marks
+
+    d = {"model": {"nugget": 0.1, "structures": [
+            {"type": "spherical", "sill": 0.9,
+             "ranges": {"major": 150.0, "semi_major": 60.0, "minor": 20.0}}]},
+         "lags": {"max_distance": 100.0},
+         "diagnostics": {"unresolved_ranges": ["minor"], "unresolved_axes": []}}
+    marks = _range_marks(d)
+    # exact: 150 > 100 is beyond the longest lag; the minor range is unresolved
+    assert marks == {(1, "major"): "†", (1, "minor"): "*"}
+    rows = F.model_table_rows(d["model"], None, marks=marks)
+    assert rows[1]["range major (m)"] == "150.0†" and rows[1]["range minor (m)"] == "20.0*"
+    assert rows[1]["range semi-major (m)"] == "60.0"
+
+
+def test_model_table_png_headings_fit_their_cells(tmp_path):
+    # matplotlib's renderer extents as the reference: every heading's text box
+    # lies inside its cell
+    rows = F.model_table_rows({"nugget": 0.1, "structures": [
+        {"type": "exponential", "sill": 0.9,
+         "ranges": {"major": 123.4, "semi_major": 56.7, "minor": 8.9}}]})
+    fig = F.model_table_figure(rows, title="t", path=tmp_path / "t.png")
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    canvas = FigureCanvasAgg(fig)
+    canvas.draw()
+    renderer = canvas.get_renderer()
+    table = fig.axes[0].tables[0]
+    for (row, _col), cell in table.get_celld().items():
+        if row != 0:
+            continue
+        box = cell.get_window_extent(renderer)
+        tb = cell.get_text().get_window_extent(renderer)
+        assert tb.x0 >= box.x0 - 0.5 and tb.x1 <= box.x1 + 0.5, cell.get_text().get_text()
+        assert tb.y0 >= box.y0 - 0.5 and tb.y1 <= box.y1 + 0.5, cell.get_text().get_text()
+
+
+def test_directional_panels_state_their_angular_tolerance():
+    d = np.array([10.0, 20.0, 30.0])
+    curves = [{"label": a, "axis": a, "distance": d, "value": d / 30, "pairs": np.ones(3) * 50,
+               "angular_tolerance": 15.0} for a in ("major", "semi_major", "minor")]
+    curves.append({"label": "000/00", "axis": None, "distance": d, "value": d / 30,
+                   "pairs": np.ones(3) * 40, "angular_tolerance": 15.0})
+    fig = F.directional_variograms_figure(curves)
+    titles = [ax.get_title() for ax in fig.axes]
+    assert sum("cone ±15°" in t for t in titles) == 4
+
+
+def test_units_follow_the_estimator():
+    from types import SimpleNamespace
+
+    from anisotropy.report.html import _units
+
+    # the run's own units (set by estimator) are used: the correlogram has none
+    disc = SimpleNamespace(diagnostics={"units": "correlogram units (1 - rho)"},
+                           transform=SimpleNamespace(record={"kind": "normal_score"},
+                                                     kind="normal_score"))
+    assert _units(disc) == "correlogram units (1 - rho)"
+
+
+def test_report_gives_the_model_in_grade_units(report):
+    # the fixture's grades are lognormal, so auto chose normal scores
+    text = " ".join(_parse(report).text)
+    assert "Model in grade units" in text and "Hermite" in text
+    assert "Checked against the direct grade variogram down the holes" in text

@@ -10,10 +10,10 @@ from anisotropy.fitting import DirectionRanges, FitBins, direction_ranges
 from anisotropy.geometry import vector_to_line
 from anisotropy.models import NestedModel
 
+from anisotropy.constants import AXES
 from anisotropy.discovery.fan import FanRanges
 from anisotropy.discovery.params import WIDE_ANGULAR_TOLERANCE
 
-AXES = ("major", "semi_major", "minor")
 
 
 @dataclass(frozen=True)

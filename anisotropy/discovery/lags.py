@@ -10,9 +10,8 @@ import numpy as np
 from anisotropy.errors import InputError, InsufficientDataError
 from anisotropy.explore import Spacing
 from anisotropy.geometry import fan_for_spacing
-from anisotropy.pairs import LagVolume, estimate_pair_count
+from anisotropy.pairs import DEFAULT_COARSE_SPACING, LagVolume, estimate_pair_count
 from anisotropy.pairs import build_volume as _build_volume
-from anisotropy.pairs._lattice import DEFAULT_COARSE_SPACING
 from anisotropy.uncertainty import engine_block_side
 
 from anisotropy.discovery.params import MAX_LAGS_AUTO, MIN_LAGS, PAIR_BUDGET

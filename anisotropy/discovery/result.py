@@ -10,13 +10,13 @@ pairs for the block bootstrap.
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
 from anisotropy.errors import FitError, InputError
+from anisotropy._safety import json_ready
 from anisotropy.directional import Fan
 from anisotropy.explore import Exploration
 from anisotropy.fitting import (DirectionRanges, EllipsoidFit, FitBins, NestedFit,
@@ -50,30 +50,6 @@ CAUTION = ("Automated continuity suggestions support, and do not replace, the ju
 PLANAR_CAUTION = ("The samples lie in one plane (one bench or level): only the azimuths of "
                   "continuity within that plane are resolved; the axis across the plane and "
                   "its range are not, and are reported only to complete the frame.")
-
-
-def _f(x):
-    if x is None:
-        return None
-    x = float(x)
-    return x if math.isfinite(x) else None
-
-
-def _plain(obj):
-    """JSON-ready plain Python types."""
-    if isinstance(obj, dict):
-        return {str(k): _plain(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_plain(v) for v in obj]
-    if isinstance(obj, np.ndarray):
-        return _plain(obj.tolist())
-    if isinstance(obj, (np.bool_, bool)):
-        return bool(obj)
-    if isinstance(obj, (np.integer,)):
-        return int(obj)
-    if isinstance(obj, (float, np.floating)):
-        return _f(obj)
-    return obj
 
 
 def _as_start(model):
@@ -182,6 +158,11 @@ class Discovery:
         Every choice made, with its reason.
     seconds : dict
         Seconds per stage, and ``total``.
+    run : dict
+        The audit trail (``run{utc, version, options, command, input_sha256,
+        seed}``), see :func:`anisotropy.audit.run_record`.
+    grade_units : str or None
+        Units of the grade, as given by the user (``--units``), for labels.
 
     Derived (read from the records): ``model`` (nugget and structures in the
     transformed variable's units; frame columns major, semi-major, minor),
@@ -208,6 +189,8 @@ class Discovery:
     warnings: list[str] = field(default_factory=list)
     choices: list[dict] = field(default_factory=list)
     seconds: dict[str, float] = field(default_factory=dict)
+    run: dict = field(default_factory=dict)
+    grade_units: str | None = None
 
     # -- read from the records -------------------------------------------------
     @property
@@ -293,6 +276,7 @@ class Discovery:
                        "memory_bytes": int(getattr(volume, "memory_bytes", 0) or 0),
                        "coarse_directions": int(self.pair_volume.coarse_directions.shape[0])},
             "seconds": dict(self.seconds),
+            **({"grade_units": self.grade_units} if self.grade_units else {}),
         }
 
     # -- derived geometry ------------------------------------------------------
@@ -362,12 +346,13 @@ class Discovery:
                       "total_sill": float(self.model.total_sill),
                       "units": self.sill_choice.units},
             "uncertainty": unc,
+            "run": dict(self.run),
             "diagnostics": dict(self.diagnostics, warnings=list(self.warnings),
                                 choices=list(self.choices)),
             "planar": bool(self.planar),
             "cautions": [CAUTION] + ([PLANAR_CAUTION] if self.planar else []),
         }
-        return _plain(d)
+        return json_ready(d, default=None)
 
     def to_json(self, path) -> Path:
         """Write :meth:`to_dict` as JSON, atomically."""

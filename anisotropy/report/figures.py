@@ -85,13 +85,14 @@ def marks_from(candidates) -> list[tuple[str, float]]:
     if candidates is None:
         return []
     if np.isscalar(candidates):
-        return [(f"top-cut {float(candidates):.4g}", float(candidates))]
+        return [(f"top-cut applied {float(candidates):.4g}", float(candidates))]
     out = []
     for c in candidates:
         if isinstance(c, dict):
-            out.append((f"{c.get('method', 'mark')}: {float(c['value']):.4g}", float(c["value"])))
+            out.append((f"top-cut candidate ({c.get('method', 'mark')}) {float(c['value']):.4g}",
+                        float(c["value"])))
         else:
-            out.append((f"top-cut {float(c):.4g}", float(c)))
+            out.append((f"top-cut candidate {float(c):.4g}", float(c)))
     return out
 
 
@@ -508,7 +509,8 @@ def directional_variograms_figure(curves, *, sill=None, value_label="semivariogr
         open markers on a dashed line at ``pair_model_distance``, default
         ``distance``; label ``pair_model_label``), optional ``axis`` (``major``,
         ``semi_major``, ``minor``; others go on the last panel together,
-        with their model curves but without bands, to stay readable).
+        with their model curves but without bands, to stay readable), optional
+        ``angular_tolerance`` (degrees; stated in the panel's title).
     sill : float, optional
         Total sill, drawn as a horizontal line.
     value_label, distance_label, title : str
@@ -572,6 +574,8 @@ def directional_variograms_figure(curves, *, sill=None, value_label="semivariogr
                     markersize=3.5, markerfacecolor="white", markeredgecolor=colour, zorder=4,
                     label=c.get("pair_model_label", "model averaged over this lag's pairs")
                     if name in panels or other_k == 1 else None)
+    tols = {c.get("axis") if c.get("axis") in panels else "others": c.get("angular_tolerance")
+            for c in curves if c.get("angular_tolerance") is not None}
     for name, ax in list(panels.items()) + [("others", other_ax)]:
         if sill is not None and np.isfinite(sill):
             ax.axhline(sill, color="#888888", lw=0.8, ls=":", label="total sill")
@@ -579,8 +583,11 @@ def directional_variograms_figure(curves, *, sill=None, value_label="semivariogr
         ax.set_ylim(bottom=0)
         ax.set_xlabel(distance_label)
         ax.set_ylabel(value_label)
-        ax.set_title("along the " + CONTINUITY_LABELS[name] + " axis" if name in panels
-                     else "other directions", fontsize=10)
+        head = ("along the " + CONTINUITY_LABELS[name] + " axis" if name in panels
+                else "other directions")
+        if tols.get(name) is not None:
+            head += f" (cone ±{float(tols[name]):g}°)"
+        ax.set_title(head, fontsize=10)
         if ax.has_data():
             ax.legend(fontsize=7, loc="lower right")
     fig.suptitle(title + " (numbers beside points: pairs per lag)", fontsize=11)
@@ -592,7 +599,11 @@ MODEL_TABLE_COLUMNS = ("structure", "type", "sill", "range major (m)", "range se
                        "minor trend/plunge")
 
 
-def model_table_rows(model_dict, axes_dict=None):
+MARK_NOTE = ("* range not resolved by the sampling (too few lags, or the direction is not "
+             "resolved); † range longer than the longest lag computed (an extrapolation).")
+
+
+def model_table_rows(model_dict, axes_dict=None, marks=None):
     """Rows of the model table from the ``model`` and ``axes`` blocks of discovery.json.
 
     Parameters
@@ -601,6 +612,9 @@ def model_table_rows(model_dict, axes_dict=None):
         ``{"nugget": float, "structures": [{"type", "sill", "ranges": {...}}]}``.
     axes_dict : dict, optional
         ``{"major": {"trend", "plunge"}, ...}`` for the orientation columns.
+    marks : dict, optional
+        ``{(structure number, axis name): mark}`` appended to that range
+        (see :data:`MARK_NOTE`).
 
     Returns
     -------
@@ -619,13 +633,18 @@ def model_table_rows(model_dict, axes_dict=None):
     rows = [{"structure": "0", "type": "nugget", "sill": num(model_dict.get("nugget"), ".4g"),
              "range major (m)": "", "range semi-major (m)": "", "range minor (m)": "",
              "major trend/plunge": "", "semi-major trend/plunge": "", "minor trend/plunge": ""}]
+    marks = marks or {}
     for k, s in enumerate(model_dict.get("structures", []), start=1):
         r = s.get("ranges", {})
+
+        def rng(a):
+            return num(r.get(a), ".1f") + marks.get((k, a), "")
+
         rows.append({"structure": str(k), "type": str(s.get("type", s.get("kind", ""))),
                      "sill": num(s.get("sill"), ".4g"),
-                     "range major (m)": num(r.get("major"), ".1f"),
-                     "range semi-major (m)": num(r.get("semi_major"), ".1f"),
-                     "range minor (m)": num(r.get("minor"), ".1f"),
+                     "range major (m)": rng("major"),
+                     "range semi-major (m)": rng("semi_major"),
+                     "range minor (m)": rng("minor"),
                      "major trend/plunge": orient("major"),
                      "semi-major trend/plunge": orient("semi_major"),
                      "minor trend/plunge": orient("minor")})
@@ -646,19 +665,35 @@ def model_table_figure(rows, *, title="Nested model (transformed units)", path=N
     -------
     matplotlib.figure.Figure
     """
-    fig = _blank_figure((10.0, 0.9 + 0.32 * (len(rows) + 1)))
+    fig = _blank_figure((11.0, 1.5 + 0.32 * (len(rows) + 2)))
     ax = fig.add_subplot()
     ax.axis("off")
     cells = [[str(r.get(c, "")) for c in MODEL_TABLE_COLUMNS] for r in rows]
-    table = ax.table(cellText=cells, colLabels=list(MODEL_TABLE_COLUMNS), loc="center",
-                     cellLoc="center")
+    # headings on two lines (a long heading at one line is wider than its column)
+    heads = [_two_lines(c) for c in MODEL_TABLE_COLUMNS]
+    table = ax.table(cellText=cells, colLabels=heads, loc="upper center", cellLoc="center",
+                     bbox=[0.0, 0.12, 1.0, 0.78])
     table.auto_set_font_size(False)
     table.set_fontsize(7.5)
-    table.scale(1.0, 1.3)
+    for (row, _col), cell in table.get_celld().items():
+        if row == 0:
+            cell.set_height(cell.get_height() * 1.6)
+    if any(("*" in v or "†" in v) for r in cells for v in r):
+        ax.text(0.0, 0.02, MARK_NOTE, transform=ax.transAxes, fontsize=7, va="bottom",
+                wrap=True)
     ax.set_title(title, fontsize=10)
     return _saved(fig, path)
 
 
+def _two_lines(heading: str) -> str:
+    """Break a heading at the space nearest its middle."""
+    if len(heading) <= 10 or " " not in heading:
+        return heading
+    mid = len(heading) // 2
+    cut = min((i for i, ch in enumerate(heading) if ch == " "), key=lambda i: abs(i - mid))
+    return heading[:cut] + "\n" + heading[cut + 1:]
+
+
 __all__ += ["section_ellipse", "variogram_map_figure", "stereonet_figure",
             "directional_variograms_figure", "model_table_rows", "model_table_figure",
-            "MODEL_TABLE_COLUMNS", "CONTINUITY_COLOURS"]
+            "MODEL_TABLE_COLUMNS", "MARK_NOTE", "CONTINUITY_COLOURS"]

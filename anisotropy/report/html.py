@@ -22,6 +22,7 @@ from __future__ import annotations
 import base64
 import io
 import math
+import re
 from pathlib import Path
 from typing import Mapping
 
@@ -248,6 +249,10 @@ def _axis_label(vec):
 
 
 def _units(disc) -> str:
+    """Units of the analysed variable's variogram, by transform and estimator (the run's own)."""
+    units = (getattr(disc, "diagnostics", None) or {}).get("units")
+    if units:
+        return str(units)
     kind = (_transform_record(disc).get("kind") or "raw")
     return {"normal_score": "normal-score units", "log": "log units",
             "indicator": "indicator units"}.get(kind, "grade units squared")
@@ -358,6 +363,7 @@ def _fig_directional(disc, path):
         name = label if axis is None else f"{label} {float(tr):03.0f}/{float(pl):02.0f}"
         c = {"label": name, "axis": axis, "distance": cone.distance, "value": cone.value,
              "pairs": cone.pairs,
+             "angular_tolerance": tol,
              "model_distance": grid, "model_value": disc.model.variogram_along(u, grid),
              "model_label": "model along the axis" if axis else "model along the direction",
              "pair_model_value": cone.model_over_pairs,
@@ -375,7 +381,8 @@ def _fig_table(disc, path):
     from anisotropy.report import figures as F
 
     d = disc.to_dict()
-    return F.model_table_figure(F.model_table_rows(d.get("model") or {}, d.get("axes") or {}),
+    return F.model_table_figure(F.model_table_rows(d.get("model") or {}, d.get("axes") or {},
+                                                   marks=_range_marks(d)),
                                 title=f"Nested model ({_units(disc)})", path=path)
 
 
@@ -502,7 +509,11 @@ def _section_topcut(disc, figs, tc) -> str:
                      "metal removed (%)": _g(c.get("metal_removed_pct"), ".1f")} for c in cands]
             html.append("<p>Candidates from the exploration (the choice is the geologist's):</p>")
             html.append(_table(rows))
-    html.append(_figure_html("histogram", figs, "Grade distribution; the dashed line marks the top-cut."))
+    html.append(_figure_html("histogram", figs,
+                             "Grade distribution; the dashed line marks the top-cut applied."
+                             if tc is not None else
+                             "Grade distribution; dashed lines mark top-cut candidates "
+                             "(none was applied)."))
     html.append(_figure_html("log_probability", figs,
                              "Cumulative probability on a log scale; a break in slope suggests "
                              "a separate high-grade population."))
@@ -554,7 +565,7 @@ def _section_lags(disc, d) -> str:
         html.append("<h3>Choices made and why</h3>")
         html.append(_table([{"choice": c.get("choice"),
                              "value": _choice_value(c.get("choice"), c.get("value")),
-                             "why": c.get("reason")} for c in choices],
+                             "why": _for_people(c.get("reason"))} for c in choices],
                            ["choice", "value", "why"]))
     if diag.get("pairs") is not None:
         html.append(f"<p>Pairs accumulated: {_g(diag.get('pairs'), ',.0f')}.</p>")
@@ -564,21 +575,21 @@ def _section_lags(disc, d) -> str:
 def _section_model(disc, d) -> str:
     from anisotropy.report import figures as F
 
-    rows = F.model_table_rows(d.get("model") or {}, d.get("axes") or {})
+    marks = _range_marks(d)
+    rows = F.model_table_rows(d.get("model") or {}, d.get("axes") or {}, marks=marks)
     html = [f"<p>In {S.escape(_units(disc))}; ranges in metres along each structure's axes "
-            "(spherical: the range; exponential and Gaussian: the practical range, 95 % of the "
-            "sill). Axis orientations are trend/plunge in degrees.</p>",
+            "(spherical and cubic: the range; exponential and Gaussian: the practical range, "
+            "95 % of the sill). Axis orientations are trend/plunge in degrees. "
+            f"{S.escape(F.MARK_NOTE)}</p>",
             _table(rows, list(F.MODEL_TABLE_COLUMNS))]
-    rot = d.get("rotation") or {}
-    ang = rot.get("angles") or {}
     plane = d.get("plane") or {}
     items = [("plane of greatest continuity (dip direction/dip)",
               f"{_g(plane.get('dip_direction'), '05.1f')} / {_g(plane.get('dip'), '04.1f')}"),
              ("strike (right-hand rule)", _g(plane.get("strike"), "05.1f")),
              ("pitch of the major axis in that plane", _g(plane.get("pitch"), "05.1f"))]
-    for k, v in ang.items():
-        items.append((f"frame angle: {k}", _g(v, ".1f")))
     html.append(_kv(items))
+    html.append(_rotation_html(_frame(disc)))
+    html.append(_grade_html(disc))
     unc = d.get("uncertainty") or {}
     if unc:
         conf = unc.get("confidence")
@@ -606,6 +617,83 @@ def _section_model(disc, d) -> str:
     return "\n".join(html)
 
 
+def _range_marks(d) -> dict:
+    """``{(structure, axis): mark}``: unresolved (*) and extrapolated (†) ranges."""
+    diag = d.get("diagnostics") or {}
+    unresolved = set(diag.get("unresolved_ranges") or []) | set(diag.get("unresolved_axes") or [])
+    max_lag = (d.get("lags") or {}).get("max_distance")
+    marks = {}
+    for k, st in enumerate((d.get("model") or {}).get("structures") or [], 1):
+        for a in _AXES:
+            m = "*" if a in unresolved else ""
+            r = (st.get("ranges") or {}).get(a)
+            if max_lag is not None and r is not None and float(r) > float(max_lag):
+                m += "†"
+            if m:
+                marks[(k, a)] = m
+    return marks
+
+
+def _grade_html(disc) -> str:
+    """The model in grade units (normal scores only), how it was obtained and its check."""
+    from anisotropy.modelfile import grade_record
+
+    try:
+        g = grade_record(disc)
+    except Exception as exc:  # noqa: BLE001 - the report must still be written
+        return f"<p class='warn'>The model in grade units could not be computed ({S.escape(exc)}).</p>"
+    if g is None:
+        return ""
+    if not g.get("structures"):
+        return f"<h3>Model in grade units</h3><p>Not given: {S.escape(g.get('reason'))}.</p>"
+    rows = [{"structure": "0", "type": "nugget", "sill": _g(g["nugget"], ".4g")}]
+    for k, st in enumerate(g["structures"], 1):
+        r = st["practical_range_m"]
+        rows.append({"structure": str(k), "type": st["kind"], "sill": _g(st["sill"], ".4g"),
+                     "ranges major / semi-major / minor (m)":
+                         f"{r['major']:.1f} / {r['semi_major']:.1f} / {r['minor']:.1f}"})
+    html = ["<h3>Model in grade units</h3>",
+            f"<p>Sills in {S.escape(g['units'])}, same axes and ranges as above. How: "
+            f"{S.escape(g['reason'])}. Grade variance {_g(g['grade_variance'], '.4g')}; the "
+            f"held shape departs from the back-transformed covariance by up to "
+            f"{_g(100 * g['max_misfit_share'], '.1f')} % of it.</p>",
+            _table(rows, ["structure", "type", "sill", "ranges major / semi-major / minor (m)"])]
+    chk = (g.get("check_downhole") or {}).get("rows") or []
+    if chk:
+        html.append("<p>Checked against the direct grade variogram down the holes "
+                    f"({S.escape(g['check_downhole']['note'])}):</p>")
+        html.append(_table([{"lag (m)": _g(c["lag_m"], ".3g"), "pairs": c["pairs"],
+                             "experimental": _g(c["experimental"], ".4g"),
+                             "grade model": _g(c["model"], ".4g")} for c in chk]))
+    return "\n".join(html)
+
+
+def _rotation_html(R) -> str:
+    """The rotation matrix with its layout, and both angle sequences in words."""
+    from anisotropy.geometry import rotation_sequences
+
+    rows = [{"": name, "major": f"{R[i, 0]:+.4f}", "semi-major": f"{R[i, 1]:+.4f}",
+             "minor": f"{R[i, 2]:+.4f}"} for i, name in enumerate(("east", "north", "up"))]
+    seq = rotation_sequences(R)
+    s1, s2 = seq["azimuth_plunge_rotation"], seq["zxz"]
+    return ("<h3>Rotation</h3><p>Rotation matrix: columns are the major, semi-major and minor "
+            "axes, rows their east, north and up components.</p>"
+            + _table(rows, ["", "major", "semi-major", "minor"])
+            + f"<p>Angles, sequence 1: azimuth {s1['azimuth']:.1f}, plunge {s1['plunge']:.1f}, "
+              f"rotation {s1['rotation']:.1f} degrees. Start with the major axis pointing north, "
+              "the semi-major axis east and the minor axis down; turn about the vertical by the "
+              "azimuth, clockwise seen from above; tilt the major axis down by the plunge; then "
+              "turn about the major axis by the rotation, a positive rotation turning the "
+              "semi-major axis downwards.</p>"
+            + f"<p>Angles, sequence 2 (z-x'-z''): alpha {s2['alpha']:.1f}, beta {s2['beta']:.1f}, "
+              f"gamma {s2['gamma']:.1f} degrees. Start with the major, semi-major and minor axes "
+              "along east, north and up; turn about up by alpha, then about the turned first "
+              "axis by beta, then about the twice-turned third axis (the minor axis) by gamma; "
+              "each turn is counter-clockwise seen from the positive end of its axis, so a "
+              "positive alpha is anticlockwise on the map. Both sequences and the matrix are "
+              "in model.json and model.csv, defined in docs/model-file.md.</p>")
+
+
 def _pair(v, fmt):
     if not isinstance(v, (list, tuple)) or len(v) != 2:
         return "n/a"
@@ -624,6 +712,38 @@ def _section_check(check) -> str:
     else:
         html.append(_kv(_flat({k: v for k, v in c.items() if k != "verdict"})))
     return "\n".join(html)
+
+
+_CODE_REF = re.compile(r"\s*\((?:see\s+)?(?:anisotropy|diagnostics|uncertainty|lags)\.[\w.]+\)"
+                       r"|\s*(?:see\s+)?\b(?:anisotropy|diagnostics)\.[A-Za-z_][\w.]*(?:\(\))?")
+
+
+def _for_people(text) -> str:
+    """Text for people: code paths such as ``(anisotropy.geometry.frame_from_angles)`` or
+    ``see diagnostics.selection`` are taken out (the record keeps them)."""
+    if text is None:
+        return ""
+    out = _CODE_REF.sub("", str(text))
+    return re.sub(r"\(\s*\)", "", out).strip()
+
+
+def _run_line(d) -> str:
+    """The audit trail in the report header."""
+    run = d.get("run") or {}
+    if not run:
+        return ""
+    opts = run.get("options") or {}
+    shown = ", ".join(f"{k}={v}" for k, v in opts.items()
+                      if v is not None and k not in ("progress", "intake"))
+    parts = [f"Run {S.escape(run.get('utc'))} (UTC), anisotropy {S.escape(run.get('version'))}, "
+             f"seed {S.escape(run.get('seed'))}."]
+    sha = run.get("input_sha256")
+    parts.append(f"Input SHA-256 <code>{S.escape(sha)}</code>." if sha else
+                 f"Input SHA-256: {S.escape(run.get('input_sha256_note') or 'not available')}.")
+    if run.get("command"):
+        parts.append(f"Command: <code>{S.escape(run['command'])}</code>.")
+    parts.append(f"Options: <code>{S.escape(shown)}</code>.")
+    return f"<p class='meta'>{' '.join(parts)}</p>"
 
 
 def _warnings(disc, d) -> list:
@@ -689,7 +809,7 @@ def render_report(discovery, out_dir, *, check=None, title=None, topcut=None) ->
     sec.append(f"<p class='meta'>Source <code>{S.escape(inp.get('file'))}</code>; result schema "
                f"{S.escape(d.get('schema'))}; written by anisotropy "
                f"{S.escape(_version())}.</p>")
-    sec.append(f"<p class='caution'>{S.escape(CAUTION)}</p>")
+    sec.append(_run_line(d))
     sec.append("<h2>1. Data</h2>" + _section_data(discovery, d))
     sec.append("<h2>2. Grade distribution and top-cut</h2>" + _section_topcut(discovery, figs, topcut))
     sec.append("<h2>3. Spacing, lags and the other choices</h2>" + _section_lags(discovery, d))
@@ -725,7 +845,7 @@ def render_report(discovery, out_dir, *, check=None, title=None, topcut=None) ->
     sec.append("<h2>8. Model for estimation</h2>" + _section_model(discovery, d)
                + _figure_html("model_table", figs, "The same table as a figure."))
     sec.append("<h2>9. Check of the interpretation</h2>" + _section_check(check))
-    warns = _warnings(discovery, d)
+    warns = [_for_people(w) for w in _warnings(discovery, d)]
     sec.append("<h2>10. Warnings</h2>" + (
         "<ul>" + "".join(f"<li class='warn'>{S.escape(w)}</li>" for w in warns) + "</ul>"
         if warns else "<p>None.</p>"))
@@ -735,7 +855,8 @@ def render_report(discovery, out_dir, *, check=None, title=None, topcut=None) ->
     cautions = d.get("cautions")
     extra = ""
     if isinstance(cautions, (list, tuple)):
-        extra = "".join(f"<p>{S.escape(c)}</p>" for c in cautions if str(c) != CAUTION)
+        extra = "".join(f"<p>{S.escape(c)}</p>" for c in cautions
+                        if str(c) != CAUTION and not str(c).startswith(CAUTION[:40]))
     elif cautions:
         extra = f"<p>{S.escape(cautions)}</p>"
     sec.append("<h2>11. Caution</h2>" + f"<p class='caution'>{S.escape(CAUTION)}</p>"

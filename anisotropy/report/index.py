@@ -48,6 +48,19 @@ def domain_line(row: Mapping) -> str:
     return ", ".join(parts)
 
 
+def _warnings_html(row: Mapping) -> str:
+    """The domain's flags (unresolved, ambiguous, extrapolated) and its warnings, escaped."""
+    out = []
+    if row.get("flags"):
+        out.append(f"<div class='warn'>{S.escape(row['flags'])}</div>")
+    warns = row.get("warning_list") or []
+    if warns:
+        items = "".join(f"<li>{S.escape(w)}</li>" for w in warns)
+        out.append(f"<details><summary>{len(warns)} warning{'s' if len(warns) != 1 else ''}"
+                   f"</summary><ul>{items}</ul></details>")
+    return "".join(out)
+
+
 def render_index(rows: Sequence[Mapping], path, *, source="", value="", domain_column="",
                  notes=()) -> Path:
     """Write ``index.html`` for a batch.
@@ -87,13 +100,16 @@ def render_index(rows: Sequence[Mapping], path, *, source="", value="", domain_c
         if status == "ok":
             files.append(f"<a href='{folder}/report.html'>report</a>")
             files.append(f"<a href='{folder}/discovery.json'>discovery.json</a>")
+            files.append(f"<a href='{folder}/model.json'>model.json</a>")
+            files.append(f"<a href='{folder}/model.csv'>model.csv</a>")
             if r.get("verdict"):
                 files.append(f"<a href='{folder}/check.json'>check.json</a>")
         elif folder:
             files.append(f"<a href='{folder}/row.json'>row.json</a>")
         cls = {"ok": "ok", "skipped": "skip", "failed": "fail"}.get(status, "")
         body.append(f"<tr class='{cls}'><td>{S.escape(r.get('domain'))}</td>"
-                    f"<td>{S.escape(status)}</td><td>{S.escape(domain_line(r))}</td>"
+                    f"<td>{S.escape(status)}</td><td>{S.escape(domain_line(r))}"
+                    f"{_warnings_html(r)}</td>"
                     f"<td>{' · '.join(files)}</td></tr>")
     body.append("</tbody></table>")
     body.append(f"<p class='caution'>{S.escape(CAUTION)}</p>")
