@@ -39,6 +39,8 @@ import sys
 import time
 
 from anisotropy.audit import run_record
+from anisotropy.fitting.continuity import check_continuity
+from anisotropy.fitting.resolution import hole_axes
 from anisotropy.discovery import (CAUTION, PLANAR_CAUTION, SCHEMA, DiscoverParams, Discovery,
                                   FitSettings, RefitState, build_volume, choose_lags,
                                   choose_sill, choose_structures, choose_transform, diagnose,
@@ -192,6 +194,7 @@ def run_discovery(data, p: DiscoverParams) -> Discovery:
     t = _Clock(p.progress)
     samples = t("read", read, data, p)
     prep = t("prepare", prepare, samples, top_cut=p.top_cut, top_cut_mode=p.top_cut_mode)
+    samples = prep.samples   # after the top-cut (exclusion leaves samples out)
     tc = t("transform", choose_transform, prep.values, transform=p.transform,
            estimator=p.estimator, weights=prep.declustering_weights, threshold=p.threshold)
     sc = t("sill", choose_sill, tc.values, kind=tc.kind, estimator=p.estimator, sill=p.sill)
@@ -218,13 +221,19 @@ def run_discovery(data, p: DiscoverParams) -> Discovery:
     t.say("nested structures")
     ref = t("structures", choose_structures, wb.bins, search, fs, coords=samples.coords,
             values=tc.values, n_structures=p.n_structures, kinds=p.kinds,
-            shared_ratios=p.shared_ratios, seed=p.seed,
+            shared_ratios=p.shared_ratios, seed=p.seed, holes=samples.holes,
+            confidence=p.confidence,
             refine=refinement_applies(planar=prep.planar, transform_kind=tc.kind,
                                       estimator=p.estimator))
+    t.say("is there continuity to model? (permutation test)")
+    cc = t("continuity", check_continuity, samples.coords, tc.values, lag=lc.unit_lag,
+           seed=p.seed, shortest_downhole=prep.spacing.down_hole if prep.has_holes else None)
     dg = t("diagnose", diagnose, ref.model, fr, wb.bins, spacing=prep.spacing,
            has_holes=prep.has_holes, planar=prep.planar, max_distance=lc.max_distance,
            max_range=fs.max_range, min_pairs=wb.min_pairs, transform_kind=tc.kind,
-           estimator=p.estimator)
+           estimator=p.estimator, continuity=cc,
+           holes=hole_axes(samples.coords, samples.holes) if prep.has_holes else None,
+           frame_candidates=(ref.record or {}).get("frame_candidates"))
     records = (prep, tc, sc, lc, pv, wb, fr, search, ref, dg)
     D = Discovery(params=p, prepared=prep, transform_choice=tc, sill_choice=sc, lag_choice=lc,
                   pair_volume=pv, weighted=wb, fan_ranges=fr, starts=starts, search=search,

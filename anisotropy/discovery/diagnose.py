@@ -7,6 +7,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from anisotropy.fitting import DirectionRanges, FitBins, direction_ranges
+from anisotropy.fitting.resolution import downhole_resolved_axes
 from anisotropy.geometry import vector_to_line
 from anisotropy.models import NestedModel
 
@@ -29,6 +30,12 @@ class Diagnostics:
         :func:`residuals_by_direction`).
     unresolved_axes, unresolved_ranges : list of str
         Axes whose direction, and axes whose range, the sampling does not resolve.
+    continuity : dict or None
+        The permutation test of :func:`anisotropy.fitting.continuity.check_continuity`.
+    resolved_down_hole : tuple of str
+        Axes the holes run along and resolve by their down-hole lags.
+    ambiguous_axes : tuple of str
+        Axes on which a rival frame of the likelihood is as well supported.
     """
 
     direction_ranges: DirectionRanges
@@ -37,6 +44,9 @@ class Diagnostics:
     unresolved_ranges: list
     choices: tuple[dict, ...] = ()
     warnings: tuple[str, ...] = ()
+    continuity: dict | None = None
+    resolved_down_hole: tuple[str, ...] = ()
+    ambiguous_axes: tuple[str, ...] = ()
 
 
 def residuals_by_direction(model, directions, distance, value, pairs, *, min_pairs,
@@ -112,7 +122,7 @@ def _sig6(a):
 
 
 def resolution(lags, pairs, ranges, frame, *, scattered, nearest=None, across=None,
-               min_pairs=10.0):
+               min_pairs=10.0, resolved=()):
     """Say which ranges the lag bins cannot resolve, and which directions that leaves open.
 
     A range along an axis is resolved when at least two well-paired lag bins
@@ -142,6 +152,8 @@ def resolution(lags, pairs, ranges, frame, *, scattered, nearest=None, across=No
         Across-hole spacing (m; drill holes only).
     min_pairs : float
         Fewest pairs of a bin that counts.
+    resolved : sequence of str
+        Axes already resolved another way (down-hole lags), never reported.
 
     Returns
     -------
@@ -161,7 +173,7 @@ def resolution(lags, pairs, ranges, frame, *, scattered, nearest=None, across=No
         r = ranges[i]
         along = np.abs(u @ frame[:, i]) > np.cos(np.radians(25))
         short = np.sort(d[along & (d < r) & (pairs >= min_pairs)])
-        if short.size >= 2:
+        if short.size >= 2 or name in resolved:
             continue
         unresolved.append(name)
         texts.append(_unresolved_text(name, r, d[along], short, scattered, nearest, across))
@@ -236,9 +248,23 @@ def _range_warnings(model, fan, *, max_distance, max_range, transform_kind, esti
     return out
 
 
+def _unresolvable(continuity, axes, ranges, texts):
+    """No continuity at the lag scale: every axis and range unresolved, said first."""
+    if continuity is None or continuity.resolved:
+        return axes, ranges, texts
+    return list(AXES), list(AXES), [continuity.text] + texts
+
+
+def _ambiguous(candidates, axes):
+    """Axes a rival frame of the likelihood leaves open (the warning is the refinement's)."""
+    amb = tuple((candidates or {}).get("ambiguous_axes") or ())
+    return amb, [a for a in AXES if a in set(axes) | set(amb)]
+
+
 def diagnose(model: NestedModel, fan: FanRanges, bins: FitBins, *, spacing, has_holes,
              planar, max_distance, max_range, min_pairs, transform_kind,
-             estimator="semivariogram") -> Diagnostics:
+             estimator="semivariogram", continuity=None, holes=None,
+             frame_candidates=None) -> Diagnostics:
     """The final model held against the fan, and what the sampling resolves.
 
     Parameters
@@ -256,6 +282,15 @@ def diagnose(model: NestedModel, fan: FanRanges, bins: FitBins, *, spacing, has_
     min_pairs : float
         Fewest pairs of a fit bin.
     transform_kind, estimator : str
+    continuity : ContinuityCheck, optional
+        Without continuity at the lag scale every axis and range is unresolved.
+    holes : HoleAxes, optional
+        Hole directions: an axis the holes run along (within the fan's angular
+        tolerance) is resolved by its down-hole lags
+        (:func:`anisotropy.fitting.resolution.downhole_resolved_axes`).
+    frame_candidates : dict, optional
+        The likelihood's global frame choice (its ``ambiguous_axes`` are
+        unresolved).
     """
     frame = np.asarray(model.frame, float)
     longest = max(model.structures, key=lambda s: s.ranges[0])
@@ -268,15 +303,21 @@ def diagnose(model: NestedModel, fan: FanRanges, bins: FitBins, *, spacing, has_
                                   min_pairs=fan.min_pairs, tolerance=fan.tolerances,
                                   flags=dr.flag)
     scattered = getattr(spacing, "layout", None) == "scattered" and not has_holes
+    by_holes = () if holes is None else tuple(downhole_resolved_axes(
+        frame, longest.ranges, holes, tolerance=fan.tolerance))
     axes, ranges, texts = resolution(
         bins.lags, bins.pairs, longest.ranges, frame, scattered=scattered,
         nearest=getattr(spacing, "nearest", None),
         across=getattr(spacing, "across_hole", None) if has_holes else None,
-        min_pairs=min_pairs)
+        min_pairs=min_pairs, resolved=by_holes)
+    amb, axes = _ambiguous(frame_candidates, axes)
+    axes, ranges, texts = _unresolvable(continuity, axes, ranges, texts)
     if planar:  # the pole of one bench is assumed, not resolved, and so is its range
         axes = sorted(set(axes) | {"minor"})
         ranges = sorted(set(ranges) | {"minor"})
     texts += _range_warnings(model, fan, max_distance=max_distance, max_range=max_range,
                              transform_kind=transform_kind, estimator=estimator)
     return Diagnostics(direction_ranges=dr, residuals=rows, unresolved_axes=axes,
-                       unresolved_ranges=ranges, warnings=tuple(texts))
+                       unresolved_ranges=ranges, warnings=tuple(texts),
+                       continuity=None if continuity is None else continuity.to_dict(),
+                       resolved_down_hole=by_holes, ambiguous_axes=amb)

@@ -110,11 +110,15 @@ class Search:
         One row per screened start and restart: start, kind, objective.
     kinds : list of dict
         Weighted residual sum of squares of each kind from the best frame.
+    polished : tuple of NestedFit
+        The polished fits of the best screened starts (other good frames,
+        candidates of the likelihood's global frame choice).
     """
 
     best: NestedFit
     tried: list
     kinds: list
+    polished: tuple[NestedFit, ...] = ()
     choices: tuple[dict, ...] = ()
     warnings: tuple[str, ...] = ()
 
@@ -171,8 +175,10 @@ def search_orientation(bins: FitBins, starts, settings: FitSettings, *, nugget, 
     screened, tried = _screen(bins, starts, nugget, sill, kinds[0], common)
     # polish the three best, then try the other kinds from the best frame
     best = None
+    polished = []
     for f0 in screened[:3]:
         f = fit_nested(bins, (f0.frame, f0.nugget, f0.sills, f0.ranges, f0.kinds), **common)
+        polished.append(f)
         if best is None or f.objective < best.objective:
             best = f
     best = _swap_axes(bins, best, common, tried)
@@ -183,4 +189,4 @@ def search_orientation(bins: FitBins, starts, settings: FitSettings, *, nugget, 
         kind_table.append({"kind": kind, "wrss": f.wrss})
         if f.wrss < best.wrss:
             best = f
-    return Search(best=best, tried=tried, kinds=kind_table)
+    return Search(best=best, tried=tried, kinds=kind_table, polished=tuple(polished))

@@ -112,7 +112,7 @@ def _structures_choice(n_asked, fit, record):
 
 def choose_structures(bins: FitBins, search: Search, settings: FitSettings, *, coords, values,
                       n_structures=None, kinds=None, shared_ratios=False, refine=True,
-                      seed=0) -> Refinement:
+                      seed=0, holes=None, confidence=0.9) -> Refinement:
     """1..3 nested structures from the best orientation, then the frame refinement.
 
     Parameters
@@ -133,6 +133,11 @@ def choose_structures(bins: FitBins, search: Search, settings: FitSettings, *, c
     refine : bool
         Run the likelihood refinement (see :func:`refinement_applies`).
     seed : int
+    holes : array_like (n,), optional
+        Drill-hole labels (conditioning sets that see across holes, and frames
+        with an axis along the holes among the candidates).
+    confidence : float
+        Sets the likelihood margin inside which a rival frame is reported.
     """
     best = search.best
     common = settings.kwargs()
@@ -144,8 +149,10 @@ def choose_structures(bins: FitBins, search: Search, settings: FitSettings, *, c
                             planar=settings.planar, ftol=1e-6, shared_ratios=shared_ratios)
     fit, fr = sel.best, None
     if refine:
+        others = tuple((f"search start {k + 1}", f.frame) for k, f in enumerate(search.polished))
         fr = refine_frame(fit, bins, coords, values, seed=seed, fit_kwargs=common,
-                          add_structure=n_structures is None, one_structure=best)
+                          add_structure=n_structures is None, one_structure=best,
+                          holes=holes, other_frames=others, confidence=confidence)
         fit = fr.fit
     choices = (() if fr is None else fr.choices) + (
         _structures_choice(n_structures, fit, None if fr is None else fr.record),)

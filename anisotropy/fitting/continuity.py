@@ -41,8 +41,8 @@ __all__ = ["ContinuityTest", "ContinuityCheck", "geary_ratio", "continuity_test"
            "check_continuity"]
 
 #: Default number of permutations: the smallest attainable p-value is
-#: 1 / (permutations + 1) = 0.0005.
-DEFAULT_PERMUTATIONS = 1999
+#: 1 / (permutations + 1) = 0.001.
+DEFAULT_PERMUTATIONS = 999
 #: Default significance level.  Strict on purpose: a run on data with no
 #: spatial correlation must almost never be let through to a confident
 #: orientation, and any structure worth modelling gives p-values far below it

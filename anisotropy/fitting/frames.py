@@ -38,6 +38,8 @@ import numpy as np
 from scipy.spatial.transform import Rotation
 from scipy.stats import chi2
 
+from anisotropy.fitting.likelihood import refine_frame_likelihood, vecchia_setup
+from anisotropy.fitting.resolution import hole_axes
 from anisotropy.geometry import to_lower_hemisphere, vector_to_line
 
 __all__ = ["FrameStart", "PolishedFrame", "FrameChoice", "frame_starts",
@@ -375,9 +377,6 @@ def global_frame_choice(coords, values, frame, ranges, nugget, sills, kinds, *, 
     -------
     FrameChoice
     """
-    from anisotropy.fitting.likelihood import refine_frame_likelihood, vecchia_setup
-    from anisotropy.fitting.resolution import hole_axes
-
     dirs = []
     if holes is not None:
         ha = hole_axes(coords, holes)

@@ -13,13 +13,14 @@ Pure fitting: arrays, fit bins and fits in; a :class:`FrameRefinement` out.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
 from anisotropy.errors import FitError
 from anisotropy.fitting.bins import FitBins
-from anisotropy.fitting.likelihood import refine_frame_likelihood
+from anisotropy.fitting.frames import FrameChoice, global_frame_choice
+from anisotropy.fitting.likelihood import refine_frame_likelihood, vecchia_setup
 from anisotropy.fitting.nested import NestedFit, fit_nested
 
 __all__ = ["FrameRefinement", "refine_frame", "LIKELIHOOD_MAX_SAMPLES",
@@ -93,13 +94,21 @@ def _axis_order(ranges):
 
 
 class _Problem:
-    """The samples, bins and settings every likelihood and refit of one refinement shares."""
+    """The samples, bins and settings every likelihood and refit of one refinement shares.
 
-    def __init__(self, bins, coords, values, seed, fit_kwargs):
+    Every likelihood search of one refinement uses one set of conditioning
+    sets (:func:`~anisotropy.fitting.likelihood.vecchia_setup`), built in the
+    start frame's metric and, on drill holes, seeing across holes: the one-
+    and two-structure likelihoods are then compared on the same approximation.
+    """
+
+    def __init__(self, bins, coords, values, seed, fit_kwargs, start, holes=None):
         self.bins, self.coords, self.values = bins, coords, values
         self.kw = dict(fit_kwargs, make_model=True)
-        self.lk_kw = dict(seed=seed, n_neighbours=LIKELIHOOD_NEIGHBOURS,
-                          max_samples=LIKELIHOOD_MAX_SAMPLES)
+        sizes = dict(n_neighbours=LIKELIHOOD_NEIGHBOURS, max_samples=LIKELIHOOD_MAX_SAMPLES)
+        setup = vecchia_setup(coords, values, frame=start.frame, ranges=start.ranges,
+                              seed=seed, holes=holes, **sizes)
+        self.lk_kw = dict(seed=seed, setup=setup, **sizes)
 
     def likelihood(self, frame, ranges, nugget, sills, kinds, **ftol):
         return refine_frame_likelihood(self.coords, self.values, frame, ranges, nugget, sills,
@@ -227,8 +236,50 @@ def _outcome(fit, f, lk, nested, starts, held):
     return choice, record
 
 
+def _global_start(fit, coords, values, seed, holes, other_frames, confidence):
+    """The likelihood's global choice among candidate frames, and the fit to start from."""
+    choice = global_frame_choice(coords, values, fit.frame, fit.ranges, fit.nugget, fit.sills,
+                                 fit.kinds, holes=holes, other_frames=other_frames, seed=seed,
+                                 n_neighbours=LIKELIHOOD_NEIGHBOURS,
+                                 max_samples=LIKELIHOOD_MAX_SAMPLES, confidence=confidence)
+    best = choice.best
+    if best.name == "variogram fit":
+        return choice, fit
+    ranges = np.asarray(best.ranges, float).reshape(np.shape(fit.ranges))
+    return choice, replace(fit, frame=np.asarray(best.frame, float), ranges=ranges)
+
+
+def _choice_texts(choice: FrameChoice):
+    """The choice row of the global frame choice, and a warning when a rival is close."""
+    best = choice.best
+    row = {"choice": "frame candidates", "value": best.name,
+           "reason": f"{len(choice.candidates)} candidate frames (the variogram fit's, its "
+                     "axis exchanges, frames along the holes and other good search frames) "
+                     "each polished by one shared likelihood; the highest kept"}
+    if not choice.ambiguous:
+        return row, None
+    rivals = "; ".join(_frame_words(choice.candidates[k], choice.candidates[k].negloglik
+                                    - best.negloglik) for k in choice.rivals)
+    axes = " and ".join(a.replace("_", "-") for a in choice.ambiguous_axes)
+    warning = (f"the {axes} axes are ambiguous: the samples cannot tell the chosen frame "
+               f"({_frame_words(best, 0.0)}) from {rivals} (within {choice.margin:.2f} "
+               "log-likelihood units, the 90 % likelihood-ratio margin); both are "
+               "reported, the cones are widened to hold both, and the choice between them "
+               "should rest on the geology")
+    return row, warning
+
+
+def _frame_words(c, below):
+    """A candidate frame in the geologist's terms (axes trend/plunge) with its support."""
+    d = c.to_dict()["axes"]
+    ax = ", ".join(f"{a.replace('_', '-')} {d[a]['trend']:03.0f}/{d[a]['plunge']:02.0f}"
+                   for a in d)
+    return f"{ax}" + (f", {below:.2f} log-likelihood units below" if below > 0 else "")
+
+
 def refine_frame(fit: NestedFit, bins: FitBins, coords, values, *, seed=0, fit_kwargs=None,
-                 add_structure=False, one_structure=None) -> FrameRefinement:
+                 add_structure=False, one_structure=None, holes=None, other_frames=(),
+                 confidence=0.9) -> FrameRefinement:
     """The variogram fit's frame refined by the nearest-neighbour likelihood.
 
     When the variogram fit has one structure, the refined one-structure model
@@ -272,6 +323,14 @@ def refine_frame(fit: NestedFit, bins: FitBins, coords, values, *, seed=0, fit_k
         The number of structures was left to the engine.
     one_structure : NestedFit, optional
         The best one-structure variogram fit (second start for two structures).
+    holes : array_like (n,), optional
+        Drill-hole labels: conditioning sets that see across holes, and
+        candidate frames with an axis along the dominant hole directions.
+    other_frames : sequence of (name, frame)
+        Other good frames of the variogram search (candidates).
+    confidence : float
+        Sets the rival margin of the global frame choice
+        (:func:`anisotropy.fitting.frames.likelihood_margin`).
 
     Returns
     -------
@@ -282,10 +341,16 @@ def refine_frame(fit: NestedFit, bins: FitBins, coords, values, *, seed=0, fit_k
     """
     if len(coords) < MIN_SAMPLES_LIKELIHOOD:
         return FrameRefinement(fit=fit)
-    P = _Problem(bins, coords, values, seed, fit_kwargs or {})
-    warnings = []
+    warnings, choices = [], []
     try:
-        lk, f, starts = _first_search(P, fit, one_structure)
+        choice, start = _global_start(fit, coords, values, seed, holes, other_frames,
+                                      confidence)
+        row, warning = _choice_texts(choice)
+        choices.append(row)
+        if warning:
+            warnings.append(warning)
+        P = _Problem(bins, coords, values, seed, fit_kwargs or {}, start, holes)
+        lk, f, starts = _first_search(P, start, one_structure)
         f, held, warning = _keep_axis_order(P, lk, f)
         if warning:
             warnings.append(warning)
@@ -296,7 +361,9 @@ def refine_frame(fit: NestedFit, bins: FitBins, coords, values, *, seed=0, fit_k
         warnings.append(f"the likelihood refinement of the frame failed ({exc}); the "
                         "variogram fit's frame is kept")
         return FrameRefinement(fit=fit, warnings=tuple(warnings))
-    choice, record = _outcome(fit, f, lk, nested, starts, held)
+    row, record = _outcome(fit, f, lk, nested, starts, held)
+    record["frame_candidates"] = choice.to_dict()
+    record["hole_aware"] = holes is not None
     correction = np.asarray(lk.frame, float) @ np.asarray(fit.frame, float).T
-    return FrameRefinement(fit=f, record=record, correction=correction, choices=(choice,),
-                           warnings=tuple(warnings))
+    return FrameRefinement(fit=f, record=record, correction=correction,
+                           choices=tuple(choices) + (row,), warnings=tuple(warnings))
