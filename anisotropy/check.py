@@ -43,6 +43,10 @@ every result):
   an axis outside and the fit worse (or, when no fit comparison could be
   made, an axis outside with a share above ``strong_share``, 0.99);
   **uncertain** otherwise.
+* **cannot tell**, whatever the above: when the samples show no continuity
+  at the lag scale, or when the likelihood has a rival frame as well
+  supported as the reported one and the interpretation matches either
+  (:func:`data_cannot_tell`).
 * When major and semi-major trade places in more than ``swap_rate`` (0.25)
   of the replicates, the data do not say which in-plane axis is the longer:
   the major and semi-major axes are then judged against whichever of the two
@@ -436,7 +440,8 @@ class CheckResult:
         ``bootstrap_share_at_least`` (share of replicate ratios >= ratio),
         ``replicates`` used, ``worse``.
     verdict : str
-        "consistent", "uncertain" or "contradicted".
+        "consistent", "uncertain", "contradicted", or "cannot tell" (see
+        :func:`data_cannot_tell`).
     reasons : list of str
     thresholds : dict
     """
@@ -515,6 +520,49 @@ def decide_verdict(*, outside: bool, worse: bool, placed: bool, strong: bool,
     if outside and not placed and strong:
         return "contradicted"
     return "uncertain"
+
+
+def _candidate_frames(discovery):
+    """The reported frame and the likelihood's rival frames (columns major, semi, minor)."""
+    cand = (getattr(getattr(discovery, "refinement", None), "record", None) or {}).get(
+        "frame_candidates") or {}
+    rows = [c for c in cand.get("candidates") or [] if c.get("rival")]
+    frames = [np.asarray(discovery.frame, dtype=float)]
+    for c in rows:
+        frames.append(np.column_stack([line_to_vector(c["axes"][a]["trend"],
+                                                      c["axes"][a]["plunge"]) for a in AXES]))
+    return frames
+
+
+def data_cannot_tell(discovery, interp: dict, support: dict, practical_deg: float) -> str:
+    """Why the data cannot judge the interpretation, or "" when they can.
+
+    They cannot when the samples show no continuity at the lag scale, or when
+    the likelihood has a rival frame as well supported as the reported one and
+    the interpretation matches one of the two (every interpreted axis within
+    its cone, or within ``practical_deg``, of that frame's axis): agreeing
+    with one candidate and not the other is then no evidence either way.
+    """
+    diag = getattr(discovery, "diagnosis", None)
+    cont = getattr(diag, "continuity", None) or {}
+    if cont and cont.get("verdict") not in (None, "resolved"):
+        return ("the data cannot tell: " + cont.get("text", "no continuity is resolved at the "
+                                                    "lag scale"))
+    frames = _candidate_frames(discovery)
+    if len(frames) < 2:
+        return ""
+    matches = []
+    for F in frames:
+        ok = all(float(axis_angle(v, F[:, AXES.index(k)]))
+                 <= max(practical_deg, support.get(k, {}).get("cone_deg", 0.0))
+                 for k, v in interp.items())
+        matches.append(ok)
+    if not any(matches):
+        return ""
+    which = "the reported frame" if matches[0] else "the rival frame"
+    return ("the data cannot tell: the likelihood cannot separate the reported frame from a "
+            f"rival with its axes elsewhere, and the interpretation matches {which}; the "
+            "choice between them rests on the geology")
 
 
 def check_interpretation(discovery, interpretation: Interpretation, *, thresholds=None,
@@ -656,6 +704,10 @@ def check_interpretation(discovery, interpretation: Interpretation, *, threshold
                        "discovered one, so the objective ratio alone does not count against it")
     verdict = decide_verdict(outside=bool(outside_any), worse=worse, placed=share is not None,
                              strong=bool(strong_any), close=close_all)
+    undecided = data_cannot_tell(discovery, interp, support, th["practical_deg"])
+    if undecided:
+        verdict = "cannot tell"
+        reasons.append(undecided)
     if interpretation.kind == "plane":
         reasons.append("plane only: the pole (minor axis) is checked; the in-plane direction "
                        "is not")

@@ -799,6 +799,9 @@ class BootstrapResult:
     blocks : dict or None
         The block grouping used (see :class:`BlockGrouping`).
     seed, seconds, warnings
+    rival_angles : dict or None
+        Per axis, the angle (degrees) to a rival frame the likelihood cannot
+        tell from the reported one; the cone is widened to hold it.
     """
 
     method: str
@@ -827,6 +830,7 @@ class BootstrapResult:
     range_calibration: float = 1.0
     interval_method: str = "percentile"
     group_of_block: np.ndarray | None = None
+    rival_angles: dict | None = None
 
     # -- derived -----------------------------------------------------------
     @property
@@ -888,6 +892,9 @@ class BootstrapResult:
         reps = self.axes[:, :, i]
         mean, cone = axis_cone(reps, ref, conf)
         cone = min(90.0, cone * self.cone_calibration)
+        rival = float((self.rival_angles or {}).get(AXIS_NAMES[i], 0.0))
+        widened_to_rival = rival > cone
+        cone = max(cone, min(90.0, rival))
         trend, plunge, note = trend_plunge_intervals(reps, ref, conf, cone_deg=cone)
         est = self.reference_ranges[i]
         rng, how = self._interval(self.ranges[:, i], est, conf)
@@ -902,6 +909,9 @@ class BootstrapResult:
             out["trend_note"] = note
         if beyond:
             out["range_note"] = beyond
+        if widened_to_rival:
+            out["cone_note"] = (f"widened to {cone:.0f} degrees to hold a rival frame the "
+                                "likelihood cannot tell from this one")
         return out
 
     def _held_or_interval(self, replicates, estimate, conf, what, notes):

@@ -414,10 +414,26 @@ class Discovery:
                 raise InputError("the model-based bootstrap simulates Gaussian fields, which "
                                  "indicators are not; use the block bootstrap for indicator "
                                  "variograms")
-            return model_bootstrap(self.samples.coords, self.model, self.refit,
-                                   volume=self.volume_, **kw)
-        return block_bootstrap(self.volume_, self.refit, self.model, estimator=self.estimator,
-                               **kw)
+            res = model_bootstrap(self.samples.coords, self.model, self.refit,
+                                  volume=self.volume_, **kw)
+        else:
+            res = block_bootstrap(self.volume_, self.refit, self.model,
+                                  estimator=self.estimator, **kw)
+        res.rival_angles = self.rival_angles()
+        return res
+
+    def rival_angles(self) -> dict | None:
+        """Angle (degrees) from each reported axis to a rival frame's, where one is as likely.
+
+        The replicates refit the variogram and are turned like the main frame,
+        so they cannot see a second maximum of the likelihood; the cones are
+        widened to these angles (see
+        :class:`anisotropy.uncertainty.BootstrapResult`) so that they hold both.
+        """
+        cand = (self.refinement.record or {}).get("frame_candidates") or {}
+        if not cand.get("ambiguous_axes"):
+            return None
+        return dict(cand.get("rival_angles") or {})
 
 
 def _worst_direction_line(rows):

@@ -44,7 +44,7 @@ from anisotropy.geometry import to_lower_hemisphere, vector_to_line
 
 __all__ = ["FrameStart", "PolishedFrame", "FrameChoice", "frame_starts",
            "dominant_directions", "choose_frame", "likelihood_margin", "axis_swap_shares",
-           "global_frame_choice", "AXIS_NAMES"]
+           "global_frame_choice", "ordered_axes", "AXIS_NAMES"]
 
 AXIS_NAMES = ("major", "semi_major", "minor")
 #: Axes of two frames that differ by more than this are "elsewhere" (degrees):
@@ -262,8 +262,8 @@ def dominant_directions(directions, weights=None, *, within=DISTINCT_AXIS_DEGREE
     return [to_lower_hemisphere(v) for _, v in out[:max_directions]]
 
 
-def _ordered(frame, ranges):
-    """Columns reordered from the longest range (of the longest structure) to the shortest."""
+def ordered_axes(frame, ranges):
+    """Columns (and ranges) reordered from the longest range (of the longest structure) to the shortest."""
     F = np.asarray(frame, float)
     R = np.atleast_2d(np.asarray(ranges, float))
     j = int(np.argmax(R.max(axis=1)))
@@ -299,7 +299,7 @@ def choose_frame(starts: Sequence[FrameStart], polish: Callable, *, margin=None,
     done = []
     for s in starts:
         fit = polish(s.frame, s.ranges)
-        F, R = _ordered(fit.frame, fit.ranges)
+        F, R = ordered_axes(fit.frame, fit.ranges)
         done.append(PolishedFrame(s.name, F, R, float(fit.negloglik), fit))
     done.sort(key=lambda c: c.negloglik)
     best = done[0]

@@ -13,13 +13,14 @@ Pure fitting: arrays, fit bins and fits in; a :class:`FrameRefinement` out.
 
 from __future__ import annotations
 
+import itertools
 from dataclasses import dataclass, replace
 
 import numpy as np
 
 from anisotropy.errors import FitError
 from anisotropy.fitting.bins import FitBins
-from anisotropy.fitting.frames import FrameChoice, global_frame_choice
+from anisotropy.fitting.frames import FrameChoice, global_frame_choice, ordered_axes
 from anisotropy.fitting.likelihood import refine_frame_likelihood, vecchia_setup
 from anisotropy.fitting.nested import NestedFit, fit_nested
 
@@ -236,9 +237,28 @@ def _outcome(fit, f, lk, nested, starts, held):
     return choice, record
 
 
+def matched_rotation(F, G):
+    """The rotation taking frame ``G``'s axes to ``F``'s, axes matched by direction.
+
+    The columns of ``F`` are permuted and signed to lie closest to ``G``'s
+    (undirected axes; the permutation with the largest summed cosines), so
+    that a relabelling of the same axes is not mistaken for a turn.
+    """
+    F, G = np.asarray(F, float), np.asarray(G, float)
+    best = max(itertools.permutations(range(3)),
+               key=lambda p: float(np.sum(np.abs(np.sum(G * F[:, list(p)], axis=0)))))
+    M = F[:, list(best)]
+    M = M * np.where(np.sum(G * M, axis=0) < 0, -1.0, 1.0)
+    if np.linalg.det(M) < 0:  # keep a proper rotation: flip the least-aligned axis
+        k = int(np.argmin(np.abs(np.sum(G * M, axis=0))))
+        M[:, k] *= -1
+    return M @ G.T
+
+
 def _global_start(fit, coords, values, seed, holes, other_frames, confidence):
     """The likelihood's global choice among candidate frames, and the fit to start from."""
-    choice = global_frame_choice(coords, values, fit.frame, fit.ranges, fit.nugget, fit.sills,
+    frame, ranges = ordered_axes(fit.frame, fit.ranges)
+    choice = global_frame_choice(coords, values, frame, ranges, fit.nugget, fit.sills,
                                  fit.kinds, holes=holes, other_frames=other_frames, seed=seed,
                                  n_neighbours=LIKELIHOOD_NEIGHBOURS,
                                  max_samples=LIKELIHOOD_MAX_SAMPLES, confidence=confidence)
@@ -364,6 +384,9 @@ def refine_frame(fit: NestedFit, bins: FitBins, coords, values, *, seed=0, fit_k
     row, record = _outcome(fit, f, lk, nested, starts, held)
     record["frame_candidates"] = choice.to_dict()
     record["hole_aware"] = holes is not None
-    correction = np.asarray(lk.frame, float) @ np.asarray(fit.frame, float).T
+    # a rotation of space (axes matched by direction): the bootstrap's replicates refit the
+    # variogram and are turned by it; where the likelihood exchanged two of the variogram's
+    # axes the replicates keep the variogram's order, and their swap rate shows it
+    correction = matched_rotation(lk.frame, fit.frame)
     return FrameRefinement(fit=f, record=record, correction=correction,
                            choices=tuple(choices) + (row,), warnings=tuple(warnings))

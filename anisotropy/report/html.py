@@ -705,7 +705,8 @@ def _section_check(check) -> str:
         return ("<p>No interpretation was given for this domain, so none was checked.</p>")
     c = check.to_dict()
     verdict = str(c.get("verdict"))
-    html = [f"<p>Verdict: <span class='verdict-{S.escape(verdict)}'>{S.escape(verdict)}</span></p>"]
+    css = S.escape(str(verdict).replace(" ", "-"))
+    html = [f"<p>Verdict: <span class='verdict-{css}'>{S.escape(verdict)}</span></p>"]
     summary = getattr(check, "summary", None)
     if callable(summary):
         html.append(f"<pre>{S.escape(summary())}</pre>")

@@ -43,6 +43,7 @@ figcaption{font-size:.88em;color:#444}
 .verdict-consistent{color:#1b7837;font-weight:bold}
 .verdict-uncertain{color:#b35806;font-weight:bold}
 .verdict-contradicted{color:#b2182b;font-weight:bold}
+.verdict-cannot-tell{color:#5e3c99;font-weight:bold}
 code{background:#f4f4f4;padding:0 .2em}
 """
 
