@@ -45,7 +45,8 @@ from anisotropy.discovery import (CAUTION, PLANAR_CAUTION, SCHEMA, DiscoverParam
                                   FitSettings, RefitState, build_volume, choose_lags,
                                   choose_sill, choose_structures, choose_transform, diagnose,
                                   fan_ranges, prepare, read, refinement_applies,
-                                  search_orientation, starting_frames, weighted_bins)
+                                  search_orientation, starting_frames, weighted_bins,
+                                  with_bootstrap)
 from anisotropy.discovery.params import DEFAULT_FAN_SPACING
 
 __all__ = ["discover", "run_discovery", "Discovery", "DiscoverParams", "SCHEMA", "CAUTION",
@@ -248,6 +249,9 @@ def run_discovery(data, p: DiscoverParams) -> Discovery:
                           confidence_level=p.confidence, rng=p.seed, n_jobs=p.n_jobs,
                           scheduler=p.scheduler, progress=p.progress)
         _record_bootstrap_blocks(D)
+        after = with_bootstrap(D.diagnosis, D.uncertainty.swap_rates(), p.confidence)
+        D.warnings.extend(w for w in after.warnings if w not in D.diagnosis.warnings)
+        D.diagnosis = after
         D.seconds = t.total()
     return D
 

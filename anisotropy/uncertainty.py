@@ -891,6 +891,12 @@ class BootstrapResult:
         ref = self.reference_frame[:, i]
         reps = self.axes[:, :, i]
         mean, cone = axis_cone(reps, ref, conf)
+        # the cone also holds the replicates' own axis of the same rank (their own major
+        # for the major): where replicates exchange two axes more often than 1 - confidence,
+        # it reaches the other mode instead of hiding the exchange by matching
+        ranked = self._ranked_axes(i)
+        if ranked is not None:
+            cone = max(cone, axis_cone(ranked, ref, conf)[1])
         cone = min(90.0, cone * self.cone_calibration)
         rival = float((self.rival_angles or {}).get(AXIS_NAMES[i], 0.0))
         widened_to_rival = rival > cone
@@ -913,6 +919,13 @@ class BootstrapResult:
             out["cone_note"] = (f"widened to {cone:.0f} degrees to hold a rival frame the "
                                 "likelihood cannot tell from this one")
         return out
+
+    def _ranked_axes(self, i):
+        """Axis ``i`` of each replicate's own frame (ordered by its ranges), or None."""
+        frames = [np.asarray(getattr(m, "frame", None), dtype=float) for m in self.models]
+        if not frames or any(F.shape != (3, 3) for F in frames):
+            return None
+        return np.stack([F[:, i] for F in frames])
 
     def _held_or_interval(self, replicates, estimate, conf, what, notes):
         """Interval holding the estimate, or None with a note when the value was held fixed."""

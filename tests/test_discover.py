@@ -342,11 +342,12 @@ def test_progress_names_each_long_stage(steep_vein, capsys):
     lines = []
     anisotropy.discover(steep_vein.samples, fan_spacing=15, structures=1, progress=lines.append)
     stages = [ln for ln in lines if ln.startswith("discover: ")]
-    # the four stages in the order the chain runs them, each with its elapsed time
+    # the five stages in the order the chain runs them, each with its elapsed time
     for want, got in zip(("pairs: unit lag", "ranges along the direction fan",
-                          "fitting the orientation", "nested structures"), stages):
+                          "fitting the orientation", "nested structures",
+                          "is there continuity"), stages):
         assert got.startswith("discover: " + want) and got.endswith(" s]")
-    assert len(stages) == 4
+    assert len(stages) == 5
     capsys.readouterr()
     anisotropy.discover(steep_vein.samples, fan_spacing=15, structures=1, progress=False)
     assert "discover: " not in capsys.readouterr().err

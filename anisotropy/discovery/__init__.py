@@ -24,7 +24,7 @@ stage                      returns
 """
 
 from anisotropy.discovery.bins import WeightedBins, weighted_bins
-from anisotropy.discovery.diagnose import Diagnostics, diagnose
+from anisotropy.discovery.diagnose import Diagnostics, diagnose, with_bootstrap
 from anisotropy.discovery.fan import FanRanges, fan_ranges
 from anisotropy.discovery.lags import LagChoice, PairVolume, build_volume, choose_lags
 from anisotropy.discovery.params import DiscoverParams
@@ -41,4 +41,5 @@ __all__ = ["DiscoverParams", "read", "prepare", "Prepared", "choose_transform",
            "build_volume", "PairVolume", "weighted_bins", "WeightedBins", "fan_ranges",
            "FanRanges", "starting_frames", "Start", "FitSettings", "search_orientation",
            "Search", "choose_structures", "refinement_applies", "Refinement", "diagnose",
-           "Diagnostics", "Discovery", "RefitState", "SCHEMA", "CAUTION", "PLANAR_CAUTION"]
+           "Diagnostics", "with_bootstrap", "Discovery", "RefitState", "SCHEMA", "CAUTION",
+           "PLANAR_CAUTION"]

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -321,3 +321,45 @@ def diagnose(model: NestedModel, fan: FanRanges, bins: FitBins, *, spacing, has_
                        unresolved_ranges=ranges, warnings=tuple(texts),
                        continuity=None if continuity is None else continuity.to_dict(),
                        resolved_down_hole=by_holes, ambiguous_axes=amb)
+
+
+#: Replicate axis exchanges counted by :meth:`BootstrapResult.swap_rates`.
+_SWAPS = {"major_semi_major": ("major", "semi_major"),
+          "semi_major_minor": ("semi_major", "minor")}
+
+
+def with_bootstrap(dg: Diagnostics, swap_rates: dict, confidence: float) -> Diagnostics:
+    """The diagnosis after the bootstrap: axes its replicates exchange too often are open.
+
+    Two axes that trade places in more than ``1 - confidence`` of the
+    replicates lie in each other's confidence region: the samples do not say
+    which is the longer, so both are unresolved (the cones reach both modes,
+    see :meth:`anisotropy.uncertainty.BootstrapResult.axis_summary`).
+
+    Parameters
+    ----------
+    dg : Diagnostics
+    swap_rates : dict
+        Share of replicates exchanging each pair of axes.
+    confidence : float
+
+    Returns
+    -------
+    Diagnostics
+    """
+    limit = 1.0 - float(confidence)
+    texts, amb = [], set(dg.ambiguous_axes)
+    for key, (a, b) in _SWAPS.items():
+        rate = swap_rates.get(key)
+        if rate is None or not np.isfinite(rate) or rate <= limit:
+            continue
+        amb |= {a, b}
+        texts.append(f"the bootstrap exchanges the {a.replace('_', '-')} and "
+                     f"{b.replace('_', '-')} axes in {rate:.0%} of its replicates (more than "
+                     f"{limit:.0%}): the samples do not say which of the two is the longer; "
+                     "both are unresolved and their cones reach both")
+    if not texts:
+        return dg
+    axes = [x for x in AXES if x in set(dg.unresolved_axes) | amb]
+    return replace(dg, unresolved_axes=axes, ambiguous_axes=tuple(x for x in AXES if x in amb),
+                   warnings=dg.warnings + tuple(texts))

@@ -51,6 +51,13 @@ AXIS_NAMES = ("major", "semi_major", "minor")
 #: the direction sweep's default angular tolerance, the finest difference the
 #: directional variograms themselves can show (common practice: 15-22.5).
 DISTINCT_AXIS_DEGREES = 15.0
+#: Iterations of each candidate's likelihood search in the global choice.  The
+#: candidates are compared, not reported: the chosen one is searched again to
+#: convergence.  From a start in the right basin the search moves the frame
+#: by well under a degree after its first few dozen iterations (analytic
+#: gradient; benchmarks/bench_likelihood.py shows 13-49 iterations to
+#: convergence on 1,800-2,000 samples).
+SCREEN_ITERATIONS = 40
 
 
 @dataclass(frozen=True)
@@ -344,7 +351,7 @@ def axis_swap_shares(frame, replicate_frames) -> dict:
 
 def global_frame_choice(coords, values, frame, ranges, nugget, sills, kinds, *, holes=None,
                         other_frames=(), seed=0, n_neighbours=30, max_samples=2000,
-                        confidence=0.9, ftol=1e-4) -> FrameChoice:
+                        confidence=0.9, ftol=1e-4, maxiter=SCREEN_ITERATIONS) -> FrameChoice:
     """Every candidate start polished by one shared likelihood, and the best kept.
 
     The conditioning sets are built once, in the plain Euclidean metric
@@ -372,6 +379,9 @@ def global_frame_choice(coords, values, frame, ranges, nugget, sills, kinds, *, 
         Sets the rival margin (:func:`likelihood_margin`).
     ftol : float
         Stopping tolerance of each candidate's search.
+    maxiter : int
+        Iterations of each candidate's search (a screening: the chosen frame
+        is searched again to convergence by the caller).
 
     Returns
     -------
@@ -389,7 +399,7 @@ def global_frame_choice(coords, values, frame, ranges, nugget, sills, kinds, *, 
 
     def polish(F, R):
         return refine_frame_likelihood(coords, values, F, R, nugget, sills, kinds,
-                                       setup=setup, ftol=ftol, seed=seed,
+                                       setup=setup, ftol=ftol, seed=seed, maxiter=maxiter,
                                        n_neighbours=n_neighbours, max_samples=max_samples)
 
     return choose_frame(starts, polish, confidence=confidence)

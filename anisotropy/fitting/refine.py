@@ -20,7 +20,8 @@ import numpy as np
 
 from anisotropy.errors import FitError
 from anisotropy.fitting.bins import FitBins
-from anisotropy.fitting.frames import FrameChoice, global_frame_choice, ordered_axes
+from anisotropy.fitting.frames import (FrameChoice, PolishedFrame, global_frame_choice,
+                                       ordered_axes)
 from anisotropy.fitting.likelihood import refine_frame_likelihood, vecchia_setup
 from anisotropy.fitting.nested import NestedFit, fit_nested
 
@@ -48,6 +49,16 @@ LIKELIHOOD_NESTED_FTOL = 1e-5
 #: SciPy's default, which took three times the evaluations for a frame that
 #: differed by thousandths of a degree on the composites speed benchmark).
 LIKELIHOOD_FTOL = 1e-5
+#: Compare candidate frames globally by the likelihood before the refinement
+#: (:func:`anisotropy.fitting.frames.global_frame_choice`); off only to measure
+#: what the choice costs and changes (benchmarks).
+GLOBAL_FRAME_CHOICE = True
+#: Conditioning neighbours of the global choice's candidate searches: a
+#: coarser Vecchia approximation than the refinement's (the cost of a
+#: conditioning set grows with the cube of its size), the same for every
+#: candidate, so their log-likelihoods stay comparable; the chosen frame is
+#: then searched again with ``LIKELIHOOD_NEIGHBOURS``.
+SCREEN_NEIGHBOURS = 15
 #: Fewest samples for the likelihood to add anything.
 MIN_SAMPLES_LIKELIHOOD = 100
 
@@ -258,9 +269,12 @@ def matched_rotation(F, G):
 def _global_start(fit, coords, values, seed, holes, other_frames, confidence):
     """The likelihood's global choice among candidate frames, and the fit to start from."""
     frame, ranges = ordered_axes(fit.frame, fit.ranges)
+    if not GLOBAL_FRAME_CHOICE:
+        other_frames, holes = (), None
+        return FrameChoice((PolishedFrame("variogram fit", frame, ranges, 0.0),), 0.0, (), ()), fit
     choice = global_frame_choice(coords, values, frame, ranges, fit.nugget, fit.sills,
                                  fit.kinds, holes=holes, other_frames=other_frames, seed=seed,
-                                 n_neighbours=LIKELIHOOD_NEIGHBOURS,
+                                 n_neighbours=SCREEN_NEIGHBOURS,
                                  max_samples=LIKELIHOOD_MAX_SAMPLES, confidence=confidence)
     best = choice.best
     if best.name == "variogram fit":
