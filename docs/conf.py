@@ -69,7 +69,6 @@ version = release
 extensions = [
     "sphinx.ext.autodoc",
     "sphinx.ext.autosummary",
-    "sphinx.ext.mathjax",
     "numpydoc",
     "myst_parser",
 ]
@@ -80,8 +79,9 @@ exclude_patterns = ["_build", "Thumbs.db", ".DS_Store"]
 templates_path = ["_templates"]
 
 # Markdown pages: headings get anchors so that pages can link to sections.
+# No maths extension: formulas are written as text, so the pages need no
+# script from outside to read offline.
 myst_heading_anchors = 3
-myst_enable_extensions = ["dollarmath"]
 
 # API reference: one page per module, generated at build time (nothing
 # generated is committed; docs/_build and docs/api/generated are ignored).
