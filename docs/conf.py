@@ -105,3 +105,5 @@ numpydoc_xref_param_type = False
 html_theme = "alabaster"
 html_title = f"anisotropy {release}"
 html_static_path = []
+html_show_sphinx = False
+html_theme_options = {"show_powered_by": False}
