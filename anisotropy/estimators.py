@@ -16,9 +16,9 @@ N the pair count of a bin:
 ``pairwise_relative`` (Srivastava & Parker 1989)
     sum(delta^2 / ((h + t)/2)^2) / (2 N_rel), over the pairs with h + t != 0.
 ``madogram``
-    sum(|delta|) / (2 N).
+    ``sum(|delta|) / (2 N)``.
 ``robust`` (Cressie & Hawkins 1980)
-    gamma = [(sum(|delta|^(1/2)) / N)^4 / (0.457 + 0.494 / N)] / 2.
+    ``gamma = [(sum(|delta|^(1/2)) / N)^4 / (0.457 + 0.494 / N)] / 2``.
 
 Bins without pairs give NaN.
 """
