@@ -30,7 +30,8 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 from scipy import stats
-from scipy.spatial import ConvexHull, QhullError, cKDTree
+from scipy.spatial import ConvexHull, QhullError
+from scipy.spatial import cKDTree as _KDTree  # private: not part of this module's API
 
 from anisotropy.errors import DataError, InputError, InsufficientDataError
 
@@ -354,7 +355,7 @@ def _nn_median(points: np.ndarray) -> float | None:
     """Median distance to the nearest other (non-coincident) point."""
     if len(points) < 2:
         return None
-    tree = cKDTree(points)
+    tree = _KDTree(points)
     k = min(len(points), 4)
     d, _ = tree.query(points, k=k)
     d = np.where(d > 0, d, np.inf)[:, 1:].min(axis=1)
@@ -415,7 +416,7 @@ def _level_spacings(c: np.ndarray, label: np.ndarray, n_levels: int):
     for k in range(n_levels):
         pts = c[label == k, :2]
         if len(pts) >= 2:
-            d, _ = cKDTree(pts).query(pts, k=min(len(pts), 4))
+            d, _ = _KDTree(pts).query(pts, k=min(len(pts), 4))
             d = np.where(d > 0, d, np.inf)[:, 1:].min(axis=1)
             nn.append(d[np.isfinite(d)])
         s = footprint_spacing(pts)

@@ -42,7 +42,7 @@ N_GRID = 36001       # integration nodes (trapezoid rule)
 
 
 def _normalised_hermite(y, n_terms):
-    """``eta_0 .. eta_{n_terms}`` at ``y`` by the three-term recurrence.
+    """The normalised Hermite polynomials up to ``n_terms`` at ``y`` (three-term recurrence).
 
     ``eta_{n+1} = (y eta_n - sqrt(n) eta_{n-1}) / sqrt(n + 1)``, the
     recurrence ``He_{n+1} = y He_n - n He_{n-1}`` divided by ``sqrt((n+1)!)``
@@ -60,7 +60,7 @@ def _normalised_hermite(y, n_terms):
 
 def hermite_coefficients(anamorphosis, n_terms: int = N_HERMITE, *,
                          y_limit: float = Y_LIMIT, n_grid: int = N_GRID):
-    """Hermite coefficients ``phi_0 .. phi_n`` of an anamorphosis and its variance.
+    """Hermite coefficients (``phi_0`` to ``phi_n``) of an anamorphosis and its variance.
 
     ``phi_n = integral phi(y) eta_n(y) g(y) dy`` with ``eta_n`` the
     normalised Hermite polynomials, by the trapezoid rule on ``n_grid``

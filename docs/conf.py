@@ -87,7 +87,10 @@ myst_heading_anchors = 3
 # generated is committed; docs/_build and docs/api/generated are ignored).
 autosummary_generate = True
 autosummary_imported_members = False
-autodoc_default_options = {"members": True, "show-inheritance": False}
+# members defined in each module only: a module's __all__ may re-export names
+# documented on the page of the module that defines them
+autodoc_default_options = {"members": True, "show-inheritance": False,
+                           "ignore-module-all": True}
 autodoc_typehints = "none"          # numpydoc's Parameters sections carry the types
 autodoc_member_order = "bysource"
 

@@ -9,10 +9,10 @@ chain would otherwise report ranges and axes that the data contradict.
 The statistic is Geary's contiguity ratio (Geary 1954, The Incorporated
 Statistician 5(3)) over a fixed set of sample pairs:
 
-    C = (n - 1) * sum_P (y_i - y_j)^2 / (2 |P| * sum_i (y_i - ybar)^2)
+    C = (n - 1) * sum_P (y_i - y_j)^2 / (2 n_P * sum_i (y_i - ybar)^2)
 
-which is about 1 when values are exchangeable over the locations and below
-1 when close samples are alike.  Its null distribution is obtained by
+with ``n_P`` the number of pairs in the set ``P``.  It is about 1 when values
+are exchangeable over the locations and below 1 when close samples are alike.  Its null distribution is obtained by
 permuting the values over the locations (randomisation inference; Cliff &
 Ord 1981, *Spatial Processes*, ch. 2), with the pair set held fixed, so no
 distributional assumption is made.  Two pair sets are tested:
@@ -35,7 +35,7 @@ from dataclasses import dataclass
 
 import numpy as np
 from numba import njit
-from scipy.spatial import cKDTree
+from scipy.spatial import cKDTree as _KDTree  # private: not part of this module's API
 
 __all__ = ["ContinuityTest", "ContinuityCheck", "geary_ratio", "continuity_test",
            "check_continuity"]
@@ -213,7 +213,7 @@ def nearest_pairs(coords, k=6):
     k = int(min(k, len(X) - 1))
     if k < 1:
         return np.empty((0, 2), np.int64), np.empty(0)
-    d, idx = cKDTree(X).query(X, k=k + 1)
+    d, idx = _KDTree(X).query(X, k=k + 1)
     a = np.repeat(np.arange(len(X)), k)
     b = idx[:, 1:].ravel()
     pairs = np.unique(np.sort(np.column_stack([a, b]), axis=1), axis=0)
@@ -225,7 +225,7 @@ def nearest_pairs(coords, k=6):
 def band_pairs(coords, lo, hi):
     """Unordered pairs whose distance lies in ``(lo, hi]``."""
     X = np.asarray(coords, float)
-    tree = cKDTree(X)
+    tree = _KDTree(X)
     pairs = tree.query_pairs(float(hi), output_type="ndarray").astype(np.int64)
     if len(pairs) == 0:
         return pairs.reshape(0, 2), np.empty(0)
