@@ -228,7 +228,8 @@ def run_discovery(data, p: DiscoverParams) -> Discovery:
                                       estimator=p.estimator))
     t.say("is there continuity to model? (permutation test)")
     cc = t("continuity", check_continuity, samples.coords, tc.values, lag=lc.unit_lag,
-           seed=p.seed, shortest_downhole=prep.spacing.down_hole if prep.has_holes else None)
+           seed=p.seed, shortest_downhole=prep.spacing.down_hole if prep.has_holes else None,
+           holes=samples.holes if prep.has_holes else None)
     dg = t("diagnose", diagnose, ref.model, fr, wb.bins, spacing=prep.spacing,
            has_holes=prep.has_holes, planar=prep.planar, max_distance=lc.max_distance,
            max_range=fs.max_range, min_pairs=wb.min_pairs, transform_kind=tc.kind,

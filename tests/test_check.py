@@ -390,3 +390,30 @@ def test_cli_reads_the_strike_form_and_side_pitch_like_the_default_form():
     b = interp("150/70", "140")
     np.testing.assert_allclose(a.frame, b.frame, atol=1e-12)
     assert a.pitch == pytest.approx(140.0)
+
+
+def test_the_data_cannot_tell_between_a_rival_frame_and_the_reported_one():
+    from types import SimpleNamespace
+
+    from anisotropy.check import data_cannot_tell
+
+    F = np.eye(3)
+    F[:, 2] *= -1
+    F[:, 1] *= -1  # right-handed, minor pointing down
+    rival = {"rival": True, "axes": {"major": {"trend": 0.0, "plunge": 0.0},
+                                     "semi_major": {"trend": 90.0, "plunge": 0.0},
+                                     "minor": {"trend": 0.0, "plunge": 90.0}}}
+    disc = SimpleNamespace(frame=F, diagnosis=SimpleNamespace(continuity={"verdict": "resolved"}),
+                           refinement=SimpleNamespace(record={"frame_candidates": {
+                               "candidates": [{"rival": False}, rival]}}))
+    east, north = np.array([1.0, 0, 0]), np.array([0, 1.0, 0])
+    support = {"major": {"cone_deg": 5.0}}
+    # the reported major runs east (column 0), the rival's north: an interpretation along
+    # either is no evidence either way; one 45 degrees off both is judged as usual
+    assert "cannot tell" in data_cannot_tell(disc, {"major": north}, support, 10.0)
+    assert "cannot tell" in data_cannot_tell(disc, {"major": east}, support, 10.0)
+    diag = np.array([1.0, 1.0, 0]) / np.sqrt(2)
+    assert data_cannot_tell(disc, {"major": diag}, support, 10.0) == ""
+    # no continuity at the lag scale: the data cannot judge any interpretation
+    disc.diagnosis.continuity = {"verdict": "none", "text": "no spatial continuity"}
+    assert "no spatial continuity" in data_cannot_tell(disc, {"major": diag}, support, 10.0)

@@ -644,3 +644,16 @@ def test_model_based_bootstrap_option(tmp_path):
     assert u[0]["major"]["range"] == u[1]["major"]["range"]
     with pytest.raises(anisotropy.InputError, match="bootstrap method"):
         anisotropy.discover(df, value="grade", bootstrap=5, bootstrap_method="jackknife")
+
+
+def test_values_without_spatial_correlation_give_no_confident_orientation(rng):
+    # issue 15: 400 scattered samples drawn independently of their locations (pure
+    # nugget).  Whatever the fits return, no axis may be reported as resolved, and the
+    # record says why (the permutation test of anisotropy.fitting.continuity).
+    c = rng.uniform(0, 250, (400, 3))
+    D = anisotropy.discover(table(c, rng.normal(size=400) + 10.0), value="grade",
+                            transform="raw", seed=0)
+    d = D.to_dict()
+    assert d["diagnostics"]["unresolved_axes"] == ["major", "semi_major", "minor"]
+    assert d["diagnostics"]["continuity"]["verdict"] == "none"
+    assert any("no spatial continuity" in w for w in d["diagnostics"]["warnings"])

@@ -104,3 +104,37 @@ def test_residual_rows_against_the_spherical_formula():
         assert r["mean_relative_residual"] == pytest.approx(0.1)
         assert r["rms_relative_residual"] == pytest.approx(0.1)
     assert rows[2]["flag"] == "thin" and rows[0]["plunge"] == 0.0 and rows[2]["plunge"] == 90.0
+
+
+# --- issue 15: down-hole resolution, the bootstrap's exchanges -------------------
+
+def test_an_axis_the_holes_resolve_is_never_called_unresolved():
+    # the same lattice and ranges as the drill-hole test above (13 m minor, one 9 m bin
+    # under it): with the minor axis resolved by down-hole lags it is not reported
+    lags, pairs = _lattice(9.0)
+    axes, unresolved, w = resolution(lags, pairs, (150.0, 90.0, 13.0), np.eye(3),
+                                     scattered=False, across=60.0, min_pairs=30,
+                                     resolved=("minor",))
+    assert axes == unresolved == [] and w == []
+
+
+def _diagnosis(**kw):
+    from anisotropy.discovery.diagnose import Diagnostics
+
+    base = dict(direction_ranges=None, residuals=[], unresolved_axes=[], unresolved_ranges=[])
+    base.update(kw)
+    return Diagnostics(**base)
+
+
+def test_axes_the_bootstrap_exchanges_too_often_become_unresolved():
+    from anisotropy.discovery.diagnose import with_bootstrap
+
+    dg = _diagnosis(unresolved_axes=["minor"])
+    # 12 % of replicates exchange major and semi-major: more than 1 - 0.9
+    out = with_bootstrap(dg, {"major_semi_major": 0.12, "semi_major_minor": 0.0}, 0.9)
+    assert out.unresolved_axes == ["major", "semi_major", "minor"]
+    assert out.ambiguous_axes == ("major", "semi_major")
+    assert "12%" in out.warnings[-1]
+    # 8 % is inside the 10 % the confidence allows: nothing changes
+    same = with_bootstrap(dg, {"major_semi_major": 0.08, "semi_major_minor": 0.05}, 0.9)
+    assert same is dg

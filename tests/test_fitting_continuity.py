@@ -116,3 +116,30 @@ def test_structure_shorter_than_the_first_lag_is_named():
 def test_no_pairs_is_not_significant():
     t = continuity_test(np.arange(5.0), np.empty((0, 2), int))
     assert not t.significant
+
+
+def test_first_lag_pairs_are_taken_across_holes_when_holes_are_given():
+    # a flat lode drilled across (vertical holes): down the holes the values are
+    # independent beyond 8 m, across the holes alike.  The first-lag band
+    # (10-30 m) holds mostly down-hole pairs; across holes it shows the continuity.
+    rng = np.random.default_rng(8)
+    nh, per = 36, 15
+    hx, hy = np.meshgrid(np.arange(6) * 20.0, np.arange(6) * 20.0)
+    X = np.column_stack([np.repeat(hx.ravel(), per), np.repeat(hy.ravel(), per),
+                         -2.0 * np.tile(np.arange(per, dtype=float), nh)])
+    holes = np.repeat(np.arange(nh), per)
+    # anisotropic exponential: 150 m in plan, 8 m across (practical ranges)
+    L = X / np.array([150.0, 150.0, 8.0])
+    d = np.linalg.norm(L[:, None] - L[None], axis=2)
+    y = np.linalg.cholesky(np.exp(-3 * d) + 1e-9 * np.eye(len(X))) @ rng.standard_normal(len(X))
+    chk = check_continuity(X, y, lag=20.0, seed=1, holes=holes)
+    assert chk.first_lag.significant and chk.verdict == "resolved"
+    # exactly the across-hole pairs of the band, counted by brute force over all pairs
+    d = np.linalg.norm(X[:, None] - X[None], axis=2)
+    i, j = np.triu_indices(len(X), 1)
+    want = int(np.sum((d[i, j] > 10.0) & (d[i, j] <= 30.0) & (holes[i] != holes[j])))
+    assert chk.first_lag.n_pairs == want
+    # the down-hole pairs of the band (10-30 m, beyond the 8 m range across the lode)
+    # carry no continuity
+    down = check_continuity(X[holes == 0], y[holes == 0], lag=20.0, seed=1)
+    assert not down.first_lag.significant

@@ -137,3 +137,35 @@ def test_global_choice_with_the_real_likelihood_lands_on_the_true_major():
 
     ch = choose_frame(frame_starts(truth, start_ranges), polish)
     assert abs(ch.best.frame[:, 0] @ truth[:, 0]) > np.cos(np.radians(8))
+
+
+def test_rivals_are_judged_against_the_frame_finally_reported():
+    # screening: the best candidate sits 20 degrees from a second one within the margin;
+    # the final search moved to the second one's axes, so the first is now the rival
+    F = np.eye(3)
+    G = Rotation.from_euler("z", 20, degrees=True).as_matrix() @ F
+    R = np.array([[100.0, 60.0, 10.0]])
+    minima = [(F, R, 10.0), (G, R, 10.5)]
+    starts = [FrameStart("variogram fit", F, R), FrameStart("other", G, R)]
+    ch = choose_frame(starts, _quadratic_polish(minima))
+    assert ch.rivals == (1,)
+    moved = ch.relative_to(G)
+    assert moved.rivals == (0,)
+    assert moved.rival_angles()["major"] == pytest.approx(20.0)
+    assert moved.to_dict()["candidates"][0]["rival"]
+    # a final frame within 15 degrees of every candidate has no rival
+    mid = Rotation.from_euler("z", 10, degrees=True).as_matrix()
+    assert not ch.relative_to(mid).ambiguous
+
+
+def test_matched_rotation_ignores_a_relabelling_of_the_same_axes():
+    from anisotropy.fitting.refine import matched_rotation
+
+    G = Rotation.from_euler("zyx", [30, 20, 10], degrees=True).as_matrix()
+    turn = Rotation.from_euler("xyz", [3, -4, 5], degrees=True)
+    F = turn.as_matrix() @ G
+    relabelled = F[:, [1, 0, 2]] * np.array([1, -1, 1])  # columns exchanged, one reversed
+    assert np.linalg.det(relabelled) > 0
+    Q = matched_rotation(relabelled, G)
+    # SciPy's rotation between the frames: the same small turn, not a 90 degree one
+    assert np.allclose(Q, turn.as_matrix(), atol=1e-12)

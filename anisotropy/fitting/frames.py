@@ -117,16 +117,41 @@ class FrameChoice:
     ambiguous_axes : tuple of str
         Axes on which the best frame and a rival differ by more than
         ``DISTINCT_AXIS_DEGREES``.
+    reported : ndarray (3, 3) or None
+        The frame finally reported, when the rivals were judged against it
+        (:meth:`relative_to`) rather than against the best candidate.
     """
 
     candidates: tuple
     margin: float
     rivals: tuple
     ambiguous_axes: tuple
+    reported: np.ndarray | None = None
 
     @property
     def best(self) -> PolishedFrame:
         return self.candidates[0]
+
+    def relative_to(self, frame) -> "FrameChoice":
+        """The rivals of ``frame`` (the frame finally reported) among the candidates.
+
+        The candidates are searched as a screening; the chosen one is then
+        searched again, and may move.  A rival is a candidate within the
+        margin of the best log-likelihood whose axes lie more than
+        ``DISTINCT_AXIS_DEGREES`` from ``frame``'s.
+        """
+        F = np.asarray(frame, float)
+        best = self.candidates[0].negloglik
+        rivals, axes = [], set()
+        for k, c in enumerate(self.candidates):
+            if c.negloglik - best > self.margin:
+                break
+            differ = _axis_angles(F, c.frame) > DISTINCT_AXIS_DEGREES
+            if differ.any():
+                rivals.append(k)
+                axes |= {AXIS_NAMES[i] for i in np.flatnonzero(differ)}
+        return FrameChoice(self.candidates, self.margin, tuple(rivals),
+                           tuple(a for a in AXIS_NAMES if a in axes), F)
 
     @property
     def ambiguous(self) -> bool:
@@ -135,8 +160,9 @@ class FrameChoice:
     def rival_angles(self) -> dict:
         """Largest angle (degrees) between each axis of the best frame and of any rival."""
         out = {a: 0.0 for a in AXIS_NAMES}
+        ref = self.best.frame if self.reported is None else self.reported
         for r in self.rivals:
-            ang = _axis_angles(self.best.frame, self.candidates[r].frame)
+            ang = _axis_angles(ref, self.candidates[r].frame)
             for i, a in enumerate(AXIS_NAMES):
                 out[a] = max(out[a], float(ang[i]))
         return out

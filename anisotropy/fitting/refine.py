@@ -24,6 +24,7 @@ from anisotropy.fitting.frames import (FrameChoice, PolishedFrame, global_frame_
                                        ordered_axes)
 from anisotropy.fitting.likelihood import refine_frame_likelihood, vecchia_setup
 from anisotropy.fitting.nested import NestedFit, fit_nested
+from anisotropy.geometry import vector_to_line
 
 __all__ = ["FrameRefinement", "refine_frame", "LIKELIHOOD_MAX_SAMPLES",
            "LIKELIHOOD_NEIGHBOURS", "LIKELIHOOD_NESTED_SHORT", "LIKELIHOOD_MIN_SHARE",
@@ -292,23 +293,26 @@ def _choice_texts(choice: FrameChoice):
                      "each polished by one shared likelihood; the highest kept"}
     if not choice.ambiguous:
         return row, None
-    rivals = "; ".join(_frame_words(choice.candidates[k], choice.candidates[k].negloglik
-                                    - best.negloglik) for k in choice.rivals)
+    rivals = "; ".join(_frame_words(choice.candidates[k].frame) + (
+        f", {choice.candidates[k].negloglik - best.negloglik:.2f} log-likelihood units below "
+        "the best candidate") for k in choice.rivals)
     axes = " and ".join(a.replace("_", "-") for a in choice.ambiguous_axes)
-    warning = (f"the {axes} axes are ambiguous: the samples cannot tell the chosen frame "
-               f"({_frame_words(best, 0.0)}) from {rivals} (within {choice.margin:.2f} "
-               "log-likelihood units, the 90 % likelihood-ratio margin); both are "
-               "reported, the cones are widened to hold both, and the choice between them "
-               "should rest on the geology")
+    reported = best.frame if choice.reported is None else choice.reported
+    warning = (f"the {axes} axes are ambiguous: the samples cannot tell the reported frame "
+               f"({_frame_words(reported)}) from {rivals} (inside the likelihood-ratio margin "
+               f"of {choice.margin:.2f} log-likelihood units of the stated confidence); both "
+               "are reported, the cones are widened to hold both, and the choice between "
+               "them should rest on the geology")
     return row, warning
 
 
-def _frame_words(c, below):
-    """A candidate frame in the geologist's terms (axes trend/plunge) with its support."""
-    d = c.to_dict()["axes"]
-    ax = ", ".join(f"{a.replace('_', '-')} {d[a]['trend']:03.0f}/{d[a]['plunge']:02.0f}"
-                   for a in d)
-    return f"{ax}" + (f", {below:.2f} log-likelihood units below" if below > 0 else "")
+def _frame_words(frame):
+    """A frame in the geologist's terms: each axis as trend/plunge."""
+    words = []
+    for i, a in enumerate(("major", "semi-major", "minor")):
+        t, p = vector_to_line(np.asarray(frame, float)[:, i])
+        words.append(f"{a} {float(t):03.0f}/{float(p):02.0f}")
+    return ", ".join(words)
 
 
 def refine_frame(fit: NestedFit, bins: FitBins, coords, values, *, seed=0, fit_kwargs=None,
@@ -379,10 +383,6 @@ def refine_frame(fit: NestedFit, bins: FitBins, coords, values, *, seed=0, fit_k
     try:
         choice, start = _global_start(fit, coords, values, seed, holes, other_frames,
                                       confidence)
-        row, warning = _choice_texts(choice)
-        choices.append(row)
-        if warning:
-            warnings.append(warning)
         P = _Problem(bins, coords, values, seed, fit_kwargs or {}, start, holes)
         lk, f, starts = _first_search(P, start, one_structure)
         f, held, warning = _keep_axis_order(P, lk, f)
@@ -395,7 +395,11 @@ def refine_frame(fit: NestedFit, bins: FitBins, coords, values, *, seed=0, fit_k
         warnings.append(f"the likelihood refinement of the frame failed ({exc}); the "
                         "variogram fit's frame is kept")
         return FrameRefinement(fit=fit, warnings=tuple(warnings))
+    choice = choice.relative_to(ordered_axes(lk.frame, lk.ranges)[0])
+    frow, warning = _choice_texts(choice)
+    warnings += [warning] if warning else []
     row, record = _outcome(fit, f, lk, nested, starts, held)
+    choices.append(frow)
     record["frame_candidates"] = choice.to_dict()
     record["hole_aware"] = holes is not None
     # a rotation of space (axes matched by direction): the bootstrap's replicates refit the
