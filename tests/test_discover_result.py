@@ -18,7 +18,7 @@ from anisotropy.errors import InputError
 from anisotropy.uncertainty import MIN_BLOCKS, BootstrapResult, engine_block_side
 
 STAGES = ("read", "prepare", "transform", "sill", "lags", "volume", "bins", "fan", "starts",
-          "search", "structures", "diagnose")
+          "search", "structures", "continuity", "diagnose")
 
 
 def _table(seed=5, n=500):
