@@ -143,3 +143,40 @@ def test_first_lag_pairs_are_taken_across_holes_when_holes_are_given():
     # carry no continuity
     down = check_continuity(X[holes == 0], y[holes == 0], lag=20.0, seed=1)
     assert not down.first_lag.significant
+
+
+def test_group_ratios_equal_gearys_ratio_of_each_group():
+    # each direction class's ratio is Geary's ratio of that class's pairs alone
+    # (geary_ratio itself is checked against the weight-matrix definition above)
+    from anisotropy.fitting.continuity import _group_ratios, direction_classes
+
+    rng = np.random.default_rng(9)
+    X = rng.uniform(0, 60, (150, 3))
+    y = rng.standard_normal(150)
+    pairs, _ = band_pairs(X, 5.0, 15.0)
+    cls, U = direction_classes(X, pairs)
+    r = _group_ratios(y, pairs[:, 0].copy(), pairs[:, 1].copy(), cls, len(U),
+                      (len(y) - 1) / np.sum((y - y.mean()) ** 2))
+    for q in np.unique(cls):
+        assert r[q] == pytest.approx(geary_ratio(y, pairs[cls == q]), rel=1e-12)
+
+
+def test_continuity_along_one_direction_only_is_found():
+    # correlated along east only (practical range 200 m east, 2 m north and up): the
+    # pairs of the first lag in every other direction are unrelated, so one ratio over
+    # all of them stays near 1, while the east class stands out
+    from anisotropy.fitting.continuity import direction_classes, directional_test
+
+    rng = np.random.default_rng(10)
+    X = rng.uniform(0, 120, (500, 3))
+    # samples on east-running lines 10 m apart, so that east pairs exist at the first lag
+    X[:, 1] = np.round(X[:, 1] / 10) * 10
+    X[:, 2] = np.round(X[:, 2] / 10) * 10
+    L = X / np.array([200.0, 2.0, 2.0])
+    d = np.linalg.norm(L[:, None] - L[None], axis=2)
+    y = np.linalg.cholesky(np.exp(-3 * d) + 1e-6 * np.eye(500)) @ rng.standard_normal(500)
+    pairs, dist = band_pairs(X, 10.0, 30.0)
+    cls, U = direction_classes(X, pairs)
+    t = directional_test(y, pairs, cls, U, seed=1)
+    assert t.significant
+    assert abs(np.cos(np.radians(t.direction[1])) * np.sin(np.radians(t.direction[0]))) > 0.9
