@@ -537,7 +537,7 @@ def _candidate_frames(discovery):
 def data_cannot_tell(discovery, interp: dict, support: dict, practical_deg: float) -> str:
     """Why the data cannot judge the interpretation, or "" when they can.
 
-    They cannot when the samples show no continuity at the lag scale, or when
+    They cannot when the samples show no spatial continuity at all, or when
     the likelihood has a rival frame as well supported as the reported one and
     the interpretation matches one of the two (every interpreted axis within
     its cone, or within ``practical_deg``, of that frame's axis): agreeing
@@ -545,7 +545,7 @@ def data_cannot_tell(discovery, interp: dict, support: dict, practical_deg: floa
     """
     diag = getattr(discovery, "diagnosis", None)
     cont = getattr(diag, "continuity", None) or {}
-    if cont and cont.get("verdict") not in (None, "resolved"):
+    if cont and cont.get("verdict") == "none":
         return ("the data cannot tell: " + cont.get("text", "no continuity is resolved at the "
                                                     "lag scale"))
     frames = _candidate_frames(discovery)

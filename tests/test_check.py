@@ -414,6 +414,6 @@ def test_the_data_cannot_tell_between_a_rival_frame_and_the_reported_one():
     assert "cannot tell" in data_cannot_tell(disc, {"major": east}, support, 10.0)
     diag = np.array([1.0, 1.0, 0]) / np.sqrt(2)
     assert data_cannot_tell(disc, {"major": diag}, support, 10.0) == ""
-    # no continuity at the lag scale: the data cannot judge any interpretation
+    # no spatial continuity at all: the data cannot judge any interpretation
     disc.diagnosis.continuity = {"verdict": "none", "text": "no spatial continuity"}
     assert "no spatial continuity" in data_cannot_tell(disc, {"major": diag}, support, 10.0)

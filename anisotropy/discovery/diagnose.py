@@ -249,9 +249,17 @@ def _range_warnings(model, fan, *, max_distance, max_range, transform_kind, esti
 
 
 def _unresolvable(continuity, axes, ranges, texts):
-    """No continuity at the lag scale: every axis and range unresolved, said first."""
+    """No continuity at all: every axis and range unresolved, said first.
+
+    Continuity seen only at the nearest pairs (down the holes) and not at the
+    first lag is said as a warning: the first-lag test has less power (fewer
+    pairs, split by direction), and the resolution check of the fitted ranges
+    against the lag bins speaks to each axis.
+    """
     if continuity is None or continuity.resolved:
         return axes, ranges, texts
+    if continuity.verdict == "shorter_than_first_lag":
+        return axes, ranges, texts + [continuity.text]
     return list(AXES), list(AXES), [continuity.text] + texts
 
 
@@ -283,7 +291,8 @@ def diagnose(model: NestedModel, fan: FanRanges, bins: FitBins, *, spacing, has_
         Fewest pairs of a fit bin.
     transform_kind, estimator : str
     continuity : ContinuityCheck, optional
-        Without continuity at the lag scale every axis and range is unresolved.
+        Without any continuity (not even at the nearest pairs) every axis and
+        range is unresolved; continuity only under the first lag is warned of.
     holes : HoleAxes, optional
         Hole directions: an axis the holes run along (within the fan's angular
         tolerance) is resolved by its down-hole lags

@@ -422,7 +422,8 @@ def _verdict(tn, tl, lag, shortest_downhole):
             "every distance the sampling offers; no axis, range or structure is resolved, "
             "and the fitted model is not supported by the data")
     return "shorter_than_first_lag", (
-        f"continuity is seen only at {where} (Geary ratio {tn.ratio:.2f}, p = "
-        f"{tn.p_value:.3g}), not at {first}: every structure is shorter than the first lag, "
-        "so the nugget cannot be separated from such short structures and no axis or range "
-        "at the lag scale is resolved")
+        f"continuity is seen at {where} (Geary ratio {tn.ratio:.2f}, p = "
+        f"{tn.p_value:.3g}) but not shown at {first}: if every structure is shorter than "
+        "the first lag, the nugget cannot be separated from such short structures and the "
+        "ranges at the lag scale rest on the fit alone; check the experimental variograms "
+        "at the first lags")
