@@ -359,7 +359,7 @@ def engine_record(D, spec, real):
         rec["false_unresolved"] = [n for n in unresolved if share.get(n, 0.0) >= ALONG_SHARE]
     if D.uncertainty is not None and hasattr(D.uncertainty, "to_dict") and spec["structures"]:
         u = D.uncertainty.to_dict()
-        for i, ax in ((0, "major"), (2, "minor")):
+        for i, ax in enumerate(("major", "semi_major", "minor")):
             e = u.get(ax)
             rec[f"{ax}_cone"] = None if not isinstance(e, dict) else e.get("cone_deg")
             rec[f"{ax}_in_cone"] = cone_holds(e, D.frame[:, i], R[:, i])
@@ -376,12 +376,17 @@ def one(name, spec, seed, bootstrap=0):
         df["hole"] = holes
     extra = {"bootstrap": int(bootstrap), "n_jobs": 1} if bootstrap else {}
     t0 = time.perf_counter()
-    D = anisotropy.discover(df, value="grade", hole="hole" if holes is not None else None,
-                            transform="raw", seed=seed, **extra)
-    t_eng = time.perf_counter() - t0
-    out = {"scenario": name, "seed": seed, "n": len(coords), "seconds": t_eng,
+    out = {"scenario": name, "seed": seed, "n": len(coords),
            "sim_seconds": real["sim_seconds"], "spacing": real["spacing"],
-           "bootstrap": int(bootstrap), "engine": engine_record(D, spec, real)}
+           "bootstrap": int(bootstrap)}
+    try:
+        D = anisotropy.discover(df, value="grade", hole="hole" if holes is not None else None,
+                                transform="raw", seed=seed, **extra)
+    except Exception as exc:  # a failed discovery is counted in the tables, never hidden
+        out.update(seconds=time.perf_counter() - t0, engine={"error": repr(exc)})
+        return out
+    out["seconds"] = time.perf_counter() - t0
+    out["engine"] = engine_record(D, spec, real)
     if spec["structures"]:
         R = spec["R"]
         true_r = np.array(max(spec["structures"], key=lambda s: s[1][0])[1], float)
@@ -399,7 +404,7 @@ def summarise(rows):
              "|---|---|---|---|---|---|---|---|"]
     for name in dict.fromkeys(r["scenario"] for r in rows):
         rr = [r for r in rows if r["scenario"] == name and "baseline" in r]
-        if not rr:
+        if not rr:  # no structure (pure nugget) or every discovery failed
             continue
         for method in ("engine", "baseline"):
             maj = np.array([r[method]["major"] for r in rr])
@@ -426,9 +431,13 @@ def summarise_issue15(rows):
              "| false 'not resolved' along holes | confident (pure nugget) | s median |",
              "|---|---|---|---|---|---|---|---|---|---|"]
     for name in dict.fromkeys(r["scenario"] for r in rows):
-        rr = [r for r in rows if r["scenario"] == name]
+        rr = [r for r in rows if r["scenario"] == name and "error" not in r["engine"]]
+        failed = sum(r["scenario"] == name and "error" in r["engine"] for r in rows)
+        cells = [name, f"{len(rr)}" + (f" ({failed} failed)" if failed else "")]
+        if not rr:
+            lines.append("| " + " | ".join(cells + ["-"] * 8) + " |")
+            continue
         e = [r["engine"] for r in rr]
-        cells = [name, str(len(rr))]
         if "major" in e[0]:
             for ax in ("major", "minor"):
                 x = np.array([z[ax] for z in e])
@@ -525,12 +534,17 @@ def main(argv=None):
                 r = one(name, spec, seed=100 + k, bootstrap=a.bootstrap)
                 rows.append(r)
                 e = r["engine"]
+                if "error" in e:
+                    print(f"{name} seed {r['seed']}: discover failed: {e['error']}",
+                          file=sys.stderr, flush=True)
+                    continue
                 msg = (f"engine major {e['major']:.1f} minor {e['minor']:.1f} | baseline major "
                        f"{r['baseline']['major']:.1f} minor {r['baseline']['minor']:.1f}"
                        if "major" in e else f"nugget share {e['nugget_share']:.2f}")
-                cone = (f" | cones {e.get('major_cone')}, {e.get('minor_cone')} hold "
-                        f"{e.get('major_in_cone')}, {e.get('minor_in_cone')}"
-                        if a.bootstrap else "")
+                cone = (" | cones (major, minor) " + ", ".join(
+                    "-" if e.get(f"{ax}_cone") is None else
+                    f"{e[f'{ax}_cone']:.1f} deg {'holds' if e[f'{ax}_in_cone'] else 'misses'}"
+                    for ax in ("major", "minor")) if a.bootstrap and "major" in e else "")
                 sp = "" if r["spacing"] is None else f" spacing {r['spacing']:g} m"
                 print(f"{name} seed {r['seed']}{sp}: {msg} | unresolved {e['unresolved']}"
                       f"{cone} | {r['seconds']:.1f} s", file=sys.stderr, flush=True)
