@@ -458,6 +458,14 @@ def summarise_issue15(rows):
         cells.append("-" if "major" in e[0] else _share([z["confident"] for z in e]))
         cells.append(f"{np.median([r['seconds'] for r in rr]):.1f}")
         lines.append("| " + " | ".join(cells) + " |")
+    for label, holes in (("drill-hole", True), ("scattered", False)):
+        held = [r["engine"].get(f"{ax}_in_cone") for r in rows for ax in ("major", "minor")
+                if (r.get("spacing") is not None) == holes]
+        held = [h for h in held if h is not None]
+        if held:
+            lines.append(f"\nAll {label} realisations: the 90 % cones hold the true major and "
+                         f"minor axes in {sum(held)}/{len(held)} = {np.mean(held):.0%} of cases "
+                         "(target 85-95 %).")
     by = [r for r in rows if r.get("spacing") is not None and "major" in r["engine"]]
     if by:
         lines += ["", "| scenario | spacing (m) | spacing / semi-major range | realisations "

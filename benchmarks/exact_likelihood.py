@@ -279,6 +279,17 @@ def summarise(rows):
                      f"{_p(maj, 90):.1f} | {np.median(mi):.1f} / {_p(mi, 90):.1f} | "
                      f"{sum(r['two_maxima'] for r in rr)}/{len(rr)} | "
                      f"{np.median([r['seconds'] for r in rr]):.0f} |")
+    two = [r for r in rows if r["two_maxima"]]
+    if two:
+        lines += ["", "| scenario | seed | maximum | log-likelihood | major error | minor error "
+                  "| ranges (longest structure) |", "|---|---|---|---|---|---|---|"]
+        for r in two:
+            for label, m in (("from the truth", r["truth_start"]),
+                             (f"from {r['other_start']['start']}", r["other_start"])):
+                rg = max(m["ranges"], key=max)
+                lines.append(f"| {r['scenario']} | {r['seed']} | {label} | {m['loglik']:.2f} | "
+                             f"{m['major']:.1f} | {m['minor']:.1f} | "
+                             f"{' / '.join(f'{v:.0f}' for v in rg)} |")
     return "\n".join(lines)
 
 
