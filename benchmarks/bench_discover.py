@@ -525,6 +525,8 @@ def main(argv=None):
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--realisations", "--seeds", type=int, default=12,
                     help="realisations per scenario (seeds 100, 101, ...)")
+    ap.add_argument("--first-seed", type=int, default=100,
+                    help="seed of the first realisation (to split or resume a study)")
     ap.add_argument("--scenarios", nargs="*", default=None,
                     help="keep scenarios whose name contains any of these words")
     ap.add_argument("--bootstrap", type=int, default=0,
@@ -539,7 +541,7 @@ def main(argv=None):
             if a.scenarios and not any(s in name for s in a.scenarios):
                 continue
             for k in range(a.realisations):
-                r = one(name, spec, seed=100 + k, bootstrap=a.bootstrap)
+                r = one(name, spec, seed=a.first_seed + k, bootstrap=a.bootstrap)
                 rows.append(r)
                 e = r["engine"]
                 if "error" in e:

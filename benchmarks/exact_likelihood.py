@@ -463,6 +463,8 @@ def main(argv=None):
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--realisations", "--seeds", type=int, default=12,
                     help="realisations per scenario (seeds 100, 101, ...)")
+    ap.add_argument("--first-seed", type=int, default=100,
+                    help="seed of the first realisation (to split or resume a study)")
     ap.add_argument("--scenarios", nargs="*", default=None,
                     help="keep scenarios whose name contains any of these words")
     ap.add_argument("--max-samples", type=int, default=MAX_SAMPLES,
@@ -480,7 +482,7 @@ def main(argv=None):
         if not spec["structures"] or (a.scenarios and not any(s in name for s in a.scenarios)):
             continue
         for k in range(a.realisations):
-            r = referee(name, spec, 100 + k, a.max_samples, not a.numeric_gradient)
+            r = referee(name, spec, a.first_seed + k, a.max_samples, not a.numeric_gradient)
             rows.append(r)
             B = r["other_start"]
             print(f"{name} seed {r['seed']} ({r['n_used']}/{r['n']}): MLE major "
