@@ -397,6 +397,10 @@ def summarise(rows):
                      f"{_p(maj, 90):.1f} | {np.median(mi):.1f} / {_p(mi, 90):.1f} | "
                      f"{sum(r['two_maxima'] for r in rr)}/{len(rr)} | "
                      f"{np.median([r['seconds'] for r in rr]):.0f} |")
+    if any(r["n_used"] < r["n"] for r in rows):
+        lines.append("\nThinned realisations: the referee saw fewer samples than the engine, so "
+                     "its errors overstate the data's limit (module docstring); run with "
+                     "--max-samples 2500 for the full data.")
     two = [r for r in rows if r["two_maxima"]]
     if two:
         lines += ["", "| scenario | seed | maximum | log-likelihood | major error | minor error "
