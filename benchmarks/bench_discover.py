@@ -345,6 +345,11 @@ def engine_record(D, spec, real):
     rec = {"unresolved": unresolved, "confident": not unresolved,
            "structures": len(D.model.structures),
            "nugget_share": float(D.model.nugget / max(D.model.total_sill, 1e-300))}
+    cands = D.diagnostics.get("frame_candidates")
+    if cands:  # the global frame choice (issue 15, item 1), when the engine records it
+        rec["frame_candidates"] = [{k: (v.tolist() if hasattr(v, "tolist") else v)
+                                    for k, v in c.items()} for c in cands
+                                   if isinstance(c, dict)]
     if spec["structures"]:
         true_r = np.array(max(spec["structures"], key=lambda s: s[1][0])[1], float)
         longest = max(D.model.structures, key=lambda s: s.ranges[0])
