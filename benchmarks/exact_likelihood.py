@@ -38,22 +38,24 @@ of the truth start's maximum, both maxima are reported ("two maxima"); the
 referee's estimate is the higher one.  The axes of a maximum are ordered by
 the ranges of its longest structure, as the engine orders its own.
 
-Cost bound: realisations with more than ``--max-samples`` (default 1,200)
+Cost bound: realisations with more than ``--max-samples`` (default 2,500)
 samples are thinned before the fit: along each hole a regular share
 max/n of the composites is kept (the holes all stay, the down-hole spacing
-about doubles); scattered samples are drawn at random without replacement.
-The referee then sees less data than the engine, so its errors are larger
-than the full data's limit and the targets correspondingly easier on thinned
-scenarios.  Measured on "lode, minor-axis holes", seed 101 (2,430 composites):
-thinned to 1,199 the maximum lies 3.9 / 2.0 degrees (major / minor) from the
-truth, with all 2,430 it lies 2.5 / 0.5 degrees; halving the down-hole
-spacing matters.  ``--max-samples 2500`` removes the thinning on every
-scenario except the dense vein (3,000): 530 s for that realisation against
-61 s thinned, on a shared machine.  Pure-nugget scenarios have no orientation
-and are skipped.
+grows); scattered samples are drawn at random without replacement.  With
+the default only the dense scattered vein (3,000) is thinned; every other
+scenario is fitted on all its samples, at about 150 s a realisation (one
+core, 2,300-2,430 samples, one structure).  ``--max-samples 1200`` is a
+quick mode, 4-5 times cheaper, but a weaker referee: the referee then sees
+less data than the engine, its errors overstate the data's limit and the
+targets become easier.  Measured on the smoke run ("lode, minor-axis
+holes", seeds 100-101): thinned to 1,199 composites the maxima lie 3.5 and
+3.9 deg (major) and 0.8 and 2.0 deg (minor) from the truth, with all 2,430
+composites 2.1 and 2.5 deg, 0.3 and 0.5 deg; on the oblique holes 5.0 and
+5.4 against 2.9 and 1.6 deg (major).  Pure-nugget scenarios have no
+orientation and are skipped.
 
 Run:  python benchmarks/exact_likelihood.py [--realisations 12] [--scenarios holes]
-      [--max-samples 1200] [--json referee.json] [--compare engine.json]
+      [--max-samples 2500] [--json referee.json] [--compare engine.json]
 """
 
 from __future__ import annotations
@@ -73,7 +75,7 @@ sys.path.insert(0, __file__.rsplit("/", 1)[0])
 from bench_discover import (SCENARIOS, axis_err, correlation, realisation,  # noqa: E402
                             structure_parts)
 
-MAX_SAMPLES = 1200
+MAX_SAMPLES = 2500
 #: two maxima are reported when their log-likelihoods differ by at most this
 TWO_MAXIMA_LOGLIK = 3.0
 #: and their axes by more than this (degrees)
@@ -400,7 +402,7 @@ def summarise(rows):
     if any(r["n_used"] < r["n"] for r in rows):
         lines.append("\nThinned realisations: the referee saw fewer samples than the engine, so "
                      "its errors overstate the data's limit (module docstring); run with "
-                     "--max-samples 2500 for the full data.")
+                     "--max-samples 2500 (the default) for the full data.")
     two = [r for r in rows if r["two_maxima"]]
     if two:
         lines += ["", "| scenario | seed | maximum | log-likelihood | major error | minor error "
