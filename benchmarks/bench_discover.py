@@ -338,6 +338,17 @@ def cone_holds(entry, reported, truth):
     return bool(held)
 
 
+def _plain(x):
+    """JSON-ready copy of a diagnostics entry (arrays to lists, numbers to floats)."""
+    if isinstance(x, dict):
+        return {str(k): _plain(v) for k, v in x.items()}
+    if isinstance(x, (list, tuple)):
+        return [_plain(v) for v in x]
+    if hasattr(x, "tolist"):
+        return x.tolist()
+    return x if isinstance(x, (str, int, float, bool, type(None))) else str(x)
+
+
 def engine_record(D, spec, real):
     """Axis and range errors, flags, cones and hole checks of one discovery."""
     R = spec["R"]
@@ -345,11 +356,11 @@ def engine_record(D, spec, real):
     rec = {"unresolved": unresolved, "confident": not unresolved,
            "structures": len(D.model.structures),
            "nugget_share": float(D.model.nugget / max(D.model.total_sill, 1e-300))}
-    cands = D.diagnostics.get("frame_candidates")
-    if cands:  # the global frame choice (issue 15, item 1), when the engine records it
-        rec["frame_candidates"] = [{k: (v.tolist() if hasattr(v, "tolist") else v)
-                                    for k, v in c.items()} for c in cands
-                                   if isinstance(c, dict)]
+    # the global frame choice, ambiguity and continuity test (issue 15, items 1, 3, 4),
+    # kept as the engine records them
+    for key in ("frame_candidates", "ambiguous_axes", "continuity"):
+        if D.diagnostics.get(key) is not None:
+            rec[key] = _plain(D.diagnostics[key])
     if spec["structures"]:
         true_r = np.array(max(spec["structures"], key=lambda s: s[1][0])[1], float)
         longest = max(D.model.structures, key=lambda s: s.ranges[0])
