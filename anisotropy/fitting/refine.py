@@ -60,6 +60,10 @@ GLOBAL_FRAME_CHOICE = True
 #: candidate, so their log-likelihoods stay comparable; the chosen frame is
 #: then searched again with ``LIKELIHOOD_NEIGHBOURS``.
 SCREEN_NEIGHBOURS = 15
+#: Samples of the global choice's shared conditioning (a random subset when
+#: there are more): the screening compares basins, which a thousand samples
+#: separate; the chosen frame is then searched on ``LIKELIHOOD_MAX_SAMPLES``.
+SCREEN_MAX_SAMPLES = 1000
 #: Fewest samples for the likelihood to add anything.
 MIN_SAMPLES_LIKELIHOOD = 100
 
@@ -276,7 +280,7 @@ def _global_start(fit, coords, values, seed, holes, other_frames, confidence):
     choice = global_frame_choice(coords, values, frame, ranges, fit.nugget, fit.sills,
                                  fit.kinds, holes=holes, other_frames=other_frames, seed=seed,
                                  n_neighbours=SCREEN_NEIGHBOURS,
-                                 max_samples=LIKELIHOOD_MAX_SAMPLES, confidence=confidence)
+                                 max_samples=SCREEN_MAX_SAMPLES, confidence=confidence)
     best = choice.best
     if best.name == "variogram fit":
         return choice, fit
