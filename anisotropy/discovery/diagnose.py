@@ -186,9 +186,10 @@ def resolution(lags, pairs, ranges, frame, *, scattered, nearest=None, across=No
         texts.append(_unresolved_text(name, r, d[along], short, scattered, nearest, across))
     axes, unresolved, texts = _in_plane_directions(unresolved, texts, scattered, planar)
     if planar:
+        near = np.abs(u @ frame[:, 2]) > np.cos(np.radians(25))
         axes.append("minor")
         unresolved.append("minor")
-        texts.append(_planar_text(ranges[2]))
+        texts.append(_planar_text(ranges[2], int(near.sum())))
     return axes, unresolved, texts
 
 
@@ -215,11 +216,14 @@ def _in_plane_directions(unresolved, texts, scattered, planar):
     return list(unresolved), unresolved, texts
 
 
-def _planar_text(r):
+def _planar_text(r, n_near):
     """The minor axis of planar data: across the one level, which no lag can resolve."""
+    seen = ("no lag bin lies within 25 degrees of it" if not n_near else
+            f"only {n_near} lag {'bin lies' if n_near == 1 else 'bins lie'} within 25 degrees "
+            "of it")
     return ("the minor axis, across the plane of the samples, is not resolved: all samples "
-            "lie on one level (one bench or plane), and one level cannot resolve the axis "
-            "across it, whatever the lag or the spacing of the samples on it. Its direction "
+            f"lie on one level (one bench or plane) and {seen}; one level cannot resolve the "
+            "axis across it, whatever the lag or the spacing of the samples on it. Its direction "
             f"is taken as the pole of that plane and its range ({r:.3g} m) only completes "
             "the frame; samples on other levels (further benches, or drill holes through "
             "this one) would resolve it")
