@@ -138,3 +138,74 @@ def test_axes_the_bootstrap_exchanges_too_often_become_unresolved():
     # 8 % is inside the 10 % the confidence allows: nothing changes
     same = with_bootstrap(dg, {"major_semi_major": 0.08, "semi_major_minor": 0.05}, 0.9)
     assert same is dg
+
+
+# ------------------------------------------------ issue 17: planar data (one bench)
+
+def _bench(step=3.0, n=12):
+    """Lag vectors every ``step`` m along east and north only (one level), 500 pairs each."""
+    lags = np.concatenate([np.outer(np.arange(1, n + 1) * step, e) for e in np.eye(3)[:2]])
+    return lags, np.full(len(lags), 500)
+
+
+LAG_ADVICE = ("--lag", "shorter unit lag", "closer samples", "closer holes")
+
+
+@pytest.mark.parametrize("scattered", [False, True])
+def test_planar_minor_axis_is_never_sent_to_a_shorter_lag(scattered):
+    # one bench: every lag bin is horizontal, so nothing lies within 25 degrees of the
+    # vertical minor axis (counted by hand); samples 3 m apart against a 20 m range is
+    # where the text for 3D data advises a shorter unit lag
+    lags, pairs = _bench()
+    args = (lags, pairs, (150.0, 90.0, 20.0), np.eye(3))
+    kw = dict(scattered=scattered, nearest=3.0, min_pairs=30)
+    # control: read as 3D data, the minor axis is sent to the lag or the spacing
+    _, _, w3 = resolution(*args, **kw)
+    assert any(a in w3[0] for a in LAG_ADVICE)
+    axes, unresolved, w = resolution(*args, planar=True, **kw)
+    assert axes == ["minor"] and unresolved == ["minor"] and len(w) == 1
+    assert "one level cannot resolve the axis across it" in w[0]
+    assert "20 m" in w[0] and "no lag bin lies within 25 degrees" in w[0]   # exact: all z = 0
+    assert not any(a in w[0] for a in LAG_ADVICE)
+
+
+def test_planar_in_plane_axes_keep_their_own_advice():
+    # a 4 m semi-major range against 3 m bins: one bin shorter (counted by hand), so the
+    # semi-major range is unresolved in the plane, where a shorter lag does help; the
+    # minor axis gets the one-level text, and nothing is said twice
+    lags, pairs = _bench()
+    axes, unresolved, w = resolution(lags, pairs, (150.0, 4.0, 4.0), np.eye(3),
+                                     scattered=True, nearest=1.0, min_pairs=30, planar=True)
+    assert unresolved == ["semi_major", "minor"]
+    assert axes == ["minor"]            # the semi-major is fixed by the plane and the major
+    assert "semi-major range" in w[0] and "shorter unit lag" in w[0]
+    assert "square to the other axis in that plane" in w[0]
+    assert "one level cannot resolve" in w[1] and not any(a in w[1] for a in LAG_ADVICE)
+    assert len(w) == 2
+
+
+def test_diagnose_on_one_bench_says_one_level_cannot_resolve_the_minor_axis():
+    from types import SimpleNamespace
+
+    from anisotropy.discovery.diagnose import diagnose
+
+    # a bench model: spherical ranges 60/30/30 m (the minor a placeholder), vertical minor
+    model = NestedModel(nugget=0.1, structures=[Structure("spherical", 0.9, (60.0, 30.0, 30.0))],
+                        frame=np.eye(3))
+    az = np.radians(np.arange(0, 180, 22.5))
+    dirs = np.column_stack([np.sin(az), np.cos(az), np.zeros_like(az)])
+    dist = np.tile(np.arange(1, 13) * 3.0, (len(dirs), 1))
+    value = np.array([model.variogram(dist[j][:, None] * u) for j, u in enumerate(dirs)])
+    fan = SimpleNamespace(directions=dirs, distance=dist, value=value,
+                          pairs=np.full(dist.shape, 200.0), min_pairs=30.0,
+                          tolerances=np.full(len(dirs), 15.0), tolerance=15.0,
+                          ranges=SimpleNamespace(n_thin=0))
+    lags, pairs = _bench()
+    bins = SimpleNamespace(lags=lags, pairs=pairs)
+    spacing = SimpleNamespace(layout="benches", nearest=3.0, across_hole=None)
+    D = diagnose(model, fan, bins, spacing=spacing, has_holes=False, planar=True,
+                 max_distance=36.0, max_range=720.0, min_pairs=30, transform_kind="raw")
+    assert "minor" in D.unresolved_axes and "minor" in D.unresolved_ranges
+    minor = [t for t in D.warnings if t.startswith("the minor")]
+    assert len(minor) == 1 and "one level cannot resolve the axis across it" in minor[0]
+    assert not any(a in t for t in D.warnings for a in LAG_ADVICE)

@@ -13,7 +13,8 @@ import pytest  # noqa: E402
 from scipy import stats  # noqa: E402
 
 from anisotropy.explore import topcut_candidates  # noqa: E402
-from anisotropy.report.figures import DPI, histogram_figure, logprob_figure  # noqa: E402
+from anisotropy.report.figures import (DPI, downhole_figure, histogram_figure,  # noqa: E402
+                                       logprob_figure)
 
 
 def texts(fig):
@@ -87,3 +88,60 @@ def test_logprob_figure_notes_zero_grades(rng):
     fig = logprob_figure(v, title="zeros", units="ppm")
     assert any("3 zero/negative" in s for s in texts(fig))
     assert len(fig.axes[0].lines[0].get_xdata()) == 50
+
+
+# ------------------------------------------------ issue 17: down-hole variogram figure
+
+def _dashed(fig):
+    return [ln for ln in fig.axes[0].get_lines() if ln.get_linestyle() == "--"]
+
+
+def test_downhole_figure_line_passes_through_the_recorded_points(tmp_path):
+    # a record as discovery.json holds it: (distance, value, pairs) of the first lags
+    pts = [[2.05, 0.42, 310], [4.1, 0.55, 288], [6.0, 0.63, 250]]
+    p = tmp_path / "dh.png"
+    # the nugget recorded unclipped: the intercept of NumPy's line through the first two
+    slope, icpt = np.polyfit([2.05, 4.1], [0.42, 0.55], 1)
+    fig = downhole_figure(pts, nugget=icpt, model_nugget=0.31, held=False, composite=2.0,
+                          sill=1.0, value_label="semivariogram (normal-score units)", path=p)
+    assert mpimg.imread(p).ndim == 3                     # matplotlib decodes the PNG
+    t = texts(fig)
+    assert "Down-hole variogram (2 m composites)" in t
+    assert "distance down the hole (m)" in t and "semivariogram (normal-score units)" in t
+    assert fig.axes[0].get_legend() is not None
+    for n in (310, 288, 250):                            # the pairs beside every point
+        assert str(n) in t
+    # the dashed line against NumPy's least-squares line through the first two points
+    (line,) = _dashed(fig)
+    x, y = line.get_data()
+    np.testing.assert_allclose(y, np.polyval([slope, icpt], x), atol=1e-12)
+    assert x[0] == 0.0 and x.max() == pytest.approx(4.1)
+    # it passes through both recorded points (read back from the artist)
+    np.testing.assert_allclose(np.interp([2.05, 4.1], x, y), [0.42, 0.55], atol=1e-12)
+    # the recorded nugget is drawn at lag 0; the model's nugget as a level line
+    marker = [ln for ln in fig.axes[0].get_lines() if ln.get_marker() == "o"]
+    np.testing.assert_allclose(marker[0].get_xydata(), [[0.0, icpt]])
+    assert any("down-hole nugget 0.29" in s for s in t) and not any("clipped" in s for s in t)
+    model = [ln for ln in fig.axes[0].get_lines() if ln.get_linestyle() == ":"]
+    assert np.allclose(model[0].get_ydata(), 0.31)
+    assert any("fitted model's nugget 0.31 (fitted)" in s for s in t)
+
+
+def test_downhole_figure_shows_a_clipped_nugget_off_the_line():
+    # a steep start: the line through the first two points meets lag 0 below zero
+    # (polyfit intercept, NumPy), and the recorded nugget is 0, so it is marked clipped
+    pts = [[2.0, 0.10, 100], [4.0, 0.60, 90]]
+    slope, icpt = np.polyfit([2.0, 4.0], [0.10, 0.60], 1)
+    assert icpt < 0
+    fig = downhole_figure(pts, nugget=0.0, model_nugget=0.0, held=True)
+    (line,) = _dashed(fig)
+    assert line.get_ydata()[0] == pytest.approx(icpt)
+    t = texts(fig)
+    assert any("clipped from the line's value at lag 0" in s for s in t)
+    assert any("nugget 0 (held at the down-hole nugget)" in s for s in t)
+
+
+def test_downhole_figure_with_one_lag_draws_no_line():
+    fig = downhole_figure([[3.0, 0.4, 40]], nugget=None, model_nugget=0.3)
+    assert _dashed(fig) == []
+    assert any("no nugget extrapolated" in s for s in texts(fig))

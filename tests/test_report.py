@@ -391,3 +391,39 @@ def test_report_gives_the_model_in_grade_units(report):
     text = " ".join(_parse(report).text)
     assert "Model in grade units" in text and "Hermite" in text
     assert "Checked against the direct grade variogram down the holes" in text
+
+
+def test_report_draws_the_downhole_variogram_from_the_record(report):
+    # the fixture's samples are in holes with 4 m spacing: the record has down-hole lags
+    page = _parse(report)
+    text = " ".join(page.text)
+    assert "fig-downhole" in page.ids and "Nugget from the down-hole variogram" in text
+    assert "Dashed: the straight line through the first two points" in text
+    assert "4 m composites" in text
+    _assert_png((report.parent / "figures" / "downhole.png").read_bytes())
+
+
+def test_downhole_figure_of_a_record_draws_only_the_record():
+    from anisotropy.report.html import _fig_downhole, _section_downhole
+
+    # a record as discovery.json holds it (JSON lists), nugget held in the fit
+    pts = [[3.1, 0.35, 420], [6.05, 0.47, 380], [9.0, 0.58, 300]]
+    slope, icpt = np.polyfit([3.1, 6.05], [0.35, 0.47], 1)     # NumPy, outside reference
+    d = {"model": {"nugget": icpt, "total_sill": 1.0, "structures": []},
+         "diagnostics": {"downhole": {"composite": 3.0, "points": pts, "nugget": icpt},
+                         "choices": [{"choice": "nugget", "value": icpt, "reason": "..."}]}}
+    fig = _fig_downhole(d, None, "semivariogram (normal-score units)")
+    ax = fig.axes[0]
+    (line,) = [ln for ln in ax.get_lines() if ln.get_linestyle() == "--"]
+    x, y = line.get_data()
+    np.testing.assert_allclose(y, np.polyval([slope, icpt], x), atol=1e-12)
+    # every recorded point is drawn, where the record puts it
+    np.testing.assert_allclose(ax.collections[0].get_offsets(), [p[:2] for p in pts])
+    labels = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert any("held at the down-hole nugget" in s for s in labels)
+    assert "3 m composites" in ax.get_title() and ax.get_ylabel().endswith("units)")
+    html = _section_downhole(d, {"downhole": (b"png", None)})
+    assert f"down-hole nugget of {icpt:.3g}" in html and "held at that value" in html
+    # without drill holes the record has no down-hole lags: nothing drawn, and said so
+    assert _fig_downhole({"diagnostics": {"downhole": None}}, None, "x") is None
+    assert "not in drill holes" in _section_downhole({"diagnostics": {}}, {})

@@ -122,7 +122,7 @@ def _sig6(a):
 
 
 def resolution(lags, pairs, ranges, frame, *, scattered, nearest=None, across=None,
-               min_pairs=10.0, resolved=()):
+               min_pairs=10.0, resolved=(), planar=False):
     """Say which ranges the lag bins cannot resolve, and which directions that leaves open.
 
     A range along an axis is resolved when at least two well-paired lag bins
@@ -133,6 +133,10 @@ def resolution(lags, pairs, ranges, frame, *, scattered, nearest=None, across=No
     every direction at every distance, so there an axis whose range alone is
     unresolved keeps its direction (it is square to the two resolved axes);
     two unresolved ranges leave their axes free to turn about the third.
+    On planar data (one bench or level) the minor axis is the one across the
+    plane: no lag and no spacing on that level can resolve it, so it is
+    always reported, with that reason, and the rules above apply to the two
+    axes in the plane.
 
     Parameters
     ----------
@@ -154,6 +158,9 @@ def resolution(lags, pairs, ranges, frame, *, scattered, nearest=None, across=No
         Fewest pairs of a bin that counts.
     resolved : sequence of str
         Axes already resolved another way (down-hole lags), never reported.
+    planar : bool
+        The samples lie on one plane (one bench or level); its pole is the
+        minor axis.
 
     Returns
     -------
@@ -173,15 +180,29 @@ def resolution(lags, pairs, ranges, frame, *, scattered, nearest=None, across=No
         r = ranges[i]
         along = np.abs(u @ frame[:, i]) > np.cos(np.radians(25))
         short = np.sort(d[along & (d < r) & (pairs >= min_pairs)])
-        if short.size >= 2 or name in resolved:
+        if short.size >= 2 or name in resolved or (planar and name == "minor"):
             continue
         unresolved.append(name)
         texts.append(_unresolved_text(name, r, d[along], short, scattered, nearest, across))
+    axes, unresolved, texts = _in_plane_directions(unresolved, texts, scattered, planar)
+    if planar:
+        near = np.abs(u @ frame[:, 2]) > np.cos(np.radians(25))
+        axes.append("minor")
+        unresolved.append("minor")
+        texts.append(_planar_text(ranges[2], int(near.sum())))
+    return axes, unresolved, texts
+
+
+def _in_plane_directions(unresolved, texts, scattered, planar):
+    """Which unresolved ranges leave their direction open (see :func:`resolution`)."""
     if not scattered:
         return list(unresolved), unresolved, texts
     if len(unresolved) == 1:
         texts[0] += (". Its direction is still fixed: the samples surround it, and it is "
-                     "square to the other two axes, whose ranges are resolved")
+                     "square to the other two axes, whose ranges are resolved" if not planar
+                     else ". Its direction is still fixed: the samples surround it in their "
+                     "plane, and it is square to the other axis in that plane, whose range "
+                     "is resolved")
         return [], unresolved, texts
     if len(unresolved) == 2:
         other = next(a for a in AXES if a not in unresolved).replace("_", "-")
@@ -193,6 +214,19 @@ def resolution(lags, pairs, ranges, frame, *, scattered, nearest=None, across=No
         texts.append("no range is resolved along any axis: the whole frame is a guess; "
                      "check it against the geology and the sampling before using it")
     return list(unresolved), unresolved, texts
+
+
+def _planar_text(r, n_near):
+    """The minor axis of planar data: across the one level, which no lag can resolve."""
+    seen = ("no lag bin lies within 25 degrees of it" if not n_near else
+            f"only {n_near} lag {'bin lies' if n_near == 1 else 'bins lie'} within 25 degrees "
+            "of it")
+    return ("the minor axis, across the plane of the samples, is not resolved: all samples "
+            f"lie on one level (one bench or plane) and {seen}; one level cannot resolve the "
+            "axis across it, whatever the lag or the spacing of the samples on it. Its direction "
+            f"is taken as the pole of that plane and its range ({r:.3g} m) only completes "
+            "the frame; samples on other levels (further benches, or drill holes through "
+            "this one) would resolve it")
 
 
 def _unresolved_text(name, r, d_along, short, scattered, nearest, across):
@@ -318,7 +352,7 @@ def diagnose(model: NestedModel, fan: FanRanges, bins: FitBins, *, spacing, has_
         bins.lags, bins.pairs, longest.ranges, frame, scattered=scattered,
         nearest=getattr(spacing, "nearest", None),
         across=getattr(spacing, "across_hole", None) if has_holes else None,
-        min_pairs=min_pairs, resolved=by_holes)
+        min_pairs=min_pairs, resolved=by_holes, planar=planar)
     amb, axes = _ambiguous(frame_candidates, axes)
     axes, ranges, texts = _unresolvable(continuity, axes, ranges, texts)
     if planar:  # the pole of one bench is assumed, not resolved, and so is its range

@@ -694,6 +694,83 @@ def _two_lines(heading: str) -> str:
     return heading[:cut] + "\n" + heading[cut + 1:]
 
 
+def downhole_figure(points, *, nugget=None, model_nugget=None, held=None, composite=None,
+                    sill=None, value_label="semivariogram", title="Down-hole variogram",
+                    path=None):
+    """The first down-hole lags, their straight line to lag 0, and both nuggets.
+
+    Draws what the record holds (``diagnostics.downhole`` of discovery.json):
+    the points, the straight line through the first two of them extended to
+    lag 0 (the extrapolation the nugget was read from), the nugget recorded
+    from it, and the fitted model's nugget.
+
+    Parameters
+    ----------
+    points : sequence of (distance, value, pairs)
+        The first down-hole lags, in order (distance in metres).
+    nugget : float, optional
+        The recorded down-hole nugget (the line's value at lag 0, kept between
+        0 and the first point); None when none was extrapolated.
+    model_nugget : float, optional
+        The fitted model's nugget.
+    held : bool, optional
+        The model's nugget was held at the down-hole nugget (True) or fitted
+        (False); unknown when None.
+    composite : float, optional
+        Composite length (m), stated in the title.
+    sill : float, optional
+        The model's total sill, drawn as a dotted line.
+    value_label, title : str
+        ``value_label`` carries the units.
+    path : path-like, optional
+        Save a PNG there.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    pts = np.asarray([tuple(p)[:3] for p in (points or [])], float).reshape(-1, 3)
+    d, g, n = pts[:, 0], pts[:, 1], pts[:, 2]
+    fig, ax = new_figure()
+    ax.scatter(d, g, s=36, color=COLOURS["data"], edgecolor="black", linewidths=0.4, zorder=3,
+               label=f"down-hole lags ({int(n.sum()):,} pairs)")
+    for di, gi, ni in zip(d, g, n):
+        ax.annotate(f"{int(ni)}", (di, gi), textcoords="offset points", xytext=(0, 7),
+                    ha="center", fontsize=7, color="#444444")
+    at_zero = None
+    if len(pts) >= 2 and d[1] != d[0]:
+        x = np.array([0.0, d[0], d[1]])
+        line = g[0] + (g[1] - g[0]) / (d[1] - d[0]) * (x - d[0])
+        at_zero = line[0]
+        ax.plot(x, line, color=COLOURS["reference"], lw=1.4, ls="--",
+                label="straight line through the first two lags, to lag 0")
+    if nugget is not None:
+        lab = f"down-hole nugget {float(nugget):.3g}"
+        if at_zero is not None and not np.isclose(float(nugget), at_zero, rtol=1e-6,
+                                                  atol=1e-12):
+            lab += " (clipped from the line's value at lag 0)"
+        ax.plot([0.0], [float(nugget)], ls="none", marker="o", ms=9, mfc="white",
+                mec=COLOURS["major"], mew=2.0, zorder=4, clip_on=False, label=lab)
+    if model_nugget is not None:
+        how = {True: " (held at the down-hole nugget)", False: " (fitted)"}.get(held, "")
+        ax.axhline(float(model_nugget), color=COLOURS["minor"], lw=1.2, ls=":",
+                   label=f"fitted model's nugget {float(model_nugget):.3g}{how}")
+    if sill is not None and np.isfinite(sill):
+        ax.axhline(float(sill), color="#888888", lw=0.8, ls="-.",
+                   label=f"model's total sill {float(sill):.3g}")
+    ax.set_xlim(left=0.0, right=1.08 * float(d.max()) if d.size else 1.0)
+    ax.set_ylim(bottom=0.0)
+    head = title if not composite else f"{title} ({float(composite):.3g} m composites)"
+    label_axes(ax, title=head, xlabel="distance down the hole (m)", ylabel=value_label)
+    note = "numbers beside points: pairs" if d.size else "no down-hole lag with enough pairs"
+    if nugget is None:
+        note += "\nno nugget extrapolated (fewer than two lags)" if len(pts) < 2 else \
+            "\nno nugget extrapolated"
+    add_legend(ax, note, loc="lower right")
+    save_figure(fig, path)
+    return fig
+
+
 __all__ += ["section_ellipse", "variogram_map_figure", "stereonet_figure",
             "directional_variograms_figure", "model_table_rows", "model_table_figure",
-            "MODEL_TABLE_COLUMNS", "MARK_NOTE", "CONTINUITY_COLOURS"]
+            "MODEL_TABLE_COLUMNS", "MARK_NOTE", "CONTINUITY_COLOURS", "downhole_figure"]

@@ -48,6 +48,7 @@ REPORT_FIGURES = {
     "stereonet": "Axes of continuity on a lower-hemisphere equal-area net",
     "directional": "Directional variograms",
     "model_table": "Nested model",
+    "downhole": "Down-hole variogram and the nugget's extrapolation",
 }
 
 _AXIS_WORD = {"major": "major", "semi_major": "semi-major", "minor": "minor"}
@@ -386,6 +387,52 @@ def _fig_table(disc, path):
                                 title=f"Nested model ({_units(disc)})", path=path)
 
 
+def _nugget_held(d):
+    """True when the record's nugget choice holds a number (the down-hole nugget held in
+    the fit), False when it says fitted, None when the record does not say."""
+    for c in (d.get("diagnostics") or {}).get("choices") or []:
+        if isinstance(c, Mapping) and c.get("choice") == "nugget":
+            v = c.get("value")
+            return isinstance(v, (int, float)) and not isinstance(v, bool)
+    return None
+
+
+def _fig_downhole(d, path, value_label):
+    """The down-hole variogram of the record's ``diagnostics.downhole`` (None without one)."""
+    dh = (d.get("diagnostics") or {}).get("downhole") or {}
+    if not dh.get("points"):
+        return None
+    model = d.get("model") or {}
+    return F.downhole_figure(dh["points"], nugget=dh.get("nugget"),
+                             model_nugget=model.get("nugget"), held=_nugget_held(d),
+                             composite=dh.get("composite"), sill=model.get("total_sill"),
+                             value_label=value_label, path=path)
+
+
+def _section_downhole(d, figs) -> str:
+    """The down-hole variogram figure with its reading, or why there is none."""
+    dh = (d.get("diagnostics") or {}).get("downhole") or {}
+    if not dh.get("points"):
+        return ("<h3>Nugget from the down-hole variogram</h3><p>Not drawn: the samples are "
+                "not in drill holes, or too few pairs lie one or two composites apart in "
+                "the same hole.</p>")
+    nug = dh.get("nugget")
+    held = _nugget_held(d)
+    model_nug = (d.get("model") or {}).get("nugget")
+    read = (f"The line gives a down-hole nugget of {_num(nug, '.3g')}" if nug is not None
+            else "No nugget was extrapolated (fewer than two down-hole lags with enough pairs)")
+    how = {True: "held at that value in the fit", False: "fitted with the other parameters",
+           None: "as fitted"}[held]
+    caption = (f"Points: the first down-hole lags, each from the pairs in the same hole a "
+               f"whole number of composites apart ({_num(dh.get('composite'), '.3g')} m "
+               "composites), at their mean distance, with the pairs beside each; the run's "
+               "estimator. Dashed: the straight line through the "
+               f"first two points, extended to lag 0. {read}; the model's nugget is "
+               f"{_num(model_nug, '.3g')}, {how}.")
+    return ("<h3>Nugget from the down-hole variogram</h3>"
+            + _figure_html("downhole", figs, S.escape(caption)))
+
+
 def _draw_all(disc, fig_dir: Path, check, topcut):
     matplotlib.use("Agg", force=False)
     makers = {
@@ -397,12 +444,17 @@ def _draw_all(disc, fig_dir: Path, check, topcut):
         "stereonet": lambda p: _fig_stereonet(disc, p, check),
         "directional": lambda p: _fig_directional(disc, p),
         "model_table": lambda p: _fig_table(disc, p),
+        "downhole": lambda p: _fig_downhole(S.json_ready(disc.to_dict()), p,
+                                            f"{_estimator(disc)} ({_units(disc)})"),
     }
     out = {}
     for key, make in makers.items():
         path = fig_dir / f"{key}.png"
         try:
             fig = make(None)
+            if fig is None:  # does not apply to these samples (said in its section)
+                out[key] = (None, None)
+                continue
             buf = io.BytesIO()
             fig.savefig(buf, format="png", dpi=F.DPI)
             data = buf.getvalue()
@@ -844,13 +896,14 @@ def render_report(discovery, out_dir, *, check=None, title=None, topcut=None) ->
                               "a gap between points and the solid line need not be. Shaded: "
                               "bootstrap band of the model along the direction."))
     sec.append("<h2>8. Model for estimation</h2>" + _section_model(discovery, d)
-               + _figure_html("model_table", figs, "The same table as a figure."))
+               + _figure_html("model_table", figs, "The same table as a figure.")
+               + _section_downhole(d, figs))
     sec.append("<h2>9. Check of the interpretation</h2>" + _section_check(check))
     warns = [_for_people(w) for w in _warnings(discovery, d)]
     sec.append("<h2>10. Warnings</h2>" + (
         "<ul>" + "".join(f"<li class='warn'>{S.escape(w)}</li>" for w in warns) + "</ul>"
         if warns else "<p>None.</p>"))
-    failed = [k for k, (data, _) in figs.items() if data is None]
+    failed = [k for k, (data, err) in figs.items() if data is None and err]
     if failed:
         sec.append(f"<p class='warn'>Figures not drawn: {S.escape(', '.join(failed))}.</p>")
     cautions = d.get("cautions")
