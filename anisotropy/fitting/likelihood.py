@@ -484,8 +484,11 @@ def _search(p0, args, method, maxiter, ftol, gradient):
     if ftol is not None:
         opts["ftol"] = float(ftol)
     if gradient == "analytic":
-        return minimize(vecchia_negloglik_grad, p0, args=args, method=method, jac=True,
-                        options=opts), f0
+        # a trial step of L-BFGS-B can overflow a log range; the value is then 1e30 and
+        # the search steps back, so the floating-point warnings say nothing to the user
+        with np.errstate(over="ignore", invalid="ignore"):
+            return minimize(vecchia_negloglik_grad, p0, args=args, method=method, jac=True,
+                            options=opts), f0
     opts["eps"] = 1e-4
     return minimize(vecchia_negloglik, p0, args=args, method=method, options=opts), f0
 
