@@ -274,7 +274,10 @@ def matched_rotation(F, G):
 def _global_start(fit, coords, values, seed, holes, other_frames, confidence):
     """The likelihood's global choice among candidate frames, and the fit to start from."""
     frame, ranges = ordered_axes(fit.frame, fit.ranges)
-    if not GLOBAL_FRAME_CHOICE:
+    if not GLOBAL_FRAME_CHOICE or len(np.atleast_1d(fit.sills)) > 1:
+        # two or more variogram structures: their fit can run a structure to the range
+        # limit, and candidates polished from it compared badly (issue-4 shoot seed 110,
+        # structures=2: 70 degrees off); the two starts of _first_search handle that case
         other_frames, holes = (), None
         return FrameChoice((PolishedFrame("variogram fit", frame, ranges, 0.0),), 0.0, (), ()), fit
     choice = global_frame_choice(coords, values, frame, ranges, fit.nugget, fit.sills,
@@ -387,7 +390,11 @@ def refine_frame(fit: NestedFit, bins: FitBins, coords, values, *, seed=0, fit_k
     try:
         choice, start = _global_start(fit, coords, values, seed, holes, other_frames,
                                       confidence)
-        P = _Problem(bins, coords, values, seed, fit_kwargs or {}, start, holes)
+        # conditioning sets in the one-structure fit's metric where the variogram fit has
+        # two structures (a structure run to the range limit distorts the metric)
+        metric_of = one_structure if (one_structure is not None
+                                      and len(np.atleast_1d(fit.sills)) > 1) else start
+        P = _Problem(bins, coords, values, seed, fit_kwargs or {}, metric_of, holes)
         lk, f, starts = _first_search(P, start, one_structure)
         f, held, warning = _keep_axis_order(P, lk, f)
         if warning:
