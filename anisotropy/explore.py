@@ -501,64 +501,104 @@ def nominal_spacing(coords, holes=None, *, bench_tolerance: float = 1.0,
     if n < 2:
         raise InsufficientDataError("Spacing needs at least two samples.")
     nearest = _nn_median(c)
-    across = down = bench = across_plan = pattern = plan_nearest = None
-    n_holes = n_levels = None
-    levels: list = []
-    reasons: dict = {}
-    layout = "scattered"
-    codes = None
-    if holes is not None:
-        h = np.asarray(holes, dtype=object).ravel()
-        if len(h) != n:
-            raise InputError(f"{len(h)} hole ids for {n} samples; give one per sample.")
-        codes, uniq = pd.factorize(pd.Series(h).astype(str), sort=False)
-        n_holes = int(len(uniq))
-        if np.bincount(codes).max() < 2:
-            # one sample per id (blast holes with ids): treat as unstrung samples
-            codes = None
+    codes, n_holes = _hole_codes(holes, n)
     if codes is not None:
-        layout = "drill_holes"
-        per_hole = np.bincount(codes, minlength=n_holes)
-        cent = np.column_stack([np.bincount(codes, weights=c[:, a], minlength=n_holes)
-                                for a in range(3)]) / per_hole[:, None]
-        across = _nn_median(cent)
-        across_plan = _nn_median(cent[:, :2])
-        gaps = []
-        order = np.argsort(codes, kind="stable")
-        for members in np.split(order, np.cumsum(per_hole)[:-1]):
-            p = c[members]
-            if len(p) < 2:
-                continue
-            q = p - p.mean(axis=0)
-            axis = np.linalg.svd(q, full_matrices=False)[2][0]
-            p = p[np.argsort(q @ axis, kind="mergesort")]
-            d = np.linalg.norm(np.diff(p, axis=0), axis=1)
-            gaps.append(d[d > 0])
-        gaps = np.concatenate(gaps) if gaps else np.array([])
-        down = float(np.median(gaps)) if gaps.size else None
+        s = _drill_hole_spacing(c, codes, n_holes)
     else:
-        label, centres, spreads = _bench_levels(c[:, 2], float(bench_tolerance))
-        n_lv = len(centres)
-        per_level = np.bincount(label)
-        if n_lv == 1:
-            plan_nn = _nn_median(c[:, :2])
-            # one thin level is a bench; elevations spread continuously over more
-            # than the plan spacing are a 3D cloud (layout stays "scattered")
-            if spreads[0] <= max(3.0 * float(bench_tolerance), plan_nn):
-                layout = "single_level"
-                n_levels, levels = 1, centres.tolist()
-                pattern, plan_nearest = _level_spacings(c, label, 1)
-                across = pattern if pattern is not None else plan_nn
-        elif np.median(per_level) >= min_per_level:
-            gaps = np.diff(centres)
-            bench_gap = float(np.median(gaps))
-            if bench_gap > 2 * float(spreads.max()):
-                layout = "benches"
-                bench = bench_gap
-                n_levels, levels = int(n_lv), centres.tolist()
-                pattern, plan_nearest = _level_spacings(c, label, n_lv)
-                across = pattern if pattern is not None else plan_nearest
+        s = _level_spacing(c, float(bench_tolerance), min_per_level)
+    lags, reasons = _suggested_lags(s, nearest)
+    tol = {k: (v / 2.0 if v else None) for k, v in lags.items()}
+    return Spacing(across_hole=s["across"], down_hole=s["down"], bench=s["bench"],
+                   suggested_lag=lags, reasons=reasons, nearest=nearest, layout=s["layout"],
+                   lag_tolerance=tol, n_holes=n_holes, n_levels=s["n_levels"],
+                   levels=s["levels"],
+                   across_hole_plan=(s["across_plan"] if s["layout"] == "drill_holes"
+                                     else s["across"]),
+                   pattern=s["pattern"], plan_nearest=s["plan_nearest"])
+
+
+def _hole_codes(holes, n: int):
+    """Integer hole codes per sample and the number of distinct ids.
+
+    The codes are None without hole ids, or when every id holds a single
+    sample (blast holes with ids: treated as unstrung samples); the count
+    is None only without hole ids.
+    """
+    if holes is None:
+        return None, None
+    h = np.asarray(holes, dtype=object).ravel()
+    if len(h) != n:
+        raise InputError(f"{len(h)} hole ids for {n} samples; give one per sample.")
+    codes, uniq = pd.factorize(pd.Series(h).astype(str), sort=False)
+    n_holes = int(len(uniq))
+    if np.bincount(codes).max() < 2:
+        return None, n_holes
+    return codes, n_holes
+
+
+def _spacing_parts(layout: str = "scattered", **parts) -> dict:
+    """The spacings :func:`nominal_spacing` reports, None where not measured."""
+    out = dict(layout=layout, across=None, across_plan=None, down=None, bench=None,
+               pattern=None, plan_nearest=None, n_levels=None, levels=[])
+    out.update(parts)
+    return out
+
+
+def _drill_hole_spacing(c: np.ndarray, codes: np.ndarray, n_holes: int) -> dict:
+    """Across-hole (centroid to nearest centroid, 3D and plan) and down-hole spacing."""
+    per_hole = np.bincount(codes, minlength=n_holes)
+    cent = np.column_stack([np.bincount(codes, weights=c[:, a], minlength=n_holes)
+                            for a in range(3)]) / per_hole[:, None]
+    gaps = []
+    order = np.argsort(codes, kind="stable")
+    for members in np.split(order, np.cumsum(per_hole)[:-1]):
+        p = c[members]
+        if len(p) < 2:
+            continue
+        q = p - p.mean(axis=0)
+        axis = np.linalg.svd(q, full_matrices=False)[2][0]
+        p = p[np.argsort(q @ axis, kind="mergesort")]
+        d = np.linalg.norm(np.diff(p, axis=0), axis=1)
+        gaps.append(d[d > 0])
+    gaps = np.concatenate(gaps) if gaps else np.array([])
+    return _spacing_parts("drill_holes", across=_nn_median(cent),
+                          across_plan=_nn_median(cent[:, :2]),
+                          down=float(np.median(gaps)) if gaps.size else None)
+
+
+def _level_spacing(c: np.ndarray, bench_tolerance: float, min_per_level: int) -> dict:
+    """Without hole ids: one bench, several benches of blast holes, or a scattered cloud."""
+    label, centres, spreads = _bench_levels(c[:, 2], bench_tolerance)
+    n_lv = len(centres)
+    per_level = np.bincount(label)
+    if n_lv == 1:
+        plan_nn = _nn_median(c[:, :2])
+        # one thin level is a bench; elevations spread continuously over more
+        # than the plan spacing are a 3D cloud (layout stays "scattered")
+        if spreads[0] <= max(3.0 * bench_tolerance, plan_nn):
+            pattern, plan_nearest = _level_spacings(c, label, 1)
+            return _spacing_parts("single_level", n_levels=1, levels=centres.tolist(),
+                                  pattern=pattern, plan_nearest=plan_nearest,
+                                  across=pattern if pattern is not None else plan_nn)
+    elif np.median(per_level) >= min_per_level:
+        bench_gap = float(np.median(np.diff(centres)))
+        if bench_gap > 2 * float(spreads.max()):
+            pattern, plan_nearest = _level_spacings(c, label, n_lv)
+            return _spacing_parts("benches", bench=bench_gap, n_levels=int(n_lv),
+                                  levels=centres.tolist(), pattern=pattern,
+                                  plan_nearest=plan_nearest,
+                                  across=pattern if pattern is not None else plan_nearest)
+    return _spacing_parts()
+
+
+def _suggested_lags(s: dict, nearest) -> tuple[dict, dict]:
+    """Unit lag and the reason for it per direction class, from the layout's spacings.
+
+    A spacing that could not be measured falls back to ``nearest`` (the
+    median 3D nearest-neighbour distance), and the reason says so.
+    """
     lags: dict = {}
+    reasons: dict = {}
 
     def put(cls, val, why):
         if val is None:
@@ -566,6 +606,8 @@ def nominal_spacing(coords, holes=None, *, bench_tolerance: float = 1.0,
         lags[cls] = _round_sig(val) if val else None
         reasons[cls] = why
 
+    layout, across, down, bench = s["layout"], s["across"], s["down"], s["bench"]
+    pattern = s["pattern"]
     if layout == "drill_holes":
         put("along_hole", down, "about the down-hole sample spacing" if down else "down-hole spacing")
         put("across_hole", across, "about the across-hole (hole-to-hole centroid) spacing"
@@ -596,12 +638,7 @@ def nominal_spacing(coords, holes=None, *, bench_tolerance: float = 1.0,
             lags["vertical"], reasons["vertical"] = None, "single level: no vertical pairs"
         else:
             put("vertical", nearest, what)
-    tol = {k: (v / 2.0 if v else None) for k, v in lags.items()}
-    return Spacing(across_hole=across, down_hole=down, bench=bench, suggested_lag=lags,
-                   reasons=reasons, nearest=nearest, layout=layout, lag_tolerance=tol,
-                   n_holes=n_holes, n_levels=n_levels, levels=levels,
-                   across_hole_plan=across_plan if layout == "drill_holes" else across,
-                   pattern=pattern, plan_nearest=plan_nearest)
+    return lags, reasons
 
 
 # ---------------------------------------------------------------------------
