@@ -565,6 +565,15 @@ def data_cannot_tell(discovery, interp: dict, support: dict, practical_deg: floa
             "choice between them rests on the geology")
 
 
+def _unless_undecided(verdict, reasons, discovery, interp, support, th) -> str:
+    """"cannot tell" (with its reason appended) where :func:`data_cannot_tell` says so."""
+    undecided = data_cannot_tell(discovery, interp, support, th["practical_deg"])
+    if not undecided:
+        return verdict
+    reasons.append(undecided)
+    return "cannot tell"
+
+
 def check_interpretation(discovery, interpretation: Interpretation, *, thresholds=None,
                          n_jobs=1, scheduler=None, progress=False) -> CheckResult:
     """Hold an interpretation against a discovery.
@@ -704,10 +713,7 @@ def check_interpretation(discovery, interpretation: Interpretation, *, threshold
                        "discovered one, so the objective ratio alone does not count against it")
     verdict = decide_verdict(outside=bool(outside_any), worse=worse, placed=share is not None,
                              strong=bool(strong_any), close=close_all)
-    undecided = data_cannot_tell(discovery, interp, support, th["practical_deg"])
-    if undecided:
-        verdict = "cannot tell"
-        reasons.append(undecided)
+    verdict = _unless_undecided(verdict, reasons, discovery, interp, support, th)
     if interpretation.kind == "plane":
         reasons.append("plane only: the pole (minor axis) is checked; the in-plane direction "
                        "is not")
