@@ -8,8 +8,6 @@ kernels until they are used.
 from __future__ import annotations
 
 import importlib
-import sys
-import types
 
 __version__ = "0.1.0"
 
@@ -29,12 +27,12 @@ _PUBLIC = {
     "samples_from_frame": "samples",
     "SampleSet": "samples",
     # exploration
-    "explore": "explore",
-    "Exploration": "explore",
-    "cell_declustering": "explore",
-    "nominal_spacing": "explore",
-    "topcut_candidates": "explore",
-    "trend_check": "explore",
+    "explore": "exploration",
+    "Exploration": "exploration",
+    "cell_declustering": "exploration",
+    "nominal_spacing": "exploration",
+    "topcut_candidates": "exploration",
+    "trend_check": "exploration",
     # transforms
     "NormalScore": "transform",
     "apply_transform": "transform",
@@ -49,9 +47,9 @@ _PUBLIC = {
     "variogram_fan": "directional",
     "variogram_map": "directional",
     # discovery, uncertainty, checking, batch
-    "discover": "discover",
-    "Discovery": "discover",
-    "DiscoverParams": "discover",
+    "discover": "pipeline",
+    "Discovery": "discovery",
+    "DiscoverParams": "discovery",
     "check_interpretation": "check",
     "CheckResult": "check",
     "run_batch": "batch",
@@ -75,23 +73,3 @@ def __getattr__(name: str):
 
 def __dir__():
     return __all__
-
-
-# Two public functions share their module's name (``discover`` in
-# discover.py, ``explore`` in explore.py). Importing such a submodule would
-# normally bind the package attribute to the module and hide the function,
-# so the package refuses that one binding: ``anisotropy.discover`` is always
-# the function, and the module is reached with
-# ``importlib.import_module("anisotropy.discover")`` or
-# ``from anisotropy.discover import Discovery``.
-_SHADOWED = frozenset(name for name, module in _PUBLIC.items() if name == module)
-
-
-class _Package(types.ModuleType):
-    def __setattr__(self, name, value):
-        if name in _SHADOWED and isinstance(value, types.ModuleType):
-            return
-        super().__setattr__(name, value)
-
-
-sys.modules[__name__].__class__ = _Package

@@ -58,7 +58,7 @@ from anisotropy.check import (Interpretation, check_interpretation, parse_orient
                              parse_plane)
 from anisotropy.constants import AXES as _AXES
 from anisotropy.constants import MIN_SAMPLES
-from anisotropy.discover import discover
+from anisotropy.pipeline import discover
 from anisotropy.errors import AnisotropyError, InputError, InsufficientDataError
 from anisotropy.progress import note
 from anisotropy.report.html import render_report

@@ -4,7 +4,7 @@ An interpretation is written the structural way: a plane of greatest
 continuity as dip direction/dip (``"150/70"``) with, optionally, the pitch
 of the major axis inside it, or a major axis as trend/plunge (``"060/20"``)
 with, optionally, a minor axis. :func:`check_interpretation` compares it
-with a :class:`~anisotropy.discover.Discovery` three ways:
+with a :class:`~anisotropy.discovery.Discovery` three ways:
 
 1. **Angles** between each interpreted axis and the discovered one
    (:func:`anisotropy.geometry.axis_angle`).

@@ -268,7 +268,7 @@ def _cmd_explore(args) -> int:
     from pathlib import Path
 
     from anisotropy._safety import atomic_write_json
-    from anisotropy.explore import explore
+    from anisotropy.exploration import explore
 
     out = Path(args.out)
     if out.exists() and not out.is_dir():
@@ -360,7 +360,7 @@ def _command_line(args) -> str:
 
 def _cmd_discover(args) -> int:
     """Propose the 3D continuity model of one grade in one domain."""
-    from anisotropy.discover import discover
+    from anisotropy.pipeline import discover
 
     if args.bootstrap < 0:
         raise InputError(f"--bootstrap must be zero or a positive number; got {args.bootstrap}")
@@ -440,7 +440,7 @@ def _cmd_check(args) -> int:
     """Hold an interpreted continuity orientation against the data."""
     from anisotropy._safety import atomic_write_json
     from anisotropy.check import check_interpretation
-    from anisotropy.discover import discover
+    from anisotropy.pipeline import discover
 
     interpretation = _interpretation_from_args(args)   # refuse before the long run
     if args.bootstrap < 20:

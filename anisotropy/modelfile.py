@@ -188,7 +188,7 @@ def _grade_check(D, model) -> dict:
 
 
 def model_record(D, run: dict | None = None) -> dict:
-    """The content of ``model.json`` for a :class:`~anisotropy.discover.Discovery`."""
+    """The content of ``model.json`` for a :class:`~anisotropy.discovery.Discovery`."""
     s = D.samples
     cols = getattr(s, "columns", {}) or {}
     units = (D.diagnostics or {}).get("units") or ""

@@ -697,7 +697,7 @@ def choose_top_cut(values, top_cut) -> tuple[float, str, str]:
     InsufficientDataError
         ``"auto"`` on too few samples for any candidate.
     """
-    from anisotropy.explore import suggested_topcut, topcut_candidates
+    from anisotropy.exploration import suggested_topcut, topcut_candidates
 
     if top_cut != "auto":
         return float(top_cut), "given", "as requested"
@@ -716,7 +716,7 @@ def apply_top_cut(samples, top_cut, mode="cap", *, choices=None):
     samples : anisotropy.samples.SampleSet
     top_cut : float, "auto" or None
         The top-cut grade, ``"auto"`` for the suggestion of
-        :func:`anisotropy.explore.suggested_topcut` (computed on these
+        :func:`anisotropy.exploration.suggested_topcut` (computed on these
         samples' grades), or None for none.
     mode : {"cap", "exclude"}
         Set grades above the top-cut to it (default), or leave those samples

@@ -8,7 +8,7 @@ blocks, with replacement (multinomial block counts, the block bootstrap of
 Lahiri 2003, ch. 2 and 12 for spatial data), and re-weights the per-block
 sums that the pair engine kept, ``coarse sums = sum_b w_b * block_sums[b]``.
 No new pass over the pairs is made. Each replicate is refitted by the
-``refit`` callable handed in by :mod:`anisotropy.discover`, warm-started from
+``refit`` callable handed in by :mod:`anisotropy.pipeline`, warm-started from
 the main fit.
 
 A pair is credited to the block that holds its *midpoint*, as the pair
@@ -53,7 +53,7 @@ reverse) is the *swap rate*: when it is high the data do not say which of
 the two in-plane axes is the longer.
 
 This module imports fitting-side modules only and never
-:mod:`anisotropy.discover` (which calls it).
+:mod:`anisotropy.pipeline` (which calls it).
 """
 
 from __future__ import annotations

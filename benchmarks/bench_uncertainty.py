@@ -269,7 +269,7 @@ def one_discover(name, sim, reps, refine=True):
     """
     import pandas as pd
 
-    from anisotropy.discover import discover
+    from anisotropy.pipeline import discover
     from anisotropy.discovery import params
 
     # read by the structures stage at run time
@@ -404,7 +404,7 @@ def _speed_data():
 
 def speed(args):
     """200 replicates with the real discover refit; the volume rebuilt with bootstrap blocks."""
-    from anisotropy.discover import discover
+    from anisotropy.pipeline import discover
 
     rows = []
     for label, (df, kw) in _speed_data().items():

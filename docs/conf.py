@@ -7,9 +7,7 @@ Build from the repository root:
 
 from __future__ import annotations
 
-import importlib
 import os
-import pkgutil
 import sys
 import types
 
@@ -43,22 +41,12 @@ def _public_names() -> str:
 
 # modules in the order of the data flow (design.md); others go last
 _FLOW = {name: i for i, name in enumerate(
-    ["errors", "samples", "explore", "exploration", "transform", "geometry", "models",
+    ["errors", "samples", "exploration", "transform", "geometry", "models",
      "simulate", "pairs", "estimators", "directional", "fitting", "uncertainty",
-     "discover", "discovery", "check", "batch", "report", "cli"])}
+     "discovery", "pipeline", "check", "batch", "report", "cli"])}
 
 with open(os.path.join(os.path.dirname(__file__), "_public_names.inc"), "w") as fh:
     fh.write(".. autosummary::\n\n" + _public_names())
-
-# Some public functions share their module's name (``anisotropy.discover`` is
-# the function, by design of the package). The API pages document every
-# module under its own dotted name, so for the documentation build each
-# submodule is bound to the package attribute of its name.
-for _info in pkgutil.iter_modules(anisotropy.__path__):
-    if _info.name.startswith("_"):
-        continue
-    types.ModuleType.__setattr__(anisotropy, _info.name,
-                                 importlib.import_module(f"anisotropy.{_info.name}"))
 
 project = "anisotropy"
 author = "the anisotropy contributors"

@@ -186,7 +186,7 @@ def test_python_dash_m_runs_explore(good_csv, tmp_path):
 def test_internal_error_exits_1_and_says_it_is_ours(good_csv, tmp_path, capsys, monkeypatch):
     import importlib
 
-    explore_module = importlib.import_module("anisotropy.explore")
+    explore_module = importlib.import_module("anisotropy.exploration")
 
     def broken(samples, **kw):
         raise RuntimeError("simulated bug")
@@ -204,7 +204,7 @@ def test_python_warnings_are_printed_as_notes_without_source_paths(good_csv, tmp
     import importlib
     import warnings
 
-    explore_module = importlib.import_module("anisotropy.explore")
+    explore_module = importlib.import_module("anisotropy.exploration")
     real = explore_module.explore
 
     def noisy(samples, **kw):
@@ -224,7 +224,7 @@ def test_batch_passes_the_discover_modelling_options_by_their_python_names():
     import inspect
 
     from anisotropy.cli import _batch_options, build_parser
-    from anisotropy.discover import discover
+    from anisotropy.pipeline import discover
 
     args = build_parser().parse_args(
         ["batch", "t.csv", "--value", "au", "--domain", "zone", "--structures", "2",
@@ -310,7 +310,7 @@ def test_discover_top_cut_auto_by_exclusion_is_counted_and_printed(tmp_path, cap
     # issue 17: --top-cut auto --top-cut-mode exclude; references: numpy's 99 % quantile
     # (the rule of thumb taken when the log-probability plot shows no break, common
     # practice) and a brute-force count of the grades above it in the table written here
-    from anisotropy.explore import detect_logprob_break
+    from anisotropy.exploration import detect_logprob_break
 
     rng = np.random.default_rng(5)
     n = 500

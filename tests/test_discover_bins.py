@@ -14,7 +14,7 @@ import pytest
 
 from anisotropy.discovery.bins import downhole_nugget, weighted_bins, within_hole_pairs
 from anisotropy.discovery.lags import LagChoice, build_volume
-from anisotropy.explore import nominal_spacing
+from anisotropy.exploration import nominal_spacing
 from anisotropy.geometry import fan_for_spacing
 
 

@@ -13,7 +13,7 @@ from anisotropy.discovery.bins import weighted_bins
 from anisotropy.discovery.fan import fan_ranges
 from anisotropy.discovery.lags import LagChoice, build_volume
 from anisotropy.discovery.params import WIDE_ANGULAR_TOLERANCE
-from anisotropy.explore import nominal_spacing
+from anisotropy.exploration import nominal_spacing
 from anisotropy.geometry import fan_for_spacing
 
 

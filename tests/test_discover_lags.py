@@ -11,7 +11,7 @@ from scipy.spatial.distance import pdist, squareform
 
 from anisotropy.discovery.lags import LagChoice, build_volume, choose_lags
 from anisotropy.errors import InputError, InsufficientDataError
-from anisotropy.explore import nominal_spacing
+from anisotropy.exploration import nominal_spacing
 from anisotropy.uncertainty import MIN_BLOCKS
 
 

@@ -16,7 +16,7 @@ from anisotropy.discovery.params import N_RANDOM_STARTS
 from anisotropy.discovery.bins import weighted_bins
 from anisotropy.discovery.search import (FitSettings, Start, search_orientation,
                                          starting_frames)
-from anisotropy.explore import nominal_spacing
+from anisotropy.exploration import nominal_spacing
 from anisotropy.fitting import FitBins
 from anisotropy.geometry import fan_for_spacing
 

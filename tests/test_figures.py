@@ -12,7 +12,7 @@ import numpy as np  # noqa: E402
 import pytest  # noqa: E402
 from scipy import stats  # noqa: E402
 
-from anisotropy.explore import topcut_candidates  # noqa: E402
+from anisotropy.exploration import topcut_candidates  # noqa: E402
 from anisotropy.report.figures import (DPI, downhole_figure, histogram_figure,  # noqa: E402
                                        logprob_figure)
 

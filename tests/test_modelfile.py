@@ -46,7 +46,7 @@ def _table():
 
 @pytest.fixture(scope="module")
 def run(tmp_path_factory):
-    from anisotropy.discover import discover
+    from anisotropy.pipeline import discover
 
     disc = discover(_table(), value="au", hole="hole", fan_spacing=12, seed=1)
     out = tmp_path_factory.mktemp("model")

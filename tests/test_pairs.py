@@ -440,7 +440,7 @@ def test_warm_up_compiles_what_a_discovery_uses():
     # channels are all on) must not need any kernel signature that warm_up did not compile:
     # Numba's dispatcher lists every compiled signature (`signatures`), so a new one would
     # mean the workers of a batch compile again.
-    from anisotropy.discover import discover
+    from anisotropy.pipeline import discover
     from anisotropy.pairs import _kernels, warm_up
 
     warm_up()

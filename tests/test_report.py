@@ -170,7 +170,7 @@ def _small_table():
 @pytest.fixture(scope="module")
 def report(tmp_path_factory):
     from anisotropy.check import Interpretation, check_interpretation
-    from anisotropy.discover import discover
+    from anisotropy.pipeline import discover
     from anisotropy.report.html import render_report
 
     df = _small_table()

@@ -240,7 +240,7 @@ def test_top_cut_by_exclusion_leaves_the_samples_out_and_keeps_the_books(rng):
 
 
 def test_top_cut_auto_takes_the_99_percent_quantile_when_there_is_no_break(rng):
-    from anisotropy.explore import detect_logprob_break
+    from anisotropy.exploration import detect_logprob_break
     from anisotropy.transform import apply_top_cut
 
     # normal grades: no steeper upper tail on the log-probability plot
@@ -256,7 +256,7 @@ def test_top_cut_auto_takes_the_99_percent_quantile_when_there_is_no_break(rng):
 
 
 def test_suggested_topcut_rule_on_candidates_written_by_hand():
-    from anisotropy.explore import suggested_topcut
+    from anisotropy.exploration import suggested_topcut
 
     def c(method, value, aggressive):
         return {"method": method, "value": value, "aggressive": aggressive, "reason": "r",

@@ -18,7 +18,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from anisotropy.errors import InsufficientDataError
-from anisotropy.explore import Spacing
+from anisotropy.exploration import Spacing
 from anisotropy.fitting import FitBins, bins_from_sums
 from anisotropy.geometry import to_lower_hemisphere
 
@@ -98,7 +98,7 @@ def weighted_bins(pv: PairVolume, coords, values, *, holes, spacing: Spacing,
         Sample coordinates and the analysed values.
     holes : ndarray or None
         Hole id of each sample.
-    spacing : anisotropy.explore.Spacing
+    spacing : anisotropy.exploration.Spacing
     lags : LagChoice
     total : float or None
         Total sill (caps the down-hole nugget).

@@ -315,7 +315,7 @@ def diagnose(model: NestedModel, fan: FanRanges, bins: FitBins, *, spacing, has_
         The final model (frame columns major, semi-major, minor).
     fan : FanRanges
     bins : FitBins
-    spacing : anisotropy.explore.Spacing
+    spacing : anisotropy.exploration.Spacing
     has_holes, planar : bool
     max_distance : float
         The longest lag.

@@ -8,7 +8,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from anisotropy.errors import InputError, InsufficientDataError
-from anisotropy.explore import Spacing
+from anisotropy.exploration import Spacing
 from anisotropy.geometry import fan_for_spacing
 from anisotropy.pairs import DEFAULT_COARSE_SPACING, LagVolume, estimate_pair_count
 from anisotropy.pairs import build_volume as _build_volume
@@ -136,8 +136,8 @@ def choose_lags(coords, spacing: Spacing, *, has_holes=False, lag=None, n_lags=N
     ----------
     coords : ndarray (n, 3)
         Sample coordinates (local origin).
-    spacing : anisotropy.explore.Spacing
-        The nominal spacing (:func:`anisotropy.explore.nominal_spacing`).
+    spacing : anisotropy.exploration.Spacing
+        The nominal spacing (:func:`anisotropy.exploration.nominal_spacing`).
     has_holes : bool
         The samples carry hole ids.
     lag, n_lags : optional

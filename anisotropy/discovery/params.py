@@ -1,7 +1,7 @@
 """The settings of one discovery run, validated once (:class:`DiscoverParams`).
 
 The defaults below are each reported with their reason when used (see the
-``choices`` of a :class:`~anisotropy.discover.Discovery`).  The same record is
+``choices`` of a :class:`~anisotropy.discovery.Discovery`).  The same record is
 built by :func:`anisotropy.discover` from its keywords; the command line and
 the batch configuration reach it through those keywords.
 """

@@ -7,7 +7,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from anisotropy.errors import InsufficientDataError
-from anisotropy.explore import Exploration, explore
+from anisotropy.exploration import Exploration, explore
 from anisotropy.samples import SampleSet, read_samples, samples_from_frame
 from anisotropy.transform import TopCut, TransformResult, apply_top_cut, apply_transform
 

@@ -18,7 +18,7 @@ import numpy as np
 from anisotropy.errors import FitError, InputError
 from anisotropy._safety import json_ready
 from anisotropy.directional import Fan
-from anisotropy.explore import Exploration
+from anisotropy.exploration import Exploration
 from anisotropy.fitting import (DirectionRanges, EllipsoidFit, FitBins, NestedFit,
                                 bins_from_sums, fit_nested)
 from anisotropy.geometry import (angles_from_frame, pitch_of, pole_to_plane, strike_of,

@@ -119,7 +119,7 @@ def histogram_figure(values, *, title: str, units: str = "", topcut=None, path=N
         Grade units for the axis label, e.g. ``"g/t"``.
     topcut : float, list of float or list of dict, optional
         Top-cut value(s) or candidates from
-        :func:`anisotropy.explore.topcut_candidates`, drawn as vertical lines.
+        :func:`anisotropy.exploration.topcut_candidates`, drawn as vertical lines.
     path : str or Path, optional
         Save the PNG there.
     bins : int, sequence or str, default "auto"

@@ -16,7 +16,7 @@ import pytest
 from scipy import stats
 
 from anisotropy.errors import InputError, InsufficientDataError
-from anisotropy.explore import (
+from anisotropy.exploration import (
     DEFAULT_QUANTILES,
     cell_declustering,
     detect_logprob_break,
@@ -421,7 +421,7 @@ def test_pattern_spacing_of_jittered_blast_holes(rng, a, b):
 def test_footprint_spacing_on_a_regular_grid_by_hand():
     # 12 x 9 positions 5 m by 3 m apart: hull 55 x 24 m, perimeter 158 m, n = 108.
     # Solving 108 s^2 = 1320 + 79 s + pi s^2 / 4 by hand (quadratic formula):
-    from anisotropy.explore import footprint_spacing
+    from anisotropy.exploration import footprint_spacing
 
     xx, yy = np.meshgrid(np.arange(12) * 5.0, np.arange(9) * 3.0)
     p = np.column_stack([xx.ravel(), yy.ravel()])

@@ -6,7 +6,7 @@ carrying its own choices and warnings:
 
 1. :class:`~anisotropy.discovery.DiscoverParams` - every setting, checked once;
 2. ``read`` and ``prepare`` - intake (:mod:`anisotropy.samples`) and
-   exploration (:mod:`anisotropy.explore`) -> ``Prepared``;
+   exploration (:mod:`anisotropy.exploration`) -> ``Prepared``;
 3. ``choose_transform`` (normal scores by default for skewed grades) and
    ``choose_sill`` -> ``TransformChoice``, ``SillChoice``;
 4. ``choose_lags`` (from the nominal spacing, each choice recorded with its
