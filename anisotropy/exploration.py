@@ -63,6 +63,10 @@ TOPCUT_QUANTILES = (0.975, 0.99, 0.995)
 #: share of metal above which a cap is called aggressive (common practice)
 AGGRESSIVE_METAL_PCT = 10.0
 MIN_SAMPLES = 3
+#: The unit lag's bounds in lags out to half the domain extent (common practice:
+#: at least about a dozen lags to see the shape; about 20 automatic lags keep the
+#: fit bins few enough for a fast fit).
+MIN_LAGS, MAX_LAGS_AUTO = 12, 20
 
 
 # ---------------------------------------------------------------------------
@@ -318,6 +322,8 @@ class Spacing:
         Bench or level layouts: the median in-level nearest-neighbour
         distance in plan, reported beside ``pattern`` (it understates a
         jittered pattern's spacing).
+    extent : float or None
+        Largest extent of the samples along x, y or z (m).
     """
 
     across_hole: float | None
@@ -334,10 +340,15 @@ class Spacing:
     across_hole_plan: float | None = None
     pattern: float | None = None
     plan_nearest: float | None = None
+    extent: float | None = None
 
     def to_dict(self) -> dict:
         """JSON-ready dictionary."""
+        rule = discovery_lags(self, has_holes=bool(self.n_holes)) if self.extent else None
         return {
+            "discovery_lag": (None if rule is None else
+                              {"unit_lag": rule[0], "n_lags": rule[1],
+                               "reason": rule[2][0]["reason"]}),
             "pattern": _f(self.pattern), "plan_nearest": _f(self.plan_nearest),
             "pattern_method": (PATTERN_METHOD if self.pattern is not None else None),
             "across_hole": _f(self.across_hole), "across_hole_plan": _f(self.across_hole_plan),
@@ -514,7 +525,72 @@ def nominal_spacing(coords, holes=None, *, bench_tolerance: float = 1.0,
                    levels=s["levels"],
                    across_hole_plan=(s["across_plan"] if s["layout"] == "drill_holes"
                                      else s["across"]),
-                   pattern=s["pattern"], plan_nearest=s["plan_nearest"])
+                   pattern=s["pattern"], plan_nearest=s["plan_nearest"],
+                   extent=float(np.max(c.max(axis=0) - c.min(axis=0))))
+
+
+def discovery_lags(spacing: Spacing, *, has_holes=False, n_lags=None) -> tuple:
+    """The unit lag and number of lags a discovery starts from, and why.
+
+    The one rule from the spacing to the lags (:func:`anisotropy.discover`
+    then shortens the reach only if the pairs would exceed its budget).
+    Drill holes take the across-hole spacing (short lags are dominated by
+    down-hole pairs), benches and levels the pattern spacing. Scattered
+    samples (no holes, no benches) give pairs at every separation and in
+    every direction, so their lag is set by ``MAX_LAGS_AUTO`` lags out to half
+    the domain extent, but not under half the nearest-neighbour spacing.
+    The lag is then kept between ``MIN_LAGS`` and ``MAX_LAGS_AUTO`` lags out
+    to half the extent (common practice: lags out to about half the extent).
+
+    Parameters
+    ----------
+    spacing : Spacing
+        From :func:`nominal_spacing` (its ``extent`` is needed).
+    has_holes : bool
+        The samples are drill-hole strings.
+    n_lags : int, optional
+        Asked for by the user.
+
+    Returns
+    -------
+    lag : float
+    n_lags : int
+    choices : list of dict
+        The "unit lag" and "number of lags" rows with their reasons.
+    """
+    extent = float(spacing.extent)
+    max_d = 0.5 * extent
+    sl = dict(spacing.suggested_lag or {})
+    base_key = "across_hole" if has_holes and sl.get("across_hole") else "omni"
+    base = sl.get(base_key) or spacing.nearest or max_d / MIN_LAGS
+    if not has_holes and spacing.layout == "scattered":
+        lag = max(max_d / MAX_LAGS_AUTO, 0.5 * float(base))
+        reason = (f"scattered samples (no holes, no benches; median 3D nearest-neighbour "
+                  f"distance {base:.3g} m): pairs come at every separation, so the lag "
+                  f"gives {MAX_LAGS_AUTO} lags out to half the domain extent "
+                  f"({max_d:.0f} m), but not under half that spacing")
+    else:
+        lag = float(base)
+        reason = (f"the nominal {'across-hole' if base_key == 'across_hole' else 'sample'} "
+                  f"spacing {base:.3g} m (common practice: unit lag about the nominal "
+                  "spacing)")
+    if max_d / lag > MAX_LAGS_AUTO:
+        lag = max_d / MAX_LAGS_AUTO
+        reason += (f", lengthened to keep {MAX_LAGS_AUTO} lags out to half the domain "
+                   f"extent ({max_d:.0f} m): the fit bins stay few enough for a fast fit")
+    if max_d / lag < MIN_LAGS:
+        lag = max_d / MIN_LAGS
+        reason += (f", shortened so that at least {MIN_LAGS} lags reach half the "
+                   f"domain extent ({max_d:.0f} m)")
+    lag = float(f"{lag:.3g}")
+    rows = [{"choice": "unit lag", "value": lag, "reason": reason}]
+    asked = n_lags is not None
+    n_lags = int(n_lags) if asked else int(max(4, round(max_d / lag)))
+    rows.append({"choice": "number of lags", "value": n_lags,
+                 "reason": ("as requested" if asked else
+                            f"lags out to half the largest extent of the domain "
+                            f"({extent:.0f} m, common practice)")})
+    return lag, n_lags, rows
 
 
 def _hole_codes(holes, n: int):
@@ -1062,6 +1138,9 @@ class Exploration:
         for k, lag in s.suggested_lag.items():
             L.append(f"  suggested unit lag {k.replace('_', ' '):<11} {m(lag):>9}  "
                      f"(tolerance {m(s.lag_tolerance.get(k))}): {s.reasons.get(k, '')}")
+        if s.extent:
+            lag, n_lags, rows = discovery_lags(s, has_holes=bool(s.n_holes))
+            L.append(f"  discover starts from {n_lags} lags of {m(lag)}: {rows[0]['reason']}")
         L.append("")
         L.append("Top-cut candidates (the choice is yours):")
         pick = suggested_topcut(self.topcut)

@@ -764,6 +764,45 @@ def _model_ranges_along(model, axes):
     return out
 
 
+@dataclass(frozen=True)
+class ConfidenceInterval:
+    """Bands of a bootstrap at its confidence level, one row per quantity.
+
+    After the ``confidence_interval`` of :func:`scipy.stats.bootstrap`:
+    ``low`` and ``high`` hold the lower and upper bound of each quantity named
+    in ``names`` (the three axis ranges in metres, the nugget, the total sill
+    and each structure's sill, in the model's units). A bound that is not
+    finite is NaN: a value held fixed in every replicate fit, or a range
+    bound beyond the longest lag computed (see ``notes``). ``cone_deg`` holds
+    the half-angle of each axis's cone.
+    """
+
+    names: tuple
+    low: np.ndarray
+    high: np.ndarray
+    estimate: np.ndarray
+    cone_deg: dict
+    confidence_level: float
+    notes: dict
+
+    def to_dict(self) -> dict:
+        """Plain types, quantity by quantity (NaN as None)."""
+        def plain(x):
+            return float(x) if np.isfinite(x) else None
+        return {"confidence_level": self.confidence_level,
+                "intervals": {n: {"estimate": plain(e), "low": plain(lo), "high": plain(hi)}
+                              for n, e, lo, hi in zip(self.names, self.estimate, self.low,
+                                                      self.high)},
+                "cone_deg": dict(self.cone_deg), "notes": dict(self.notes)}
+
+    def to_frame(self):
+        """One row per quantity: estimate, low, high."""
+        import pandas as pd
+
+        return pd.DataFrame({"estimate": self.estimate, "low": self.low, "high": self.high},
+                            index=pd.Index(self.names, name="quantity"))
+
+
 @dataclass
 class BootstrapResult:
     """Replicates of a fitted model and the bands they give.
@@ -955,18 +994,55 @@ class BootstrapResult:
         replicate fits (see :func:`held_fixed`).
         """
         conf = self.confidence if confidence is None else confidence
-        if name == "nugget":
-            return self._held_or_interval(self.nugget, self.reference.nugget, conf, name, [])
-        if name == "total_sill":
-            return self._held_or_interval(self.total_sill, self.reference.total_sill, conf,
-                                          name, [])
-        if name.startswith("sill"):
-            k = int(name[4:])
-            return self._held_or_interval(self.sills[:, k], self.reference.structures[k].sill,
-                                          conf, name, [])
         if name in AXIS_NAMES:
             return self.axis_summary(AXIS_NAMES.index(name), conf)["range"]
+        if name in self._scalar_names():
+            return self._held_or_interval(self._replicates_of(name), self._estimate_of(name),
+                                          conf, name, [])
         raise InputError(f"no interval called {name!r}")
+
+    @property
+    def confidence_interval(self) -> ConfidenceInterval:
+        """The bands at ``confidence``, in the manner of :func:`scipy.stats.bootstrap`."""
+        names, est, low, high, notes, cones = [], [], [], [], {}, {}
+        for i, axis in enumerate(AXIS_NAMES):
+            summ = self.axis_summary(i)
+            band = summ["range"] or (None, None)
+            names.append(axis)
+            est.append(self.reference_ranges[i])
+            low.append(np.nan if band[0] is None else band[0])
+            high.append(np.nan if band[1] is None else band[1])
+            cones[axis] = summ["cone_deg"]
+            if "range_note" in summ:
+                notes[axis] = summ["range_note"]
+        for name in self._scalar_names():
+            held = []
+            band = self._held_or_interval(self._replicates_of(name), self._estimate_of(name),
+                                          self.confidence, name.replace("_", " "), held)
+            names.append(name)
+            est.append(self._estimate_of(name))
+            low.append(np.nan if band is None else band[0])
+            high.append(np.nan if band is None else band[1])
+            if held:
+                notes[name] = held[0]
+        return ConfidenceInterval(names=tuple(names), low=np.array(low, float),
+                                  high=np.array(high, float), estimate=np.array(est, float),
+                                  cone_deg=cones, confidence_level=float(self.confidence),
+                                  notes=notes)
+
+    def _scalar_names(self) -> tuple:
+        return ("nugget", "total_sill") + tuple(f"sill{k}" for k in
+                                                 range(len(self.reference.structures)))
+
+    def _replicates_of(self, name):
+        if name in ("nugget", "total_sill"):
+            return getattr(self, name)
+        return self.sills[:, int(name[4:])]
+
+    def _estimate_of(self, name):
+        if name in ("nugget", "total_sill"):
+            return getattr(self.reference, name)
+        return self.reference.structures[int(name[4:])].sill
 
     def variogram_bands(self, directions, distances, confidence=None):
         """Bands on the fitted model curves along given directions.

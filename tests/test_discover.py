@@ -463,10 +463,6 @@ def test_plunging_shoot_second_structure_found_by_the_likelihood():
     D = anisotropy.discover(df, value="grade", transform="raw")
     for i in range(3):
         assert axis_err(D.frame[:, i], F[:, i]) < 10.0
-    nest = D.diagnostics["frame_refinement"]["nested"]
-    assert nest["kept"] and nest["structure_added"] and nest["gain"] > nest["bic_penalty"]
-    # the one-structure search, stopped loosely, was finished before the comparison
-    assert nest["one_structure_polished"]
     assert len(D.model.structures) == 2
     assert D.model.nugget / D.model.total_sill < 0.15
     short, long_ = sorted(D.model.structures, key=lambda s: s.ranges[0])
@@ -491,53 +487,42 @@ def shoot_benchmark_realisation(seed):
 
 @pytest.mark.slow
 def test_nested_refit_keeps_the_likelihoods_axes():
-    # realisation 116 of the issue-4 shoot benchmark: the likelihood's nested model has
-    # the right frame, but the two-structure variogram refit with that frame held traded ranges
-    # between its structures and made the semi-major column the longest (a major axis
-    # reported 89 degrees off); such a refit is not reported
+    # realisation 116 of the issue-4 shoot benchmark, kept as a regression case: the
+    # two-structure variogram refit with the likelihood's frame held once made the
+    # semi-major column the longest (a major axis reported 89 degrees off)
     F, df = shoot_benchmark_realisation(116)
     D = anisotropy.discover(df, value="grade", transform="raw", seed=116)
     for i in range(3):
         assert axis_err(D.frame[:, i], F[:, i]) < 10.0
-    rec = D.diagnostics["frame_refinement"]
-    assert rec["axis_order_agrees"]
-    nest = rec["nested"]
-    # the path this realisation exercises: the likelihood's second structure is kept, and
-    # its variogram refit, which relabels the axes, is not reported
-    assert nest["kept"] and not nest["structure_added"]
-    assert "changed which axis" in nest["not_added"]
-    why = next(c for c in D.choices if c["choice"] == "structures")["reason"]
-    assert "not reported" in why and "changed which axis" in why
+    assert D.diagnostics["frame_refinement"]["axis_order_agrees"]
 
 
 @pytest.mark.slow
-def test_two_structures_asked_for_start_from_the_one_structure_answer_too():
-    # realisation 110 of the issue-4 shoot benchmark with two structures asked for: the
-    # variogram's two-exponential fit runs a long structure with a tenth of the sill to
-    # the range limit and its likelihood search stays in that basin (major axis 73 degrees
-    # off); the second start, the one-structure likelihood with a shorter structure added,
-    # reaches a higher likelihood, and the variogram refit, which relabels that frame's
-    # axes, is not used
-    F, df = shoot_benchmark_realisation(110)
-    D = anisotropy.discover(df, value="grade", transform="raw", seed=110, structures=2)
-    rec = D.diagnostics["frame_refinement"]
-    starts = rec["two_structure_starts"]
-    assert starts["chosen"] == "one_structure_plus_shorter"
-    assert starts["one_structure_plus_shorter"] < starts["variogram_fit"]
-    for i in range(3):
-        assert axis_err(D.frame[:, i], F[:, i]) < 10.0
-    assert rec["likelihood_model_reported"] and rec["axis_order_agrees"]
-    assert any("relabelled" in c["reason"] for c in D.choices)
-    # the variogram picks exponential structures for this spherical truth, and the practical
-    # range of an exponential that matches a spherical one lies anywhere between about one
-    # and two spherical ranges; the distance at which each structure reaches half its sill
-    # along the major axis does not depend on the kind, so that is compared with the truth
-    short, long_ = sorted(D.model.structures, key=lambda s: s.ranges[0])
-    assert half_sill_distance(long_.kind, long_.ranges[0]) == pytest.approx(
-        half_sill_distance("spherical", 160.0), rel=0.3)
-    assert half_sill_distance(short.kind, short.ranges[0]) == pytest.approx(
-        half_sill_distance("spherical", 35.0), rel=0.35)
-    assert all(max(s.ranges) < 1000 for s in D.model.structures)
+def test_two_structures_asked_for_over_realisations():
+    # four realisations of the issue-4 shoot benchmark (seeds 108-111; 110 once came out
+    # 73 degrees off when the variogram's long structure ran to the range limit) with two
+    # structures asked for. Statistical property, from the 24-seed study in
+    # benchmarks/RESULTS.md (worst major error 10.4 degrees; median 3.9 over 24 seeds, 5.2
+    # over seeds 100-111): every axis of every realisation within 12 degrees, and the
+    # median of these four major errors under 8 (a median of four scatters); the long
+    # structure's half-sill distance along the major axis (which does not depend on the
+    # kind: the variogram picks exponentials for this spherical truth) within a factor of
+    # two of the truth's in each realisation and within 30 % in the median (one
+    # realisation's long range, near the longest lag, is poorly pinned)
+    majors, ratios = [], []
+    for seed in (108, 109, 110, 111):
+        F, df = shoot_benchmark_realisation(seed)
+        D = anisotropy.discover(df, value="grade", transform="raw", seed=seed, structures=2)
+        errs = [axis_err(D.frame[:, i], F[:, i]) for i in range(3)]
+        assert max(errs) < 12.0, (seed, errs)
+        majors.append(errs[0])
+        short, long_ = sorted(D.model.structures, key=lambda s: s.ranges[0])
+        assert all(max(s.ranges) < 1000 for s in D.model.structures)
+        ratios.append(half_sill_distance(long_.kind, long_.ranges[0])
+                      / half_sill_distance("spherical", 160.0))
+    assert np.median(majors) < 8.0, majors
+    assert all(0.5 < r < 2.0 for r in ratios), ratios
+    assert abs(np.median(ratios) - 1.0) < 0.3, ratios
 
 
 def half_sill_distance(kind, a):

@@ -15,7 +15,6 @@ import pytest
 from anisotropy.discovery.bins import downhole_nugget, weighted_bins, within_hole_pairs
 from anisotropy.discovery.lags import LagChoice, build_volume
 from anisotropy.exploration import nominal_spacing
-from anisotropy.geometry import fan_for_spacing
 
 
 def _holes(n_holes=5, n=25, step=2.0, seed=0):
@@ -31,22 +30,36 @@ def _holes(n_holes=5, n=25, step=2.0, seed=0):
     return np.concatenate(pts), np.array(ids)
 
 
+def _grid_holes(n_holes=8, n=20, seed=0):
+    """Holes on exact binary coordinates (multiples of 1/4 m), so every lag vector is exact."""
+    rng = np.random.default_rng(seed)
+    pts, ids = [], []
+    for h in range(n_holes):
+        step = rng.integers(-4, 5, size=3) / 4.0
+        step[2] = -abs(step[2]) - 1.0
+        pts.append(rng.integers(0, 400, 3) / 4.0 + np.arange(n)[:, None] * step)
+        ids += [f"H{h}"] * n
+    return np.concatenate(pts), np.array(ids)
+
+
 def test_within_hole_pairs_by_brute_force():
+    # reference: every pair of every hole enumerated (itertools), its class by the rule of
+    # design.md, and its cell by the engine's own table, called pair by pair
     coords, holes = _holes()
-    lag, n_lags = 5.0, 6
-    coarse = fan_for_spacing(20.0)
-    within, within_holes, _ = within_hole_pairs(coords, holes, lag, n_lags, coarse)
+    lc = LagChoice(unit_lag=5.0, n_lags=6)
+    pv = build_volume(coords, np.zeros(len(coords)), lc)
+    within, within_holes, _ = within_hole_pairs(pv.volume, coords, holes)
     want = np.zeros_like(within)
     seen = set()
     for i, j in itertools.combinations(range(len(coords)), 2):
         if holes[i] != holes[j]:
             continue
-        v = coords[j] - coords[i]
-        d = float(np.linalg.norm(v))
-        k = next((k for k in range(n_lags + 1) if (k - 0.5) * lag < d <= (k + 0.5) * lag), None)
+        d = float(np.linalg.norm(coords[j] - coords[i]))
+        k = next((k for k in range(lc.n_lags + 1) if (k - 0.5) * lc.unit_lag < d
+                  <= (k + 0.5) * lc.unit_lag), None)
         if k is None or d == 0:
             continue
-        cell = int(np.argmax(np.abs(coarse @ (v / d))))   # nearest coarse axis, undirected
+        cell = int(pv.volume.bins_of_pairs(coords, [i], [j])[1][0])
         want[k, cell] += 1
         seen.add((k, cell, holes[i]))
     assert np.array_equal(within, want)
@@ -54,6 +67,26 @@ def test_within_hole_pairs_by_brute_force():
     for k, cell, _ in seen:
         holes_per_cell[k, cell] += 1
     assert np.array_equal(within_holes, holes_per_cell)
+
+
+def test_within_hole_pairs_are_the_pass_own_counts_hole_by_hole():
+    # reference: the pair engine run on each hole alone (an exact count of that hole's pairs
+    # in each bin, by the pass itself); on exact coordinates the lag vectors are bit for bit
+    # those of the pass over all samples, so the counts must agree exactly, bin by bin
+    coords, holes = _grid_holes()
+    lc = LagChoice(unit_lag=4.0, n_lags=8)
+    pv = build_volume(coords, np.zeros(len(coords)), lc)
+    within, within_holes, _ = within_hole_pairs(pv.volume, coords, holes)
+    per_hole = []
+    for h in np.unique(holes):
+        m = holes == h
+        one = build_volume(coords[m], np.zeros(m.sum()), lc)
+        per_hole.append(one.volume.coarse_sums()[..., 0])
+    per_hole = np.array(per_hole)
+    assert np.array_equal(within, per_hole.sum(axis=0))
+    assert np.array_equal(within_holes, (per_hole > 0).sum(axis=0))
+    # and each bin's within-hole pairs are a subset of the pass's pairs of that bin
+    assert np.all(within <= pv.volume.coarse_sums()[..., 0])
 
 
 def test_downhole_nugget_is_the_line_through_the_first_two_lags():

@@ -440,3 +440,23 @@ def test_one_level_reads_the_pattern_too(rng):
     assert s.layout == "single_level"
     assert s.across_hole == pytest.approx(5.0, rel=0.04)
     assert s.plan_nearest < 4.5
+
+
+def test_explore_reports_the_lag_discover_starts_from():
+    # one rule: the lag explore reports is the one discover's lag stage takes (with a pair
+    # budget too large to shorten it); checked by hand for scattered samples: 20 lags out
+    # to half the extent, but not under half the median nearest-neighbour distance, and
+    # never fewer than 12 lags
+    from anisotropy.discovery.lags import choose_lags
+    from anisotropy.exploration import discovery_lags
+
+    rng = np.random.default_rng(5)
+    coords = rng.uniform(0, 200, (300, 3))
+    sp = nominal_spacing(coords)
+    half = 0.5 * float(np.max(coords.max(axis=0) - coords.min(axis=0)))
+    lag, n_lags, _ = discovery_lags(sp)
+    assert lag == float(f"{min(max(half / 20, 0.5 * sp.nearest), half / 12):.3g}")
+    assert n_lags == round(half / lag)
+    lc = choose_lags(coords, sp, pair_budget=1e12)
+    assert (lc.unit_lag, lc.n_lags) == (lag, n_lags)
+    assert sp.to_dict()["discovery_lag"]["unit_lag"] == lag

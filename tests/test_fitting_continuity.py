@@ -180,3 +180,17 @@ def test_continuity_along_one_direction_only_is_found():
     t = directional_test(y, pairs, cls, U, seed=1)
     assert t.significant
     assert abs(np.cos(np.radians(t.direction[1])) * np.sin(np.radians(t.direction[0]))) > 0.9
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_sparse_isotropic_continuity_is_seen_by_all_first_lag_pairs_together(seed):
+    # 150 scattered samples in a 200 m cube: about 150 pairs in the first lag band
+    # (10-30 m), too few for any one of 16 direction classes (30 pairs each at least),
+    # but a field of practical range 150 m (NumPy Cholesky, independent of the engine)
+    # makes all of them alike together: the family's pooled member must find it
+    rng = np.random.default_rng(200 + seed)
+    X = rng.uniform(0, 200, (150, 3))
+    y = _exp_field(X, rng, a=150.0)
+    chk = check_continuity(X, y, lag=20.0, seed=seed)
+    assert chk.first_lag.significant and chk.verdict == "resolved"
+    assert chk.first_lag.direction is None      # no class alone had enough pairs

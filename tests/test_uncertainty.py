@@ -578,3 +578,29 @@ def test_nugget_held_in_the_replicates_has_no_interval(rng):
     assert d["nugget"] is None
     assert any("nugget is held fixed" in n for n in d["notes"])
     assert "nugget held fixed" in res.summary()
+
+
+def test_confidence_interval_record_in_the_manner_of_scipy(rng):
+    # reference: the same bands read one by one through interval() and axis_summary(),
+    # whose percentile and BCa rules are held against numpy.quantile and
+    # scipy.stats.bootstrap in the tests at the top of this module
+    vol = _StandInVolume((8, 8, 1), (10, 10, 10), rng, _truth())
+    res = U.block_bootstrap(vol, _stand_in_refit, _reference(vol), n_replicates=40, seed=4)
+    ci = res.confidence_interval
+    assert ci.names[:3] == ("major", "semi_major", "minor")
+    assert ci.confidence_level == res.confidence
+    for k, name in enumerate(ci.names):
+        band = res.interval(name)
+        if band is None:          # held fixed: NaN bounds and the reason kept
+            assert np.isnan(ci.low[k]) and np.isnan(ci.high[k]) and name in ci.notes
+            continue
+        for got, want in zip((ci.low[k], ci.high[k]), band):
+            assert (np.isnan(got) and want is None) or got == want
+        if np.isfinite(ci.low[k]) and np.isfinite(ci.high[k]):
+            assert ci.low[k] <= ci.estimate[k] <= ci.high[k]
+    assert ci.notes["nugget"].startswith("the nugget is held fixed")
+    for i, axis in enumerate(("major", "semi_major", "minor")):
+        assert ci.cone_deg[axis] == res.axis_summary(i)["cone_deg"]
+    frame = ci.to_frame()
+    assert list(frame.index) == list(ci.names)
+    assert ci.to_dict()["intervals"]["nugget"]["low"] is None

@@ -2,7 +2,8 @@
 
 Most pairs of a drill-hole data set lie inside one hole, so a bin's pair
 count overstates its information.  The within-hole pairs of every bin are
-counted exactly (per hole, in NumPy), and the bin's information weight is
+counted exactly (per hole, and filed in the bins by the pair engine's own
+rule, so they are a subset of each bin's pairs), and the bin's information weight is
 ``N_between + H_within``: the pairs between different holes plus the number
 of distinct holes contributing within-hole pairs (each hole an independent
 look at that lag).  The weights enter the Cressie (1985) objective in place
@@ -20,7 +21,6 @@ import numpy as np
 from anisotropy.errors import InsufficientDataError
 from anisotropy.exploration import Spacing
 from anisotropy.fitting import FitBins, bins_from_sums
-from anisotropy.geometry import to_lower_hemisphere
 
 from anisotropy.discovery.lags import LagChoice, PairVolume
 
@@ -61,12 +61,12 @@ def information_weight(bins: FitBins, ratio) -> np.ndarray:
 
 def _drill_hole_ratio(pv, csums, coords, holes, values, spacing, lags, total, estimator):
     """Information per pair of each (class, cell), the down-hole nugget, and the choices."""
-    coarse = pv.coarse_directions
-    within, within_h, dh = within_hole_pairs(coords, holes, lags.unit_lag, lags.n_lags, coarse)
+    within, within_h, dh = within_hole_pairs(pv.volume, coords, holes)
     N = csums[..., 0]
+    if np.any(within > N):   # the same rule files both: a subset cannot outnumber its bin
+        raise AssertionError("within-hole pairs outnumber the pass's pairs in a bin")
     with np.errstate(invalid="ignore", divide="ignore"):
-        eff = np.maximum(N - within, 0.0) + within_h
-        ratio = np.where(N > 0, eff / N, 1.0)
+        ratio = np.where(N > 0, (N - within + within_h) / N, 1.0)
     choices = [{"choice": "drill-hole weights", "value": "between-hole pairs + holes",
                 "reason": f"{int(within.sum()):,} of {pv.n_pairs:,} pairs lie inside one "
                           "hole; each bin counts its between-hole pairs plus one per "
@@ -137,18 +137,68 @@ def weighted_bins(pv: PairVolume, coords, values, *, holes, spacing: Spacing,
                         min_pairs=min_pairs, choices=tuple(choices))
 
 
-def within_hole_pairs(coords, holes, lag, n_lags, coarse_dirs):
+def within_hole_pairs(volume, coords, holes):
     """Exact within-hole pair counts and distinct holes per (class, coarse cell).
 
     Samples are sorted by hole and, inside a hole, along its principal
     direction; pairs ``(a, a + step)`` of the same hole are formed for every
-    step (vectorised over holes).  Also returns the down-hole pairs of the
-    first six steps (distances and sample indices) for the nugget.
+    step (vectorised over holes) and filed in the bins by the pass's own rule
+    (:meth:`anisotropy.pairs.LagVolume.bins_of_pairs`), so each count is a
+    subset of the pass's count of the same bin.  Also returns the down-hole
+    pairs of the first six steps (distances and sample indices) for the
+    nugget.
+
+    Parameters
+    ----------
+    volume : anisotropy.pairs.LagVolume
+        The pass over all samples.
+    coords : ndarray (n, 3)
+        The coordinates the pass was built from.
+    holes : array_like (n,)
+        Hole id of each sample.
+
+    Returns
+    -------
+    within : ndarray (n_lags + 1, n_coarse)
+        Within-hole pairs of each bin.
+    within_holes : ndarray (n_lags + 1, n_coarse)
+        Holes contributing within-hole pairs to each bin.
+    downhole : tuple
+        Distances (m,) and sample indices (m, 2) of the down-hole pairs.
     """
-    max_d = (n_lags + 0.5) * lag
     codes, inv = np.unique(np.asarray(holes).astype(str), return_inverse=True)
-    n_c = coarse_dirs.shape[0]
-    # position along each hole's principal direction
+    order = np.lexsort((_position_along_hole(coords, inv), inv))
+    h_sorted = inv[order]
+    n_c = volume.coarse_directions.shape[0]
+    within = np.zeros((volume.n_lags + 1, n_c))
+    keys, dh_d, dh_i, dh_j = [], [], [], []
+    for step in range(1, len(order)):
+        ia = np.flatnonzero(h_sorted[step:] == h_sorted[:-step])
+        if ia.size == 0:
+            break
+        i, j = order[ia], order[ia + step]
+        k, cell = volume.bins_of_pairs(coords, i, j)
+        if step <= 6:
+            d = np.linalg.norm(coords[j] - coords[i], axis=1)
+            dh_d.append(d[d > 0])
+            dh_i.append(i[d > 0])
+            dh_j.append(j[d > 0])
+        ok = k >= 0
+        if not ok.any() and step > 6:
+            break
+        np.add.at(within, (k[ok], cell[ok]), 1.0)
+        keys.append((k[ok] * n_c + cell[ok]) * len(codes) + h_sorted[ia[ok]])
+    within_holes = np.zeros((volume.n_lags + 1) * n_c)
+    if keys:
+        np.add.at(within_holes, np.unique(np.concatenate(keys)) // len(codes), 1.0)
+    dh = (np.concatenate(dh_d) if dh_d else np.empty(0),
+          np.column_stack([np.concatenate(dh_i), np.concatenate(dh_j)]) if dh_i
+          else np.empty((0, 2), int))
+    return within, within_holes.reshape(within.shape), dh
+
+
+def _position_along_hole(coords, inv):
+    """Position of each sample along its hole's principal direction."""
     pos = np.zeros(len(coords))
     order = np.argsort(inv, kind="stable")
     starts = np.r_[0, np.flatnonzero(np.diff(inv[order])) + 1, len(order)]
@@ -158,47 +208,7 @@ def within_hole_pairs(coords, holes, lag, n_lags, coarse_dirs):
             p = coords[idx] - coords[idx].mean(axis=0)
             _, _, vt = np.linalg.svd(p, full_matrices=False)
             pos[idx] = p @ vt[0]
-    order = np.lexsort((pos, inv))
-    h_sorted = inv[order]
-    c_sorted = coords[order]
-    within = np.zeros((n_lags + 1, n_c))
-    keys = []
-    dh_d, dh_i, dh_j = [], [], []
-    n = len(order)
-    for step in range(1, n):
-        same = h_sorted[step:] == h_sorted[:-step]
-        if not same.any():
-            break
-        ia = np.flatnonzero(same)
-        ja = ia + step
-        v = c_sorted[ja] - c_sorted[ia]
-        d = np.linalg.norm(v, axis=1)
-        ok = (d > 0) & (d <= max_d)
-        if step <= 6:
-            dh_d.append(d[d > 0])
-            dh_i.append(order[ia[d > 0]])
-            dh_j.append(order[ja[d > 0]])
-        if not ok.any():
-            if step > 6:
-                break
-            continue
-        ia, v, d = ia[ok], v[ok], d[ok]
-        k = np.ceil(d / lag - 0.5).astype(int)
-        m = k <= n_lags
-        k, v, d, ia = k[m], v[m], d[m], ia[m]
-        u = to_lower_hemisphere(v / d[:, None])
-        cell = np.argmax(np.abs(u @ coarse_dirs.T), axis=1)
-        np.add.at(within, (k, cell), 1.0)
-        keys.append((k * n_c + cell) * len(codes) + h_sorted[ia])
-    within_holes = np.zeros((n_lags + 1) * n_c)
-    if keys:
-        uk = np.unique(np.concatenate(keys))
-        np.add.at(within_holes, uk // len(codes), 1.0)
-    within_holes = within_holes.reshape(n_lags + 1, n_c)
-    dh = (np.concatenate(dh_d) if dh_d else np.empty(0),
-          np.column_stack([np.concatenate(dh_i), np.concatenate(dh_j)]) if dh_i
-          else np.empty((0, 2), int))
-    return within, within_holes, dh
+    return pos
 
 
 def downhole_nugget(dh, values, composite, total, estimator):

@@ -8,13 +8,13 @@ from dataclasses import dataclass
 import numpy as np
 
 from anisotropy.errors import InputError, InsufficientDataError
-from anisotropy.exploration import Spacing
+from anisotropy.exploration import MIN_LAGS, Spacing, discovery_lags
 from anisotropy.geometry import fan_for_spacing
 from anisotropy.pairs import DEFAULT_COARSE_SPACING, LagVolume, estimate_pair_count
 from anisotropy.pairs import build_volume as _build_volume
 from anisotropy.uncertainty import engine_block_side
 
-from anisotropy.discovery.params import MAX_LAGS_AUTO, MIN_LAGS, PAIR_BUDGET
+from anisotropy.discovery.params import PAIR_BUDGET
 
 
 @dataclass(frozen=True)
@@ -55,43 +55,6 @@ def _requested(lag, n_lags, max_d, extent, choices):
         choices.append({"choice": "number of lags", "value": int(n_lags),
                         "reason": "as requested"})
     return lag, int(n_lags)
-
-
-def _from_spacing(spacing, holes, n_lags, max_d, extent, choices):
-    sl = dict(getattr(spacing, "suggested_lag", {}) or {})
-    base_key = "across_hole" if holes and sl.get("across_hole") else "omni"
-    base = sl.get(base_key) or spacing.nearest or max_d / MIN_LAGS
-    if not holes and getattr(spacing, "layout", None) == "scattered":
-        # scattered samples (no holes, no benches) give pairs at every separation
-        # and in every direction: the lag is set by the number of lags, not by a
-        # sampling pattern, but not under half the spacing (the first lags would
-        # hold few pairs)
-        lag = max(max_d / MAX_LAGS_AUTO, 0.5 * float(base))
-        reason = (f"scattered samples (no holes, no benches; median 3D nearest-neighbour "
-                  f"distance {base:.3g} m): pairs come at every separation, so the lag "
-                  f"gives {MAX_LAGS_AUTO} lags out to half the domain extent "
-                  f"({max_d:.0f} m), but not under half that spacing")
-    else:
-        lag = float(base)
-        reason = (f"the nominal {'across-hole' if base_key == 'across_hole' else 'sample'} "
-                  f"spacing {base:.3g} m (common practice: unit lag about the nominal "
-                  "spacing)")
-    if max_d / lag > MAX_LAGS_AUTO:
-        lag = max_d / MAX_LAGS_AUTO
-        reason += (f", lengthened to keep {MAX_LAGS_AUTO} lags out to half the domain "
-                   f"extent ({max_d:.0f} m): the fit bins stay few enough for a fast fit")
-    if max_d / lag < MIN_LAGS:
-        lag = max_d / MIN_LAGS
-        reason += (f", shortened so that at least {MIN_LAGS} lags reach half the "
-                   f"domain extent ({max_d:.0f} m)")
-    lag = float(f"{lag:.3g}")
-    choices.append({"choice": "unit lag", "value": lag, "reason": reason})
-    n_lags = int(n_lags) if n_lags is not None else int(max(4, round(max_d / lag)))
-    choices.append({"choice": "number of lags", "value": n_lags,
-                    "reason": ("as requested" if n_lags is None else
-                               f"lags out to half the largest extent of the domain "
-                               f"({extent:.0f} m, common practice)")})
-    return lag, n_lags
 
 
 def _within_budget(coords, lag, n_lags, budget, choices):
@@ -165,7 +128,8 @@ def choose_lags(coords, spacing: Spacing, *, has_holes=False, lag=None, n_lags=N
     if lag is not None:
         lag, n_lags = _requested(lag, n_lags, max_d, extent, choices)
     else:
-        lag, n_lags = _from_spacing(spacing, holes, n_lags, max_d, extent, choices)
+        lag, n_lags, rows = discovery_lags(spacing, has_holes=bool(holes), n_lags=n_lags)
+        choices += rows
         lag, n_lags, est = _within_budget(c, lag, n_lags, budget, choices)
     choices.append({"choice": "lag tolerance", "value": lag / 2,
                     "reason": "half the lag (common practice; classes are contiguous)"})

@@ -20,8 +20,6 @@ from anisotropy.estimators import ESTIMATORS
 DEFAULT_FAN_SPACING = 5.0       # degrees between fan directions
 DEFAULT_ANGULAR_TOLERANCE = 15.0  # degrees (common practice: 15-22.5)
 WIDE_ANGULAR_TOLERANCE = 30.0   # degrees, for directions thin at the default
-MIN_LAGS, MAX_LAGS_AUTO = 12, 20
-MIN_SAMPLES = 30
 PAIR_BUDGET = 1.5e8             # pairs in the one pass, for automatic lags
 N_RANDOM_STARTS = 8
 #: Frame refinement by the nearest-neighbour likelihood

@@ -11,7 +11,8 @@ from anisotropy.exploration import Exploration, explore
 from anisotropy.samples import SampleSet, read_samples, samples_from_frame
 from anisotropy.transform import TopCut, TransformResult, apply_top_cut, apply_transform
 
-from anisotropy.discovery.params import MIN_SAMPLES, DiscoverParams
+from anisotropy.constants import MIN_SAMPLES
+from anisotropy.discovery.params import DiscoverParams
 
 
 @dataclass(frozen=True)

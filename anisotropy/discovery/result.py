@@ -400,8 +400,9 @@ class Discovery:
         Returns
         -------
         anisotropy.uncertainty.BootstrapResult
-            Not stored on the result (``discover(bootstrap=n)`` stores it as
-            ``uncertainty``).
+            Its ``confidence_interval`` holds the bands (low and high per
+            quantity, cones per axis). Not stored on the result
+            (``discover(bootstrap=n)`` stores it as ``uncertainty``).
         """
         if method not in ("block", "model"):
             raise InputError(f"bootstrap method {method!r} is not known; use 'block' "

@@ -584,6 +584,45 @@ class LagVolume:
         full[m, m, m] = self.map_sums[m, m, m]
         return (np.arange(-m, m + 1) * self.map_cell, full)
 
+    def bins_of_pairs(self, coords, i, j) -> tuple:
+        """Distance class and coarse cell of the pairs ``(i, j)``, by this pass's own rule.
+
+        The lag vector is formed as the pass forms it (coordinates less the
+        pass's origin, ``block_origin``), its class is ``ceil(d / lag - 1/2)``
+        and its cell is the lookup table's fine cell mapped to its coarse cell
+        (``fine_to_coarse``), with the same canonical orientation. Counts made
+        with it therefore agree pair for pair with the pass's, which is what a
+        subset of the pairs (those inside one drill hole, say) needs to be
+        subtracted from the pass's bins.
+
+        Parameters
+        ----------
+        coords : array_like (n, 3)
+            The coordinates the volume was built from.
+        i, j : array_like of int (m,)
+            The pairs' sample indices.
+
+        Returns
+        -------
+        k : ndarray of int64 (m,)
+            Distance class, -1 for a pair beyond the pass's reach.
+        cell : ndarray of int64 (m,)
+            Coarse cell (row of ``coarse_directions``).
+        """
+        c = np.asarray(coords, dtype=np.float64) - self.block_origin
+        v = c[np.asarray(j)] - c[np.asarray(i)]
+        d2 = v[:, 0] * v[:, 0] + v[:, 1] * v[:, 1] + v[:, 2] * v[:, 2]
+        d = np.sqrt(d2)
+        with np.errstate(invalid="ignore"):
+            k = np.maximum(np.ceil(d / self.lag - 0.5), 0.0)
+        beyond = (d2 > (self.max_distance * (1 + 1e-12)) ** 2) | (k > self.n_lags)
+        k = np.where(beyond, -1, k).astype(np.int64)
+        fine = np.zeros(len(v), dtype=np.int64)       # coincident points: first cell
+        moved = d2 > 0.0
+        if moved.any():
+            fine[moved] = _lattice.lookup(v[moved], _lattice.direction_table(self.directions))
+        return k, np.asarray(self.fine_to_coarse, dtype=np.int64)[fine]
+
     def to_dict(self) -> dict:
         """JSON-ready summary (no arrays)."""
         return {
