@@ -194,3 +194,21 @@ def test_sparse_isotropic_continuity_is_seen_by_all_first_lag_pairs_together(see
     chk = check_continuity(X, y, lag=20.0, seed=seed)
     assert chk.first_lag.significant and chk.verdict == "resolved"
     assert chk.first_lag.direction is None      # no class alone had enough pairs
+
+
+def test_a_first_lag_without_pairs_between_holes_is_said_in_words():
+    # holes 60 m apart and a 10 m lag: the first lag band (5-15 m) holds only down-hole
+    # pairs, none between holes (checked by brute force over all pairs)
+    rng = np.random.default_rng(11)
+    nh, per = 9, 20
+    hx, hy = np.meshgrid(np.arange(3) * 60.0, np.arange(3) * 60.0)
+    X = np.column_stack([np.repeat(hx.ravel(), per), np.repeat(hy.ravel(), per),
+                         -2.0 * np.tile(np.arange(per, dtype=float), nh)])
+    holes = np.repeat(np.arange(nh), per)
+    d = np.linalg.norm(X[:, None] - X[None], axis=2)
+    i, j = np.triu_indices(len(X), 1)
+    assert not np.any((d[i, j] > 5) & (d[i, j] <= 15) & (holes[i] != holes[j]))
+    y = np.concatenate([_exp_field(X[h * per:(h + 1) * per], rng, a=20.0) for h in range(nh)])
+    chk = check_continuity(X, y, lag=10.0, seed=3, holes=holes, shortest_downhole=2.0)
+    assert chk.verdict == "shorter_than_first_lag"
+    assert "too few pairs between different holes" in chk.text and "nan" not in chk.text

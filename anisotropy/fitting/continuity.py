@@ -421,11 +421,11 @@ def check_continuity(coords, values, *, lag, k=6, permutations=DEFAULT_PERMUTATI
     cls, dirs = direction_classes(X, pl)
     tl = directional_test(y, pl, cls, dirs, name="first_lag", permutations=permutations,
                           alpha=alpha, seed=int(rng.integers(2 ** 31)), distances=dl)
-    verdict, text = _verdict(tn, tl, lag, shortest_downhole)
+    verdict, text = _verdict(tn, tl, lag, shortest_downhole, holes is not None)
     return ContinuityCheck(tn, tl, verdict, text)
 
 
-def _verdict(tn, tl, lag, shortest_downhole):
+def _verdict(tn, tl, lag, shortest_downhole, across_holes=False):
     """The verdict of the two tests, and its words for the record."""
     if tl.significant:
         return "resolved", ""
@@ -436,6 +436,9 @@ def _verdict(tn, tl, lag, shortest_downhole):
     first = (f"the first lag ({lag:.3g} m: Geary ratio {tl.ratio:.2f} in {where_l}, the "
              f"member that stands out most, permutation p = {tl.p_value:.3g} over "
              f"{tl.n_pairs:,} pairs)")
+    if not np.isfinite(tl.ratio):
+        first = (f"the first lag ({lag:.3g} m), which holds too few pairs"
+                 + (" between different holes" if across_holes else "") + " to test")
     if not tn.significant:
         return "none", (
             "no spatial continuity is resolved: samples close together are no more alike "
