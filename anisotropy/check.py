@@ -522,33 +522,41 @@ def decide_verdict(*, outside: bool, worse: bool, placed: bool, strong: bool,
     return "uncertain"
 
 
-def _candidate_frames(discovery):
-    """The reported frame and the likelihood's rival frames (columns major, semi, minor)."""
-    cand = (getattr(getattr(discovery, "refinement", None), "record", None) or {}).get(
-        "frame_candidates") or {}
-    rows = [c for c in cand.get("candidates") or [] if c.get("rival")]
-    frames = [np.asarray(discovery.frame, dtype=float)]
+def candidate_frames(frame, frame_candidates) -> list:
+    """The reported frame and the likelihood's rival frames (columns major, semi, minor).
+
+    Parameters
+    ----------
+    frame : ndarray (3, 3)
+        The reported frame.
+    frame_candidates : dict or None
+        ``diagnostics.frame_candidates`` of the result; its rows flagged
+        ``rival`` are the frames the likelihood cannot tell from the reported one.
+    """
+    rows = [c for c in (frame_candidates or {}).get("candidates") or [] if c.get("rival")]
+    frames = [np.asarray(frame, dtype=float)]
     for c in rows:
         frames.append(np.column_stack([line_to_vector(c["axes"][a]["trend"],
                                                       c["axes"][a]["plunge"]) for a in AXES]))
     return frames
 
 
-def data_cannot_tell(discovery, interp: dict, support: dict, practical_deg: float) -> str:
+def data_cannot_tell(frames, continuity, interp: dict, support: dict,
+                     practical_deg: float) -> str:
     """Why the data cannot judge the interpretation, or "" when they can.
 
-    They cannot when the samples show no spatial continuity at all, or when
-    the likelihood has a rival frame as well supported as the reported one and
-    the interpretation matches one of the two (every interpreted axis within
-    its cone, or within ``practical_deg``, of that frame's axis): agreeing
-    with one candidate and not the other is then no evidence either way.
+    They cannot when the samples show no spatial continuity at all
+    (``continuity["verdict"] == "none"``), or when the likelihood has a rival
+    frame as well supported as the reported one (``frames`` beyond the first,
+    see :func:`candidate_frames`) and the interpretation matches one of them
+    (every interpreted axis within its cone, or within ``practical_deg``, of
+    that frame's axis): agreeing with one candidate and not the other is then
+    no evidence either way.
     """
-    diag = getattr(discovery, "diagnosis", None)
-    cont = getattr(diag, "continuity", None) or {}
-    if cont and cont.get("verdict") == "none":
+    cont = continuity or {}
+    if cont.get("verdict") == "none":
         return ("the data cannot tell: " + cont.get("text", "no continuity is resolved at the "
                                                     "lag scale"))
-    frames = _candidate_frames(discovery)
     if len(frames) < 2:
         return ""
     matches = []
@@ -567,7 +575,10 @@ def data_cannot_tell(discovery, interp: dict, support: dict, practical_deg: floa
 
 def _unless_undecided(verdict, reasons, discovery, interp, support, th) -> str:
     """"cannot tell" (with its reason appended) where :func:`data_cannot_tell` says so."""
-    undecided = data_cannot_tell(discovery, interp, support, th["practical_deg"])
+    record = discovery.refinement.record or {}
+    frames = candidate_frames(discovery.frame, record.get("frame_candidates"))
+    undecided = data_cannot_tell(frames, discovery.diagnosis.continuity, interp, support,
+                                 th["practical_deg"])
     if not undecided:
         return verdict
     reasons.append(undecided)

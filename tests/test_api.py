@@ -1,6 +1,5 @@
 """The public API in anisotropy/__init__.py: every listed name resolves, and
-the two functions that share their module's name stay functions however the
-submodules were imported."""
+the public functions stay functions however the submodules were imported."""
 
 import importlib
 import inspect

@@ -393,9 +393,7 @@ def test_cli_reads_the_strike_form_and_side_pitch_like_the_default_form():
 
 
 def test_the_data_cannot_tell_between_a_rival_frame_and_the_reported_one():
-    from types import SimpleNamespace
-
-    from anisotropy.check import data_cannot_tell
+    from anisotropy.check import candidate_frames, data_cannot_tell
 
     F = np.eye(3)
     F[:, 2] *= -1
@@ -403,17 +401,20 @@ def test_the_data_cannot_tell_between_a_rival_frame_and_the_reported_one():
     rival = {"rival": True, "axes": {"major": {"trend": 0.0, "plunge": 0.0},
                                      "semi_major": {"trend": 90.0, "plunge": 0.0},
                                      "minor": {"trend": 0.0, "plunge": 90.0}}}
-    disc = SimpleNamespace(frame=F, diagnosis=SimpleNamespace(continuity={"verdict": "resolved"}),
-                           refinement=SimpleNamespace(record={"frame_candidates": {
-                               "candidates": [{"rival": False}, rival]}}))
+    frames = candidate_frames(F, {"candidates": [{"rival": False}, rival]})
+    assert len(frames) == 2       # the reported frame and the one rival
+    resolved = {"verdict": "resolved"}
     east, north = np.array([1.0, 0, 0]), np.array([0, 1.0, 0])
     support = {"major": {"cone_deg": 5.0}}
     # the reported major runs east (column 0), the rival's north: an interpretation along
     # either is no evidence either way; one 45 degrees off both is judged as usual
-    assert "cannot tell" in data_cannot_tell(disc, {"major": north}, support, 10.0)
-    assert "cannot tell" in data_cannot_tell(disc, {"major": east}, support, 10.0)
+    assert "cannot tell" in data_cannot_tell(frames, resolved, {"major": north}, support, 10.0)
+    assert "cannot tell" in data_cannot_tell(frames, resolved, {"major": east}, support, 10.0)
     diag = np.array([1.0, 1.0, 0]) / np.sqrt(2)
-    assert data_cannot_tell(disc, {"major": diag}, support, 10.0) == ""
+    assert data_cannot_tell(frames, resolved, {"major": diag}, support, 10.0) == ""
+    # without a rival, an interpretation along the reported frame is judged as usual
+    assert data_cannot_tell(frames[:1], resolved, {"major": east}, support, 10.0) == ""
     # no spatial continuity at all: the data cannot judge any interpretation
-    disc.diagnosis.continuity = {"verdict": "none", "text": "no spatial continuity"}
-    assert "no spatial continuity" in data_cannot_tell(disc, {"major": diag}, support, 10.0)
+    none = {"verdict": "none", "text": "no spatial continuity"}
+    assert "no spatial continuity" in data_cannot_tell(frames, none, {"major": diag}, support,
+                                                       10.0)

@@ -185,26 +185,30 @@ def test_planar_in_plane_axes_keep_their_own_advice():
 
 
 def test_diagnose_on_one_bench_says_one_level_cannot_resolve_the_minor_axis():
-    from types import SimpleNamespace
+    # the stages run on one bench of blast holes (a jittered 3 m pattern, one level): every
+    # lag bin is horizontal, so nothing can resolve the vertical minor axis
+    from anisotropy import simulate_field
+    from anisotropy.discovery import (build_volume, choose_lags, diagnose, fan_ranges,
+                                      weighted_bins)
+    from anisotropy.exploration import nominal_spacing
 
-    from anisotropy.discovery.diagnose import diagnose
-
+    rng = np.random.default_rng(4)
+    g = np.stack(np.meshgrid(np.arange(30) * 3.0, np.arange(30) * 3.0), -1).reshape(-1, 2)
+    coords = np.c_[g + rng.normal(0, 0.3, g.shape), np.zeros(len(g))]
     # a bench model: spherical ranges 60/30/30 m (the minor a placeholder), vertical minor
     model = NestedModel(nugget=0.1, structures=[Structure("spherical", 0.9, (60.0, 30.0, 30.0))],
                         frame=np.eye(3))
-    az = np.radians(np.arange(0, 180, 22.5))
-    dirs = np.column_stack([np.sin(az), np.cos(az), np.zeros_like(az)])
-    dist = np.tile(np.arange(1, 13) * 3.0, (len(dirs), 1))
-    value = np.array([model.variogram(dist[j][:, None] * u) for j, u in enumerate(dirs)])
-    fan = SimpleNamespace(directions=dirs, distance=dist, value=value,
-                          pairs=np.full(dist.shape, 200.0), min_pairs=30.0,
-                          tolerances=np.full(len(dirs), 15.0), tolerance=15.0,
-                          ranges=SimpleNamespace(n_thin=0))
-    lags, pairs = _bench()
-    bins = SimpleNamespace(lags=lags, pairs=pairs)
-    spacing = SimpleNamespace(layout="benches", nearest=3.0, across_hole=None)
-    D = diagnose(model, fan, bins, spacing=spacing, has_holes=False, planar=True,
-                 max_distance=36.0, max_range=720.0, min_pairs=30, transform_kind="raw")
+    values = simulate_field(coords, model, seed=5) + 10.0
+    spacing = nominal_spacing(coords)
+    lags = choose_lags(coords, spacing)
+    pv = build_volume(coords, values, lags)
+    total = float(np.var(values))
+    wb = weighted_bins(pv, coords, values, holes=None, spacing=spacing, lags=lags, total=total)
+    fan = fan_ranges(pv.volume, wb.bins, total=total, planar=True)
+    D = diagnose(model, fan, wb.bins, spacing=spacing, has_holes=False, planar=True,
+                 max_distance=lags.max_distance, max_range=720.0, min_pairs=30,
+                 transform_kind="raw")
+    assert spacing.layout == "single_level"
     assert "minor" in D.unresolved_axes and "minor" in D.unresolved_ranges
     minor = [t for t in D.warnings if t.startswith("the minor")]
     assert len(minor) == 1 and "one level cannot resolve the axis across it" in minor[0]
