@@ -212,3 +212,27 @@ def test_a_first_lag_without_pairs_between_holes_is_said_in_words():
     chk = check_continuity(X, y, lag=10.0, seed=3, holes=holes, shortest_downhole=2.0)
     assert chk.verdict == "shorter_than_first_lag"
     assert "too few pairs between different holes" in chk.text and "nan" not in chk.text
+
+
+def test_permuted_ratios_are_gearys_ratio_of_the_same_shuffle():
+    # reference: the same shuffles replayed with NumPy's legacy generator (the compiled
+    # code seeds and shuffles as numpy.random.seed / numpy.random.shuffle do), each
+    # group's ratio and the pooled one by geary_ratio (checked against the weight matrix
+    # definition above)
+    from anisotropy.fitting.continuity import _permuted_group_ratios, direction_classes
+
+    rng = np.random.default_rng(12)
+    X = rng.uniform(0, 60, (120, 3))
+    y = rng.standard_normal(120)
+    pairs, _ = band_pairs(X, 5.0, 15.0)
+    cls, U = direction_classes(X, pairs)
+    scale = (len(y) - 1) / np.sum((y - y.mean()) ** 2)
+    got = _permuted_group_ratios(y, pairs[:, 0].copy(), pairs[:, 1].copy(), cls, len(U),
+                                 scale, 3, 7)
+    np.random.seed(7)
+    yp = y.copy()
+    for b in range(3):
+        np.random.shuffle(yp)
+        assert got[b, -1] == pytest.approx(geary_ratio(yp, pairs), rel=1e-12)
+        for q in np.unique(cls):
+            assert got[b, q] == pytest.approx(geary_ratio(yp, pairs[cls == q]), rel=1e-12)

@@ -239,21 +239,26 @@ def _group_ratios(y, i, j, g, n_groups, scale):
 
 @njit(cache=True)
 def _permuted_group_ratios(y, i, j, g, n_groups, scale, n_perm, seed):
-    """Each group's ratio and, in the last column, the ratio of all pairs, per permutation."""
+    """Each group's ratio and, in the last column, the ratio of all pairs, per permutation.
+
+    The pooled ratio is the pair-weighted mean of the group ratios (the counts
+    do not change under permutation).
+    """
     np.random.seed(seed)
+    counts = np.zeros(n_groups)
+    for k in range(g.shape[0]):
+        counts[g[k]] += 1.0
     out = np.empty((n_perm, n_groups + 1))
     yp = y.copy()
     for b in range(n_perm):
         np.random.shuffle(yp)
-        s = np.zeros(n_groups)
-        c = np.zeros(n_groups)
-        for k in range(i.shape[0]):
-            d = yp[i[k]] - yp[j[k]]
-            s[g[k]] += d * d
-            c[g[k]] += 1.0
+        r = _group_ratios(yp, i, j, g, n_groups, scale)
+        pooled = 0.0
         for q in range(n_groups):
-            out[b, q] = scale * s[q] / (2.0 * c[q]) if c[q] > 0 else np.nan
-        out[b, n_groups] = scale * s.sum() / (2.0 * c.sum())
+            out[b, q] = r[q]
+            if counts[q] > 0:
+                pooled += r[q] * counts[q]
+        out[b, n_groups] = pooled / counts.sum()
     return out
 
 
