@@ -12,6 +12,7 @@ import functools
 import hashlib
 import os
 from pathlib import Path
+from anisotropy import __version__
 
 __all__ = ["run_record", "file_sha256"]
 
@@ -78,7 +79,6 @@ def run_record(source, options: dict, seed, command: str | None = None) -> dict:
     -------
     dict
     """
-    from anisotropy import __version__
 
     sha = file_sha256(source)
     return {

@@ -66,6 +66,7 @@ from anisotropy.errors import InputError, InterpretationError
 from anisotropy.geometry import (axis_angle, frame_from_axes, line_from_pitch, line_to_vector,
                                  pitch_of, plane_to_pole, pole_to_plane, to_lower_hemisphere,
                                  vector_to_line)
+from anisotropy import uncertainty as unc
 
 __all__ = [
     "DEFAULT_THRESHOLDS",
@@ -605,7 +606,6 @@ def check_interpretation(discovery, interpretation: Interpretation, *, threshold
     -------
     CheckResult
     """
-    from anisotropy import uncertainty as unc
 
     if not isinstance(interpretation, Interpretation):
         raise InputError("check_interpretation needs an Interpretation; build it with "

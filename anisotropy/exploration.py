@@ -34,6 +34,7 @@ from scipy.spatial import ConvexHull, QhullError
 from scipy.spatial import cKDTree as _KDTree  # private: not part of this module's API
 
 from anisotropy.errors import DataError, InputError, InsufficientDataError
+from anisotropy.geometry import vector_to_line
 
 __all__ = [
     "DEFAULT_QUANTILES",
@@ -1014,7 +1015,6 @@ def trend_check(coords, values, *, threshold: float = TREND_R2_THRESHOLD) -> Tre
         notes.append(f"Quadratic trend skipped: {v.size} samples for {n_quad + 1} coefficients.")
     g_trend = g_plunge = az = inc = None
     if np.linalg.norm(grad) > 0:
-        from anisotropy.geometry import vector_to_line
 
         g_trend, g_plunge = vector_to_line(grad)
         az = float(np.degrees(np.arctan2(grad[0], grad[1])) % 360.0)

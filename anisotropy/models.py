@@ -34,6 +34,7 @@ import numpy as np
 
 from anisotropy.errors import InputError
 from anisotropy.geometry import angles_from_frame, is_rotation
+from anisotropy.geometry import frame_from_angles
 
 __all__ = [
     "STRUCTURE_KINDS",
@@ -445,7 +446,6 @@ class NestedModel:
             raise InputError("a model needs at least 'nugget' and 'structures' keys.")
         frame = d.get("frame")
         if frame is None and "angles" in d:
-            from anisotropy.geometry import frame_from_angles
 
             a = d["angles"]
             frame = frame_from_angles(a["azimuth"], a["plunge"], a["rotation"])

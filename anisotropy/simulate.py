@@ -72,6 +72,7 @@ import scipy.linalg
 
 from anisotropy.errors import InputError
 from anisotropy.models import NestedModel, scaled_coordinates
+from anisotropy.models import correlation
 
 __all__ = [
     "simulate_field",
@@ -116,7 +117,6 @@ def _spherical_table():
 @functools.lru_cache(maxsize=None)
 def _cubic_table():
     """Inverse-CDF table of |w| for the unit-range cubic model."""
-    from anisotropy.models import correlation
 
     r, wts = np.polynomial.legendre.leggauss(400)
     r = 0.5 * (r + 1.0)

@@ -30,6 +30,7 @@ Beyond the table the tails follow the model stated in ``tails``
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass, field
 from typing import Callable
 
@@ -38,6 +39,7 @@ import pandas as pd
 from scipy import stats
 
 from anisotropy.errors import DataError, InputError, InsufficientDataError
+from anisotropy.exploration import suggested_topcut, topcut_candidates
 
 __all__ = [
     "NormalScore",
@@ -697,7 +699,6 @@ def choose_top_cut(values, top_cut) -> tuple[float, str, str]:
     InsufficientDataError
         ``"auto"`` on too few samples for any candidate.
     """
-    from anisotropy.exploration import suggested_topcut, topcut_candidates
 
     if top_cut != "auto":
         return float(top_cut), "given", "as requested"
@@ -733,7 +734,6 @@ def apply_top_cut(samples, top_cut, mode="cap", *, choices=None):
         under its own reason, with a warning saying what was done; and the
         record. With ``top_cut=None`` the input and None.
     """
-    import dataclasses
 
     top_cut, mode = parse_top_cut(top_cut, mode)
     if top_cut is None:

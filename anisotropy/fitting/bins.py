@@ -28,6 +28,7 @@ import numpy as np
 # the pair engine's channel order, from the one place it is written
 from anisotropy.constants import CHANNEL_INDEX
 from anisotropy.constants import CHANNELS as _CHANNELS
+from anisotropy.estimators import estimate
 
 __all__ = ["FitBins", "bins_from_sums", "CHANNEL_INDEX", "DEFAULT_MIN_PAIRS"]
 
@@ -98,7 +99,6 @@ def _estimate(sums, estimator):
         n = sums[..., CHANNEL_INDEX["count"]]
         with np.errstate(invalid="ignore", divide="ignore"):
             return np.where(n > 0, sums[..., CHANNEL_INDEX["sq"]] / (2.0 * n), np.nan)
-    from anisotropy.estimators import estimate
 
     return np.asarray(estimate(sums, estimator), dtype=float)
 

@@ -23,6 +23,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from anisotropy.fitting.nested import rho
+from anisotropy.geometry import vector_to_line
 
 __all__ = ["DirectionRanges", "direction_ranges"]
 
@@ -70,7 +71,6 @@ class DirectionRanges:
         return int(sum(f == "thin" for f in self.flag))
 
     def to_dict(self) -> dict:
-        from anisotropy.geometry import vector_to_line
 
         t, p = vector_to_line(self.directions)
         rows = []
