@@ -56,6 +56,7 @@ orientation and are skipped.
 
 Run:  python benchmarks/exact_likelihood.py [--realisations 12] [--scenarios holes]
       [--max-samples 2500] [--json referee.json] [--compare engine.json]
+      python benchmarks/exact_likelihood.py --from-json referee.json --compare engine.json
 """
 
 from __future__ import annotations
@@ -488,7 +489,20 @@ def main(argv=None):
     ap.add_argument("--json", default=None, help="write the rows to this JSON file")
     ap.add_argument("--compare", default=None,
                     help="bench_discover.py --json output to hold against the referee")
+    ap.add_argument("--from-json", default=None,
+                    help="read the referee's rows from an earlier --json file instead of "
+                         "computing them (with --compare: redo the comparison only)")
     a = ap.parse_args(argv)
+    if a.from_json:
+        with open(a.from_json) as f:
+            rows = json.load(f)
+        print(summarise(rows))
+        if a.compare:
+            with open(a.compare) as f:
+                eng = json.load(f)
+            print()
+            print(compare(rows, eng["accuracy"] if isinstance(eng, dict) else eng))
+        return
     got, want = sanity()
     print(f"sanity: profile log-likelihood {got:.6f}, scipy.stats {want:.6f}", file=sys.stderr)
     rows = []
