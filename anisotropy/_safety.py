@@ -2,9 +2,9 @@
 
 Strings that come from the input (file names, column names, domain names,
 free text in a config) end up in HTML pages, folder names and CSV files.
-This module keeps each of those uses harmless:
+This module keeps each of those uses harmless (the HTML pages escape every
+value through their Jinja2 templates, see :mod:`anisotropy.report.templating`):
 
-* :func:`escape` turns any value into HTML text (never markup);
 * :func:`safe_folder_name` / :func:`folder_names` turn domain names into
   folder names that stay inside the output folder, are distinct from one
   another (also on case-insensitive file systems) and are valid on Windows;
@@ -23,7 +23,6 @@ from __future__ import annotations
 
 import csv
 import hashlib
-import html
 import io
 import json
 import math
@@ -39,7 +38,6 @@ import numpy as np
 from anisotropy.errors import InputError
 
 __all__ = [
-    "escape",
     "safe_folder_name",
     "folder_names",
     "inside",
@@ -52,30 +50,6 @@ __all__ = [
     "json_ready",
     "finite_or_none",
 ]
-
-# ---------------------------------------------------------------------------
-# HTML
-# ---------------------------------------------------------------------------
-
-
-def escape(value: Any) -> str:
-    """Return ``value`` as HTML text, with ``& < > " '`` escaped.
-
-    Parameters
-    ----------
-    value : object
-        Anything; ``None`` becomes the empty string, other objects their
-        ``str()``.
-
-    Returns
-    -------
-    str
-        Safe to place in element content and in quoted attribute values.
-    """
-    if value is None:
-        return ""
-    return html.escape(str(value), quote=True)
-
 
 # ---------------------------------------------------------------------------
 # folder names

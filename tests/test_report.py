@@ -10,6 +10,8 @@ when it is installed.
 """
 
 import base64
+import dataclasses
+import html
 import io
 import shutil
 import struct
@@ -145,8 +147,9 @@ def test_figures_return_figures_and_write_pngs(tmp_path):
 # the HTML report of a real (small) discovery
 # ---------------------------------------------------------------------------
 
-EVIL_VALUE = "au<script>x</script>"
-EVIL_DOMAIN = "<img src=x onerror=alert(1)>"
+EVIL_VALUE = "au & ag <script>alert(1)</script>"
+EVIL_DOMAIN = "<img src=x onerror=alert(1)> & co"
+EVIL_WARNING = "a warning that quotes <script>alert(1)</script> & more"
 
 
 def _small_table():
@@ -177,6 +180,8 @@ def report(tmp_path_factory):
     disc = discover(df, value=EVIL_VALUE, domain="zone", domain_value=EVIL_DOMAIN, hole="hole",
                     bootstrap=3, fan_spacing=12, seed=1)
     chk = check_interpretation(disc, Interpretation.from_plane(20, 70, 25))
+    # a warning that quotes hostile text, as a warning quoting a column name would
+    disc = dataclasses.replace(disc, warnings=[*disc.warnings, EVIL_WARNING])
     out = tmp_path_factory.mktemp("report")
     path = render_report(disc, out, check=chk, topcut=float(np.quantile(df[EVIL_VALUE], 0.98)))
     return path
@@ -197,7 +202,8 @@ class _Page(HTMLParser):
         self.refs += [v for k, v in attrs if k in ("href", "src")]
 
     def handle_data(self, data):
-        self.text.append(data)
+        # runs of white space read as one space, as a browser shows them
+        self.text.append(" ".join(data.split()))
 
 
 def _parse(path):
@@ -234,7 +240,14 @@ def test_report_content_and_escaping(report):
     # html.parser sees the hostile value and domain names only as text
     assert "script" not in page.tags and page.tags.count("img") == len(page.imgs)
     assert all(img.get("onerror") is None for img in page.imgs)
-    assert EVIL_VALUE in text and EVIL_DOMAIN in text
+    assert EVIL_VALUE in text and EVIL_DOMAIN in text and EVIL_WARNING in text
+    # reference: html.escape of the Python standard library; the file holds the column name,
+    # the domain name and the warning escaped (none has a quote character), and no script
+    raw = report.read_text(encoding="utf-8")
+    for s in (EVIL_VALUE, EVIL_DOMAIN, EVIL_WARNING):
+        assert html.escape(s, quote=False) in raw, s
+    assert f"<li class='warn'>{html.escape(EVIL_WARNING, quote=False)}</li>" in raw
+    assert "<script>alert" not in raw and "<img src=x" not in raw
     for needed in ("JORC", "NI 43-101", "SAMREC", "PERC", "competent or qualified person",
                    "domaining", "Samples dropped or changed", "top-cut", "Transform",
                    "Model for estimation", "range major (m)", "Verdict", "Warnings",
@@ -259,6 +272,37 @@ def test_report_labels_lags_and_choices_with_units(report):
     assert "across_hole" not in text and "across hole" in text
 
 
+def test_templates_escape_every_value_as_text():
+    import jinja2
+
+    from anisotropy.report.templating import environment, png_data_uri
+
+    env = environment()
+    frame = env.from_string("<p title='{{ s }}'>{{ s }}</p><img alt=\"{{ s }}\">")
+    for s in ("<script>alert(1)</script>", "a & b", "\"quoted\" & 'single'", "x'><b>y</b>",
+              "../../<img src=x onerror=alert(1)>"):
+        out = frame.render(s=s)
+        if "'" not in s and '"' not in s:
+            # reference: html.escape of the standard library (for quotes the two differ
+            # only in spelling, &#34; against &quot;, so those go to the parser below)
+            assert f">{html.escape(s, quote=False)}</p>" in out
+        # reference: html.parser (what a browser reads): only the two elements, the
+        # string back as text and as both attribute values
+        p = _Page()
+        p.feed(out)
+        p.close()
+        assert p.tags == ["p", "img"] and "".join(p.text) == " ".join(s.split())
+        assert p.imgs[0]["alt"] == s
+    # None prints as nothing; a name the template does not get is an error, not a blank
+    assert env.from_string("[{{ v }}]").render(v=None) == "[]"
+    with pytest.raises(jinja2.UndefinedError):
+        env.from_string("{{ missing }}").render()
+    # the one value marked safe: a PNG data URI, whose alphabet escaping would not change
+    uri = png_data_uri(b"\x89PNG<&>'\"" * 3)
+    assert str(uri) == html.escape(str(uri), quote=True)
+    assert base64.b64decode(str(uri).split(",", 1)[1]) == b"\x89PNG<&>'\"" * 3
+
+
 @pytest.mark.skipif(not (shutil.which("chromium") or Path("/usr/bin/chromium").exists()),
                     reason="Chromium is not installed")
 def test_report_draws_in_headless_chromium(report, tmp_path):
@@ -281,14 +325,17 @@ def test_report_draws_in_headless_chromium(report, tmp_path):
                     reason="Chromium is not installed")
 def test_chromium_reports_a_blocked_remote_image(tmp_path):
     # the negative control of the test above: the same page frame with a remote image
-    from anisotropy.report.style import page
+    from anisotropy.report.templating import environment
 
-    html = tmp_path / "remote.html"
-    html.write_text(page("t", "<p>x</p><img src='http://192.0.2.1/x.png'>"), encoding="utf-8")
+    frame = environment().from_string(
+        "{% extends 'base.html.j2' %}{% block body %}<p>x</p>"
+        "<img src='http://192.0.2.1/x.png'>{% endblock %}")
+    page = tmp_path / "remote.html"
+    page.write_text(frame.render(title="t"), encoding="utf-8")
     exe = shutil.which("chromium") or "/usr/bin/chromium"
     proc = subprocess.run([exe, "--headless", "--no-sandbox", "--disable-gpu",
                            "--disable-background-networking", "--enable-logging=stderr", "--v=0",
-                           f"--screenshot={tmp_path / 's.png'}", html.resolve().as_uri()],
+                           f"--screenshot={tmp_path / 's.png'}", page.resolve().as_uri()],
                           capture_output=True, timeout=180)
     err = proc.stderr.decode(errors="replace")
     assert any(":CONSOLE" in ln and "Content Security Policy" in ln for ln in err.splitlines())
@@ -422,8 +469,10 @@ def test_downhole_figure_of_a_record_draws_only_the_record():
     labels = [t.get_text() for t in ax.get_legend().get_texts()]
     assert any("held at the down-hole nugget" in s for s in labels)
     assert "3 m composites" in ax.get_title() and ax.get_ylabel().endswith("units)")
-    html = _section_downhole(d, {"downhole": (b"png", None)})
-    assert f"down-hole nugget of {icpt:.3g}" in html and "held at that value" in html
+    sec = _section_downhole(d)
+    assert sec["drawn"] and f"down-hole nugget of {icpt:.3g}" in sec["text"]
+    assert "held at that value" in sec["text"]
     # without drill holes the record has no down-hole lags: nothing drawn, and said so
     assert _fig_downhole({"diagnostics": {"downhole": None}}, None, "x") is None
-    assert "not in drill holes" in _section_downhole({"diagnostics": {}}, {})
+    sec = _section_downhole({"diagnostics": {}})
+    assert not sec["drawn"] and "not in drill holes" in sec["text"]

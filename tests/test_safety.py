@@ -1,15 +1,13 @@
-"""Tests of anisotropy._safety: escaping, folder names, CSV cells, atomic writes.
+"""Tests of anisotropy._safety: folder names, CSV cells, atomic writes.
 
-The references are the standard library: ``html.escape`` and
-``html.parser`` (what a browser would see as text), ``os.path.commonpath``
+(The HTML escaping is the templates' autoescape, tested in test_report.py.)
+The references are the standard library: ``os.path.commonpath``
 (containment), the ``csv`` module (round trip), ``os.replace`` semantics.
 """
 
 import csv
-import html
 import json
 import os
-from html.parser import HTMLParser
 
 import numpy as np
 import pytest
@@ -22,33 +20,6 @@ from anisotropy.errors import InputError
 HOSTILE = ["../../x", "..", ".", "", "<script>alert(1)</script>", "CON", "con.txt", "NUL",
            "a/b", "a\\b", "a:b", "Zoné-Ünïcode", "北区", "   ", "-rf", "a" * 300,
            "x\x00y", "COM1", "lpt9.log", "A", "a"]
-
-
-class _TextCollector(HTMLParser):
-    def __init__(self):
-        super().__init__()
-        self.tags = []
-        self.text = []
-
-    def handle_starttag(self, tag, attrs):
-        self.tags.append(tag)
-
-    def handle_data(self, data):
-        self.text.append(data)
-
-
-def test_escape_matches_stdlib_and_renders_as_text():
-    for s in HOSTILE + ['"quoted" & \'single\'']:
-        # reference: html.escape from the Python standard library
-        assert S.escape(s) == html.escape(s, quote=True)
-        p = _TextCollector()
-        p.feed(f"<p>{S.escape(s)}</p>")
-        p.close()
-        # html.parser sees only the <p> element, and the text is the original string
-        assert p.tags == ["p"]
-        assert "".join(p.text) == s
-    assert S.escape(None) == ""
-    assert S.escape(3.5) == "3.5"
 
 
 def test_folder_names_stay_inside_and_are_distinct(tmp_path):

@@ -13,13 +13,15 @@ directional variograms with pair counts, bands and the model, the model
 table to carry into estimation, the check of an interpretation, warnings,
 and the caution on automated suggestions.
 
-Every string that came from the input (file, column and domain names,
-warnings that quote them) is escaped.
+The markup is the Jinja2 template ``templates/report.html.j2``; this
+module computes the figures and hands the template plain values. Every
+string that came from the input (file, column and domain names, warnings
+that quote them) is escaped by the template's autoescape
+(:mod:`anisotropy.report.templating`).
 """
 
 from __future__ import annotations
 
-import base64
 import io
 import math
 import re
@@ -34,7 +36,8 @@ from anisotropy.constants import AXES as _AXES
 from anisotropy.directional import cone_variogram, variogram_map
 from anisotropy.geometry import line_to_vector, plane_to_pole, vector_to_line
 from anisotropy.report import figures as F
-from anisotropy.report.style import CAUTION, DOMAINING_NOTE, page
+from anisotropy.report.style import CAUTION, DOMAINING_NOTE
+from anisotropy.report.templating import png_data_uri, render
 
 __all__ = ["render_report", "REPORT_FIGURES"]
 
@@ -59,35 +62,25 @@ _AXIS_WORD = {"major": "major", "semi_major": "semi-major", "minor": "minor"}
 # ---------------------------------------------------------------------------
 
 
-def _g(x, fmt=".4g", missing="n/a"):
+def _g(x, fmt=".4g", missing="n/a") -> str:
+    """A number as text in ``fmt`` (``missing`` for None or a non-finite value)."""
     if x is None:
         return missing
     try:
         f = float(x)
     except (TypeError, ValueError):
-        return S.escape(x)
+        return str(x)
     if not math.isfinite(f):
         return missing
     if fmt.endswith("d"):
-        return S.escape(format(int(round(f)), fmt))
-    return S.escape(format(f, fmt))
+        return format(int(round(f)), fmt)
+    return format(f, fmt)
 
 
-def _table(rows, columns=None, *, headers=None) -> str:
-    """An HTML table from a list of dicts (values escaped)."""
-    if not rows:
-        return "<p>none</p>"
-    columns = list(columns or rows[0].keys())
-    head = "".join(f"<th>{S.escape(h)}</th>" for h in (headers or columns))
-    body = "".join("<tr>" + "".join(f"<td>{S.escape(r.get(c, ''))}</td>" for c in columns) + "</tr>"
-                   for r in rows)
-    return f"<table class='grid'><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>"
-
-
-def _kv(pairs) -> str:
-    """Two-column table of (label, already-safe HTML value)."""
-    body = "".join(f"<tr><th>{S.escape(k)}</th><td>{v}</td></tr>" for k, v in pairs)
-    return f"<table class='grid'><tbody>{body}</tbody></table>"
+def _grid(rows, columns=None) -> dict:
+    """A table record for the template's ``grid`` macro from a list of dicts."""
+    columns = list(columns or (rows[0].keys() if rows else []))
+    return {"columns": columns, "rows": [[r.get(c, "") for c in columns] for r in rows]}
 
 
 def _flat(d: Mapping, prefix="") -> list:
@@ -97,11 +90,11 @@ def _flat(d: Mapping, prefix="") -> list:
         if isinstance(v, Mapping):
             out.extend(_flat(v, key + "."))
         elif isinstance(v, (list, tuple)) and len(v) > 12:
-            out.append((key, S.escape(f"[{len(v)} values]")))
+            out.append((key, f"[{len(v)} values]"))
         elif isinstance(v, (list, tuple)) and all(isinstance(e, float) for e in v):
-            out.append((key, S.escape(", ".join(format(e, ".5g") for e in v))))
+            out.append((key, ", ".join(format(e, ".5g") for e in v)))
         else:
-            out.append((key, S.escape(v if not isinstance(v, float) else format(v, ".5g"))))
+            out.append((key, v if not isinstance(v, float) else format(v, ".5g")))
     return out
 
 
@@ -409,13 +402,13 @@ def _fig_downhole(d, path, value_label):
                              value_label=value_label, path=path)
 
 
-def _section_downhole(d, figs) -> str:
-    """The down-hole variogram figure with its reading, or why there is none."""
+def _section_downhole(d) -> dict:
+    """The reading of the down-hole variogram figure (``drawn``), or why there is none."""
     dh = (d.get("diagnostics") or {}).get("downhole") or {}
     if not dh.get("points"):
-        return ("<h3>Nugget from the down-hole variogram</h3><p>Not drawn: the samples are "
-                "not in drill holes, or too few pairs lie one or two composites apart in "
-                "the same hole.</p>")
+        return {"drawn": False,
+                "text": "Not drawn: the samples are not in drill holes, or too few pairs lie one "
+                        "or two composites apart in the same hole."}
     nug = dh.get("nugget")
     held = _nugget_held(d)
     model_nug = (d.get("model") or {}).get("nugget")
@@ -423,14 +416,13 @@ def _section_downhole(d, figs) -> str:
             else "No nugget was extrapolated (fewer than two down-hole lags with enough pairs)")
     how = {True: "held at that value in the fit", False: "fitted with the other parameters",
            None: "as fitted"}[held]
-    caption = (f"Points: the first down-hole lags, each from the pairs in the same hole a "
-               f"whole number of composites apart ({_num(dh.get('composite'), '.3g')} m "
-               "composites), at their mean distance, with the pairs beside each; the run's "
-               "estimator. Dashed: the straight line through the "
-               f"first two points, extended to lag 0. {read}; the model's nugget is "
-               f"{_num(model_nug, '.3g')}, {how}.")
-    return ("<h3>Nugget from the down-hole variogram</h3>"
-            + _figure_html("downhole", figs, S.escape(caption)))
+    return {"drawn": True,
+            "text": f"Points: the first down-hole lags, each from the pairs in the same hole a "
+                    f"whole number of composites apart ({_num(dh.get('composite'), '.3g')} m "
+                    "composites), at their mean distance, with the pairs beside each; the run's "
+                    "estimator. Dashed: the straight line through the "
+                    f"first two points, extended to lag 0. {read}; the model's nugget is "
+                    f"{_num(model_nug, '.3g')}, {how}."}
 
 
 def _draw_all(disc, fig_dir: Path, check, topcut):
@@ -470,16 +462,11 @@ def _draw_all(disc, fig_dir: Path, check, topcut):
 # ---------------------------------------------------------------------------
 
 
-def _figure_html(key, figs, caption):
+def _figure(key, figs) -> dict:
+    """The template's record of one figure: its image as a data URI, or why it is missing."""
     data, err = figs.get(key, (None, "not drawn"))
-    title = REPORT_FIGURES[key]
-    if data is None:
-        return (f"<figure id='fig-{key}'><p class='warn'>{S.escape(title)}: the figure could "
-                f"not be drawn ({S.escape(err)}).</p></figure>")
-    b64 = base64.b64encode(data).decode("ascii")
-    return (f"<figure id='fig-{key}'><img alt='{S.escape(title)}' "
-            f"src='data:image/png;base64,{b64}'><figcaption><b>{S.escape(title)}.</b> "
-            f"{caption}</figcaption></figure>")
+    return {"key": key, "title": REPORT_FIGURES[key], "error": err,
+            "src": None if data is None else png_data_uri(data)}
 
 
 def _topcut(disc):
@@ -502,15 +489,13 @@ def _row_list(rows, limit=60) -> str:
     return text
 
 
-def _section_data(disc, d) -> str:
+def _section_data(disc, d) -> dict:
     inp = d.get("input") or {}
     smp = disc.samples
-    parts = [("file", f"<code>{S.escape(inp.get('file'))}</code>"),
-             ("grade column", S.escape(inp.get("value"))),
-             ("domain", S.escape(inp.get("domain")) if inp.get("domain") is not None else "all samples"),
+    facts = [("grade column", inp.get("value")),
+             ("domain", inp.get("domain") if inp.get("domain") is not None else "all samples"),
              ("samples in the domain", _g(inp.get("n_samples"), "d")),
              ("samples used", _g(inp.get("n_used"), "d"))]
-    html = [_kv(parts)]
     rows = []
     dropped_rows = getattr(smp, "dropped_rows", None) or {}
     changed_rows = getattr(smp, "changed_rows", None) or {}
@@ -525,11 +510,7 @@ def _section_data(disc, d) -> str:
         rows.append({"what": f"duplicates ({dup.get('policy')})",
                      "reason": f"{dup.get('locations')} shared locations", "samples": dup.get("samples"),
                      "data rows": _row_list(dup.get("rows"))})
-    html.append("<h3>Samples dropped or changed, by reason</h3>")
-    html.append("<p>Data rows count from 1 at the first row under the header of the file.</p>"
-                if any(r["data rows"] for r in rows) else "")
-    html.append(_table(rows, ["what", "reason", "samples", "data rows"]) if rows else
-                "<p>No sample was dropped or changed.</p>")
+    stats = None
     ex = _attr(disc, "exploration")
     if ex is not None:
         e = ex.to_dict()
@@ -543,33 +524,22 @@ def _section_data(disc, d) -> str:
         if dc:
             stats.append(("declustered mean", _g(dc.get("mean"))))
             stats.append(("declustering cell (m)", _g(dc.get("cell_size"), ".3g")))
-        html.append("<h3>Statistics of the grade</h3>")
-        html.append(_kv(stats))
-    return "\n".join(html)
+    return {"file": inp.get("file"), "facts": facts, "stats": stats,
+            "changes": _grid(rows, ["what", "reason", "samples", "data rows"]) if rows else None,
+            "with_rows": any(r["data rows"] for r in rows)}
 
 
-def _section_topcut(disc, figs, tc) -> str:
-    note = (f"The top-cut applied is {_g(tc)}." if tc is not None
-            else "No top-cut was applied.")
-    html = [f"<p>{note}</p>"]
+def _section_topcut(disc, tc) -> dict:
+    candidates = None
     ex = _attr(disc, "exploration")
     if ex is not None:
         cands = (ex.to_dict().get("topcut") or {}).get("candidates") or []
         if cands:
-            rows = [{"candidate": _g(c.get("value")), "method": c.get("method"),
-                     "samples capped": c.get("n_capped"),
-                     "metal removed (%)": _g(c.get("metal_removed_pct"), ".1f")} for c in cands]
-            html.append("<p>Candidates from the exploration (the choice is the geologist's):</p>")
-            html.append(_table(rows))
-    html.append(_figure_html("histogram", figs,
-                             "Grade distribution; the dashed line marks the top-cut applied."
-                             if tc is not None else
-                             "Grade distribution; dashed lines mark top-cut candidates "
-                             "(none was applied)."))
-    html.append(_figure_html("log_probability", figs,
-                             "Cumulative probability on a log scale; a break in slope suggests "
-                             "a separate high-grade population."))
-    return "\n".join(html)
+            candidates = _grid([{"candidate": _g(c.get("value")), "method": c.get("method"),
+                                 "samples capped": c.get("n_capped"),
+                                 "metal removed (%)": _g(c.get("metal_removed_pct"), ".1f")}
+                                for c in cands])
+    return {"value": _g(tc) if tc is not None else None, "candidates": candidates}
 
 
 #: Labels (with units) of the discovery.json ``lags`` keys in the report.
@@ -592,10 +562,10 @@ def _choice_value(choice, value) -> str:
     return f"{text} {unit}" if unit else text
 
 
-def _section_lags(disc, d) -> str:
-    html = []
+def _section_lags(disc, d) -> dict:
     lags = d.get("lags") or {}
-    html.append(_kv([(_LAG_LABELS.get(str(k).split(".")[0], k), v) for k, v in _flat(lags)]))
+    out = {"lags": [(_LAG_LABELS.get(str(k).split(".")[0], k), v) for k, v in _flat(lags)],
+           "spacing": None, "suggested": None, "choices": None, "pairs": None}
     ex = _attr(disc, "exploration")
     if ex is not None:
         sp = ex.to_dict().get("spacing") or {}
@@ -603,70 +573,60 @@ def _section_lags(disc, d) -> str:
         for k, lag in (sp.get("suggested_lag") or {}).items():
             rows.append({"direction class": str(k).replace("_", " "), "suggested lag (m)": _g(lag, ".3g"),
                          "why": (sp.get("reasons") or {}).get(k, "")})
+
         def metres(x):
             text = _g(x, ".3g")
             return text if text == "n/a" else f"{text} m"
 
-        html.append(f"<p>Nominal spacing: across-hole {metres(sp.get('across_hole'))}, "
-                    f"down-hole {metres(sp.get('down_hole'))}, bench {metres(sp.get('bench'))}.</p>")
-        if rows:
-            html.append(_table(rows))
+        out["spacing"] = {k: metres(sp.get(k)) for k in ("across_hole", "down_hole", "bench")}
+        out["suggested"] = _grid(rows) if rows else None
     diag = d.get("diagnostics") or {}
     choices = [c for c in (diag.get("choices") or []) if isinstance(c, Mapping)]
     if choices:
-        html.append("<h3>Choices made and why</h3>")
-        html.append(_table([{"choice": c.get("choice"),
-                             "value": _choice_value(c.get("choice"), c.get("value")),
-                             "why": _for_people(c.get("reason"))} for c in choices],
-                           ["choice", "value", "why"]))
+        out["choices"] = _grid([{"choice": c.get("choice"),
+                                 "value": _choice_value(c.get("choice"), c.get("value")),
+                                 "why": _for_people(c.get("reason"))} for c in choices],
+                               ["choice", "value", "why"])
     if diag.get("pairs") is not None:
-        html.append(f"<p>Pairs accumulated: {_g(diag.get('pairs'), ',.0f')}.</p>")
-    return "\n".join(html)
+        out["pairs"] = _g(diag.get("pairs"), ",.0f")
+    return out
 
 
-def _section_model(disc, d) -> str:
-    from anisotropy.report import figures as F
-
-    marks = _range_marks(d)
-    rows = F.model_table_rows(d.get("model") or {}, d.get("axes") or {}, marks=marks)
-    html = [f"<p>In {S.escape(_units(disc))}; ranges in metres along each structure's axes "
-            "(spherical and cubic: the range; exponential and Gaussian: the practical range, "
-            "95 % of the sill). Axis orientations are trend/plunge in degrees. "
-            f"{S.escape(F.MARK_NOTE)}</p>",
-            _table(rows, list(F.MODEL_TABLE_COLUMNS))]
+def _section_model(disc, d) -> dict:
+    rows = F.model_table_rows(d.get("model") or {}, d.get("axes") or {}, marks=_range_marks(d))
     plane = d.get("plane") or {}
     items = [("plane of greatest continuity (dip direction/dip)",
               f"{_g(plane.get('dip_direction'), '05.1f')} / {_g(plane.get('dip'), '04.1f')}"),
              ("strike (right-hand rule)", _g(plane.get("strike"), "05.1f")),
              ("pitch of the major axis in that plane", _g(plane.get("pitch"), "05.1f"))]
-    html.append(_kv(items))
-    html.append(_rotation_html(_frame(disc)))
-    html.append(_grade_html(disc))
-    unc = d.get("uncertainty") or {}
-    if unc:
-        conf = unc.get("confidence")
-        rows = []
-        for a in _AXES:
-            u = unc.get(a) or {}
-            rows.append({"axis": _AXIS_WORD[a], "cone radius (°)": _g(u.get("cone_deg"), ".1f"),
-                         "trend interval": _pair(u.get("trend"), ".0f"),
-                         "plunge interval": _pair(u.get("plunge"), ".0f"),
-                         "range interval (m)": _pair(u.get("range"), ".0f")})
-        nug = unc.get("nugget")
-        if (isinstance(nug, (list, tuple)) and len(nug) == 2
-                and _num(nug[0], ".3g") == _num(nug[1], ".3g")):
-            nug_text = (f"Nugget {_num(nug[0], '.3g')} in every replicate (held fixed in the "
-                        "fit, so it carries no interval here)")
-        else:
-            nug_text = f"Nugget {_pair(nug, '.3g')}"
-        html.append(f"<p>Uncertainty: {S.escape(str(unc.get('method')).replace('_', ' '))}, "
-                    f"{_g(unc.get('replicates'), 'd')} replicates, {_g((conf or 0) * 100, '.0f')} % "
-                    f"intervals. {nug_text}.</p>")
-        html.append(_table(rows))
+    return {"units": _units(disc), "mark_note": F.MARK_NOTE,
+            "table": _grid(rows, list(F.MODEL_TABLE_COLUMNS)), "plane": items,
+            "rotation": _rotation(_frame(disc)), "grade": _grade(disc),
+            "uncertainty": _uncertainty(d.get("uncertainty") or {})}
+
+
+def _uncertainty(unc) -> dict | None:
+    """The bootstrap's intervals of the axes and ranges (None when no bootstrap was run)."""
+    if not unc:
+        return None
+    rows = []
+    for a in _AXES:
+        u = unc.get(a) or {}
+        rows.append({"axis": _AXIS_WORD[a], "cone radius (°)": _g(u.get("cone_deg"), ".1f"),
+                     "trend interval": _pair(u.get("trend"), ".0f"),
+                     "plunge interval": _pair(u.get("plunge"), ".0f"),
+                     "range interval (m)": _pair(u.get("range"), ".0f")})
+    nug = unc.get("nugget")
+    if (isinstance(nug, (list, tuple)) and len(nug) == 2
+            and _num(nug[0], ".3g") == _num(nug[1], ".3g")):
+        nug_text = (f"Nugget {_num(nug[0], '.3g')} in every replicate (held fixed in the "
+                    "fit, so it carries no interval here)")
     else:
-        html.append("<p class='warn'>No bootstrap was run: the axes and ranges carry no "
-                    "confidence band. Run with bootstrap replicates before relying on them.</p>")
-    return "\n".join(html)
+        nug_text = f"Nugget {_pair(nug, '.3g')}"
+    return {"method": str(unc.get("method")).replace("_", " "),
+            "replicates": _g(unc.get("replicates"), "d"),
+            "confidence": _g((unc.get("confidence") or 0) * 100, ".0f"),
+            "nugget": nug_text, "table": _grid(rows)}
 
 
 def _range_marks(d) -> dict:
@@ -686,64 +646,49 @@ def _range_marks(d) -> dict:
     return marks
 
 
-def _grade_html(disc) -> str:
+def _grade(disc) -> dict | None:
     """The model in grade units (normal scores only), how it was obtained and its check."""
     from anisotropy.modelfile import grade_record
 
+    out = dict.fromkeys(("error", "reason", "units", "variance", "misfit", "table", "check"))
     try:
         g = grade_record(disc)
     except Exception as exc:  # noqa: BLE001 - the report must still be written
-        return f"<p class='warn'>The model in grade units could not be computed ({S.escape(exc)}).</p>"
+        return {**out, "error": str(exc)}
     if g is None:
-        return ""
+        return None
     if not g.get("structures"):
-        return f"<h3>Model in grade units</h3><p>Not given: {S.escape(g.get('reason'))}.</p>"
+        return {**out, "reason": g.get("reason")}
     rows = [{"structure": "0", "type": "nugget", "sill": _g(g["nugget"], ".4g")}]
     for k, st in enumerate(g["structures"], 1):
         r = st["practical_range_m"]
         rows.append({"structure": str(k), "type": st["kind"], "sill": _g(st["sill"], ".4g"),
                      "ranges major / semi-major / minor (m)":
                          f"{r['major']:.1f} / {r['semi_major']:.1f} / {r['minor']:.1f}"})
-    html = ["<h3>Model in grade units</h3>",
-            f"<p>Sills in {S.escape(g['units'])}, same axes and ranges as above. How: "
-            f"{S.escape(g['reason'])}. Grade variance {_g(g['grade_variance'], '.4g')}; the "
-            f"held shape departs from the back-transformed covariance by up to "
-            f"{_g(100 * g['max_misfit_share'], '.1f')} % of it.</p>",
-            _table(rows, ["structure", "type", "sill", "ranges major / semi-major / minor (m)"])]
+    out.update(units=g["units"], reason=g["reason"], variance=_g(g["grade_variance"], ".4g"),
+               misfit=_g(100 * g["max_misfit_share"], ".1f"),
+               table=_grid(rows, ["structure", "type", "sill",
+                                  "ranges major / semi-major / minor (m)"]))
     chk = (g.get("check_downhole") or {}).get("rows") or []
     if chk:
-        html.append("<p>Checked against the direct grade variogram down the holes "
-                    f"({S.escape(g['check_downhole']['note'])}):</p>")
-        html.append(_table([{"lag (m)": _g(c["lag_m"], ".3g"), "pairs": c["pairs"],
-                             "experimental": _g(c["experimental"], ".4g"),
-                             "grade model": _g(c["model"], ".4g")} for c in chk]))
-    return "\n".join(html)
+        out["check"] = {"note": g["check_downhole"]["note"],
+                        "table": _grid([{"lag (m)": _g(c["lag_m"], ".3g"), "pairs": c["pairs"],
+                                         "experimental": _g(c["experimental"], ".4g"),
+                                         "grade model": _g(c["model"], ".4g")} for c in chk])}
+    return out
 
 
-def _rotation_html(R) -> str:
-    """The rotation matrix with its layout, and both angle sequences in words."""
+def _rotation(R) -> dict:
+    """The rotation matrix and both angle sequences (the template says them in words)."""
     from anisotropy.geometry import rotation_sequences
 
     rows = [{"": name, "major": f"{R[i, 0]:+.4f}", "semi-major": f"{R[i, 1]:+.4f}",
              "minor": f"{R[i, 2]:+.4f}"} for i, name in enumerate(("east", "north", "up"))]
     seq = rotation_sequences(R)
-    s1, s2 = seq["azimuth_plunge_rotation"], seq["zxz"]
-    return ("<h3>Rotation</h3><p>Rotation matrix: columns are the major, semi-major and minor "
-            "axes, rows their east, north and up components.</p>"
-            + _table(rows, ["", "major", "semi-major", "minor"])
-            + f"<p>Angles, sequence 1: azimuth {s1['azimuth']:.1f}, plunge {s1['plunge']:.1f}, "
-              f"rotation {s1['rotation']:.1f} degrees. Start with the major axis pointing north, "
-              "the semi-major axis east and the minor axis down; turn about the vertical by the "
-              "azimuth, clockwise seen from above; tilt the major axis down by the plunge; then "
-              "turn about the major axis by the rotation, a positive rotation turning the "
-              "semi-major axis downwards.</p>"
-            + f"<p>Angles, sequence 2 (z-x'-z''): alpha {s2['alpha']:.1f}, beta {s2['beta']:.1f}, "
-              f"gamma {s2['gamma']:.1f} degrees. Start with the major, semi-major and minor axes "
-              "along east, north and up; turn about up by alpha, then about the turned first "
-              "axis by beta, then about the twice-turned third axis (the minor axis) by gamma; "
-              "each turn is counter-clockwise seen from the positive end of its axis, so a "
-              "positive alpha is anticlockwise on the map. Both sequences and the matrix are "
-              "in model.json and model.csv, defined in docs/model-file.md.</p>")
+    return {"matrix": _grid(rows, ["", "major", "semi-major", "minor"]),
+            "s1": {k: f"{seq['azimuth_plunge_rotation'][k]:.1f}"
+                   for k in ("azimuth", "plunge", "rotation")},
+            "s2": {k: f"{seq['zxz'][k]:.1f}" for k in ("alpha", "beta", "gamma")}}
 
 
 def _pair(v, fmt):
@@ -752,19 +697,15 @@ def _pair(v, fmt):
     return f"{_num(v[0], fmt)} – {_num(v[1], fmt)}"
 
 
-def _section_check(check) -> str:
+def _section_check(check) -> dict | None:
     if check is None:
-        return ("<p>No interpretation was given for this domain, so none was checked.</p>")
+        return None
     c = check.to_dict()
     verdict = str(c.get("verdict"))
-    css = S.escape(str(verdict).replace(" ", "-"))
-    html = [f"<p>Verdict: <span class='verdict-{css}'>{S.escape(verdict)}</span></p>"]
     summary = getattr(check, "summary", None)
-    if callable(summary):
-        html.append(f"<pre>{S.escape(summary())}</pre>")
-    else:
-        html.append(_kv(_flat({k: v for k, v in c.items() if k != "verdict"})))
-    return "\n".join(html)
+    return {"verdict": verdict, "css": verdict.replace(" ", "-"),
+            "summary": summary() if callable(summary) else None,
+            "record": _flat({k: v for k, v in c.items() if k != "verdict"})}
 
 
 _CODE_REF = re.compile(r"\s*\((?:see\s+)?(?:anisotropy|diagnostics|uncertainty|lags)\.[\w.]+\)"
@@ -780,23 +721,18 @@ def _for_people(text) -> str:
     return re.sub(r"\(\s*\)", "", out).strip()
 
 
-def _run_line(d) -> str:
-    """The audit trail in the report header."""
+def _run(d) -> dict | None:
+    """The audit trail in the report header (None when the record has none)."""
     run = d.get("run") or {}
     if not run:
-        return ""
+        return None
     opts = run.get("options") or {}
-    shown = ", ".join(f"{k}={v}" for k, v in opts.items()
-                      if v is not None and k not in ("progress", "intake"))
-    parts = [f"Run {S.escape(run.get('utc'))} (UTC), anisotropy {S.escape(run.get('version'))}, "
-             f"seed {S.escape(run.get('seed'))}."]
-    sha = run.get("input_sha256")
-    parts.append(f"Input SHA-256 <code>{S.escape(sha)}</code>." if sha else
-                 f"Input SHA-256: {S.escape(run.get('input_sha256_note') or 'not available')}.")
-    if run.get("command"):
-        parts.append(f"Command: <code>{S.escape(run['command'])}</code>.")
-    parts.append(f"Options: <code>{S.escape(shown)}</code>.")
-    return f"<p class='meta'>{' '.join(parts)}</p>"
+    return {"utc": run.get("utc"), "version": run.get("version"), "seed": run.get("seed"),
+            "sha": run.get("input_sha256"),
+            "sha_note": run.get("input_sha256_note") or "not available",
+            "command": run.get("command"),
+            "options": ", ".join(f"{k}={v}" for k, v in opts.items()
+                                 if v is not None and k not in ("progress", "intake"))}
 
 
 def _warnings(disc, d) -> list:
@@ -857,66 +793,24 @@ def render_report(discovery, out_dir, *, check=None, title=None, topcut=None) ->
         topcut = _topcut(discovery)
     figs = _draw_all(discovery, fig_dir, check, topcut)
 
-    sec = []
-    sec.append(f"<h1>{S.escape(title)}</h1>")
-    sec.append(f"<p class='meta'>Source <code>{S.escape(inp.get('file'))}</code>; result schema "
-               f"{S.escape(d.get('schema'))}; written by anisotropy "
-               f"{S.escape(_version())}.</p>")
-    sec.append(_run_line(d))
-    sec.append("<h2>1. Data</h2>" + _section_data(discovery, d))
-    sec.append("<h2>2. Grade distribution and top-cut</h2>" + _section_topcut(discovery, figs, topcut))
-    sec.append("<h2>3. Spacing, lags and the other choices</h2>" + _section_lags(discovery, d))
-    sec.append("<h2>4. Transform</h2>" + _kv(_readable(_flat(_transform_record(discovery))))
-               + "<p>The variograms and the model below are in the transformed variable.</p>")
-    sec.append("<h2>5. Variogram maps</h2>"
-               "<p>Slices of the lag-vector volume through the origin; the black curve is the "
-               "fitted range ellipse of the longest structure cut by the same plane; dotted "
-               "lines are the axes lying in the slice.</p>"
-               + _figure_html("map_plan", figs, "Looking down; east to the right, north up.")
-               + _figure_html("map_plane", figs, "In the plane holding the major and semi-major axes.")
-               + _figure_html("map_across", figs, "In the plane holding the major and minor axes, "
-                              "across the plane of greatest continuity."))
-    sec.append("<h2>6. Axes and their uncertainty</h2>"
-               + _figure_html("stereonet", figs,
-                              "Filled markers: the proposed axes; small dots: bootstrap replicate "
-                              "axes; circles: confidence cones; open black markers: interpreted "
-                              "directions when an interpretation was checked."))
-    sec.append("<h2>7. Directional variograms</h2>"
-               + _figure_html("directional", figs,
-                              "Points sized by pair count (numbers beside them): the experimental "
-                              "variogram of the pairs within the angular tolerance of each "
-                              "direction. Solid line: the fitted nested model evaluated exactly "
-                              "along the direction. Open diamonds on a dashed line: the same model "
-                              "averaged over each lag's own pairs (evaluated at the mean lag vector "
-                              "of every fine direction cell the cone takes, weighted by its pair "
-                              "count), which is what the points should be compared with. With "
-                              "strong anisotropy the pairs in a cone around a long axis reach "
-                              "into the short axes, so points and diamonds can both rise faster "
-                              "than the solid line: a gap between points and diamonds is misfit, "
-                              "a gap between points and the solid line need not be. Shaded: "
-                              "bootstrap band of the model along the direction."))
-    sec.append("<h2>8. Model for estimation</h2>" + _section_model(discovery, d)
-               + _figure_html("model_table", figs, "The same table as a figure.")
-               + _section_downhole(d, figs))
-    sec.append("<h2>9. Check of the interpretation</h2>" + _section_check(check))
-    warns = [_for_people(w) for w in _warnings(discovery, d)]
-    sec.append("<h2>10. Warnings</h2>" + (
-        "<ul>" + "".join(f"<li class='warn'>{S.escape(w)}</li>" for w in warns) + "</ul>"
-        if warns else "<p>None.</p>"))
-    failed = [k for k, (data, err) in figs.items() if data is None and err]
-    if failed:
-        sec.append(f"<p class='warn'>Figures not drawn: {S.escape(', '.join(failed))}.</p>")
     cautions = d.get("cautions")
-    extra = ""
-    if isinstance(cautions, (list, tuple)):
-        extra = "".join(f"<p>{S.escape(c)}</p>" for c in cautions
-                        if str(c) != CAUTION and not str(c).startswith(CAUTION[:40]))
-    elif cautions:
-        extra = f"<p>{S.escape(cautions)}</p>"
-    sec.append("<h2>11. Caution</h2>" + f"<p class='caution'>{S.escape(CAUTION)}</p>"
-               + f"<p>{S.escape(DOMAINING_NOTE)}</p>" + extra)
+    if not isinstance(cautions, (list, tuple)):
+        cautions = [cautions] if cautions else []
+    html = render(
+        "report.html.j2", title=title, source=inp.get("file"), schema=d.get("schema"),
+        version=_version(), run=_run(d), data=_section_data(discovery, d),
+        topcut=_section_topcut(discovery, topcut), lags=_section_lags(discovery, d),
+        transform=_readable(_flat(_transform_record(discovery))),
+        figures={key: _figure(key, figs) for key in REPORT_FIGURES},
+        model=_section_model(discovery, d), downhole=_section_downhole(d),
+        check=_section_check(check),
+        warnings=[_for_people(w) for w in _warnings(discovery, d)],
+        failed=[k for k, (data, err) in figs.items() if data is None and err],
+        caution=CAUTION, domaining_note=DOMAINING_NOTE,
+        # the record's cautions, less the one shown above (any wording starting like it)
+        cautions=[c for c in cautions if str(c) != CAUTION and not str(c).startswith(CAUTION[:40])])
     path = out_dir / "report.html"
-    S.atomic_write_text(path, page(title, "\n".join(sec)))
+    S.atomic_write_text(path, html)
     return path
 
 

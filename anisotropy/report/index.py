@@ -1,8 +1,9 @@
 """The batch index page: one line per domain, linking its report.
 
-Every string that came from the input (file, column and domain names,
-reasons, which may quote them) is escaped; links point only at the safe
-folder names made by :func:`anisotropy._safety.folder_names`.
+The markup is the template ``templates/index.html.j2``; every string that
+came from the input (file, column and domain names, reasons, which may
+quote them) is escaped there by Jinja2's autoescape. Links point only at
+the safe folder names made by :func:`anisotropy._safety.folder_names`.
 """
 
 from __future__ import annotations
@@ -12,7 +13,8 @@ from typing import Mapping, Sequence
 from urllib.parse import quote
 
 from anisotropy import _safety as S
-from anisotropy.report.style import CAUTION, page
+from anisotropy.report.style import CAUTION
+from anisotropy.report.templating import render
 
 __all__ = ["render_index", "domain_line"]
 
@@ -27,7 +29,7 @@ def _fmt(v, spec=".0f", missing="–"):
 
 
 def domain_line(row: Mapping) -> str:
-    """The one-line view of a domain (plain text, not yet escaped)."""
+    """The one-line view of a domain (plain text; the template escapes it)."""
     if row.get("status") != "ok":
         return f"{row.get('status')}: {row.get('reason') or ''}"
     parts = [f"{row.get('n_used') or row.get('n_samples') or '?'} samples"]
@@ -48,17 +50,15 @@ def domain_line(row: Mapping) -> str:
     return ", ".join(parts)
 
 
-def _warnings_html(row: Mapping) -> str:
-    """The domain's flags (unresolved, ambiguous, extrapolated) and its warnings, escaped."""
-    out = []
-    if row.get("flags"):
-        out.append(f"<div class='warn'>{S.escape(row['flags'])}</div>")
-    warns = row.get("warning_list") or []
-    if warns:
-        items = "".join(f"<li>{S.escape(w)}</li>" for w in warns)
-        out.append(f"<details><summary>{len(warns)} warning{'s' if len(warns) != 1 else ''}"
-                   f"</summary><ul>{items}</ul></details>")
-    return "".join(out)
+def _files(row: Mapping) -> list:
+    """``(href, label)`` links of a domain's files, inside its safe folder."""
+    folder = quote(str(row.get("folder") or ""), safe="")
+    if str(row.get("status")) == "ok":
+        names = ["report.html", "discovery.json", "model.json", "model.csv"]
+        if row.get("verdict"):
+            names.append("check.json")
+        return [(f"{folder}/{n}", "report" if n == "report.html" else n) for n in names]
+    return [(f"{folder}/row.json", "row.json")] if folder else []
 
 
 def render_index(rows: Sequence[Mapping], path, *, source="", value="", domain_column="",
@@ -72,46 +72,22 @@ def render_index(rows: Sequence[Mapping], path, *, source="", value="", domain_c
     path : path-like
         Where to write (atomically).
     source, value, domain_column : str
-        Shown in the header (escaped).
+        Shown in the header (as text).
     notes : sequence of str
-        Extra lines (escaped).
+        Extra lines (as text).
 
     Returns
     -------
     Path
     """
-    path = Path(path)
     counts = {}
     for r in rows:
         counts[r.get("status")] = counts.get(r.get("status"), 0) + 1
-    body = [f"<h1>Continuity batch: {S.escape(value)} by {S.escape(domain_column)}</h1>",
-            f"<p class='meta'>Source: <code>{S.escape(source)}</code>. "
-            f"{len(rows)} domains: " + ", ".join(f"{n} {S.escape(k)}" for k, n in counts.items())
-            + ". Summary tables: <a href='summary.csv'>summary.csv</a>, "
-              "<a href='summary.json'>summary.json</a>.</p>"]
-    for note in notes:
-        body.append(f"<p class='warn'>{S.escape(note)}</p>")
-    body.append("<table class='grid'><thead><tr><th>domain</th><th>status</th>"
-                "<th>at a glance</th><th>files</th></tr></thead><tbody>")
-    for r in rows:
-        folder = quote(str(r.get("folder") or ""), safe="")
-        status = str(r.get("status"))
-        files = []
-        if status == "ok":
-            files.append(f"<a href='{folder}/report.html'>report</a>")
-            files.append(f"<a href='{folder}/discovery.json'>discovery.json</a>")
-            files.append(f"<a href='{folder}/model.json'>model.json</a>")
-            files.append(f"<a href='{folder}/model.csv'>model.csv</a>")
-            if r.get("verdict"):
-                files.append(f"<a href='{folder}/check.json'>check.json</a>")
-        elif folder:
-            files.append(f"<a href='{folder}/row.json'>row.json</a>")
-        cls = {"ok": "ok", "skipped": "skip", "failed": "fail"}.get(status, "")
-        body.append(f"<tr class='{cls}'><td>{S.escape(r.get('domain'))}</td>"
-                    f"<td>{S.escape(status)}</td><td>{S.escape(domain_line(r))}"
-                    f"{_warnings_html(r)}</td>"
-                    f"<td>{' · '.join(files)}</td></tr>")
-    body.append("</tbody></table>")
-    body.append(f"<p class='caution'>{S.escape(CAUTION)}</p>")
-    html = page(f"Continuity batch: {value}", "\n".join(body))
-    return S.atomic_write_text(path, html)
+    shown = [{"css": {"ok": "ok", "skipped": "skip", "failed": "fail"}.get(str(r.get("status")), ""),
+              "domain": r.get("domain"), "status": str(r.get("status")), "line": domain_line(r),
+              "flags": r.get("flags") or "", "warnings": list(r.get("warning_list") or []),
+              "files": _files(r)} for r in rows]
+    html = render("index.html.j2", title=f"Continuity batch: {value}", value=value,
+                  domain_column=domain_column, source=source, n_domains=len(rows),
+                  counts=list(counts.items()), notes=list(notes), rows=shown, caution=CAUTION)
+    return S.atomic_write_text(Path(path), html)
