@@ -171,7 +171,8 @@ def _small_table():
 
 
 @pytest.fixture(scope="module")
-def report(tmp_path_factory):
+def report_run(tmp_path_factory):
+    """The discovery behind the report, and the report's path."""
     from anisotropy.check import Interpretation, check_interpretation
     from anisotropy.pipeline import discover
     from anisotropy.report.html import render_report
@@ -184,7 +185,12 @@ def report(tmp_path_factory):
     disc = dataclasses.replace(disc, warnings=[*disc.warnings, EVIL_WARNING])
     out = tmp_path_factory.mktemp("report")
     path = render_report(disc, out, check=chk, topcut=float(np.quantile(df[EVIL_VALUE], 0.98)))
-    return path
+    return disc, path
+
+
+@pytest.fixture(scope="module")
+def report(report_run):
+    return report_run[1]
 
 
 class _Page(HTMLParser):
@@ -421,16 +427,13 @@ def test_directional_panels_state_their_angular_tolerance():
     assert sum("cone ±15°" in t for t in titles) == 4
 
 
-def test_units_follow_the_estimator():
-    from types import SimpleNamespace
-
-    from anisotropy.report.html import _units
-
-    # the run's own units (set by estimator) are used: the correlogram has none
-    disc = SimpleNamespace(diagnostics={"units": "correlogram units (1 - rho)"},
-                           transform=SimpleNamespace(record={"kind": "normal_score"},
-                                                     kind="normal_score"))
-    assert _units(disc) == "correlogram units (1 - rho)"
+def test_units_are_the_runs_own(report_run):
+    # the report states the units the discovery recorded for its estimator and transform
+    # (the record's units are checked per estimator in test_discover.py)
+    disc, path = report_run
+    units = disc.diagnostics["units"]
+    assert "normal-score" in units            # auto chose normal scores for these grades
+    assert units in " ".join(_parse(path).text)
 
 
 def test_report_gives_the_model_in_grade_units(report):
