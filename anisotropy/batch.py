@@ -52,7 +52,7 @@ from typing import Mapping, Sequence
 import pandas as pd
 from threadpoolctl import threadpool_limits
 
-from anisotropy import _safety as S
+from anisotropy import safe_io as S
 from anisotropy import parallel
 from anisotropy.check import (Interpretation, check_interpretation, parse_orientation, parse_pitch,
                              parse_plane)
@@ -487,7 +487,7 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
         Domain column.
     out : path-like
         Output folder (created). Each domain gets a sub-folder with a safe
-        name (see :func:`anisotropy._safety.folder_names`).
+        name (see :func:`anisotropy.safe_io.folder_names`).
     domains : sequence of str, optional
         Only these domains (as text, as in the table). Default: all.
     jobs : int

@@ -254,7 +254,7 @@ def _save_figure_atomic(make, path, *args, dpi=110, **kwargs):
     """Draw a figure with ``make(*args, path=None, **kwargs)``; write the PNG atomically."""
     import io
 
-    from anisotropy._safety import atomic_write_bytes
+    from anisotropy.safe_io import atomic_write_bytes
 
     fig = make(*args, path=None, **kwargs)
     buf = io.BytesIO()
@@ -267,7 +267,7 @@ def _cmd_explore(args) -> int:
     """Statistics to know before variography: grades, declustering, top-cut, spacing, trend."""
     from pathlib import Path
 
-    from anisotropy._safety import atomic_write_json
+    from anisotropy.safe_io import atomic_write_json
     from anisotropy.exploration import explore
 
     out = Path(args.out)
@@ -438,7 +438,7 @@ def _interpretation_from_args(args):
 
 def _cmd_check(args) -> int:
     """Hold an interpreted continuity orientation against the data."""
-    from anisotropy._safety import atomic_write_json
+    from anisotropy.safe_io import atomic_write_json
     from anisotropy.check import check_interpretation
     from anisotropy.pipeline import discover
 

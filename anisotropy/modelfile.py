@@ -28,7 +28,7 @@ from pathlib import Path
 
 import numpy as np
 
-from anisotropy import _safety as S
+from anisotropy import safe_io as S
 from anisotropy.errors import InputError
 from anisotropy.geometry import pitch_of, pole_to_plane, rotation_sequences, strike_of, \
     vector_to_line

@@ -20,7 +20,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from anisotropy.batch import SUMMARY_COLUMNS, SUMMARY_HEADINGS, load_config, run_batch
+from anisotropy.batch import SUMMARY_HEADINGS, load_config, run_batch
 from anisotropy.errors import InputError
 
 HOSTILE = "../../<script>alert(1)</script> & co"

@@ -16,7 +16,7 @@ from pathlib import Path
 import numpy as np
 
 from anisotropy.errors import FitError, InputError
-from anisotropy._safety import json_ready
+from anisotropy.safe_io import json_ready
 from anisotropy.directional import Fan
 from anisotropy.exploration import Exploration
 from anisotropy.fitting import (DirectionRanges, EllipsoidFit, FitBins, NestedFit,
@@ -360,7 +360,7 @@ class Discovery:
 
     def to_json(self, path) -> Path:
         """Write :meth:`to_dict` as JSON, atomically."""
-        from anisotropy._safety import atomic_write_json
+        from anisotropy.safe_io import atomic_write_json
 
         path = Path(path)
         atomic_write_json(path, self.to_dict())

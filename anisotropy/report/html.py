@@ -31,7 +31,7 @@ from typing import Mapping
 import matplotlib
 import numpy as np
 
-from anisotropy import _safety as S
+from anisotropy import safe_io as S
 from anisotropy.constants import AXES as _AXES
 from anisotropy.directional import cone_variogram, variogram_map
 from anisotropy.geometry import line_to_vector, plane_to_pole, vector_to_line

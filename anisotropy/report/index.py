@@ -3,7 +3,7 @@
 The markup is the template ``templates/index.html.j2``; every string that
 came from the input (file, column and domain names, reasons, which may
 quote them) is escaped there by Jinja2's autoescape. Links point only at
-the safe folder names made by :func:`anisotropy._safety.folder_names`.
+the safe folder names made by :func:`anisotropy.safe_io.folder_names`.
 """
 
 from __future__ import annotations
@@ -12,7 +12,7 @@ from pathlib import Path
 from typing import Mapping, Sequence
 from urllib.parse import quote
 
-from anisotropy import _safety as S
+from anisotropy import safe_io as S
 from anisotropy.report.style import CAUTION
 from anisotropy.report.templating import render
 

@@ -1,4 +1,4 @@
-"""Tests of anisotropy._safety: folder names, CSV cells, atomic writes.
+"""Tests of anisotropy.safe_io: folder names, CSV cells, atomic writes.
 
 (The HTML escaping is the templates' autoescape, tested in test_report.py.)
 The references are the standard library: ``os.path.commonpath``
@@ -14,7 +14,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from anisotropy import _safety as S
+from anisotropy import safe_io as S
 from anisotropy.errors import InputError
 
 HOSTILE = ["../../x", "..", ".", "", "<script>alert(1)</script>", "CON", "con.txt", "NUL",
@@ -128,7 +128,7 @@ def test_json_arrays_of_numbers_on_one_line_round_trip(tmp_path):
     # json.loads (Python's standard-library RFC 8259 parser) must read back exactly what was
     # written; only arrays of plain numbers/booleans/nulls are joined onto one line, strings
     # that look like arrays and arrays holding strings or containers are left as they are.
-    from anisotropy._safety import atomic_write_json
+    from anisotropy.safe_io import atomic_write_json
 
     obj = {"lags": [1, 2.5, -3e-05, None, True, False], "names": ["a , b", "[1, 2]"],
            "nested": [[1, 2], [3.25, None]], "empty": [], "text": "[4,\n 5]",
