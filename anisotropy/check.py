@@ -593,9 +593,12 @@ def check_interpretation(discovery, interpretation: Interpretation, *, threshold
     Parameters
     ----------
     discovery : Discovery
-        Needs ``frame``, ``model``, ``volume_``, ``refit_function()`` and
-        ``uncertainty`` (a :class:`~anisotropy.uncertainty.BootstrapResult`;
-        when it is None a block bootstrap of 200 replicates, seed 0, is run).
+        The result of :func:`anisotropy.discover`. Read: ``frame``, ``model``,
+        ``volume_``, ``refit_function()``, ``uncertainty`` (a
+        :class:`~anisotropy.uncertainty.BootstrapResult`; when it is None a
+        block bootstrap of 200 replicates, seed 0, is run), the frame
+        candidates of ``refinement.record`` and the continuity record of
+        ``diagnosis`` (for the "cannot tell" rule).
     interpretation : Interpretation
     thresholds : dict, optional
         Overrides of :data:`DEFAULT_THRESHOLDS`.

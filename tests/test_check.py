@@ -124,62 +124,40 @@ def test_thresholds_validated():
 
 
 # ---------------------------------------------------------------------------
-# verdicts on a simulated field (the lean chain: pair engine + joint fit)
+# verdicts on a simulated field, discovered by the whole chain
 # ---------------------------------------------------------------------------
 
-class _Chain:
-    """Discovery-like object: pair engine volume, joint fit, refit_function()."""
-
-    def __init__(self, n=1500, seed=1):
-        from anisotropy.fitting import bins_from_sums, fit_nested
-        from anisotropy.geometry import fan_for_spacing
-        from anisotropy.models import NestedModel, Structure
-        from anisotropy.pairs import build_volume
-        from anisotropy.simulate import simulate_field
-        from anisotropy.uncertainty import block_bootstrap, engine_block_side
-
-        rng = np.random.default_rng(seed)
-        coords = rng.uniform(0, (300, 300, 120), size=(n, 3))
-        self.truth_frame = frame_from_angles(60.0, 20.0, 10.0)
-        truth = NestedModel(nugget=0.1, structures=[Structure("spherical", 0.9,
-                                                              (150.0, 80.0, 40.0))],
-                            frame=self.truth_frame)
-        v = simulate_field(coords, truth, seed=3)
-        self.volume_ = build_volume(coords, v, lag=10.0, n_lags=12,
-                                    coarse_directions=fan_for_spacing(20.0),
-                                    blocks=engine_block_side(coords), progress=False,
-                                    map_cell=False)
-        total = float(np.var(v))
-
-        def refit(sums, *, fixed_frame=None, start=None):
-            f = fit_nested(bins_from_sums(sums, min_pairs=10), start, fixed_frame=fixed_frame,
-                           total_sill=total, max_nfev=200)
-            return f.model, float(f.objective)
-
-        self._refit = refit
-        start = NestedModel(nugget=0.3, structures=[Structure("spherical", 0.7,
-                                                              (100.0, 80.0, 60.0))],
-                            frame=np.eye(3))
-        self.model, _ = refit(self.volume_.coarse_sums(), start=start)
-        self.frame = np.asarray(self.model.frame)
-        self.uncertainty = block_bootstrap(self.volume_, refit, self.model, n_replicates=40,
-                                           seed=0)
-
-    def refit_function(self):
-        return self._refit
-
-
 @pytest.fixture(scope="module")
-def chain():
-    return _Chain()
+def field():
+    """A scattered field of known frame (exact Cholesky simulation), discovered by ``discover``.
+
+    The grades are the simulated Gaussian values shifted by 10 so that none is
+    negative (a negative grade is read as a below-detection code).
+    """
+    import pandas as pd
+
+    from anisotropy import discover
+    from anisotropy.models import NestedModel, Structure
+    from anisotropy.simulate import simulate_field
+
+    rng = np.random.default_rng(1)
+    coords = rng.uniform(0, (300, 300, 120), size=(1500, 3))
+    truth_frame = frame_from_angles(60.0, 20.0, 10.0)
+    truth = NestedModel(nugget=0.1, structures=[Structure("spherical", 0.9,
+                                                          (150.0, 80.0, 40.0))],
+                        frame=truth_frame)
+    v = simulate_field(coords, truth, seed=3) + 10.0
+    table = pd.DataFrame({"x": coords[:, 0], "y": coords[:, 1], "z": coords[:, 2], "g": v})
+    found = discover(table, value="g", transform="raw", bootstrap=40, seed=0)
+    return found, truth_frame
 
 
 @pytest.mark.slow
-def test_correct_interpretation_is_consistent(chain):
-    F = chain.truth_frame
-    assert axis_angle(chain.frame[:, 0], F[:, 0]) < 15  # the fit itself found the truth
+def test_correct_interpretation_is_consistent(field):
+    found, F = field
+    assert axis_angle(found.frame[:, 0], F[:, 0]) < 15  # the fit itself found the truth
     it = Interpretation.from_axes(F[:, 0], F[:, 2])
-    res = check_interpretation(chain, it, thresholds={"max_ratio_replicates": 30})
+    res = check_interpretation(found, it, thresholds={"max_ratio_replicates": 30})
     assert res.verdict == "consistent", res.summary()
     d = json.loads(json.dumps(res.to_dict()))
     assert d["verdict"] == "consistent"
@@ -189,24 +167,25 @@ def test_correct_interpretation_is_consistent(chain):
 
 
 @pytest.mark.slow
-def test_interpretation_40_degrees_off_is_contradicted(chain):
-    F = chain.truth_frame
+def test_interpretation_40_degrees_off_is_contradicted(field):
+    found, F = field
     # rotate the true frame 40 degrees about its semi-major axis (scipy Rotation):
     # major and minor axes both move 40 degrees
     R = Rotation.from_rotvec(np.radians(40.0) * F[:, 1]).as_matrix() @ F
     assert axis_angle(R[:, 0], F[:, 0]) == pytest.approx(40.0)
     it = Interpretation.from_axes(R[:, 0], R[:, 2])
-    res = check_interpretation(chain, it, thresholds={"max_ratio_replicates": 30})
+    res = check_interpretation(found, it, thresholds={"max_ratio_replicates": 30})
     assert res.verdict == "contradicted", res.summary()
     assert res.support["major"]["outside"] and res.fit["worse"]
 
 
 @pytest.mark.slow
-def test_plane_only_checks_the_pole(chain):
+def test_plane_only_checks_the_pole(field):
+    found, truth_frame = field
     from anisotropy.geometry import pole_to_plane
 
-    dd, dip = pole_to_plane(chain.truth_frame[:, 2])
-    res = check_interpretation(chain, Interpretation.from_plane(dd, dip),
+    dd, dip = pole_to_plane(truth_frame[:, 2])
+    res = check_interpretation(found, Interpretation.from_plane(dd, dip),
                                thresholds={"max_ratio_replicates": 20})
     assert set(res.angles) == {"minor"}
     # the true plane is consistent (its pole is the truth's minor axis, which the fit found)
@@ -215,10 +194,10 @@ def test_plane_only_checks_the_pole(chain):
     # and the check can tell: the same plane dipping 40 degrees more (its pole turned
     # 40 degrees about the strike, scipy Rotation) is not consistent
     strike = line_to_vector(dd - 90.0, 0.0)
-    pole = Rotation.from_rotvec(np.radians(40.0) * strike).apply(chain.truth_frame[:, 2])
-    assert axis_angle(pole, chain.truth_frame[:, 2]) == pytest.approx(40.0)
+    pole = Rotation.from_rotvec(np.radians(40.0) * strike).apply(truth_frame[:, 2])
+    assert axis_angle(pole, truth_frame[:, 2]) == pytest.approx(40.0)
     dd2, dip2 = pole_to_plane(pole)
-    off = check_interpretation(chain, Interpretation.from_plane(dd2, dip2),
+    off = check_interpretation(found, Interpretation.from_plane(dd2, dip2),
                                thresholds={"max_ratio_replicates": 20})
     assert off.angles["minor"] > 30.0, off.summary()
     assert off.verdict != "consistent", off.summary()
