@@ -22,7 +22,7 @@ import pytest
 from scipy.spatial.transform import Rotation
 
 from anisotropy.geometry import frame_from_angles, line_to_vector
-from anisotropy.modelfile import model_record, scale_parameter, write_model_files
+from anisotropy.modelfile import scale_parameter, write_model_files
 
 R0 = np.array([[0.0, 1.0, 0.0], [1.0, 0.0, 0.0], [0.0, 0.0, -1.0]])
 
