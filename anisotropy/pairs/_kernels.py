@@ -59,6 +59,210 @@ NPAD = 16
 _SQRT2 = math.sqrt(2.0)
 
 
+# --------------------------------------------------- helpers of the volume passes
+# inline="always": Numba inlines them into the caller's IR before compiling it, so the
+# split into short functions costs no call per pair (benchmarks/RESULTS.md, "Pair kernels
+# split into short functions")
+@njit(cache=True, inline="always")
+def _cols15(cols):
+    """The columns ``cols`` (15,) as a tuple: held in registers, not re-read per pair."""
+    return (cols[0], cols[1], cols[2], cols[3], cols[4], cols[5], cols[6], cols[7], cols[8],
+            cols[9], cols[10], cols[11], cols[12], cols[13], cols[14])
+
+
+@njit(cache=True, inline="always")
+def _zeros15():
+    """Fifteen zero channel values (the register sums before their first pair)."""
+    return (0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0)
+
+
+@njit(cache=True, inline="always")
+def _sum15(a, b):
+    """Channel values ``a + b``, element by element (15-tuples)."""
+    return (a[0] + b[0], a[1] + b[1], a[2] + b[2], a[3] + b[3], a[4] + b[4], a[5] + b[5],
+            a[6] + b[6], a[7] + b[7], a[8] + b[8], a[9] + b[9], a[10] + b[10], a[11] + b[11],
+            a[12] + b[12], a[13] + b[13], a[14] + b[14])
+
+
+@njit(cache=True, inline="always")
+def _partner_cell(a, ox, oy, oz, dims):
+    """Flat index of the cell ``a + (ox, oy, oz)`` of a grid of shape ``dims``, -1 outside it."""
+    ny = dims[1]
+    nz = dims[2]
+    bx = a // (ny * nz) + ox
+    by = (a // nz) % ny + oy
+    bz = a % nz + oz
+    if bx < 0 or bx >= dims[0] or by < 0 or by >= ny or bz < 0 or bz >= nz:
+        return -1
+    return (bx * ny + by) * nz + bz
+
+
+@njit(cache=True, inline="always")
+def _lag_class(d, inv_lag, lag, guard, n_lags):
+    """Distance class ``ceil(d / lag - 1/2)``, at least 0; -1 beyond ``n_lags``.
+
+    A multiply by ``inv_lag = 1 / lag``, and the divide only when the product
+    lies within ``guard`` of a class bound, so the class is the divide's exactly.
+    """
+    xq = d * inv_lag - 0.5
+    kf = math.ceil(xq)
+    fr = kf - xq
+    if fr < guard or fr > 1.0 - guard:
+        kf = math.ceil(d / lag - 0.5)  # near a bound: the rule's own divide
+    if kf > n_lags:
+        return -1
+    return max(int(kf), 0)
+
+
+@njit(cache=True, inline="always")
+def _orient(dx, dy, dz, d, d2, vi, vj, table, inv_pix):
+    """Canonical flip and fine direction cell of the pair (tail ``vi`` at the origin of the lag
+    ``(dx, dy, dz)``, partner ``vj``) of length ``d`` (``d2`` its square).
+
+    Returns
+    -------
+    dx, dy, dz : float
+        The lag turned to the lower hemisphere (geometry.to_lower_hemisphere).
+    h, t : float
+        Head and tail values (head = tail + lag).
+    f : int64
+        Fine cell, read from ``table`` at the stereographic plane coordinates
+        (see ``_lattice``); cell 0 for coincident points.
+    """
+    # branch-free (the flip is a coin toss per pair); sign changes are exact
+    key = dz if dz != 0.0 else (-dx if dx != 0.0 else -dy)
+    fl = key > 0.0
+    sg = 1.0 - 2.0 * np.float64(fl)
+    dx = dx * sg
+    dy = dy * sg
+    dz = dz * sg
+    h = vi if fl else vj
+    t = vj if fl else vi
+    if d2 > 0.0:
+        # one divide, no root; both coordinates are >= 0 up to rounding, so truncation is
+        # the floor after the clamp
+        tmax = table.shape[0] - 1
+        r = 1.0 / (d - dz)
+        ix = min(max(int((dx * r + 1.0) * inv_pix), 0), tmax)
+        iy = min(max(int((dy * r + 1.0) * inv_pix), 0), tmax)
+        f = np.int64(table[ix, iy])
+    else:
+        f = np.int64(0)  # coincident points: class 0, first cell
+    return dx, dy, dz, h, t, f
+
+
+@njit(cache=True, inline="always")
+def _channel_values(d, h, t, dx, dy, dz, w_sqrt, w_rel):
+    """The 15 channel values (``CHANNELS`` order) of one oriented pair, as a tuple.
+
+    The square root of |delta| only with ``w_sqrt`` and the relative channels
+    only with ``w_rel`` (zero otherwise): the two expensive ones.
+    """
+    delta = h - t
+    sq = delta * delta
+    ad = abs(delta)
+    sr = math.sqrt(ad) if w_sqrt else 0.0
+    rel = 0.0
+    reln = 0.0
+    if w_rel:
+        ssum = h + t
+        if ssum != 0.0:
+            rel = 4.0 * sq / (ssum * ssum)
+            reln = 1.0
+    return (1.0, d, sq, ad, sr, h, t, h * h, t * t, h * t, rel, reln, dx, dy, dz)
+
+
+@njit(cache=True, inline="always")
+def _add_row(acc, r, cols, q):
+    """Add the channel values ``q`` (15-tuple) into row ``r`` of ``acc`` at the columns ``cols``
+    (15-tuple, -1 = not kept). Count, dist, dx, dy, dz are always kept; the groups sq, abs,
+    sqrt, head..cross and rel, rel_n only where their first column is kept."""
+    acc[r, cols[0]] += q[0]
+    acc[r, cols[1]] += q[1]
+    acc[r, cols[12]] += q[12]
+    acc[r, cols[13]] += q[13]
+    acc[r, cols[14]] += q[14]
+    if cols[2] >= 0:
+        acc[r, cols[2]] += q[2]
+    if cols[3] >= 0:
+        acc[r, cols[3]] += q[3]
+    if cols[4] >= 0:
+        acc[r, cols[4]] += q[4]
+    if cols[5] >= 0:
+        acc[r, cols[5]] += q[5]
+        acc[r, cols[6]] += q[6]
+        acc[r, cols[7]] += q[7]
+        acc[r, cols[8]] += q[8]
+        acc[r, cols[9]] += q[9]
+    if cols[10] >= 0:
+        acc[r, cols[10]] += q[10]
+        acc[r, cols[11]] += q[11]
+
+
+@njit(cache=True, inline="always")
+def _block_of_point(px, py, pz, blk):
+    """Flat index of the block holding the point ``(px, py, pz)`` (clamped to the grid).
+
+    ``blk``: the block grid (origin (3,), inverse side (3,), shape (3,)).
+    """
+    borig, binv, bshape = blk
+    bx = int(math.floor((px - borig[0]) * binv[0]))
+    by = int(math.floor((py - borig[1]) * binv[1]))
+    bz = int(math.floor((pz - borig[2]) * binv[2]))
+    bx = min(max(bx, 0), bshape[0] - 1)
+    by = min(max(by, 0), bshape[1] - 1)
+    bz = min(max(bz, 0), bshape[2] - 1)
+    return (bx * bshape[1] + by) * bshape[2] + bz
+
+
+@njit(cache=True, inline="always")
+def _cell_pair_block(a, b, cells, blk):
+    """The block (of the grid ``blk``, see :func:`_block_of_point`) holding the midpoint of
+    every pair of the cell pair (``a``, ``b``), or -1 when it may vary.
+
+    ``cells = (occ_index, cell_lo, cell_hi)``: the position of a cell in ``occupied`` and
+    the bounding boxes (n_occupied, 3) of its samples.
+
+    The rounded midpoint, shift, scale, floor and clamp are all monotone, so the blocks
+    of the two corners bound every pair's. Both volume kernels use this one test, so every
+    cell pair goes to exactly one of them.
+    """
+    occ_index, cell_lo, cell_hi = cells
+    borig, binv, bshape = blk
+    qa = occ_index[a]
+    qb = occ_index[b]
+    same = True
+    bl = 0
+    for ax_ in range(3):
+        lo = int(math.floor((0.5 * (cell_lo[qa, ax_] + cell_lo[qb, ax_]) - borig[ax_])
+                            * binv[ax_]))
+        hi = int(math.floor((0.5 * (cell_hi[qa, ax_] + cell_hi[qb, ax_]) - borig[ax_])
+                            * binv[ax_]))
+        lo = min(max(lo, 0), bshape[ax_] - 1)
+        hi = min(max(hi, 0), bshape[ax_] - 1)
+        if lo != hi:
+            same = False
+        bl = bl * bshape[ax_] + lo
+    return bl if same else -1
+
+
+@njit(cache=True, inline="always")
+def _map_cell(dx, dy, dz, mp):
+    """Flat index of the map cell of the canonical lag ``(dx, dy, dz)``; ``mp = (minv, mhalf)``:
+    cell side ``1 / minv``, ``2 mhalf + 1`` cells along x and y, ``mhalf + 1`` along z (clamped)."""
+    minv, mhalf = mp
+    mny = 2 * mhalf + 1
+    mnz = mhalf + 1
+    mx = int(math.floor(dx * minv + 0.5)) + mhalf
+    my = int(math.floor(dy * minv + 0.5)) + mhalf
+    mz = int(math.floor(dz * minv + 0.5)) + mhalf
+    mx = min(max(mx, 0), mny - 1)
+    my = min(max(my, 0), mny - 1)
+    mz = min(max(mz, 0), mnz - 1)
+    return (mx * mny + my) * mnz + mz
+
+
+# ------------------------------------------------------------- the volume pass
 @njit(cache=True, parallel=True)
 def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                 maxd2, lag, n_lags, table, inv_pix, f2c, n_coarse,
@@ -83,342 +287,133 @@ def volume_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
     runs offset by offset (outer) over all cells (inner): for one offset the
     lag vectors of all its cell pairs lie in a small box, so the bins they
     touch stay in cache. Chunk ``c`` takes the offsets ``g`` with
-    ``g % n_chunks == c``. ``stats[c, 0]`` counts candidate pairs looked at,
-    ``stats[c, 1]`` pairs kept.
+    ``g % n_chunks == c`` (:func:`_volume_chunk`). ``stats[c, 0]`` counts
+    candidate pairs looked at, ``stats[c, 1]`` pairs kept.
 
-    Class: ``ceil(d / lag - 1/2)``. It is computed with a multiply by
-    ``1 / lag``, and with the divide only when the product lies within a few
-    rounding units of a class bound, so the class is the divide's exactly
-    (the divide is one of the four long-latency operations per pair).
-
-    Blocks: when the midpoints of every pair of a cell pair fall in one block
-    (tested on the cells' bounding boxes: the rounded midpoint, shift, scale,
-    floor and clamp are all monotone, so the block of the two corners bounds
-    every pair's), the block is computed once for the cell pair.
-    ``occ_index[cell]`` is the position of a cell in ``occupied`` and
-    ``cell_lo``/``cell_hi`` (n_occupied, 3) the bounding boxes of its samples.
+    Class: :func:`_lag_class`. Blocks: when the midpoints of every pair of a
+    cell pair fall in one block (:func:`_cell_pair_block`), the block is
+    computed once for the cell pair. ``occ_index[cell]`` is the position of
+    a cell in ``occupied`` and ``cell_lo``/``cell_hi`` (n_occupied, 3) the
+    bounding boxes of its samples.
     """
-    tsize = table.shape[0]
-    tmax = tsize - 1
-    n_fine = f2c.shape[0]
-    mny = 2 * mhalf + 1
-    mnz = mhalf + 1
-    ny = dims[1]
-    nz = dims[2]
-    n_occ = occupied.shape[0]
-    inv_lag = 1.0 / lag
-    guard = 1e-15 * (n_lags + 2.0)  # a few rounding units of d / lag at the longest class
-    kf0 = fcols[0]
-    kf1 = fcols[1]
-    kf2 = fcols[2]
-    kf3 = fcols[3]
-    kf4 = fcols[4]
-    kf5 = fcols[5]
-    kf6 = fcols[6]
-    kf7 = fcols[7]
-    kf8 = fcols[8]
-    kf9 = fcols[9]
-    kf10 = fcols[10]
-    kf11 = fcols[11]
-    kf12 = fcols[12]
-    kf13 = fcols[13]
-    kf14 = fcols[14]
-    kb0 = bcols[0]
-    kb1 = bcols[1]
-    kb2 = bcols[2]
-    kb3 = bcols[3]
-    kb4 = bcols[4]
-    kb5 = bcols[5]
-    kb6 = bcols[6]
-    kb7 = bcols[7]
-    kb8 = bcols[8]
-    kb9 = bcols[9]
-    kb10 = bcols[10]
-    kb11 = bcols[11]
-    kb12 = bcols[12]
-    kb13 = bcols[13]
-    kb14 = bcols[14]
-    km0 = mcols[0]
-    km1 = mcols[1]
-    km2 = mcols[2]
-    km3 = mcols[3]
-    km4 = mcols[4]
-    km5 = mcols[5]
-    km6 = mcols[6]
-    km7 = mcols[7]
-    km8 = mcols[8]
-    km9 = mcols[9]
-    km10 = mcols[10]
-    km11 = mcols[11]
-    km12 = mcols[12]
-    km13 = mcols[13]
-    km14 = mcols[14]
+    kf = _cols15(fcols)
+    kb = _cols15(bcols)
+    km = _cols15(mcols)
     # which optional groups any accumulator keeps (their per-pair work is skipped otherwise)
-    w_sqrt = kf4 >= 0 or (do_blocks and kb4 >= 0) or (do_map and km4 >= 0)
-    w_rel = kf10 >= 0 or (do_blocks and kb10 >= 0) or (do_map and km10 >= 0)
+    w_sqrt = kf[4] >= 0 or (do_blocks and kb[4] >= 0) or (do_map and km[4] >= 0)
+    w_rel = kf[10] >= 0 or (do_blocks and kb[10] >= 0) or (do_map and km[10] >= 0)
+    # bundles (a call of more than 30 arguments is one Numba cannot inline)
+    guard = 1e-15 * (n_lags + 2.0)  # a few rounding units of d / lag at the longest class
+    cls = (maxd2, 1.0 / lag, lag, guard, n_lags)
+    blk = (borig, binv, bshape)
+    cells = (occ_index, cell_lo, cell_hi)
     for c in prange(n_chunks):
-        af = acc_fine[c]
-        ab = acc_blk[c]
-        am = acc_map[c]
-        bcur = -1
-        bq0 = 0.0
-        bq1 = 0.0
-        bq2 = 0.0
-        bq3 = 0.0
-        bq4 = 0.0
-        bq5 = 0.0
-        bq6 = 0.0
-        bq7 = 0.0
-        bq8 = 0.0
-        bq9 = 0.0
-        bq10 = 0.0
-        bq11 = 0.0
-        bq12 = 0.0
-        bq13 = 0.0
-        bq14 = 0.0
-        cand = 0
-        kept = 0
-        first = g0 + ((c - g0) % n_chunks)
-        for g in range(first, g1, n_chunks):
-            ox = offsets[g, 0]
-            oy = offsets[g, 1]
-            oz = offsets[g, 2]
-            self_pairs = ox == 0 and oy == 0 and oz == 0
-            for q in range(n_occ):
-                a = occupied[q]
-                ax = a // (ny * nz)
-                ay = (a // nz) % ny
-                az = a % nz
-                bx = ax + ox
-                by = ay + oy
-                bz = az + oz
-                if bx < 0 or bx >= dims[0] or by < 0 or by >= ny or bz < 0 or bz >= nz:
-                    continue
-                b = (bx * ny + by) * nz + bz
-                b0 = start[b]
-                b1 = start[b + 1]
-                if b1 == b0:
-                    continue
-                a0 = start[a]
-                a1 = start[a + 1]
-                bconst = -1
-                if do_blocks:
-                    qa = occ_index[a]
-                    qb = occ_index[b]
-                    same = True
-                    bl = 0
-                    for ax_ in range(3):
-                        lo = int(math.floor((0.5 * (cell_lo[qa, ax_] + cell_lo[qb, ax_]) - borig[ax_])
-                                            * binv[ax_]))
-                        hi = int(math.floor((0.5 * (cell_hi[qa, ax_] + cell_hi[qb, ax_]) - borig[ax_])
-                                            * binv[ax_]))
-                        lo = min(max(lo, 0), bshape[ax_] - 1)
-                        hi = min(max(hi, 0), bshape[ax_] - 1)
-                        if lo != hi:
-                            same = False
-                        bl = bl * bshape[ax_] + lo
-                    if same:
-                        bconst = bl
-                        if skip_const:
-                            continue
-                for i in range(a0, a1):
-                    xi = x[i]
-                    yi = y[i]
-                    zi = z[i]
-                    vi = v[i]
-                    jstart = i + 1 if self_pairs else b0
-                    cand += b1 - jstart
-                    for j in range(jstart, b1):
-                        dx = x[j] - xi
-                        dy = y[j] - yi
-                        dz = z[j] - zi
-                        d2 = dx * dx + dy * dy + dz * dz
-                        if d2 > maxd2:
-                            continue
-                        d = math.sqrt(d2)
-                        xq = d * inv_lag - 0.5
-                        kf = math.ceil(xq)
-                        fr = kf - xq
-                        if fr < guard or fr > 1.0 - guard:
-                            kf = math.ceil(d / lag - 0.5)  # near a bound: the rule's own divide
-                        if kf > n_lags:
-                            continue
-                        k = int(kf)
-                        if k < 0:
-                            k = 0
-                        # canonical orientation (geometry.to_lower_hemisphere): head = tail + v
-                        # branch-free (the flip is a coin toss per pair); sign changes are exact
-                        vj = v[j]
-                        key = dz if dz != 0.0 else (-dx if dx != 0.0 else -dy)
-                        fl = key > 0.0
-                        sg = 1.0 - 2.0 * np.float64(fl)
-                        dx = dx * sg
-                        dy = dy * sg
-                        dz = dz * sg
-                        h = vi if fl else vj
-                        t = vj if fl else vi
-                        if d2 > 0.0:
-                            # stereographic plane coordinates (see _lattice): one divide, no root;
-                            # both are >= 0 up to rounding, so truncation is the floor after the clamp
-                            r = 1.0 / (d - dz)
-                            ix = min(max(int((dx * r + 1.0) * inv_pix), 0), tmax)
-                            iy = min(max(int((dy * r + 1.0) * inv_pix), 0), tmax)
-                            f = np.int64(table[ix, iy])
-                        else:
-                            f = np.int64(0)  # coincident points: class 0, first cell
-                        kept += 1
-                        delta = h - t
-                        sq = delta * delta
-                        ad = abs(delta)
-                        sr = math.sqrt(ad) if w_sqrt else 0.0
-                        rel = 0.0
-                        reln = 0.0
-                        if w_rel:
-                            ssum = h + t
-                            if ssum != 0.0:
-                                rel = 4.0 * sq / (ssum * ssum)
-                                reln = 1.0
-                        fb = k * n_fine + f
-                        af[fb, kf0] += 1.0
-                        af[fb, kf1] += d
-                        af[fb, kf12] += dx
-                        af[fb, kf13] += dy
-                        af[fb, kf14] += dz
-                        if kf2 >= 0:
-                            af[fb, kf2] += sq
-                        if kf3 >= 0:
-                            af[fb, kf3] += ad
-                        if kf4 >= 0:
-                            af[fb, kf4] += sr
-                        if kf5 >= 0:
-                            af[fb, kf5] += h
-                            af[fb, kf6] += t
-                            af[fb, kf7] += h * h
-                            af[fb, kf8] += t * t
-                            af[fb, kf9] += h * t
-                        if kf10 >= 0:
-                            af[fb, kf10] += rel
-                            af[fb, kf11] += reln
-                        if do_blocks:
-                            if bconst >= 0:
-                                bb = bconst
-                            else:
-                                bx = int(math.floor((0.5 * (xi + x[j]) - borig[0]) * binv[0]))
-                                by = int(math.floor((0.5 * (yi + y[j]) - borig[1]) * binv[1]))
-                                bz = int(math.floor((0.5 * (zi + z[j]) - borig[2]) * binv[2]))
-                                bx = min(max(bx, 0), bshape[0] - 1)
-                                by = min(max(by, 0), bshape[1] - 1)
-                                bz = min(max(bz, 0), bshape[2] - 1)
-                                bb = (bx * bshape[1] + by) * bshape[2] + bz
-                            # consecutive pairs mostly share a block bin: sum in registers, store on change
-                            rb = (bb * (n_lags + 1) + k) * n_coarse + f2c[f]
-                            if rb != bcur:
-                                if bcur >= 0:
-                                    ab[bcur, kb0] += bq0
-                                    ab[bcur, kb1] += bq1
-                                    ab[bcur, kb12] += bq12
-                                    ab[bcur, kb13] += bq13
-                                    ab[bcur, kb14] += bq14
-                                    if kb2 >= 0:
-                                        ab[bcur, kb2] += bq2
-                                    if kb3 >= 0:
-                                        ab[bcur, kb3] += bq3
-                                    if kb4 >= 0:
-                                        ab[bcur, kb4] += bq4
-                                    if kb5 >= 0:
-                                        ab[bcur, kb5] += bq5
-                                        ab[bcur, kb6] += bq6
-                                        ab[bcur, kb7] += bq7
-                                        ab[bcur, kb8] += bq8
-                                        ab[bcur, kb9] += bq9
-                                    if kb10 >= 0:
-                                        ab[bcur, kb10] += bq10
-                                        ab[bcur, kb11] += bq11
-                                bcur = rb
-                                bq0 = 1.0
-                                bq1 = d
-                                bq2 = sq
-                                bq3 = ad
-                                bq4 = sr
-                                bq5 = h
-                                bq6 = t
-                                bq7 = h * h
-                                bq8 = t * t
-                                bq9 = h * t
-                                bq10 = rel
-                                bq11 = reln
-                                bq12 = dx
-                                bq13 = dy
-                                bq14 = dz
-                            else:
-                                bq0 += 1.0
-                                bq1 += d
-                                bq2 += sq
-                                bq3 += ad
-                                bq4 += sr
-                                bq5 += h
-                                bq6 += t
-                                bq7 += h * h
-                                bq8 += t * t
-                                bq9 += h * t
-                                bq10 += rel
-                                bq11 += reln
-                                bq12 += dx
-                                bq13 += dy
-                                bq14 += dz
-                        if do_map:
-                            mx = int(math.floor(dx * minv + 0.5)) + mhalf
-                            my = int(math.floor(dy * minv + 0.5)) + mhalf
-                            mz = int(math.floor(dz * minv + 0.5)) + mhalf
-                            mx = min(max(mx, 0), mny - 1)
-                            my = min(max(my, 0), mny - 1)
-                            mz = min(max(mz, 0), mnz - 1)
-                            mb = (mx * mny + my) * mnz + mz
-                            am[mb, km0] += 1.0
-                            am[mb, km1] += d
-                            am[mb, km12] += dx
-                            am[mb, km13] += dy
-                            am[mb, km14] += dz
-                            if km2 >= 0:
-                                am[mb, km2] += sq
-                            if km3 >= 0:
-                                am[mb, km3] += ad
-                            if km4 >= 0:
-                                am[mb, km4] += sr
-                            if km5 >= 0:
-                                am[mb, km5] += h
-                                am[mb, km6] += t
-                                am[mb, km7] += h * h
-                                am[mb, km8] += t * t
-                                am[mb, km9] += h * t
-                            if km10 >= 0:
-                                am[mb, km10] += rel
-                                am[mb, km11] += reln
-        if bcur >= 0:
-            ab[bcur, kb0] += bq0
-            ab[bcur, kb1] += bq1
-            ab[bcur, kb12] += bq12
-            ab[bcur, kb13] += bq13
-            ab[bcur, kb14] += bq14
-            if kb2 >= 0:
-                ab[bcur, kb2] += bq2
-            if kb3 >= 0:
-                ab[bcur, kb3] += bq3
-            if kb4 >= 0:
-                ab[bcur, kb4] += bq4
-            if kb5 >= 0:
-                ab[bcur, kb5] += bq5
-                ab[bcur, kb6] += bq6
-                ab[bcur, kb7] += bq7
-                ab[bcur, kb8] += bq8
-                ab[bcur, kb9] += bq9
-            if kb10 >= 0:
-                ab[bcur, kb10] += bq10
-                ab[bcur, kb11] += bq11
+        cand, kept = _volume_chunk(
+            c, (x, y, z, v), start, dims, occupied, offsets, g0, g1, n_chunks, cls, table,
+            inv_pix, f2c, n_coarse, do_blocks, blk, do_map, (minv, mhalf), acc_fine[c],
+            acc_blk[c], acc_map[c], cells, kf, kb, km, w_sqrt, w_rel, skip_const)
         stats[c, 0] += cand
         stats[c, 1] += kept
 
 
+@njit(cache=True)
+def _volume_chunk(c, pts, start, dims, occupied, offsets, g0, g1, n_chunks, cls, table, inv_pix,
+                  f2c, n_coarse, do_blocks, blk, do_map, mp, af, ab, am, cells, kf, kb, km,
+                  w_sqrt, w_rel, skip_const):
+    """Chunk ``c`` of :func:`volume_pass` into its slices ``af`` / ``ab`` / ``am``.
+
+    ``pts = (x, y, z, v)``; ``cls = (maxd2, 1 / lag, lag, guard, n_lags)`` (see
+    :func:`_lag_class`); ``blk``, ``cells``: see :func:`_cell_pair_block`; ``mp``: see
+    :func:`_map_cell`. ``kf`` / ``kb`` / ``km`` are the fine / block / map columns as
+    tuples, ``w_sqrt`` / ``w_rel`` whether any accumulator keeps those groups.
+    Consecutive pairs mostly share a block row, so the block sums of the current row
+    ``bcur`` are held in registers (``bq``) and stored when the row changes. Returns
+    (candidate pairs, pairs kept).
+    """
+    bcur = -1
+    bq = _zeros15()
+    cand = 0
+    kept = 0
+    for g in range(g0 + ((c - g0) % n_chunks), g1, n_chunks):
+        self_pairs = offsets[g, 0] == 0 and offsets[g, 1] == 0 and offsets[g, 2] == 0
+        for q in range(occupied.shape[0]):
+            a = occupied[q]
+            b = _partner_cell(a, offsets[g, 0], offsets[g, 1], offsets[g, 2], dims)
+            if b < 0 or start[b + 1] == start[b]:
+                continue
+            bconst = -1
+            if do_blocks:
+                bconst = _cell_pair_block(a, b, cells, blk)
+                if bconst >= 0 and skip_const:
+                    continue
+            bcur, bq, n_cand, n_kept = _volume_cell_pair(
+                pts, start[a], start[a + 1], start[b], start[b + 1], self_pairs, bconst, cls,
+                table, inv_pix, f2c, n_coarse, do_blocks, blk, do_map, mp, af, ab, am,
+                kf, kb, km, w_sqrt, w_rel, bcur, bq)
+            cand += n_cand
+            kept += n_kept
+    if bcur >= 0:
+        _add_row(ab, bcur, kb, bq)
+    return cand, kept
+
+
+@njit(cache=True, inline="always")
+def _volume_cell_pair(pts, a0, a1, b0, b1, self_pairs, bconst, cls, table, inv_pix, f2c,
+                      n_coarse, do_blocks, blk, do_map, mp, af, ab, am, kf, kb, km,
+                      w_sqrt, w_rel, bcur, bq):
+    """The pairs of samples ``a0 <= i < a1`` with ``b0 <= j < b1`` (``j > i`` within one cell:
+    ``self_pairs``) into the fine, block and map sums (arguments: :func:`_volume_chunk`).
+
+    ``bconst``: the block of every pair of the cell pair, -1 when it varies (then the block
+    of each pair's midpoint). Returns the register block row and sums ``(bcur, bq)`` carried
+    to the next cell pair, and the candidate and kept pair counts.
+    """
+    x, y, z, v = pts
+    maxd2, inv_lag, lag, guard, n_lags = cls
+    n_fine = f2c.shape[0]
+    cand = 0
+    kept = 0
+    for i in range(a0, a1):
+        xi = x[i]
+        yi = y[i]
+        zi = z[i]
+        vi = v[i]
+        jstart = i + 1 if self_pairs else b0
+        cand += b1 - jstart
+        for j in range(jstart, b1):
+            dx = x[j] - xi
+            dy = y[j] - yi
+            dz = z[j] - zi
+            d2 = dx * dx + dy * dy + dz * dz
+            if d2 > maxd2:
+                continue
+            d = math.sqrt(d2)
+            k = _lag_class(d, inv_lag, lag, guard, n_lags)
+            if k < 0:
+                continue
+            dx, dy, dz, h, t, f = _orient(dx, dy, dz, d, d2, vi, v[j], table, inv_pix)
+            kept += 1
+            q = _channel_values(d, h, t, dx, dy, dz, w_sqrt, w_rel)
+            _add_row(af, k * n_fine + f, kf, q)
+            if do_blocks:
+                bb = bconst
+                if bb < 0:
+                    bb = _block_of_point(0.5 * (xi + x[j]), 0.5 * (yi + y[j]), 0.5 * (zi + z[j]),
+                                         blk)
+                rb = (bb * (n_lags + 1) + k) * n_coarse + f2c[f]
+                if rb != bcur:
+                    if bcur >= 0:
+                        _add_row(ab, bcur, kb, bq)
+                    bcur = rb
+                    bq = q
+                else:
+                    bq = _sum15(bq, q)
+            if do_map:
+                _add_row(am, _map_cell(dx, dy, dz, mp), km, q)
+    return bcur, bq, cand, kept
+
+
+# -------------------------------------------------------- the block-major pass
 @njit(cache=True, parallel=True)
 def block_major_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                      maxd2, lag, n_lags, table, inv_pix, f2c, n_coarse,
@@ -434,253 +429,183 @@ def block_major_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunk
     (``acc_scratch[c]``, zero between blocks), then folds the touched scratch rows (listed in
     ``touched[c]``) into the fine sums and, through ``fine_to_coarse``, into that block's
     coarse sums. So the block sums cost one fold per touched row per block instead of work
-    per pair. The block of a cell pair is the rule of :func:`volume_pass` (the block of the
-    midpoints of the two cells' sample bounding boxes, when both corners agree), so block
-    sums are identical in content to the per-pair route (up to the order of additions).
+    per pair. The block of a cell pair is the rule of :func:`volume_pass`
+    (:func:`_cell_pair_block`), so block sums are identical in content to the per-pair route
+    (up to the order of additions).
 
-    Cells whose cell pair can be credited to block ``B`` for offset ``o``: the midpoints of
-    the pairs lie in ``[(a + o/2) c, (a + o/2 + 1) c]`` per axis for cell index ``a`` and
-    cell side ``c`` (the grid starts at 0), so ``a`` is searched in the block's extent in
-    cells shifted by ``-o/2``, one cell wider on each side; the block test itself is exact.
-    Block channels must be a subset of the fine channels (the caller checks).
+    Cells whose cell pair can be credited to block ``B`` for offset ``o``: see
+    :func:`_cell_span`; the block test itself is exact. Block channels must be a subset of
+    the fine channels (the caller checks).
     """
-    tsize = table.shape[0]
-    tmax = tsize - 1
-    n_fine = f2c.shape[0]
-    n_cls = n_lags + 1
-    mny = 2 * mhalf + 1
-    mnz = mhalf + 1
-    nx = dims[0]
-    ny = dims[1]
-    nz = dims[2]
-    n_blocks = bshape[0] * bshape[1] * bshape[2]
-    fw = acc_fine.shape[2]
-    inv_lag = 1.0 / lag
-    guard = 1e-15 * (n_lags + 2.0)
-    kf1 = fcols[1]
-    kf2 = fcols[2]
-    kf3 = fcols[3]
-    kf4 = fcols[4]
-    kf5 = fcols[5]
-    kf6 = fcols[6]
-    kf7 = fcols[7]
-    kf8 = fcols[8]
-    kf9 = fcols[9]
-    kf10 = fcols[10]
-    kf11 = fcols[11]
-    kf12 = fcols[12]
-    kf13 = fcols[13]
-    kf14 = fcols[14]
-    km0 = mcols[0]
-    km1 = mcols[1]
-    km2 = mcols[2]
-    km3 = mcols[3]
-    km4 = mcols[4]
-    km5 = mcols[5]
-    km6 = mcols[6]
-    km7 = mcols[7]
-    km8 = mcols[8]
-    km9 = mcols[9]
-    km10 = mcols[10]
-    km11 = mcols[11]
-    km12 = mcols[12]
-    km13 = mcols[13]
-    km14 = mcols[14]
-    w_sqrt = kf4 >= 0 or (do_map and km4 >= 0)
-    w_rel = kf10 >= 0 or (do_map and km10 >= 0)
-    # (fine column, block column) of every channel the blocks keep
-    n_pairs_cols = 0
-    for ch in range(bcols.shape[0]):
-        if bcols[ch] >= 0:
-            n_pairs_cols += 1
-    fold_f = np.empty(n_pairs_cols, dtype=np.int64)
-    fold_b = np.empty(n_pairs_cols, dtype=np.int64)
-    m_ = 0
-    for ch in range(bcols.shape[0]):
-        if bcols[ch] >= 0:
-            fold_f[m_] = fcols[ch]
-            fold_b[m_] = bcols[ch]
-            m_ += 1
+    kf = _cols15(fcols)
+    km = _cols15(mcols)
+    w_sqrt = kf[4] >= 0 or (do_map and km[4] >= 0)
+    w_rel = kf[10] >= 0 or (do_map and km[10] >= 0)
+    cls = (maxd2, 1.0 / lag, lag, 1e-15 * (n_lags + 2.0), n_lags)  # see volume_pass
+    fold = _fold_columns(fcols, bcols)
     for c in prange(n_chunks):
-        af = acc_fine[c]
-        sc = acc_scratch[c]
-        tl = touched[c]
-        ab = acc_blk[c]
-        am = acc_map[c]
-        cand = 0
-        kept = 0
-        for B in range(c, n_blocks, n_chunks):
-            bi0 = B // (bshape[1] * bshape[2])
-            bi1 = (B // bshape[2]) % bshape[1]
-            bi2 = B % bshape[2]
-            nt = 0
-            for g in range(g0, g1):
-                ox = offsets[g, 0]
-                oy = offsets[g, 1]
-                oz = offsets[g, 2]
-                self_pairs = ox == 0 and oy == 0 and oz == 0
-                # candidate cell ranges (see the docstring), clipped to the grid for a and a + o
-                lo0 = 0 if bi0 == 0 else int(math.floor(bi0 * bsize[0] / cell - 0.5 * ox)) - 2
-                hi0 = nx - 1 if bi0 == bshape[0] - 1 else \
-                    int(math.ceil((bi0 + 1) * bsize[0] / cell - 0.5 * ox)) + 1
-                lo1 = 0 if bi1 == 0 else int(math.floor(bi1 * bsize[1] / cell - 0.5 * oy)) - 2
-                hi1 = ny - 1 if bi1 == bshape[1] - 1 else \
-                    int(math.ceil((bi1 + 1) * bsize[1] / cell - 0.5 * oy)) + 1
-                lo2 = 0 if bi2 == 0 else int(math.floor(bi2 * bsize[2] / cell - 0.5 * oz)) - 2
-                hi2 = nz - 1 if bi2 == bshape[2] - 1 else \
-                    int(math.ceil((bi2 + 1) * bsize[2] / cell - 0.5 * oz)) + 1
-                lo0 = max(lo0, 0, -ox)
-                hi0 = min(hi0, nx - 1, nx - 1 - ox)
-                lo1 = max(lo1, 0, -oy)
-                hi1 = min(hi1, ny - 1, ny - 1 - oy)
-                lo2 = max(lo2, 0, -oz)
-                hi2 = min(hi2, nz - 1, nz - 1 - oz)
-                for ax in range(lo0, hi0 + 1):
-                    for ay in range(lo1, hi1 + 1):
-                        for az in range(lo2, hi2 + 1):
-                            a = (ax * ny + ay) * nz + az
-                            a0 = start[a]
-                            a1 = start[a + 1]
-                            if a1 == a0:
-                                continue
-                            b = ((ax + ox) * ny + (ay + oy)) * nz + (az + oz)
-                            b0 = start[b]
-                            b1 = start[b + 1]
-                            if b1 == b0:
-                                continue
-                            qa = occ_index[a]
-                            qb = occ_index[b]
-                            same = True
-                            bl = 0
-                            for ax_ in range(3):
-                                # exactly volume_pass's test (same operations), so every cell
-                                # pair goes to exactly one of the two kernels
-                                lo = int(math.floor((0.5 * (cell_lo[qa, ax_] + cell_lo[qb, ax_])
-                                                     - borig[ax_]) * binv[ax_]))
-                                hi = int(math.floor((0.5 * (cell_hi[qa, ax_] + cell_hi[qb, ax_])
-                                                     - borig[ax_]) * binv[ax_]))
-                                lo = min(max(lo, 0), bshape[ax_] - 1)
-                                hi = min(max(hi, 0), bshape[ax_] - 1)
-                                if lo != hi:
-                                    same = False
-                                bl = bl * bshape[ax_] + lo
-                            if not same or bl != B:
-                                continue
-                            for i in range(a0, a1):
-                                xi = x[i]
-                                yi = y[i]
-                                zi = z[i]
-                                vi = v[i]
-                                jstart = i + 1 if self_pairs else b0
-                                cand += b1 - jstart
-                                for j in range(jstart, b1):
-                                    dx = x[j] - xi
-                                    dy = y[j] - yi
-                                    dz = z[j] - zi
-                                    d2 = dx * dx + dy * dy + dz * dz
-                                    if d2 > maxd2:
-                                        continue
-                                    d = math.sqrt(d2)
-                                    xq = d * inv_lag - 0.5
-                                    kf = math.ceil(xq)
-                                    fr = kf - xq
-                                    if fr < guard or fr > 1.0 - guard:
-                                        kf = math.ceil(d / lag - 0.5)
-                                    if kf > n_lags:
-                                        continue
-                                    k = max(int(kf), 0)
-                                    vj = v[j]
-                                    key = dz if dz != 0.0 else (-dx if dx != 0.0 else -dy)
-                                    fl = key > 0.0
-                                    sg = 1.0 - 2.0 * np.float64(fl)
-                                    dx = dx * sg
-                                    dy = dy * sg
-                                    dz = dz * sg
-                                    h = vi if fl else vj
-                                    t = vj if fl else vi
-                                    if d2 > 0.0:
-                                        r = 1.0 / (d - dz)
-                                        ix = min(max(int((dx * r + 1.0) * inv_pix), 0), tmax)
-                                        iy = min(max(int((dy * r + 1.0) * inv_pix), 0), tmax)
-                                        f = np.int64(table[ix, iy])
-                                    else:
-                                        f = np.int64(0)
-                                    kept += 1
-                                    delta = h - t
-                                    sq = delta * delta
-                                    ad = abs(delta)
-                                    sr = math.sqrt(ad) if w_sqrt else 0.0
-                                    rel = 0.0
-                                    reln = 0.0
-                                    if w_rel:
-                                        ssum = h + t
-                                        if ssum != 0.0:
-                                            rel = 4.0 * sq / (ssum * ssum)
-                                            reln = 1.0
-                                    fb = k * n_fine + f
-                                    if sc[fb, 0] == 0.0:
-                                        tl[nt] = fb
-                                        nt += 1
-                                    sc[fb, 0] += 1.0
-                                    sc[fb, kf1] += d
-                                    sc[fb, kf12] += dx
-                                    sc[fb, kf13] += dy
-                                    sc[fb, kf14] += dz
-                                    if kf2 >= 0:
-                                        sc[fb, kf2] += sq
-                                    if kf3 >= 0:
-                                        sc[fb, kf3] += ad
-                                    if kf4 >= 0:
-                                        sc[fb, kf4] += sr
-                                    if kf5 >= 0:
-                                        sc[fb, kf5] += h
-                                        sc[fb, kf6] += t
-                                        sc[fb, kf7] += h * h
-                                        sc[fb, kf8] += t * t
-                                        sc[fb, kf9] += h * t
-                                    if kf10 >= 0:
-                                        sc[fb, kf10] += rel
-                                        sc[fb, kf11] += reln
-                                    if do_map:
-                                        mx = int(math.floor(dx * minv + 0.5)) + mhalf
-                                        my = int(math.floor(dy * minv + 0.5)) + mhalf
-                                        mz = int(math.floor(dz * minv + 0.5)) + mhalf
-                                        mx = min(max(mx, 0), mny - 1)
-                                        my = min(max(my, 0), mny - 1)
-                                        mz = min(max(mz, 0), mnz - 1)
-                                        mb = (mx * mny + my) * mnz + mz
-                                        am[mb, km0] += 1.0
-                                        am[mb, km1] += d
-                                        am[mb, km12] += dx
-                                        am[mb, km13] += dy
-                                        am[mb, km14] += dz
-                                        if km2 >= 0:
-                                            am[mb, km2] += sq
-                                        if km3 >= 0:
-                                            am[mb, km3] += ad
-                                        if km4 >= 0:
-                                            am[mb, km4] += sr
-                                        if km5 >= 0:
-                                            am[mb, km5] += h
-                                            am[mb, km6] += t
-                                            am[mb, km7] += h * h
-                                            am[mb, km8] += t * t
-                                            am[mb, km9] += h * t
-                                        if km10 >= 0:
-                                            am[mb, km10] += rel
-                                            am[mb, km11] += reln
-            # fold the touched scratch rows into the fine sums and this block's coarse sums
-            for u in range(nt):
-                fb = tl[u]
-                k = fb // n_fine
-                rb = (B * n_cls + k) * n_coarse + f2c[fb - k * n_fine]
-                for m in range(fold_f.shape[0]):
-                    ab[rb, fold_b[m]] += sc[fb, fold_f[m]]
-                for col in range(fw):
-                    af[fb, col] += sc[fb, col]
-                    sc[fb, col] = 0.0
+        cand, kept = _block_major_chunk(
+            c, (x, y, z, v), start, dims, offsets, g0, g1, n_chunks, cls, table, inv_pix, f2c,
+            n_coarse, (borig, binv, bshape), (bsize, cell), do_map, (minv, mhalf), acc_fine[c],
+            acc_scratch[c], touched[c], acc_blk[c], acc_map[c], (occ_index, cell_lo, cell_hi),
+            kf, km, w_sqrt, w_rel, fold)
         stats[c, 0] += cand
         stats[c, 1] += kept
+
+
+@njit(cache=True)
+def _fold_columns(fcols, bcols):
+    """(fine column, block column) of every channel the blocks keep, as two arrays."""
+    n = 0
+    for ch in range(bcols.shape[0]):
+        if bcols[ch] >= 0:
+            n += 1
+    fold_f = np.empty(n, dtype=np.int64)
+    fold_b = np.empty(n, dtype=np.int64)
+    m = 0
+    for ch in range(bcols.shape[0]):
+        if bcols[ch] >= 0:
+            fold_f[m] = fcols[ch]
+            fold_b[m] = bcols[ch]
+            m += 1
+    return fold_f, fold_b
+
+
+@njit(cache=True)
+def _block_major_chunk(c, pts, start, dims, offsets, g0, g1, n_chunks, cls, table, inv_pix, f2c,
+                       n_coarse, blk, span, do_map, mp, af, sc, tl, ab, am, cells, kf, km,
+                       w_sqrt, w_rel, fold):
+    """Chunk ``c`` of :func:`block_major_pass`: its blocks, each binned into the scratch sums
+    ``sc`` (touched rows listed in ``tl``) and folded (:func:`_fold_block`).
+
+    ``span = (block side (3,), cell side)``; ``fold`` from :func:`_fold_columns`; the
+    others as in :func:`_volume_chunk`. Returns (candidate pairs, pairs kept).
+    """
+    bshape = blk[2]
+    cand = 0
+    kept = 0
+    for B in range(c, bshape[0] * bshape[1] * bshape[2], n_chunks):
+        nt = 0
+        for g in range(g0, g1):
+            nt, n_cand, n_kept = _block_offset(
+                B, offsets[g, 0], offsets[g, 1], offsets[g, 2], pts, start, dims, cls, table,
+                inv_pix, blk, span, do_map, mp, sc, tl, nt, am, cells, kf, km, w_sqrt, w_rel)
+            cand += n_cand
+            kept += n_kept
+        _fold_block(B, nt, tl, sc, af, ab, fold, cls[4] + 1, f2c, n_coarse)
+    return cand, kept
+
+
+@njit(cache=True, inline="always")
+def _cell_span(bi, nb, side, cell, o, n):
+    """Cells ``a`` (first, last) along one axis whose cell pair with ``a + o`` can be credited
+    to block ``bi`` of ``nb`` (block side ``side``, cell side ``cell``, ``n`` cells).
+
+    The midpoints of the pairs lie in ``[(a + o/2) cell, (a + o/2 + 1) cell]`` (the grid
+    starts at 0), so ``a`` is searched in the block's extent in cells shifted by ``-o/2``,
+    one cell wider on each side (the first and last blocks reach the grid's ends), and
+    clipped so that ``a`` and ``a + o`` are both in the grid.
+    """
+    lo = 0 if bi == 0 else int(math.floor(bi * side / cell - 0.5 * o)) - 2
+    hi = n - 1 if bi == nb - 1 else int(math.ceil((bi + 1) * side / cell - 0.5 * o)) + 1
+    return max(lo, 0, -o), min(hi, n - 1, n - 1 - o)
+
+
+@njit(cache=True, inline="always")
+def _block_offset(B, ox, oy, oz, pts, start, dims, cls, table, inv_pix, blk, span, do_map, mp,
+                  sc, tl, nt, am, cells, kf, km, w_sqrt, w_rel):
+    """The cell pairs of offset ``(ox, oy, oz)`` credited to block ``B`` into the scratch sums
+    (arguments: :func:`_block_major_chunk`).
+
+    Returns the number of touched rows ``nt`` (``tl[:nt]``), and the candidate and kept
+    pair counts.
+    """
+    bshape = blk[2]
+    bsize, cell = span
+    ny = dims[1]
+    nz = dims[2]
+    lo0, hi0 = _cell_span(B // (bshape[1] * bshape[2]), bshape[0], bsize[0], cell, ox, dims[0])
+    lo1, hi1 = _cell_span((B // bshape[2]) % bshape[1], bshape[1], bsize[1], cell, oy, ny)
+    lo2, hi2 = _cell_span(B % bshape[2], bshape[2], bsize[2], cell, oz, nz)
+    self_pairs = ox == 0 and oy == 0 and oz == 0
+    cand = 0
+    kept = 0
+    for ax in range(lo0, hi0 + 1):
+        for ay in range(lo1, hi1 + 1):
+            for az in range(lo2, hi2 + 1):
+                a = (ax * ny + ay) * nz + az
+                b = ((ax + ox) * ny + (ay + oy)) * nz + (az + oz)
+                if start[a + 1] == start[a] or start[b + 1] == start[b]:
+                    continue
+                if _cell_pair_block(a, b, cells, blk) != B:
+                    continue
+                nt, n_cand, n_kept = _scratch_cell_pair(
+                    pts, start[a], start[a + 1], start[b], start[b + 1], self_pairs, cls, table,
+                    inv_pix, do_map, mp, sc, tl, nt, am, kf, km, w_sqrt, w_rel)
+                cand += n_cand
+                kept += n_kept
+    return nt, cand, kept
+
+
+@njit(cache=True, inline="always")
+def _scratch_cell_pair(pts, a0, a1, b0, b1, self_pairs, cls, table, inv_pix, do_map, mp,
+                       sc, tl, nt, am, kf, km, w_sqrt, w_rel):
+    """The pairs of one cell pair (as in :func:`_volume_cell_pair`) into the scratch fine sums
+    ``sc`` (a row's first pair appends it to ``tl``) and the map. Returns ``nt`` and the
+    candidate and kept pair counts."""
+    x, y, z, v = pts
+    maxd2, inv_lag, lag, guard, n_lags = cls
+    n_fine = sc.shape[0] // (n_lags + 1)
+    cand = 0
+    kept = 0
+    for i in range(a0, a1):
+        xi = x[i]
+        yi = y[i]
+        zi = z[i]
+        vi = v[i]
+        jstart = i + 1 if self_pairs else b0
+        cand += b1 - jstart
+        for j in range(jstart, b1):
+            dx = x[j] - xi
+            dy = y[j] - yi
+            dz = z[j] - zi
+            d2 = dx * dx + dy * dy + dz * dz
+            if d2 > maxd2:
+                continue
+            d = math.sqrt(d2)
+            k = _lag_class(d, inv_lag, lag, guard, n_lags)
+            if k < 0:
+                continue
+            dx, dy, dz, h, t, f = _orient(dx, dy, dz, d, d2, vi, v[j], table, inv_pix)
+            kept += 1
+            q = _channel_values(d, h, t, dx, dy, dz, w_sqrt, w_rel)
+            fb = k * n_fine + f
+            if sc[fb, 0] == 0.0:
+                tl[nt] = fb
+                nt += 1
+            _add_row(sc, fb, kf, q)
+            if do_map:
+                _add_row(am, _map_cell(dx, dy, dz, mp), km, q)
+    return nt, cand, kept
+
+
+@njit(cache=True, inline="always")
+def _fold_block(B, nt, tl, sc, af, ab, fold, n_cls, f2c, n_coarse):
+    """Fold the touched scratch rows ``tl[:nt]`` into the fine sums ``af`` and, through
+    ``f2c``, into block ``B``'s coarse sums ``ab`` (columns ``fold``: see
+    :func:`_fold_columns`); zero them in ``sc``."""
+    fold_f, fold_b = fold
+    n_fine = f2c.shape[0]
+    fw = af.shape[1]
+    for u in range(nt):
+        fb = tl[u]
+        k = fb // n_fine
+        rb = (B * n_cls + k) * n_coarse + f2c[fb - k * n_fine]
+        for m in range(fold_f.shape[0]):
+            ab[rb, fold_b[m]] += sc[fb, fold_f[m]]
+        for col in range(fw):
+            af[fb, col] += sc[fb, col]
+            sc[fb, col] = 0.0
 
 
 @njit(cache=True, parallel=True)
