@@ -25,6 +25,18 @@ bit-identical sums; with blocks the block-by-block folds make the order of
 additions depend on the batches (sums equal to rounding, counts exactly).
 Slices are merged once at the end, in Python.
 
+The two block-aware passes are short functions: a ``prange`` shell over the
+chunks, one compiled function per chunk (:func:`_volume_chunk`,
+:func:`_block_major_chunk`) and helpers compiled with ``inline="always"``
+(Numba inlines them into the caller before compiling it, so they cost no
+call per pair): the class (:func:`_lag_class`), the flip and direction cell
+(:func:`_orient`), the channel values of a pair (:func:`_channel_values`,
+a 15-tuple) and their addition into a row (:func:`_add_row`, columns as a
+15-tuple), the block and map cells, and the loops over one cell pair.
+A call of more than 30 arguments is one Numba cannot inline (Python passes
+it as ``*args``), so related arguments travel as tuples (``pts``, ``cls``,
+``blk``, ``cells``, ``mp``).
+
 Per pair (volume): a squared distance, one square root for the distance, a
 multiply for the class (the divide only next to a class bound), the canonical
 flip, one divide and a table read for the direction cell (stereographic
