@@ -347,10 +347,13 @@ def _volume_chunk(c, pts, start, dims, occupied, offsets, g0, g1, n_chunks, cls,
     cand = 0
     kept = 0
     for g in range(g0 + ((c - g0) % n_chunks), g1, n_chunks):
-        self_pairs = offsets[g, 0] == 0 and offsets[g, 1] == 0 and offsets[g, 2] == 0
+        ox = offsets[g, 0]
+        oy = offsets[g, 1]
+        oz = offsets[g, 2]
+        self_pairs = ox == 0 and oy == 0 and oz == 0
         for q in range(occupied.shape[0]):
             a = occupied[q]
-            b = _partner_cell(a, offsets[g, 0], offsets[g, 1], offsets[g, 2], dims)
+            b = _partner_cell(a, ox, oy, oz, dims)
             if b < 0 or start[b + 1] == start[b]:
                 continue
             bconst = -1
