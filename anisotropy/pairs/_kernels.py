@@ -504,7 +504,8 @@ def _block_major_chunk(c, pts, start, dims, offsets, g0, g1, n_chunks, cls, tabl
         for g in range(g0, g1):
             nt, n_cand, n_kept = _block_offset(
                 B, offsets[g, 0], offsets[g, 1], offsets[g, 2], pts, start, dims, cls, table,
-                inv_pix, blk, span, do_map, mp, sc, tl, nt, am, cells, kf, km, w_sqrt, w_rel)
+                inv_pix, f2c.shape[0], blk, span, do_map, mp, sc, tl, nt, am, cells, kf, km,
+                w_sqrt, w_rel)
             cand += n_cand
             kept += n_kept
         _fold_block(B, nt, tl, sc, af, ab, fold, cls[4] + 1, f2c, n_coarse)
@@ -527,8 +528,8 @@ def _cell_span(bi, nb, side, cell, o, n):
 
 
 @njit(cache=True, inline="always")
-def _block_offset(B, ox, oy, oz, pts, start, dims, cls, table, inv_pix, blk, span, do_map, mp,
-                  sc, tl, nt, am, cells, kf, km, w_sqrt, w_rel):
+def _block_offset(B, ox, oy, oz, pts, start, dims, cls, table, inv_pix, n_fine, blk, span, do_map,
+                  mp, sc, tl, nt, am, cells, kf, km, w_sqrt, w_rel):
     """The cell pairs of offset ``(ox, oy, oz)`` credited to block ``B`` into the scratch sums
     (arguments: :func:`_block_major_chunk`).
 
@@ -556,21 +557,20 @@ def _block_offset(B, ox, oy, oz, pts, start, dims, cls, table, inv_pix, blk, spa
                     continue
                 nt, n_cand, n_kept = _scratch_cell_pair(
                     pts, start[a], start[a + 1], start[b], start[b + 1], self_pairs, cls, table,
-                    inv_pix, do_map, mp, sc, tl, nt, am, kf, km, w_sqrt, w_rel)
+                    inv_pix, n_fine, do_map, mp, sc, tl, nt, am, kf, km, w_sqrt, w_rel)
                 cand += n_cand
                 kept += n_kept
     return nt, cand, kept
 
 
 @njit(cache=True, inline="always")
-def _scratch_cell_pair(pts, a0, a1, b0, b1, self_pairs, cls, table, inv_pix, do_map, mp,
+def _scratch_cell_pair(pts, a0, a1, b0, b1, self_pairs, cls, table, inv_pix, n_fine, do_map, mp,
                        sc, tl, nt, am, kf, km, w_sqrt, w_rel):
     """The pairs of one cell pair (as in :func:`_volume_cell_pair`) into the scratch fine sums
     ``sc`` (a row's first pair appends it to ``tl``) and the map. Returns ``nt`` and the
     candidate and kept pair counts."""
     x, y, z, v = pts
     maxd2, inv_lag, lag, guard, n_lags = cls
-    n_fine = sc.shape[0] // (n_lags + 1)
     cand = 0
     kept = 0
     for i in range(a0, a1):
