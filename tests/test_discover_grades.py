@@ -218,3 +218,30 @@ def test_refit_refuses_grades_without_variance():
     pts = np.random.default_rng(0).uniform(0, 50, size=(200, 3))
     with pytest.raises(InputError, match="no variance"):
         refit_grades(pts, np.ones(200), TRUE, LagChoice(unit_lag=5.0, n_lags=5))
+
+
+def test_report_says_the_grade_ranges_were_refitted(log_run, tmp_path):
+    # the page's text read back with html.parser (standard library)
+    from html.parser import HTMLParser
+
+    from anisotropy.report.html import render_report
+
+    class _Text(HTMLParser):
+        def __init__(self):
+            super().__init__()
+            self.parts = []
+
+        def handle_data(self, data):
+            self.parts.append(data)
+
+    _, D = log_run
+    path = render_report(D, tmp_path)
+    page = _Text()
+    page.feed(path.read_text(encoding="utf-8"))
+    text = " ".join(" ".join(page.parts).split())
+    assert "Model in grade units" in text
+    assert "ranges and sills refitted on the grades" in text
+    assert "same axes and ranges as above" not in text
+    assert "could not be computed" not in text
+    r = D.grade_refit().model.structures[0].ranges
+    assert f"{r[0]:.1f} / {r[1]:.1f} / {r[2]:.1f}" in text

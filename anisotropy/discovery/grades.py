@@ -78,7 +78,8 @@ class GradeRefit:
                 "structures": m["structures"], "total_sill": m["total_sill"],
                 "grade_variance": float(self.variance),
                 "nugget_held": self.fixed_nugget is not None,
-                "range_order_kept": self.range_order_kept, "fit_bins": int(self.bins.n), "pairs": int(self.volume.n_pairs),
+                "range_order_kept": self.range_order_kept, "fit_bins": int(self.bins.n),
+                "pairs": int(self.volume.n_pairs),
                 "estimator": "semivariogram"}
 
 
