@@ -94,6 +94,8 @@ SUMMARY_COLUMNS = (
       for f in ("kind", "sill", "range_major", "range_semi_major", "range_minor")),
     "grade_method", "grade_sill_units", "grade_nugget",
     *(f"grade_s{k}_sill" for k in (1, 2, 3)),
+    # the grade model's ranges: the analysed ones (Hermite) or refitted with the frame held
+    *(f"grade_s{k}_range_{a}" for k in (1, 2, 3) for a in ("major", "semi_major", "minor")),
     "flags",
     # audit trail
     "run_utc", "version", "input_sha256", "seed",
@@ -106,7 +108,7 @@ _UNITS = {"deg": ("plane_dip_direction", "plane_dip", "plane_pitch", "plane_stri
                   "minor_trend", "minor_plunge", "rotation_azimuth", "rotation_plunge",
                   "rotation_rotation", "cone_major", "cone_semi_major", "cone_minor"),
           "m": ("range_major", "range_semi_major", "range_minor",
-                *(f"s{k}_range_{a}" for k in (1, 2, 3)
+                *(f"{g}s{k}_range_{a}" for g in ("", "grade_") for k in (1, 2, 3)
                   for a in ("major", "semi_major", "minor"))),
           "s": ("seconds",),
           "in_sill_units": ("nugget", "total_sill", *(f"s{k}_sill" for k in (1, 2, 3))),
@@ -262,6 +264,8 @@ def _model_columns(row: dict, d: Mapping, model_file: Mapping | None) -> None:
         row["grade_nugget"] = grade.get("nugget")
         for k, st in enumerate(grade["structures"][:3], 1):
             row[f"grade_s{k}_sill"] = st.get("sill")
+            r = st.get("practical_range_m") or {}
+            row.update({f"grade_s{k}_range_{a}": r.get(a) for a in _AXES})
     row["flags"] = _flag_text(d, model_file)
     run = d.get("run", {}) or {}
     row["run_utc"], row["version"] = run.get("utc"), run.get("version")

@@ -12,8 +12,9 @@ spelled out in the file itself and in ``docs/model-file.md``:
   direction/dip and strike/dip by the right-hand rule; pitch; rotation
   matrix with its layout; two rotation-angle sequences defined in words),
   flags for unresolved and extrapolated results, and, where the grades
-  were turned into normal scores, the model in grade units under
-  ``grade_units``;
+  were transformed, the model in grade units under ``grade_units`` (from
+  the Hermite expansion for normal scores, else the grades' semivariogram
+  refitted with the frame held; see :func:`grade_record`);
 * ``model.csv``: the same, one row per structure (the nugget its own row),
   for each set of units;
 * ``experimental_variograms.csv``: the experimental variograms along the
@@ -29,7 +30,7 @@ from pathlib import Path
 import numpy as np
 
 from anisotropy import safe_io as S
-from anisotropy.errors import InputError
+from anisotropy.errors import AnisotropyError, InputError
 from anisotropy.geometry import pitch_of, pole_to_plane, rotation_sequences, strike_of, \
     vector_to_line
 
@@ -127,45 +128,84 @@ def _flags(D) -> dict:
 
 
 def grade_record(D) -> dict | None:
-    """The model in grade units, or why there is none (None when the grades were not transformed).
+    """The model in grade units, and how and why it was obtained (None: grades not transformed).
 
-    With normal scores and a variogram or correlogram, the grade model comes
-    from the Hermite expansion of the back-transform
-    (:func:`anisotropy.hermite.grade_model`). Other cases say why not.
+    * Normal scores with a variogram or correlogram: from the Hermite
+      expansion of the back-transform (:func:`anisotropy.hermite.grade_model`),
+      same frame and ranges (``method: "hermite"``).
+    * A log transform, or normal scores with an estimator that is not a
+      covariance of the scores (madogram, pairwise relative): the grades' own
+      semivariogram refitted with the frame held
+      (:meth:`anisotropy.discovery.Discovery.grade_refit`,
+      ``method: "refit_frame_held"``; ranges and sills refitted).
+    * Indicators: none (no grade counterpart), with the reason.
     """
     tr = D.transform
     kind = getattr(tr, "kind", "raw")
     if kind == "raw":
         return None
-    if kind != "normal_score":
-        why = {"log": "the grades were log-transformed; the Hermite back-transform needs "
-                      "normal scores and no refit on the grades with the frame held is "
-                      "offered yet: run again with the normal-score or no transform",
-               "indicator": "an indicator model describes the 0/1 indicator itself and has "
-                            "no grade-unit counterpart"}.get(kind, f"transform {kind}")
-        return {"method": "none", "reason": why}
-    if D.estimator not in ("semivariogram", "robust", "correlogram"):
+    if kind == "indicator":
         return {"method": "none",
-                "reason": f"the {D.estimator} is not a covariance of normal scores, so the "
-                          "Hermite expansion does not apply; use the semivariogram or the "
-                          "correlogram for a grade-unit model"}
-    from anisotropy.hermite import grade_model
-
-    g = grade_model(D.model, tr.back)
-    rec = g.to_dict()
+                "reason": "an indicator model describes the 0/1 indicator itself and has "
+                          "no grade-unit counterpart"}
     value = (getattr(D.samples, "columns", {}) or {}).get("value") or "grade"
     units = f"({value} units)^2"
+    if kind == "normal_score" and D.estimator in ("semivariogram", "robust", "correlogram"):
+        part, model = _hermite_part(D, units)
+    else:
+        why = ("the grades were log-transformed, and the Hermite back-transform applies to "
+               "normal scores only; carrying the log-grade sills over to grades would "
+               "assume the grades are exactly lognormal" if kind == "log" else
+               f"the {D.estimator} is not a covariance of the normal scores, so the Hermite "
+               "expansion of the back-transform does not apply")
+        if kind not in ("log", "normal_score"):
+            why = f"the {kind} transform has no Hermite back-transform"
+        try:
+            g = D.grade_refit()
+        except AnisotropyError as exc:   # too few pairs or bins, or the fit failed: say so
+            return {"method": "none", "reason": f"{why}; the grade variogram could not be "
+                                                f"refitted with the frame held ({exc})"}
+        part = _model_part(g.model, units)
+        rec = g.to_dict()
+        part.update({k: rec[k] for k in ("method", "grade_variance", "nugget_held",
+                                          "range_order_kept", "fit_bins", "pairs",
+                                          "estimator")})
+        part["reason"] = f"{why}; instead {g.reason}"
+        part["same_frame_and_ranges"] = False
+        part["same_frame"] = True
+        model = g.model
+    cut = _top_cut_words(D)
+    if cut:
+        part["reason"] += f"; {cut}"
+    part["check_downhole"] = _grade_check(D, model)
+    return part
+
+
+def _hermite_part(D, units: str):
+    """The Hermite grade model's record and model (normal scores, covariance-type estimator)."""
+    from anisotropy.hermite import grade_model
+
+    g = grade_model(D.model, D.transform.back)
+    rec = g.to_dict()
     part = _model_part(g.model, units)
     part.update({k: rec[k] for k in ("method", "reason", "grade_variance", "hermite_terms",
                                       "variance_captured", "max_misfit_share",
                                       "hermite_coefficients")})
     part["same_frame_and_ranges"] = True
-    cap = (getattr(tr, "record", None) or {}).get("capping")
+    part["same_frame"] = True
+    return part, g.model
+
+
+def _top_cut_words(D) -> str:
+    """The top-cut the grades went through before the transform, in words ('' if none)."""
+    cut = getattr(getattr(D, "prepared", None), "top_cut", None)
+    if cut is not None:
+        how = "capped at" if cut.mode == "cap" else "with the samples above it left out,"
+        return f"the grades are those {how} the top-cut {cut.threshold:.6g}"
+    cap = (getattr(D.transform, "record", None) or {}).get("capping")
     if cap:
-        part["reason"] += (f"; the grades are those capped before the transform "
-                           f"(top-cut {cap.get('cap', cap)})")
-    part["check_downhole"] = _grade_check(D, g.model)
-    return part
+        return f"the grades are those capped before the transform (top-cut {cap.get('cap', cap)})"
+    return ""
 
 
 def _grade_check(D, model) -> dict:
@@ -174,17 +214,24 @@ def _grade_check(D, model) -> dict:
 
     comp = ((D.diagnostics or {}).get("downhole") or {}).get("composite")
     holes = getattr(D.samples, "holes", None)
-    tr = D.transform
     rows = []
     if holes is not None and comp:
-        grades = tr.back(np.asarray(tr.values, float))   # the grades the scores came from
-        rows = downhole_check(model, D.samples.coords, grades, holes, float(comp))
+        rows = downhole_check(model, D.samples.coords, _grades(D), holes, float(comp))
     return {"rows": rows,
             "note": "experimental: half the mean squared grade difference of the down-hole "
                     "pairs one, two and three composite lengths apart (no declustering); "
                     "model: the grade model's variogram averaged over the same pairs' lag "
                     "vectors" if rows else
                     "no down-hole pairs to check against (no hole column, or too few pairs)"}
+
+
+def _grades(D) -> np.ndarray:
+    """The grades the transformed values came from (after the top-cut, if any)."""
+    prepared = getattr(D, "prepared", None)
+    if prepared is not None:
+        return np.asarray(prepared.values, float)
+    tr = D.transform
+    return tr.back(np.asarray(tr.values, float))
 
 
 def model_record(D, run: dict | None = None) -> dict:

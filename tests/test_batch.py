@@ -398,6 +398,8 @@ def test_summary_gives_each_structure_units_flags_and_the_audit_trail(batch):
     if model["grade_units"] and model["grade_units"].get("structures"):
         assert float(a["grade_nugget_in_grade_sill_units"]) == pytest.approx(
             model["grade_units"]["nugget"], abs=1e-4)
+        assert float(a["grade_s1_range_major_m"]) == pytest.approx(
+            model["grade_units"]["structures"][0]["practical_range_m"]["major"], abs=1e-3)
     # every heading that carries a unit says so
     for h in ("plane_dip_deg", "range_minor_m", "nugget_in_sill_units", "seconds_s"):
         assert h in rows["alpha"]

@@ -113,6 +113,29 @@ def test_grade_units_model_is_the_hermite_model_in_the_same_frame(run):
     assert g["total_sill"] == pytest.approx(g["grade_variance"], rel=1e-9)
 
 
+def test_grade_units_of_a_madogram_on_scores_is_refitted_and_of_an_indicator_is_none():
+    # the madogram of normal scores is no covariance of the scores: the Hermite
+    # route does not apply, so the grades' semivariogram is refitted with the
+    # frame held; an indicator has no grade counterpart. The refitted model's
+    # content is checked against brute force in tests/test_discover_grades.py.
+    from anisotropy.modelfile import grade_record
+    from anisotropy.pipeline import discover
+
+    table = _table()
+    mad = discover(table, value="au", hole="hole", transform="normal_score",
+                   estimator="madogram", fan_spacing=12, seed=1)
+    g = grade_record(mad)
+    assert g["method"] == "refit_frame_held" and "madogram" in g["reason"]
+    assert g["same_frame_and_ranges"] is False and g["units"] == "(au units)^2"
+    # numpy.var of the table's grades is the total sill
+    assert g["total_sill"] == pytest.approx(float(np.var(table["au"])), rel=1e-9)
+    np.testing.assert_array_equal(mad.grade_refit().model.frame, mad.frame)
+    ind = discover(table, value="au", hole="hole", transform="indicator", fan_spacing=12,
+                   seed=1)
+    g = grade_record(ind)
+    assert g["method"] == "none" and "indicator" in g["reason"] and "structures" not in g
+
+
 @pytest.mark.parametrize("kind", ["spherical", "exponential", "gaussian", "cubic"])
 def test_practical_range_reaches_95_percent_of_the_sill(kind):
     # definition of the practical range (95 % of the sill; spherical and cubic

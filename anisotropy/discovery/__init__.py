@@ -21,11 +21,17 @@ stage                      returns
                            :func:`anisotropy.fitting.refine.refine_frame`)
 ``diagnose``               ``Diagnostics``
 =========================  ==================================================
+
+After the chain, :meth:`Discovery.grade_refit` refits the grades' own
+semivariogram with the discovered frame held
+(:func:`~anisotropy.discovery.grades.refit_grades`), for the model in grade
+units where the Hermite route does not apply.
 """
 
 from anisotropy.discovery.bins import WeightedBins, weighted_bins
 from anisotropy.discovery.diagnose import Diagnostics, diagnose, with_bootstrap
 from anisotropy.discovery.fan import FanRanges, fan_ranges
+from anisotropy.discovery.grades import GradeRefit, refit_grades
 from anisotropy.discovery.lags import LagChoice, PairVolume, build_volume, choose_lags
 from anisotropy.discovery.params import DiscoverParams
 from anisotropy.discovery.prepare import (Prepared, SillChoice, TransformChoice, choose_sill,
@@ -42,4 +48,4 @@ __all__ = ["DiscoverParams", "read", "prepare", "Prepared", "choose_transform",
            "FanRanges", "starting_frames", "Start", "FitSettings", "search_orientation",
            "Search", "choose_structures", "refinement_applies", "Refinement", "diagnose",
            "Diagnostics", "with_bootstrap", "Discovery", "RefitState", "SCHEMA", "CAUTION",
-           "PLANAR_CAUTION"]
+           "PLANAR_CAUTION", "GradeRefit", "refit_grades"]

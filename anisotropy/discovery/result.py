@@ -33,6 +33,7 @@ from anisotropy.uncertainty import (DEFAULT_REPLICATES, BootstrapResult, block_b
 from anisotropy.discovery.bins import WeightedBins, information_weight
 from anisotropy.discovery.diagnose import AXES, Diagnostics
 from anisotropy.discovery.fan import FanRanges
+from anisotropy.discovery.grades import GradeRefit, refit_grades
 from anisotropy.discovery.lags import LagChoice, PairVolume
 from anisotropy.discovery.params import DiscoverParams
 from anisotropy.discovery.prepare import Prepared, SillChoice, TransformChoice
@@ -191,6 +192,8 @@ class Discovery:
     seconds: dict[str, float] = field(default_factory=dict)
     run: dict = field(default_factory=dict)
     grade_units: str | None = None
+    _grade_refit: GradeRefit | None = field(default=None, init=False, repr=False,
+                                            compare=False)
 
     # -- read from the records -------------------------------------------------
     @property
@@ -369,6 +372,24 @@ class Discovery:
     def summary(self) -> str:
         """The proposal in the geologist's words."""
         return _summary(self)
+
+    def grade_refit(self) -> GradeRefit:
+        """The grades' semivariogram refitted with the discovered frame held (computed once).
+
+        The grades are the samples' values as used (after the top-cut, if
+        any); the lag classes, direction cells, fewest pairs per bin, range
+        bounds, planar rule and shared-ratio setting are the run's (see
+        :func:`anisotropy.discovery.grades.refit_grades`).
+        """
+        if self._grade_refit is None:
+            s, st = self.samples, self.refit.settings
+            self._grade_refit = refit_grades(
+                s.coords, self.prepared.values, self.model, self.lag_choice, holes=s.holes,
+                spacing=self.prepared.spacing, min_pairs=self.params.min_pairs_bin,
+                coarse_spacing=self.params.coarse_spacing, min_range=st.min_range,
+                max_range=st.max_range, planar=self.planar,
+                shared_ratios=self.params.shared_ratios, source=str(s.source))
+        return self._grade_refit
 
     # -- uncertainty -------------------------------------------------------------
     def refit_function(self) -> RefitState:

@@ -647,10 +647,11 @@ def _range_marks(d) -> dict:
 
 
 def _grade(disc) -> dict | None:
-    """The model in grade units (normal scores only), how it was obtained and its check."""
+    """The model in grade units (Hermite or refitted with the frame held), how, and its check."""
     from anisotropy.modelfile import grade_record
 
-    out = dict.fromkeys(("error", "reason", "units", "variance", "misfit", "table", "check"))
+    out = dict.fromkeys(("error", "reason", "units", "variance", "misfit", "table", "check",
+                         "same_ranges"))
     try:
         g = grade_record(disc)
     except Exception as exc:  # noqa: BLE001 - the report must still be written
@@ -666,7 +667,9 @@ def _grade(disc) -> dict | None:
                      "ranges major / semi-major / minor (m)":
                          f"{r['major']:.1f} / {r['semi_major']:.1f} / {r['minor']:.1f}"})
     out.update(units=g["units"], reason=g["reason"], variance=_g(g["grade_variance"], ".4g"),
-               misfit=_g(100 * g["max_misfit_share"], ".1f"),
+               misfit=(_g(100 * g["max_misfit_share"], ".1f")
+                       if g.get("max_misfit_share") is not None else None),
+               same_ranges=bool(g.get("same_frame_and_ranges")),
                table=_grid(rows, ["structure", "type", "sill",
                                   "ranges major / semi-major / minor (m)"]))
     chk = (g.get("check_downhole") or {}).get("rows") or []
