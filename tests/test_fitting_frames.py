@@ -1,6 +1,6 @@
 """Tests of the global frame choice (anisotropy.fitting.frames)."""
 
-from types import SimpleNamespace
+from dataclasses import dataclass
 
 import numpy as np
 import pytest
@@ -9,6 +9,15 @@ from scipy.spatial.transform import Rotation
 from anisotropy.fitting.frames import (FrameStart, axis_swap_shares, choose_frame,
                                        dominant_directions, frame_starts, likelihood_margin)
 from anisotropy.geometry import line_to_vector
+
+
+@dataclass(frozen=True)
+class _Polished:
+    """What choose_frame reads from a polish (its documented callback contract)."""
+
+    frame: np.ndarray
+    ranges: np.ndarray
+    negloglik: float
 
 
 def test_margin_is_half_the_chi_square_quantile():
@@ -65,7 +74,7 @@ def _quadratic_polish(minima):
     columns match its own (by axis cosines) and returns that minimum's value."""
     def polish(frame, ranges):
         best = max(minima, key=lambda m: np.abs(np.diag(m[0].T @ frame)).sum())
-        return SimpleNamespace(frame=best[0], ranges=best[1], negloglik=best[2])
+        return _Polished(best[0], best[1], best[2])
     return polish
 
 
@@ -90,7 +99,7 @@ def test_choice_keeps_the_best_and_names_a_rival_within_the_margin():
 def test_polished_frames_are_ordered_by_range():
     F = np.eye(3)
     starts = [FrameStart("s", F, np.array([[10.0, 100.0, 50.0]]))]
-    ch = choose_frame(starts, lambda f, r: SimpleNamespace(frame=f, ranges=r, negloglik=0.0))
+    ch = choose_frame(starts, lambda f, r: _Polished(f, r, 0.0))
     assert np.allclose(ch.best.ranges, [[100, 50, 10]])
     assert np.allclose(np.abs(ch.best.frame), np.eye(3)[:, [1, 2, 0]])
     assert np.linalg.det(ch.best.frame) > 0
