@@ -110,15 +110,17 @@ def _model_part(model, units: str) -> dict:
                            for s in model.structures]}
 
 
+def _extrapolated(D, model) -> list:
+    """The ranges of ``model`` longer than the longest lag the run computed."""
+    max_lag = float((D.lags or {}).get("max_distance") or np.inf)
+    return [{"structure": k, "axis": a, "range_m": float(r), "longest_lag_m": max_lag}
+            for k, s in enumerate(model.structures, 1)
+            for a, r in zip(AXES, s.ranges) if r > max_lag]
+
+
 def _flags(D) -> dict:
     diag = D.diagnostics or {}
-    max_lag = float((D.lags or {}).get("max_distance") or np.inf)
-    extrapolated = []
-    for k, s in enumerate(D.model.structures, 1):
-        for a, r in zip(AXES, s.ranges):
-            if r > max_lag:
-                extrapolated.append({"structure": k, "axis": a, "range_m": float(r),
-                                     "longest_lag_m": max_lag})
+    extrapolated = _extrapolated(D, D.model)
     return {"unresolved_directions": list(diag.get("unresolved_axes") or []),
             "unresolved_ranges": list(diag.get("unresolved_ranges") or []),
             "extrapolated_ranges": extrapolated,
@@ -178,6 +180,11 @@ def grade_record(D) -> dict | None:
     if cut:
         part["reason"] += f"; {cut}"
     part["check_downhole"] = _grade_check(D, model)
+    part["extrapolated_ranges"] = _extrapolated(D, model)
+    if part["extrapolated_ranges"]:
+        part["reason"] += ("; some of its ranges are longer than the longest lag computed "
+                           "(extrapolated_ranges): they rest on the model's shape beyond "
+                           "the pairs")
     return part
 
 

@@ -179,6 +179,13 @@ def test_model_json_carries_the_refitted_grade_model(log_run, tmp_path):
         assert s_file["kind"] == s.kind and s_file["sill"] == pytest.approx(s.sill, rel=1e-12)
         assert [s_file["practical_range_m"][a] for a in ("major", "semi_major", "minor")] == \
             pytest.approx(list(s.ranges), rel=1e-12)
+    # every grade-model range longer than the run's longest lag is listed, and no other
+    # (exact comparison against the run's own lag record)
+    longest = D.lags["max_distance"]
+    beyond = {(k, a) for k, s in enumerate(g.structures, 1)
+              for a, r in zip(("major", "semi_major", "minor"), s.ranges) if r > longest}
+    assert {(e["structure"], e["axis"]) for e in gu["extrapolated_ranges"]} == beyond
+    assert ("extrapolated_ranges" in gu["reason"]) == bool(beyond)
     # model.csv: the grade rows repeat the refitted ranges, not the log-grade ones
     rows = pd.read_csv(paths["model_csv"])
     grade = rows[rows["units_set"] == "grade"]
