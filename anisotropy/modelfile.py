@@ -129,8 +129,12 @@ def _flags(D) -> dict:
                        "extrapolated range is longer than the longest lag computed"}
 
 
+#: Estimators whose model on untransformed grades is already in squared grade units.
+SQUARED_GRADE_ESTIMATORS = ("semivariogram", "robust")
+
+
 def grade_record(D) -> dict | None:
-    """The model in grade units, and how and why it was obtained (None: grades not transformed).
+    """The model in grade units, and how and why it was obtained (None: already in grade units).
 
     * Normal scores with a variogram or correlogram: from the Hermite
       expansion of the back-transform (:func:`anisotropy.hermite.grade_model`),
@@ -140,11 +144,13 @@ def grade_record(D) -> dict | None:
       semivariogram refitted with the frame held
       (:meth:`anisotropy.discovery.Discovery.grade_refit`,
       ``method: "refit_frame_held"``; ranges and sills refitted).
+    * Untransformed grades with an estimator not in squared grade units
+      (correlogram, madogram, pairwise relative): refitted likewise.
     * Indicators: none (no grade counterpart), with the reason.
     """
     tr = D.transform
     kind = getattr(tr, "kind", "raw")
-    if kind == "raw":
+    if kind == "raw" and D.estimator in SQUARED_GRADE_ESTIMATORS:
         return None
     if kind == "indicator":
         return {"method": "none",
@@ -160,7 +166,10 @@ def grade_record(D) -> dict | None:
                "assume the grades are exactly lognormal" if kind == "log" else
                f"the {D.estimator} is not a covariance of the normal scores, so the Hermite "
                "expansion of the back-transform does not apply")
-        if kind not in ("log", "normal_score"):
+        if kind == "raw":
+            why = (f"the {D.estimator} of the grades is not in squared grade units, so its "
+                   "sills cannot go into an estimation with a semivariogram")
+        elif kind not in ("log", "normal_score"):
             why = f"the {kind} transform has no Hermite back-transform"
         try:
             g = D.grade_refit()

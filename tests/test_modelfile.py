@@ -113,7 +113,7 @@ def test_grade_units_model_is_the_hermite_model_in_the_same_frame(run):
     assert g["total_sill"] == pytest.approx(g["grade_variance"], rel=1e-9)
 
 
-def test_grade_units_of_a_madogram_on_scores_is_refitted_and_of_an_indicator_is_none():
+def test_grade_units_of_a_madogram_is_refitted_and_of_an_indicator_is_none():
     # the madogram of normal scores is no covariance of the scores: the Hermite
     # route does not apply, so the grades' semivariogram is refitted with the
     # frame held; an indicator has no grade counterpart. The refitted model's
@@ -130,6 +130,14 @@ def test_grade_units_of_a_madogram_on_scores_is_refitted_and_of_an_indicator_is_
     # numpy.var of the table's grades is the total sill
     assert g["total_sill"] == pytest.approx(float(np.var(table["au"])), rel=1e-9)
     np.testing.assert_array_equal(mad.grade_refit().model.frame, mad.frame)
+    # the madogram of untransformed grades is in grade units, not squared: refitted too
+    raw = discover(table, value="au", hole="hole", transform="raw", estimator="madogram",
+                   fan_spacing=12, seed=1)
+    g = grade_record(raw)
+    assert g["method"] == "refit_frame_held" and "squared grade units" in g["reason"]
+    np.testing.assert_array_equal(raw.grade_refit().model.frame, raw.frame)
+    assert grade_record(discover(table, value="au", hole="hole", transform="raw",
+                                 fan_spacing=12, seed=1)) is None
     ind = discover(table, value="au", hole="hole", transform="indicator", fan_spacing=12,
                    seed=1)
     g = grade_record(ind)
