@@ -1,0 +1,44 @@
+"""Time ``bench_discover.speed()`` of one source tree: one compiling call, then timed calls.
+
+Run it once per tree, one after the other on the same machine, to compare two
+versions on the same inputs (this machine's absolute times drift)::
+
+    git worktree add --detach /tmp/old 8eefe90
+    python benchmarks/speed_against.py /tmp/old
+    python benchmarks/speed_against.py .
+
+Each tree's own ``anisotropy`` package and ``benchmarks/bench_discover.py``
+are imported (the inputs of ``speed()`` are the same in both as long as its
+layouts are). Printed per call: (case, discover seconds, pair-pass seconds).
+"""
+
+import argparse
+import importlib.util
+import os
+import sys
+
+
+def main(argv=None):
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("tree", help="root of the source tree to time")
+    ap.add_argument("--calls", type=int, default=3, help="calls; the first compiles")
+    args = ap.parse_args(argv)
+    tree = os.path.abspath(args.tree)
+    sys.path.insert(0, tree)
+    spec = importlib.util.spec_from_file_location("bench_discover_of_tree",
+                                                  os.path.join(tree, "benchmarks",
+                                                               "bench_discover.py"))
+    bench = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(bench)
+    import anisotropy
+
+    if not os.path.abspath(anisotropy.__file__).startswith(tree):
+        sys.exit(f"imported {anisotropy.__file__}, not the package of {tree}")
+    for k in range(args.calls):
+        rows = bench.speed()
+        print(k, [(r["case"], round(r["seconds"], 2), round(float(r["pair_pass"]), 2))
+                  for r in rows], flush=True)
+
+
+if __name__ == "__main__":
+    main()
