@@ -474,6 +474,16 @@ def sanity():
     return got, float(want)
 
 
+def _report(rows, compare_path):
+    """Print the referee's summary and, given an engine run's JSON, the comparison."""
+    print(summarise(rows))
+    if compare_path:
+        with open(compare_path) as f:
+            eng = json.load(f)
+        print()
+        print(compare(rows, eng["accuracy"] if isinstance(eng, dict) else eng))
+
+
 def main(argv=None):
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--realisations", "--seeds", type=int, default=12,
@@ -495,13 +505,7 @@ def main(argv=None):
     a = ap.parse_args(argv)
     if a.from_json:
         with open(a.from_json) as f:
-            rows = json.load(f)
-        print(summarise(rows))
-        if a.compare:
-            with open(a.compare) as f:
-                eng = json.load(f)
-            print()
-            print(compare(rows, eng["accuracy"] if isinstance(eng, dict) else eng))
+            _report(json.load(f), a.compare)
         return
     got, want = sanity()
     print(f"sanity: profile log-likelihood {got:.6f}, scipy.stats {want:.6f}", file=sys.stderr)
@@ -519,12 +523,7 @@ def main(argv=None):
                   f"{B['loglik']:.2f} (major {B['major']:.1f}, minor {B['minor']:.1f})"
                   f"{' TWO MAXIMA' if r['two_maxima'] else ''} | {r['evaluations']} evaluations,"
                   f" {r['seconds']:.0f} s", file=sys.stderr, flush=True)
-    print(summarise(rows))
-    if a.compare:
-        with open(a.compare) as f:
-            eng = json.load(f)
-        print()
-        print(compare(rows, eng["accuracy"] if isinstance(eng, dict) else eng))
+    _report(rows, a.compare)
     if a.json:
         with open(a.json, "w") as f:
             json.dump(rows, f, indent=1, default=float)
