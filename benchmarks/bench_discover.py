@@ -499,11 +499,16 @@ def summarise_issue15(rows):
     return "\n".join(lines)
 
 
-def speed():
+def speed_tables():
+    """The two speed data sets: 89k jittered blast holes and 5,000 drill-hole composites.
+
+    Returns ``{"blast holes": table, "composites": table}`` (columns x, y, z,
+    au, and hole for the composites); also read by ``bench_uncertainty.py``
+    and ``block_sizing_cost.py``, so all three time the same inputs.
+    """
     from anisotropy.simulate import simulate_field
     from anisotropy.models import NestedModel, Structure
 
-    rows = []
     # blast holes: 6 benches, 4 m pattern, 4 m benches, jittered, lognormal grades
     rng = np.random.default_rng(1)
     nx = 122
@@ -516,26 +521,29 @@ def speed():
     coords = np.concatenate(pts)
     model = NestedModel(0.2, [Structure("spherical", 0.8, (80, 40, 15))], frame(60, 10, 0))
     y = simulate_field(coords, model, seed=2, method="spectral")
-    grades = np.exp(0.8 * y)
-    df = pd.DataFrame({"x": coords[:, 0], "y": coords[:, 1], "z": coords[:, 2], "au": grades})
-    t0 = time.perf_counter()
-    D = anisotropy.discover(df, value="au", seed=0)
-    rows.append({"case": f"blast holes, {len(coords):,} samples", "seconds":
-                 time.perf_counter() - t0, "pairs": D.diagnostics["pairs"],
-                 "pair_pass": D.diagnostics["volume"]["seconds"], "lags": D.lags})
+    blast = pd.DataFrame({"x": coords[:, 0], "y": coords[:, 1], "z": coords[:, 2],
+                          "au": np.exp(0.8 * y)})
     # 5,000 composites: 100 holes x 50 composites of 2 m
     rng = np.random.default_rng(3)
     coords, holes = drill_holes(rng, spacing=20.0, n=(10, 10), length=100.0, composite=2.0,
                                 trend=300.0, plunge=60.0)
     model = NestedModel(0.15, [Structure("spherical", 0.85, (110, 60, 20))], frame(120, 30, 0))
     y = simulate_field(coords, model, seed=4, method="spectral")
-    df = pd.DataFrame({"x": coords[:, 0], "y": coords[:, 1], "z": coords[:, 2],
-                       "au": np.exp(0.8 * y), "hole": holes})
-    t0 = time.perf_counter()
-    D = anisotropy.discover(df, value="au", hole="hole", seed=0)
-    rows.append({"case": f"drill-hole composites, {len(coords):,} samples", "seconds":
-                 time.perf_counter() - t0, "pairs": D.diagnostics["pairs"],
-                 "pair_pass": D.diagnostics["volume"]["seconds"], "lags": D.lags})
+    comp = pd.DataFrame({"x": coords[:, 0], "y": coords[:, 1], "z": coords[:, 2],
+                         "au": np.exp(0.8 * y), "hole": holes})
+    return {"blast holes": blast, "composites": comp}
+
+
+def speed():
+    tables = speed_tables()
+    rows = []
+    for case, table, kw in (("blast holes", tables["blast holes"], {}),
+                            ("drill-hole composites", tables["composites"], {"hole": "hole"})):
+        t0 = time.perf_counter()
+        D = anisotropy.discover(table, value="au", seed=0, **kw)
+        rows.append({"case": f"{case}, {len(table):,} samples", "seconds":
+                     time.perf_counter() - t0, "pairs": D.diagnostics["pairs"],
+                     "pair_pass": D.diagnostics["volume"]["seconds"], "lags": D.lags})
     return rows
 
 

@@ -374,32 +374,12 @@ def summarise_discover(rows):
 
 def _speed_data():
     """The two speed data sets of benchmarks/bench_discover.py (same seeds and layouts)."""
-    import pandas as pd
-
     sys.path.insert(0, str(Path(__file__).parent))
-    from bench_discover import drill_holes, frame
+    from bench_discover import speed_tables
 
-    rng = np.random.default_rng(1)
-    nx = 122
-    gx, gy = np.meshgrid(np.arange(nx) * 4.0, np.arange(nx) * 4.0)
-    pts = []
-    for b in range(6):
-        p = np.column_stack([gx.ravel(), gy.ravel(), np.full(gx.size, -4.0 * b)])
-        p[:, :2] += rng.normal(0, 0.4, (len(p), 2))
-        pts.append(p)
-    coords = np.concatenate(pts)
-    model = NestedModel(0.2, [Structure("spherical", 0.8, (80, 40, 15))], frame(60, 10, 0))
-    y = simulate_field(coords, model, seed=2, method="spectral")
-    blast = (pd.DataFrame({"x": coords[:, 0], "y": coords[:, 1], "z": coords[:, 2],
-                           "au": np.exp(0.8 * y)}), {})
-    rng = np.random.default_rng(3)
-    coords, holes = drill_holes(rng, spacing=20.0, n=(10, 10), length=100.0, composite=2.0,
-                                trend=300.0, plunge=60.0)
-    model = NestedModel(0.15, [Structure("spherical", 0.85, (110, 60, 20))], frame(120, 30, 0))
-    y = simulate_field(coords, model, seed=4, method="spectral")
-    comp = (pd.DataFrame({"x": coords[:, 0], "y": coords[:, 1], "z": coords[:, 2],
-                          "au": np.exp(0.8 * y), "hole": holes}), {"hole": "hole"})
-    return {"5,000 composites": comp, "90k blast holes": blast}
+    tables = speed_tables()
+    return {"5,000 composites": (tables["composites"], {"hole": "hole"}),
+            "90k blast holes": (tables["blast holes"], {})}
 
 
 def speed(args):
