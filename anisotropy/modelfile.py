@@ -161,16 +161,7 @@ def grade_record(D) -> dict | None:
     if kind == "normal_score" and D.estimator in ("semivariogram", "robust", "correlogram"):
         part, model = _hermite_part(D, units)
     else:
-        why = ("the grades were log-transformed, and the Hermite back-transform applies to "
-               "normal scores only; carrying the log-grade sills over to grades would "
-               "assume the grades are exactly lognormal" if kind == "log" else
-               f"the {D.estimator} is not a covariance of the normal scores, so the Hermite "
-               "expansion of the back-transform does not apply")
-        if kind == "raw":
-            why = (f"the {D.estimator} of the grades is not in squared grade units, so its "
-                   "sills cannot go into an estimation with a semivariogram")
-        elif kind not in ("log", "normal_score"):
-            why = f"the {kind} transform has no Hermite back-transform"
+        why = _why_refit(kind, D.estimator)
         try:
             g = D.grade_refit()
         except AnisotropyError as exc:   # too few pairs or bins, or the fit failed: say so
@@ -195,6 +186,21 @@ def grade_record(D) -> dict | None:
                            "(extrapolated_ranges): they rest on the model's shape beyond "
                            "the pairs")
     return part
+
+
+def _why_refit(kind: str, estimator: str) -> str:
+    """Why the grade model is refitted rather than taken from the Hermite expansion."""
+    if kind == "log":
+        return ("the grades were log-transformed, and the Hermite back-transform applies to "
+                "normal scores only; carrying the log-grade sills over to grades would "
+                "assume the grades are exactly lognormal")
+    if kind == "normal_score":
+        return (f"the {estimator} is not a covariance of the normal scores, so the Hermite "
+                "expansion of the back-transform does not apply")
+    if kind == "raw":
+        return (f"the {estimator} of the grades is not in squared grade units, so its "
+                "sills cannot go into an estimation with a semivariogram")
+    return f"the {kind} transform has no Hermite back-transform"
 
 
 def _hermite_part(D, units: str):

@@ -1,9 +1,10 @@
 """The grade variogram refitted with the discovered frame held (issue 17).
 
-Where the grades were transformed and the Hermite expansion of the
-normal-score back-transform does not apply (:mod:`anisotropy.hermite`: a log
-transform, or an estimator that is not a covariance of normal scores, such
-as the madogram), the model in grade units is obtained directly: the
+Where the Hermite expansion of the normal-score back-transform does not
+give the model in grade units (:mod:`anisotropy.hermite`: a log transform,
+an estimator that is not a covariance of normal scores such as the madogram,
+or untransformed grades analysed with an estimator whose sills are not in
+squared grade units), that model is obtained directly: the
 semivariogram of the grades themselves (capped if a top-cut was applied) is
 computed by the pair engine on the same lag classes and direction cells as
 the run, weighted as the run's bins are (drill-hole information weights and
