@@ -214,11 +214,28 @@ def test_a_first_lag_without_pairs_between_holes_is_said_in_words():
     assert "too few pairs between different holes" in chk.text and "nan" not in chk.text
 
 
+def _legacy_shuffles(y, n_perm, seed):
+    """The documented permutation stream, replayed with NumPy's legacy generator: chunk c
+    of PERMUTATION_CHUNKS seeds numpy.random with seed + c and shuffles one copy of y
+    again for each of its ceil(n_perm / chunks) consecutive permutations."""
+    from anisotropy.fitting.continuity import PERMUTATION_CHUNKS
+
+    size = -(-n_perm // PERMUTATION_CHUNKS)
+    out = []
+    for c in range(PERMUTATION_CHUNKS):
+        np.random.seed(seed + c)
+        yp = y.copy()
+        for _ in range(c * size, min((c + 1) * size, n_perm)):
+            np.random.shuffle(yp)
+            out.append(yp.copy())
+    return out
+
+
 def test_permuted_ratios_are_gearys_ratio_of_the_same_shuffle():
     # reference: the same shuffles replayed with NumPy's legacy generator (the compiled
-    # code seeds and shuffles as numpy.random.seed / numpy.random.shuffle do), each
-    # group's ratio and the pooled one by geary_ratio (checked against the weight matrix
-    # definition above)
+    # code seeds and shuffles as numpy.random.seed / numpy.random.shuffle do, chunk by
+    # chunk in parallel), each group's ratio and the pooled one by geary_ratio (checked
+    # against the weight matrix definition above)
     from anisotropy.fitting.continuity import _permuted_group_ratios, direction_classes
 
     rng = np.random.default_rng(12)
@@ -228,11 +245,28 @@ def test_permuted_ratios_are_gearys_ratio_of_the_same_shuffle():
     cls, U = direction_classes(X, pairs)
     scale = (len(y) - 1) / np.sum((y - y.mean()) ** 2)
     got = _permuted_group_ratios(y, pairs[:, 0].copy(), pairs[:, 1].copy(), cls, len(U),
-                                 scale, 3, 7)
-    np.random.seed(7)
-    yp = y.copy()
-    for b in range(3):
-        np.random.shuffle(yp)
+                                 scale, 19, 7)
+    for b, yp in enumerate(_legacy_shuffles(y, 19, 7)):
         assert got[b, -1] == pytest.approx(geary_ratio(yp, pairs), rel=1e-12)
         for q in np.unique(cls):
             assert got[b, q] == pytest.approx(geary_ratio(yp, pairs[cls == q]), rel=1e-12)
+
+
+def test_permuted_sums_are_the_same_shuffles_on_any_thread_count():
+    # reference: the legacy-generator replay above and the sum of squared differences
+    # written out in NumPy; the parallel chunks must not depend on which thread runs them
+    import numba
+
+    from anisotropy.fitting.continuity import _permuted_sums
+
+    rng = np.random.default_rng(5)
+    y = rng.standard_normal(90)
+    pairs, _ = nearest_pairs(rng.uniform(0, 40, (90, 3)), 4)
+    expect = [np.sum((yp[pairs[:, 0]] - yp[pairs[:, 1]]) ** 2) for yp in _legacy_shuffles(y, 21, 3)]
+    for threads in sorted({1, numba.config.NUMBA_NUM_THREADS}):
+        numba.set_num_threads(threads)
+        try:
+            got = _permuted_sums(y, pairs[:, 0].copy(), pairs[:, 1].copy(), 21, 3)
+        finally:
+            numba.set_num_threads(numba.config.NUMBA_NUM_THREADS)
+        np.testing.assert_allclose(got, expect, rtol=1e-12)

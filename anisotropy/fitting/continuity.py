@@ -40,7 +40,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from numba import njit
+from numba import njit, prange
 from scipy.spatial import cKDTree as _KDTree  # private: not part of this module's API
 
 from anisotropy.geometry import fibonacci_hemisphere, vector_to_line
@@ -165,19 +165,40 @@ def geary_ratio(values, pairs) -> float:
     return (len(y) - 1) * d2 / (2.0 * len(p) * ss)
 
 
-@njit(cache=True)
+#: The permutations run in this many independent chunks (in parallel), chunk ``c``
+#: drawing its shuffles from NumPy's legacy generator seeded with ``seed + c``.  The
+#: count is fixed, not the number of threads, so a seed gives the same permutations
+#: on any machine.
+PERMUTATION_CHUNKS = 8
+
+
+@njit(cache=True, inline="always")
+def _chunk_range(c, n_perm):
+    """Permutations ``[b0, b1)`` of chunk ``c``: consecutive runs of ceil(n_perm / chunks)."""
+    size = (n_perm + PERMUTATION_CHUNKS - 1) // PERMUTATION_CHUNKS
+    return min(c * size, n_perm), min((c + 1) * size, n_perm)
+
+
+@njit(cache=True, parallel=True)
 def _permuted_sums(y, i, j, n_perm, seed):
-    """Sum of squared pair differences for ``n_perm`` random permutations of ``y``."""
-    np.random.seed(seed)
+    """Sum of squared pair differences for ``n_perm`` random permutations of ``y``.
+
+    Chunk ``c`` (:data:`PERMUTATION_CHUNKS`) seeds the legacy generator with
+    ``seed + c`` and shuffles one copy of ``y`` again for each of its
+    permutations (:func:`_chunk_range`).
+    """
     out = np.empty(n_perm)
-    yp = y.copy()
-    for b in range(n_perm):
-        np.random.shuffle(yp)
-        s = 0.0
-        for k in range(i.shape[0]):
-            d = yp[i[k]] - yp[j[k]]
-            s += d * d
-        out[b] = s
+    for c in prange(PERMUTATION_CHUNKS):
+        b0, b1 = _chunk_range(c, n_perm)
+        np.random.seed(seed + c)
+        yp = y.copy()
+        for b in range(b0, b1):
+            np.random.shuffle(yp)
+            s = 0.0
+            for k in range(i.shape[0]):
+                d = yp[i[k]] - yp[j[k]]
+                s += d * d
+            out[b] = s
     return out
 
 
@@ -237,28 +258,32 @@ def _group_ratios(y, i, j, g, n_groups, scale):
     return out
 
 
-@njit(cache=True)
+@njit(cache=True, parallel=True)
 def _permuted_group_ratios(y, i, j, g, n_groups, scale, n_perm, seed):
     """Each group's ratio and, in the last column, the ratio of all pairs, per permutation.
 
-    The pooled ratio is the pair-weighted mean of the group ratios (the counts
-    do not change under permutation).
+    The permutations are drawn as in :func:`_permuted_sums`. The pooled ratio
+    is the pair-weighted mean of the group ratios (the counts do not change
+    under permutation).
     """
-    np.random.seed(seed)
     counts = np.zeros(n_groups)
     for k in range(g.shape[0]):
         counts[g[k]] += 1.0
+    total = counts.sum()
     out = np.empty((n_perm, n_groups + 1))
-    yp = y.copy()
-    for b in range(n_perm):
-        np.random.shuffle(yp)
-        r = _group_ratios(yp, i, j, g, n_groups, scale)
-        pooled = 0.0
-        for q in range(n_groups):
-            out[b, q] = r[q]
-            if counts[q] > 0:
-                pooled += r[q] * counts[q]
-        out[b, n_groups] = pooled / counts.sum()
+    for c in prange(PERMUTATION_CHUNKS):
+        b0, b1 = _chunk_range(c, n_perm)
+        np.random.seed(seed + c)
+        yp = y.copy()
+        for b in range(b0, b1):
+            np.random.shuffle(yp)
+            r = _group_ratios(yp, i, j, g, n_groups, scale)
+            pooled = 0.0
+            for q in range(n_groups):
+                out[b, q] = r[q]
+                if counts[q] > 0:
+                    pooled += r[q] * counts[q]
+            out[b, n_groups] = pooled / total
     return out
 
 
@@ -352,9 +377,12 @@ def nearest_pairs(coords, k=6):
     if k < 1:
         return np.empty((0, 2), np.int64), np.empty(0)
     d, idx = _KDTree(X).query(X, k=k + 1)
-    a = np.repeat(np.arange(len(X)), k)
-    b = idx[:, 1:].ravel()
-    pairs = np.unique(np.sort(np.column_stack([a, b]), axis=1), axis=0)
+    n = len(X)
+    a = np.repeat(np.arange(n, dtype=np.int64), k)
+    b = idx[:, 1:].ravel().astype(np.int64)
+    # each unordered pair once, as the code lo * n + hi (sorted as the pairs would be)
+    code = np.unique(np.minimum(a, b) * n + np.maximum(a, b))
+    pairs = np.column_stack([code // n, code % n])
     pairs = pairs[pairs[:, 0] != pairs[:, 1]]  # coincident samples can list themselves
     dist = np.linalg.norm(X[pairs[:, 0]] - X[pairs[:, 1]], axis=1)
     return pairs.astype(np.int64), dist
