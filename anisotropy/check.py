@@ -594,7 +594,8 @@ def check_interpretation(discovery, interpretation: Interpretation, *, threshold
     ----------
     discovery : Discovery
         The result of :func:`anisotropy.discover`. Read: ``frame``, ``model``,
-        ``volume_``, ``refit_function()``, ``uncertainty`` (a
+        ``volume_`` and ``volume_with_blocks()`` (one more pass over the pairs
+        when the run kept no block sums), ``refit_function()``, ``uncertainty`` (a
         :class:`~anisotropy.uncertainty.BootstrapResult`; when it is None a
         block bootstrap of 200 replicates, seed 0, is run), the frame
         candidates of ``refinement.record`` and the continuity record of
@@ -624,7 +625,7 @@ def check_interpretation(discovery, interpretation: Interpretation, *, threshold
     volume = discovery.volume_
     boot = discovery.uncertainty
     if boot is None:
-        boot = unc.block_bootstrap(volume, refit, discovery.model, n_replicates=200,
+        boot = unc.block_bootstrap(discovery.volume_with_blocks(), refit, discovery.model, n_replicates=200,
                                    confidence=th["confidence"], seed=0, n_jobs=n_jobs,
                                    scheduler=scheduler, progress=progress)
         warnings.append("the discovery had no bootstrap; a block bootstrap of 200 replicates "
@@ -693,7 +694,7 @@ def check_interpretation(discovery, interpretation: Interpretation, *, threshold
         ratio = None
     share = None
     if ratio is not None and boot.counts is not None:
-        fx, fr = unc.fixed_frame_objectives(boot, volume, refit, D,
+        fx, fr = unc.fixed_frame_objectives(boot, discovery.volume_with_blocks(), refit, D,
                                             max_replicates=th["max_ratio_replicates"],
                                             n_jobs=n_jobs, scheduler=scheduler,
                                             progress=progress)

@@ -12,7 +12,8 @@ carrying its own choices and warnings:
 4. ``choose_lags`` (from the nominal spacing, each choice recorded with its
    reason and overridable) -> ``LagChoice``;
 5. ``build_volume`` - one pass of the pair engine into the lag-vector volume,
-   with blocks sized for a bootstrap -> ``PairVolume``;
+   with blocks sized for the block bootstrap when one is asked for ->
+   ``PairVolume``;
 6. ``weighted_bins`` - one fit bin per distance class and coarse direction
    cell, with drill-hole information weights and the down-hole nugget ->
    ``WeightedBins``;
@@ -203,7 +204,8 @@ def run_discovery(data, p: DiscoverParams) -> Discovery:
            lag=p.lag, n_lags=p.n_lags, pair_budget=p.pair_budget)
     t.say(f"pairs: unit lag {lc.unit_lag:.3g} m, {lc.n_lags} lags, {samples.n} samples")
     pv = t("volume", build_volume, samples.coords, tc.values, lc, estimator=p.estimator,
-           coarse_spacing=p.coarse_spacing, progress=p.progress, source=samples.source)
+           coarse_spacing=p.coarse_spacing, progress=p.progress, source=samples.source,
+           blocks=bool(p.n_bootstrap) and p.bootstrap_method == "block")
     wb = t("bins", weighted_bins, pv, samples.coords, tc.values, holes=samples.holes,
            spacing=prep.spacing, lags=lc, total=sc.total, estimator=p.estimator,
            min_pairs=p.min_pairs_bin, source=samples.source)

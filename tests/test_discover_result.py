@@ -53,28 +53,46 @@ def test_the_result_is_composed_of_the_stage_records(run):
         < names.index("bin weights") < names.index("direction fan") < names.index("structures")
 
 
-def test_blocks_are_sized_for_a_bootstrap_without_one(run):
-    # issue 14: a discovery without bootstrap keeps a volume a later bootstrap can resample
+def test_without_a_bootstrap_the_pass_keeps_no_blocks_and_a_later_one_builds_them(run):
+    # issue 16: the pass is sized to what the fit needs; a later bootstrap makes one more
+    # pass with blocks sized for it (issue 14: enough occupied blocks to resample)
     D = run
     assert D.uncertainty is None and D.to_dict()["uncertainty"] == {}
-    side = engine_block_side(D.samples.coords, max_side=D.lags["max_distance"])
+    assert not D.pair_volume.has_blocks and D.volume_.block_sums.shape[0] == 0
     row = next(c for c in D.choices if c["choice"] == "bootstrap blocks")
-    assert row["value"] == side
+    assert row["value"] is None and "no block bootstrap" in row["reason"]
+    V = D.volume_with_blocks()
+    assert D.volume_with_blocks() is V                 # built once
+    side = engine_block_side(D.samples.coords, max_side=D.lags["max_distance"])
+    assert np.all(np.asarray(V.block_size) == side)
     c = D.samples.coords
     assert len(np.unique(np.floor((c - c.min(0)) / side), axis=0)) >= MIN_BLOCKS
+    # the same pairs: counts exactly, sums up to the order of the additions; the blocks
+    # partition them (their counts add up to the volume's)
+    assert np.array_equal(V.sums[..., 0], D.volume_.sums[..., 0])
+    np.testing.assert_allclose(V.sums, D.volume_.sums, rtol=1e-12, atol=0)
+    assert np.array_equal(V.block_sums[..., 0].sum(axis=0), V.coarse_sums()[..., 0])
 
 
 def test_the_bootstrap_method_gives_what_discover_gives(run):
     # the same blocks, seed and refit: bootstrapping a discovery later equals asking
-    # discover for the bootstrap (exact equality of the bands)
+    # discover for the bootstrap (exact equality of the bands) on the same volume; a run
+    # without one builds the very same block sums when a bootstrap is asked later
     later = run.bootstrap(12, rng=3, confidence_level=0.9)
     assert isinstance(later, BootstrapResult) and later.n_requested == 12
     assert run.uncertainty is None                    # the method does not store it
-    at_once = anisotropy.discover(_table(), value="g", structures=1, fan_spacing=15, seed=3,
-                                  bootstrap=12).uncertainty
-    a, b = later.to_dict(), at_once.to_dict()
+    D = anisotropy.discover(_table(), value="g", structures=1, fan_spacing=15, seed=3,
+                            bootstrap=12)
+    assert D.pair_volume.has_blocks and D.volume_with_blocks() is D.volume_
+    a, b = D.bootstrap(12, rng=3, confidence_level=0.9).to_dict(), D.uncertainty.to_dict()
     a.pop("seconds"), b.pop("seconds")
     assert a == b
+    assert np.array_equal(run.volume_with_blocks().block_sums, D.volume_.block_sums,
+                          equal_nan=True)
+    # the same resampling blocks (the rule's text names the main fit's major range, which
+    # the two runs' sums, added in another order, may move in the fourth digit)
+    for key in ("factor", "side", "n_blocks"):
+        assert later.to_dict()["blocks"][key] == b["blocks"][key]
     with pytest.raises(InputError, match="bootstrap method"):
         run.bootstrap(5, method="jackknife")
 

@@ -161,6 +161,23 @@ def test_json_ready_gives_what_the_json_module_accepts_strictly():
     assert type(out["a"][0]) is int and type(out["a"][1]) is bool
 
 
+def test_json_ready_arrays_of_every_kind_match_the_element_by_element_rule():
+    # reference: the standard library's strict encoder and the element-wise rule written
+    # out here (NumPy scalars to Python ones, non-finite floats to None)
+    from pathlib import Path
+
+    arrays = {"f32": np.array([0.25, np.nan], np.float32), "i": np.arange(3, dtype=np.int16),
+              "u": np.array([7], np.uint8), "b": np.array([True, False]),
+              "zero_d": np.array(np.inf), "zero_d_int": np.array(5),
+              "obj": np.array([Path("p"), np.float64(1.5), None], dtype=object),
+              "empty": np.empty((0, 3))}
+    out = S.json_ready(arrays)
+    json.dumps(out, allow_nan=False)
+    assert out == {"f32": [0.25, None], "i": [0, 1, 2], "u": [7], "b": [True, False],
+                   "zero_d": None, "zero_d_int": 5, "obj": ["p", 1.5, None], "empty": []}
+    assert all(type(v) is int for v in out["i"]) and type(out["b"][0]) is bool
+
+
 def test_json_ready_other_objects_as_text_or_kept():
     class Thing:
         def __str__(self):

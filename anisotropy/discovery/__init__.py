@@ -12,7 +12,7 @@ stage                      returns
 ``choose_transform``       ``TransformChoice``
 ``choose_sill``            ``SillChoice``
 ``choose_lags``            ``LagChoice``
-``build_volume``           ``PairVolume`` (blocks sized for a bootstrap)
+``build_volume``           ``PairVolume`` (blocks when a block bootstrap follows)
 ``weighted_bins``          ``WeightedBins``
 ``fan_ranges``             ``FanRanges``
 ``starting_frames``        tuple of ``Start``

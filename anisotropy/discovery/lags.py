@@ -140,12 +140,21 @@ def choose_lags(coords, spacing: Spacing, *, has_holes=False, lag=None, n_lags=N
 
 @dataclass(frozen=True)
 class PairVolume:
-    """The lag-vector volume of the one pass over pairs, with its bootstrap blocks."""
+    """The lag-vector volume of the one pass over pairs, with its bootstrap blocks if kept.
+
+    ``block_side`` is None when the pass kept no block sums (no block
+    bootstrap was asked for).
+    """
 
     volume: LagVolume
-    block_side: float
+    block_side: float | None
     choices: tuple[dict, ...] = ()
     warnings: tuple[str, ...] = ()
+
+    @property
+    def has_blocks(self) -> bool:
+        """True when the volume holds block sums for the block bootstrap."""
+        return self.block_side is not None
 
     @property
     def n_pairs(self) -> int:
@@ -157,32 +166,38 @@ class PairVolume:
 
 
 def build_volume(coords, values, lags: LagChoice, *, estimator="semivariogram",
-                 coarse_spacing=None, progress=False, source="<table>") -> PairVolume:
+                 coarse_spacing=None, progress=False, source="<table>",
+                 blocks=True) -> PairVolume:
     """One pass over the pairs into the lag-vector volume.
 
     Only the chosen estimator's channels are kept: everything downstream (fits,
     fan, maps, the bootstrap's block sums, the report) reads that estimator.
-    The blocks are sized for the block bootstrap
-    (:func:`anisotropy.uncertainty.engine_block_side`) whether or not a
-    bootstrap follows, so that a later bootstrap (``Discovery.bootstrap``,
-    :func:`anisotropy.check_interpretation`) has room to resample.  Blocks
-    partition the pairs: without a bootstrap they change no answer.
+    With ``blocks`` the pass also keeps block sums, the blocks sized for the
+    block bootstrap (:func:`anisotropy.uncertainty.engine_block_side`).
+    Blocks partition the pairs and change no answer of the fits; they cost
+    about as much as the fine sums themselves (half the pass on 89k blast
+    holes, most of it on a domain of 2,000 composites), so a run without a
+    block bootstrap leaves them out and a later bootstrap or check makes
+    one more pass with them (``Discovery.volume_with_blocks``).
 
     Raises
     ------
     InsufficientDataError
         Fewer than 100 pairs within the reach.
     """
-    side = float(engine_block_side(coords, max_side=lags.max_distance))
+    side = float(engine_block_side(coords, max_side=lags.max_distance)) if blocks else None
     choice = {"choice": "bootstrap blocks", "value": side,
               "reason": "block side giving about 100 occupied blocks, so that the block "
                         "bootstrap has room to resample "
-                        "(anisotropy.uncertainty.engine_block_side)"}
+                        "(anisotropy.uncertainty.engine_block_side)" if blocks else
+                        "no block bootstrap asked for: the pass keeps no block sums (a later "
+                        "bootstrap or check makes one more pass with them)"}
     coarse = fan_for_spacing(DEFAULT_COARSE_SPACING if coarse_spacing is None
                              else coarse_spacing)
     volume = _build_volume(coords, values, lag=lags.unit_lag, n_lags=lags.n_lags,
                            coarse_directions=coarse, progress=progress, channels=estimator,
-                           block_channels=estimator, map_channels=estimator, blocks=side)
+                           block_channels=estimator, map_channels=estimator,
+                           blocks=side if blocks else False)
     if int(volume.n_pairs) < 100:
         raise InsufficientDataError(
             f"{source}: only {int(volume.n_pairs)} pairs of samples within "

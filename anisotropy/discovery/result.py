@@ -34,7 +34,7 @@ from anisotropy.discovery.bins import WeightedBins, information_weight
 from anisotropy.discovery.diagnose import AXES, Diagnostics
 from anisotropy.discovery.fan import FanRanges
 from anisotropy.discovery.grades import GradeRefit, refit_grades
-from anisotropy.discovery.lags import LagChoice, PairVolume
+from anisotropy.discovery.lags import LagChoice, PairVolume, build_volume
 from anisotropy.discovery.params import DiscoverParams
 from anisotropy.discovery.prepare import Prepared, SillChoice, TransformChoice
 from anisotropy.discovery.search import FitSettings, Search, Start
@@ -141,7 +141,8 @@ class Discovery:
     sill_choice : SillChoice
     lag_choice : LagChoice
     pair_volume : PairVolume
-        The lag-vector volume, with bootstrap blocks.
+        The lag-vector volume (with bootstrap blocks when the run asked for a
+        block bootstrap; see :meth:`volume_with_blocks`).
     weighted : WeightedBins
         The fit bins with their information weights.
     fan_ranges : FanRanges
@@ -194,6 +195,8 @@ class Discovery:
     grade_units: str | None = None
     _grade_refit: GradeRefit | None = field(default=None, init=False, repr=False,
                                             compare=False)
+    _blocked_volume: PairVolume | None = field(default=None, init=False, repr=False,
+                                               compare=False)
 
     # -- read from the records -------------------------------------------------
     @property
@@ -392,6 +395,25 @@ class Discovery:
         return self._grade_refit
 
     # -- uncertainty -------------------------------------------------------------
+    def volume_with_blocks(self) -> LagVolume:
+        """The lag volume with block sums for the block bootstrap (built once on request).
+
+        The run's own volume when its pass kept blocks (``discover`` with a
+        block bootstrap); otherwise one more pass over the pairs, on the same
+        samples, values, lag classes and direction cells, with blocks sized
+        for the bootstrap. Its fine sums are those of ``volume_`` up to the
+        order of the floating-point additions.
+        """
+        if self.pair_volume.has_blocks:
+            return self.pair_volume.volume
+        if self._blocked_volume is None:
+            s = self.samples
+            self._blocked_volume = build_volume(
+                s.coords, self.transform_choice.values, self.lag_choice,
+                estimator=self.estimator, coarse_spacing=self.params.coarse_spacing,
+                progress=self.params.progress, source=str(s.source), blocks=True)
+        return self._blocked_volume.volume
+
     def refit_function(self) -> RefitState:
         """The refit of a bootstrap replicate (see :class:`RefitState`)."""
         return self.refit
@@ -439,7 +461,7 @@ class Discovery:
             res = model_bootstrap(self.samples.coords, self.model, self.refit,
                                   volume=self.volume_, **kw)
         else:
-            res = block_bootstrap(self.volume_, self.refit, self.model,
+            res = block_bootstrap(self.volume_with_blocks(), self.refit, self.model,
                                   estimator=self.estimator, **kw)
         res.rival_angles = self.rival_angles()
         return res

@@ -26,7 +26,7 @@ import io
 import math
 import re
 from pathlib import Path
-from typing import Mapping
+from collections.abc import Mapping
 
 import matplotlib
 import numpy as np
@@ -187,7 +187,7 @@ def _map_plane_basis(normal):
 
 def _fig_map(disc, path, which):
     R = _frame(disc)
-    plane_info = (disc.to_dict().get("plane") or {})
+    plane_info = disc.plane() or {}
     if which == "plan":
         normal = np.array([0.0, 0.0, -1.0])
         kw = {"plane": "horizontal"}
@@ -275,9 +275,7 @@ def _transform_record(disc) -> dict:
 
 
 def _estimator(disc) -> str:
-    d = disc.to_dict()
-    return (d.get("estimator") or (d.get("diagnostics") or {}).get("estimator")
-            or getattr(disc, "estimator", None) or "semivariogram")
+    return disc.estimator or "semivariogram"
 
 
 def _replicate_axes(disc):
@@ -313,9 +311,8 @@ def _interpreted_pole(check):
     return np.asarray(plane_to_pole(float(plane[0]), float(plane[1])), float)
 
 
-def _fig_stereonet(disc, path, check):
+def _fig_stereonet(disc, d, path, check):
     R = _frame(disc)
-    d = disc.to_dict()
     unc = d.get("uncertainty") or {}
     cones = {a: (unc.get(a) or {}).get("cone_deg") for a in _AXES} if unc else None
     conf = unc.get("confidence") if unc else None
@@ -371,10 +368,7 @@ def _fig_directional(disc, path):
         title=f"Directional variograms (angular tolerance {tol:g}°)", path=path)
 
 
-def _fig_table(disc, path):
-    from anisotropy.report import figures as F
-
-    d = disc.to_dict()
+def _fig_table(disc, d, path):
     return F.model_table_figure(F.model_table_rows(d.get("model") or {}, d.get("axes") or {},
                                                    marks=_range_marks(d)),
                                 title=f"Nested model ({_units(disc)})", path=path)
@@ -425,7 +419,8 @@ def _section_downhole(d) -> dict:
                     f"{_num(model_nug, '.3g')}, {how}."}
 
 
-def _draw_all(disc, fig_dir: Path, check, topcut):
+def _draw_all(disc, d, fig_dir: Path, check, topcut):
+    """Every figure of the report, drawn and written; ``d`` is the discovery's record."""
     matplotlib.use("Agg", force=False)
     makers = {
         "histogram": lambda p: _fig_histogram(disc, p, topcut),
@@ -433,11 +428,10 @@ def _draw_all(disc, fig_dir: Path, check, topcut):
         "map_plan": lambda p: _fig_map(disc, p, "plan"),
         "map_plane": lambda p: _fig_map(disc, p, "plane"),
         "map_across": lambda p: _fig_map(disc, p, "across"),
-        "stereonet": lambda p: _fig_stereonet(disc, p, check),
+        "stereonet": lambda p: _fig_stereonet(disc, d, p, check),
         "directional": lambda p: _fig_directional(disc, p),
-        "model_table": lambda p: _fig_table(disc, p),
-        "downhole": lambda p: _fig_downhole(S.json_ready(disc.to_dict()), p,
-                                            f"{_estimator(disc)} ({_units(disc)})"),
+        "model_table": lambda p: _fig_table(disc, d, p),
+        "downhole": lambda p: _fig_downhole(d, p, f"{_estimator(disc)} ({_units(disc)})"),
     }
     out = {}
     for key, make in makers.items():
@@ -794,7 +788,7 @@ def render_report(discovery, out_dir, *, check=None, title=None, topcut=None) ->
             title += f" in domain {inp.get('domain')}"
     if topcut is None:
         topcut = _topcut(discovery)
-    figs = _draw_all(discovery, fig_dir, check, topcut)
+    figs = _draw_all(discovery, d, fig_dir, check, topcut)
 
     cautions = d.get("cautions")
     if not isinstance(cautions, (list, tuple)):
