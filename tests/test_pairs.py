@@ -362,25 +362,32 @@ def test_channel_subset_validation(data):
 
 @pytest.mark.parametrize("estimator", ["semivariogram", "correlogram", "pairwise_relative",
                                        "madogram", "robust"])
-@pytest.mark.parametrize("extras", [False, True], ids=["fine_only", "with_blocks_and_map"])
+@pytest.mark.parametrize("extras", [False, True, "map"],
+                         ids=["fine_only", "with_blocks_and_map", "with_map_of_the_same_channels"])
 def test_fine_channel_subsets(data, volume, estimator, extras):
     # Fine sums keeping one estimator's channels equal the all-channel run for the kept
     # channels (the same pairs in every bin; sums to rounding, since the blocks-on reference
     # adds them block by block; the all-channel run is checked against brute force over the
     # pdist pairs above); dropped channels are NaN. Without blocks and
     # map the semivariogram and the all-channel layouts go through the specialised kernel,
-    # the others through the general one: both routes are covered here.
+    # the others through the general one: both routes are covered here; so is a map of
+    # the fine sums' own channels without blocks (the specialised kernel again for the
+    # semivariogram, which is how discover builds its volume without a block bootstrap).
     c, v = data
-    kw = dict(blocks=20.0, map_cell=4.0) if extras else dict(blocks=False, map_cell=False)
+    kw = {True: dict(blocks=20.0, map_cell=4.0), False: dict(blocks=False, map_cell=False),
+          "map": dict(blocks=False, map_cell=4.0, map_channels=estimator)}[extras]
     vol = build_volume(c, v, lag=5.0, n_lags=6, progress=False, channels=estimator, **kw)
     kept = [CHANNELS.index(ch) for ch in vol.channels]
     dropped = [i for i in range(len(CHANNELS)) if i not in kept]
     assert vol.channels == pairs_mod.resolve_channels(estimator) and dropped
     assert_same_bins(vol.sums[..., kept], volume.sums[..., kept])
     assert np.isnan(vol.sums[..., dropped]).all()
-    if extras:  # blocks and map keep every channel unless told otherwise
+    if extras is True:  # blocks and map keep every channel unless told otherwise
         assert_same_bins(vol.block_sums, volume.block_sums)
         assert_same_bins(vol.map_sums, volume.map_sums)
+    if extras == "map":
+        assert_same_bins(vol.map_sums[..., kept], volume.map_sums[..., kept])
+        assert np.isnan(vol.map_sums[..., dropped]).all()
     assert vol.n_pairs == volume.n_pairs
 
 

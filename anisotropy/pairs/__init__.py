@@ -824,14 +824,16 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
     inv_pix = table.shape[0] / 2.0  # the plane coordinates cover [-1, 1]
     binv = np.where(size > 0, 1.0 / np.where(size > 0, size, 1.0), 0.0)
     borig = np.zeros(3)
-    # no blocks, no map and one of the two fixed row layouts: the specialised kernel
-    fixed_layout = (not do_blocks and not do_map
-                    and fkeep in (CHANNELS, resolve_channels("semivariogram")))
+    # no blocks, one of the two fixed row layouts (the map's, if any, the same): the
+    # specialised kernel
+    fixed_layout = (not do_blocks and fkeep in (CHANNELS, resolve_channels("semivariogram"))
+                    and (not do_map or mkeep == fkeep))
     for bi, (q0, q1) in enumerate(batches):
         if fixed_layout:
             _kernels.fine_pass(x, y, z, vv, grid.start, grid.dims, grid.occupied, off, q0, q1,
                                n_chunks, maxd2, lag, n_lags, table, inv_pix,
-                               fkeep == CHANNELS, acc_fine, stats)
+                               fkeep == CHANNELS, acc_fine, stats, do_map,
+                               (1.0 / mc) if do_map else 0.0, mhalf, acc_map)
         else:
             if block_major:
                 _kernels.block_major_pass(x, y, z, vv, grid.start, grid.dims, grid.occupied, off,

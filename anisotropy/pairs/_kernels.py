@@ -623,17 +623,52 @@ def _fold_block(B, nt, tl, sc, af, ab, fold, n_cls, f2c, n_coarse):
             sc[fb, col] = 0.0
 
 
+@njit(cache=True, inline="always")
+def _add_fixed(row, full, d, vi, vj, fl, dx, dy, dz):
+    """Add one oriented pair to a row of a fixed layout (see :func:`fine_pass`)."""
+    delta = vj - vi
+    sq = delta * delta
+    row[0] += 1.0
+    row[1] += d
+    row[2] += sq
+    if full:
+        h = vi if fl else vj
+        t = vj if fl else vi
+        ad = abs(delta)
+        row[3] += ad
+        row[4] += math.sqrt(ad)
+        row[5] += h
+        row[6] += t
+        row[7] += h * h
+        row[8] += t * t
+        row[9] += h * t
+        s = h + t
+        if s != 0.0:
+            row[10] += 4.0 * sq / (s * s)
+            row[11] += 1.0
+        row[12] += dx
+        row[13] += dy
+        row[14] += dz
+    else:
+        row[3] += dx
+        row[4] += dy
+        row[5] += dz
+
+
 @njit(cache=True, parallel=True)
 def fine_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
-              maxd2, lag, n_lags, table, inv_pix, full, acc_fine, stats):
-    """:func:`volume_pass` without block sums and map, for the two fixed row layouts.
+              maxd2, lag, n_lags, table, inv_pix, full, acc_fine, stats,
+              do_map, minv, mhalf, acc_map):
+    """:func:`volume_pass` without block sums, for the two fixed row layouts.
 
     ``full``: rows of all 15 channels in ``CHANNELS`` order (padded to 16);
     otherwise the semivariogram's compact row (count, dist, sq, dx, dy, dz;
-    8 wide). Same walk, class, orientation and direction rules as
-    :func:`volume_pass`, with constant columns so the compiler can schedule
-    the additions freely (measured: about a third cheaper per pair than the
-    general kernel on the benchmark layout; benchmarks/RESULTS.md).
+    8 wide). With ``do_map`` the map (same layout as the fine rows) gets
+    every pair too, in the cell of :func:`_map_cell`. Same walk, class,
+    orientation and direction rules as :func:`volume_pass`, with constant
+    columns so the compiler can schedule the additions freely (measured:
+    about a third cheaper per pair than the general kernel on the benchmark
+    layout; benchmarks/RESULTS.md).
     """
     tsize = table.shape[0]
     tmax = tsize - 1
@@ -643,8 +678,10 @@ def fine_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
     n_occ = occupied.shape[0]
     inv_lag = 1.0 / lag
     guard = 1e-15 * (n_lags + 2.0)
+    mp = (minv, mhalf)
     for c in prange(n_chunks):
         af = acc_fine[c]
+        am = acc_map[c]
         cand = 0
         kept = 0
         first = g0 + ((c - g0) % n_chunks)
@@ -706,34 +743,10 @@ def fine_pass(x, y, z, v, start, dims, occupied, offsets, g0, g1, n_chunks,
                         else:
                             f = np.int64(0)
                         kept += 1
-                        delta = vj - vi
-                        sq = delta * delta
-                        row = af[k * n_fine + f]
-                        row[0] += 1.0
-                        row[1] += d
-                        row[2] += sq
-                        if full:
-                            h = vi if fl else vj
-                            t = vj if fl else vi
-                            ad = abs(delta)
-                            row[3] += ad
-                            row[4] += math.sqrt(ad)
-                            row[5] += h
-                            row[6] += t
-                            row[7] += h * h
-                            row[8] += t * t
-                            row[9] += h * t
-                            s = h + t
-                            if s != 0.0:
-                                row[10] += 4.0 * sq / (s * s)
-                                row[11] += 1.0
-                            row[12] += dx
-                            row[13] += dy
-                            row[14] += dz
-                        else:
-                            row[3] += dx
-                            row[4] += dy
-                            row[5] += dz
+                        _add_fixed(af[k * n_fine + f], full, d, vi, vj, fl, dx, dy, dz)
+                        if do_map:
+                            _add_fixed(am[_map_cell(dx, dy, dz, mp)], full, d, vi, vj, fl,
+                                       dx, dy, dz)
         stats[c, 0] += cand
         stats[c, 1] += kept
 
