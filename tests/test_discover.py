@@ -25,6 +25,7 @@ from scipy.linalg import cholesky
 
 import anisotropy
 from anisotropy.errors import InputError, InsufficientDataError
+from anisotropy.fitting.frames import likelihood_margin
 
 # -- the truth, from the formulas -------------------------------------------------------
 
@@ -150,6 +151,23 @@ def test_geometry_is_self_consistent(steep_vein):
         assert ax["plunge"] >= 0
 
 
+def test_screened_second_structure_decides_as_the_finished_search(steep_vein, monkeypatch):
+    # reference: the same run with the second structure's search always taken to the
+    # nested tolerance (the screening tolerance set equal to it): the same decision, and a
+    # gain that differs by less than the margin within which the screen finishes it
+    from anisotropy.fitting import refine
+
+    monkeypatch.setattr(refine, "LIKELIHOOD_NESTED_SCREEN_FTOL", refine.LIKELIHOOD_NESTED_FTOL)
+    rng = np.random.default_rng(7)
+    coords = rng.uniform([0, 0, 0], [250, 250, 250], size=(1300, 3))
+    v = simulate(coords, STEEP, 0.1, [("spherical", 0.9, STEEP_RANGES)], seed=8)
+    full = anisotropy.discover(table(coords, np.exp(0.9 * v)), value="grade", seed=0)
+    a = steep_vein.diagnostics["frame_refinement"]["nested"]
+    b = full.diagnostics["frame_refinement"]["nested"]
+    assert a["kept"] == b["kept"]
+    assert abs(a["gain"] - b["gain"]) < likelihood_margin(0.9, dof=4)
+
+
 def test_record_has_the_schema_and_is_json(steep_vein, tmp_path):
     D = steep_vein
     d = D.to_dict()
@@ -172,6 +190,12 @@ def test_record_has_the_schema_and_is_json(steep_vein, tmp_path):
     nest = fr["nested"]
     assert len(nest["shares"]) == 2 and nest["kept"] == (nest["gain"] > nest["bic_penalty"])
     assert fr["structures_in_likelihood"] == (2 if nest["kept"] else 1)
+    # the second structure's search stops at the screening tolerance unless the decision
+    # is close (Wilks 1938 margin of its four parameters) or passes; a finished search
+    # only gains
+    margin = likelihood_margin(0.9, dof=4)
+    assert nest["search_finished"] == (nest["screened_gain"] > nest["bic_penalty"] - margin)
+    assert nest["gain"] >= nest["screened_gain"] - 1e-6
     assert not nest["structure_added"]  # the model kept one structure
     refine = [c for c in D.choices if c["choice"] == "frame refinement"]
     assert len(refine) == 1 and "Vecchia (1988)" in refine[0]["reason"]
@@ -470,6 +494,9 @@ def test_plunging_shoot_second_structure_found_by_the_likelihood():
     assert long_.ranges[0] > 2 * short.ranges[0]
     why = next(c for c in D.choices if c["choice"] == "structures")["reason"]
     assert "likelihood" in why and "BIC" in why
+    # a kept structure's search was finished to the nested tolerance before the decision
+    nest = D.diagnostics["frame_refinement"]["nested"]
+    assert nest["kept"] and nest["search_finished"]
 
 
 def shoot_benchmark_realisation(seed):

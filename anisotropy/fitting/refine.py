@@ -21,14 +21,14 @@ import numpy as np
 from anisotropy.errors import FitError
 from anisotropy.fitting.bins import FitBins
 from anisotropy.fitting.frames import (FrameChoice, PolishedFrame, global_frame_choice,
-                                       ordered_axes)
+                                       likelihood_margin, ordered_axes)
 from anisotropy.fitting.likelihood import refine_frame_likelihood, vecchia_setup
 from anisotropy.fitting.nested import NestedFit, fit_nested
 from anisotropy.geometry import vector_to_line
 
 __all__ = ["FrameRefinement", "refine_frame", "LIKELIHOOD_MAX_SAMPLES",
            "LIKELIHOOD_NEIGHBOURS", "LIKELIHOOD_NESTED_SHORT", "LIKELIHOOD_MIN_SHARE",
-           "LIKELIHOOD_NESTED_FTOL", "LIKELIHOOD_FTOL"]
+           "LIKELIHOOD_NESTED_FTOL", "LIKELIHOOD_NESTED_SCREEN_FTOL", "LIKELIHOOD_FTOL"]
 
 #: Larger sample sets are subsampled to this size for the likelihood.
 LIKELIHOOD_MAX_SAMPLES = 2000
@@ -46,6 +46,16 @@ LIKELIHOOD_MIN_SHARE = 0.05
 #: Relative stopping tolerance of the nested likelihood search (see
 #: ``fitting.likelihood.refine_frame_likelihood``).
 LIKELIHOOD_NESTED_FTOL = 1e-5
+#: The second structure's search is first run to this looser tolerance (the
+#: global frame choice's screening tolerance): it only decides whether the
+#: gain passes the BIC penalty. It goes on to ``LIKELIHOOD_NESTED_FTOL`` only
+#: when the decision is close, its gain within ``likelihood_margin(0.9, 4)``
+#: (the 90 % likelihood-ratio resolution of the four added parameters, 3.9
+#: log-units) of the penalty or past it. When a step improves the
+#: log-likelihood by less than 1e-4 of its value, the remaining improvement was
+#: under 0.5 log-units on the speed and demo sets (benchmarks/RESULTS.md,
+#: "Likelihood: the second structure decided at the screening tolerance").
+LIKELIHOOD_NESTED_SCREEN_FTOL = 1e-4
 #: The same for the first (variogram structures) likelihood search (None:
 #: SciPy's default, which took three times the evaluations for a frame that
 #: differed by thousandths of a degree on the composites speed benchmark).
@@ -134,12 +144,17 @@ class _Problem:
     def refit(self, start, frame, **extra):
         return fit_nested(self.bins, start, fixed_frame=frame, **extra, **self.kw)
 
-    def add_shorter(self, f1, kinds2):
+    def add_shorter(self, f1, kinds2, ftol=LIKELIHOOD_NESTED_FTOL):
         """The one-structure fit with a shorter structure added, half the sill each."""
         r1 = np.atleast_2d(np.asarray(f1.ranges, float))[0]
         s1 = float(np.asarray(f1.sills, float)[0])
         return self.likelihood(f1.frame, [LIKELIHOOD_NESTED_SHORT * r1, r1], f1.nugget,
-                               [0.5 * s1, 0.5 * s1], kinds2, ftol=LIKELIHOOD_NESTED_FTOL)
+                               [0.5 * s1, 0.5 * s1], kinds2, ftol=ftol)
+
+    def finish(self, lk, kinds):
+        """A likelihood search continued from where ``lk`` stopped, to the nested tolerance."""
+        return self.likelihood(lk.frame, lk.ranges, lk.nugget_share, lk.shares, kinds,
+                               ftol=LIKELIHOOD_NESTED_FTOL)
 
 
 def _first_search(P, fit, one_structure):
@@ -195,9 +210,14 @@ def _added_to_variogram(P, lk2, f, nested):
 
 def _second_structure(P, lk, f, fit, add_structure):
     """One structure: try a second, shorter one in the likelihood, kept by BIC."""
-    lk2 = P.add_shorter(f, (f.kinds[0],) * 2)
+    kinds2 = (f.kinds[0],) * 2
+    lk2 = P.add_shorter(f, kinds2, ftol=LIKELIHOOD_NESTED_SCREEN_FTOL)
     # BIC (Schwarz 1978): four more parameters (three log ranges, one share)
     penalty = 0.5 * 4 * np.log(lk2.n_samples)
+    screened = lk.negloglik - lk2.negloglik
+    close = bool(screened > penalty - likelihood_margin(0.9, dof=4))
+    if close:  # the decision is close (or the structure passes): finish the search
+        lk2 = P.finish(lk2, kinds2)
     gain = lk.negloglik - lk2.negloglik
     polished = False
     if gain > penalty and LIKELIHOOD_FTOL is not None:
@@ -211,6 +231,7 @@ def _second_structure(P, lk, f, fit, add_structure):
     kept = bool(gain > penalty)
     nested = {"negloglik": lk2.negloglik, "negloglik_one_structure": lk.negloglik,
               "gain": gain, "bic_penalty": penalty, "kept": kept,
+              "screened_gain": screened, "search_finished": close,
               "one_structure_polished": polished,
               "shares": [float(x) for x in lk2.shares],
               "nugget_share": float(lk2.nugget_share),
