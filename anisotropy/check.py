@@ -593,11 +593,10 @@ def check_interpretation(discovery, interpretation: Interpretation, *, threshold
     Parameters
     ----------
     discovery : Discovery
-        The result of :func:`anisotropy.discover`. Read: ``frame``, ``model``,
-        ``volume_`` and ``volume_with_blocks()`` (one more pass over the pairs
-        when the run kept no block sums), ``refit_function()``, ``uncertainty`` (a
-        :class:`~anisotropy.uncertainty.BootstrapResult`; when it is None a
-        block bootstrap of 200 replicates, seed 0, is run), the frame
+        The result of :func:`anisotropy.discover`. Read: ``frame``, ``model``, ``volume_``,
+        ``volume_with_blocks()`` (a new pass if the run kept no blocks), ``refit_function()``,
+        ``uncertainty`` (a :class:`~anisotropy.uncertainty.BootstrapResult`; when it is
+        None a block bootstrap of 200 replicates, seed 0, is run), the frame
         candidates of ``refinement.record`` and the continuity record of
         ``diagnosis`` (for the "cannot tell" rule).
     interpretation : Interpretation

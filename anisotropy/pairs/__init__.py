@@ -824,8 +824,7 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
     inv_pix = table.shape[0] / 2.0  # the plane coordinates cover [-1, 1]
     binv = np.where(size > 0, 1.0 / np.where(size > 0, size, 1.0), 0.0)
     borig = np.zeros(3)
-    # no blocks, one of the two fixed row layouts (the map's, if any, the same): the
-    # specialised kernel
+    # no blocks, a fixed row layout (the map's, if any, the same): the specialised kernel
     fixed_layout = (not do_blocks and fkeep in (CHANNELS, resolve_channels("semivariogram"))
                     and (not do_map or mkeep == fkeep))
     for bi, (q0, q1) in enumerate(batches):
