@@ -786,9 +786,7 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
     n_fine, n_coarse, n_cls, nch = len(fine), len(coarse), n_lags + 1, len(CHANNELS)
     n_chunks = _n_chunks()
     fkeep, bkeep, mkeep = (resolve_channels(k) for k in (channels, block_channels, map_channels))
-    (fcols, fwidth), (bcols, bwidth), (mcols, mwidth) = (_columns(k) for k in (fkeep, bkeep,
-                                                                                mkeep))
-
+    (fcols, fwidth), (bcols, bwidth), (mcols, mwidth) = map(_columns, (fkeep, bkeep, mkeep))
     do_blocks, do_map = blocks is not False, map_cell is not False
     size, bshape, n_blocks, block_of_sample = _block_grid(
         blocks, cl, hi, max_distance, n_cls * n_coarse * 8 * (bwidth * n_chunks + nch),
