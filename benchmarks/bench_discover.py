@@ -543,7 +543,8 @@ def speed():
         D = anisotropy.discover(table, value="au", seed=0, **kw)
         rows.append({"case": f"{case}, {len(table):,} samples", "seconds":
                      time.perf_counter() - t0, "pairs": D.diagnostics["pairs"],
-                     "pair_pass": D.diagnostics["volume"]["seconds"], "lags": D.lags})
+                     "pair_pass": D.diagnostics["volume"]["seconds"], "lags": D.lags,
+                     "stages": dict(D.diagnostics["seconds"])})
     return rows
 
 

@@ -9,7 +9,9 @@ versions on the same inputs (this machine's absolute times drift)::
 
 Each tree's own ``anisotropy`` package and ``benchmarks/bench_discover.py``
 are imported (the inputs of ``speed()`` are the same in both as long as its
-layouts are). Printed per call: (case, discover seconds, pair-pass seconds).
+layouts are). Printed per call: (case, discover seconds, pair-pass seconds),
+then, where the tree's ``speed()`` returns them, the seconds of each stage
+(``diagnostics.seconds``) of every case.
 """
 
 import argparse
@@ -38,6 +40,10 @@ def main(argv=None):
         rows = bench.speed()
         print(k, [(r["case"], round(r["seconds"], 2), round(float(r["pair_pass"]), 2))
                   for r in rows], flush=True)
+        for r in rows:
+            if "stages" in r:
+                print("   ", r["case"], {s: round(float(t), 2) for s, t in r["stages"].items()},
+                      flush=True)
 
 
 if __name__ == "__main__":
