@@ -51,10 +51,10 @@ LIKELIHOOD_NESTED_FTOL = 1e-5
 #: gain passes the BIC penalty. It goes on to ``LIKELIHOOD_NESTED_FTOL`` only
 #: when the decision is close, its gain within ``likelihood_margin(0.9, 4)``
 #: (the 90 % likelihood-ratio resolution of the four added parameters, 3.9
-#: log-units) of the penalty or past it. When a step improves the
-#: log-likelihood by less than 1e-4 of its value, the remaining improvement was
-#: under 0.5 log-units on the speed and demo sets (benchmarks/RESULTS.md,
-#: "Likelihood: the second structure decided at the screening tolerance").
+#: log-units) of the penalty or past it. Stopped there, the search had at most
+#: 1.0 log-unit left to gain on nine test sets, every decision the same as the
+#: finished search's (benchmarks/RESULTS.md, "Likelihood: the second structure
+#: decided at the screening tolerance").
 LIKELIHOOD_NESTED_SCREEN_FTOL = 1e-4
 #: The same for the first (variogram structures) likelihood search (None:
 #: SciPy's default, which took three times the evaluations for a frame that
