@@ -402,7 +402,7 @@ def speed(args):
         t_vol = time.perf_counter() - t0
         occ = int(np.count_nonzero(U._occupied_blocks(vol)))
         same = bool(np.allclose(vol.coarse_sums(), D.volume_.coarse_sums(), rtol=1e-9,
-                                atol=1e-9))
+                                atol=1e-9, equal_nan=True))   # channels not kept are NaN
         refit = D.refit_function()
         t0 = time.perf_counter()
         res = U.block_bootstrap(vol, refit, D.model, n_replicates=args.reps, seed=0,
