@@ -179,27 +179,14 @@ def _chunk_range(c, n_perm):
     return min(c * size, n_perm), min((c + 1) * size, n_perm)
 
 
-@njit(cache=True, parallel=True)
 def _permuted_sums(y, i, j, n_perm, seed):
     """Sum of squared pair differences for ``n_perm`` random permutations of ``y``.
 
-    Chunk ``c`` (:data:`PERMUTATION_CHUNKS`) seeds the legacy generator with
-    ``seed + c`` and shuffles one copy of ``y`` again for each of its
-    permutations (:func:`_chunk_range`).
+    The one-group case of :func:`_permuted_group_ratios` (same permutations):
+    with the scale ``2 P`` for ``P`` pairs the group's ratio is the sum itself.
     """
-    out = np.empty(n_perm)
-    for c in prange(PERMUTATION_CHUNKS):
-        b0, b1 = _chunk_range(c, n_perm)
-        np.random.seed(seed + c)
-        yp = y.copy()
-        for b in range(b0, b1):
-            np.random.shuffle(yp)
-            s = 0.0
-            for k in range(i.shape[0]):
-                d = yp[i[k]] - yp[j[k]]
-                s += d * d
-            out[b] = s
-    return out
+    one = np.zeros(len(i), np.int64)
+    return _permuted_group_ratios(y, i, j, one, 1, 2.0 * len(i), int(n_perm), int(seed))[:, 0]
 
 
 def continuity_test(values, pairs, *, name="nearest", permutations=DEFAULT_PERMUTATIONS,
@@ -262,7 +249,9 @@ def _group_ratios(y, i, j, g, n_groups, scale):
 def _permuted_group_ratios(y, i, j, g, n_groups, scale, n_perm, seed):
     """Each group's ratio and, in the last column, the ratio of all pairs, per permutation.
 
-    The permutations are drawn as in :func:`_permuted_sums`. The pooled ratio
+    Chunk ``c`` of :data:`PERMUTATION_CHUNKS` (in parallel) seeds NumPy's legacy
+    generator with ``seed + c`` and shuffles one copy of ``y`` again for each
+    of its permutations (:func:`_chunk_range`). The pooled ratio
     is the pair-weighted mean of the group ratios (the counts do not change
     under permutation).
     """
