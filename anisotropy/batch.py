@@ -57,7 +57,7 @@ from anisotropy import parallel
 from anisotropy.check import (Interpretation, check_interpretation, parse_orientation, parse_pitch,
                              parse_plane)
 from anisotropy.constants import AXES as _AXES
-from anisotropy.constants import MIN_SAMPLES
+from anisotropy.constants import DEMO_TABLE, MIN_SAMPLES, demo_paths
 from anisotropy.pipeline import discover
 from anisotropy.errors import AnisotropyError, InputError, InsufficientDataError
 from anisotropy.progress import note
@@ -716,17 +716,6 @@ def _warm_up(progress):
 # ---------------------------------------------------------------------------
 # the demo
 # ---------------------------------------------------------------------------
-
-DEMO_TABLE = "fenwright_composites.csv"
-DEMO_CONFIG = "demo_config.toml"
-
-
-def demo_paths() -> dict:
-    """Paths of the bundled invented deposit: composites, truth, demo config."""
-    here = Path(__file__).resolve().parent / "data"
-    return {"composites": here / DEMO_TABLE, "truth": here / "truth.json",
-            "config": here / DEMO_CONFIG}
-
 
 def run_demo(out="fenwright_demo", *, jobs=2, bootstrap=None, resume=False, progress=False,
              **options) -> BatchResult:

@@ -61,7 +61,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from anisotropy.constants import AXES
+from anisotropy.constants import AXES, PITCH_FORMS, PLANE_FORMS
 from anisotropy.errors import InputError, InterpretationError
 from anisotropy.geometry import (axis_angle, frame_from_axes, line_from_pitch, line_to_vector,
                                  pitch_of, plane_to_pole, pole_to_plane, to_lower_hemisphere,
@@ -136,14 +136,6 @@ PITCH_SIDES = {"N": 0.0, "NE": 45.0, "E": 90.0, "SE": 135.0, "S": 180.0, "SW": 2
 #: A pitch side must lie within this angle of one end of the strike line.
 PITCH_SIDE_TOLERANCE_DEG = 67.5
 
-PLANE_FORMS = ("DIPDIR/DIP (e.g. 150/70: dips 70 towards 150; 'dipdir:150/70' says so "
-               "explicitly) or strike:STRIKE/DIP with the right-hand rule (e.g. strike:060/70: "
-               "the plane dips to the right of the strike direction, so its dip direction is "
-               "the strike + 90, here 150)")
-PITCH_FORMS = ("DEG, 0-180, measured in the plane from the strike direction (right-hand rule) "
-               "down towards the dip direction (90 = straight down-dip); or DEG plus a compass "
-               "side, 0-90, measured from the end of the strike line that points to that side "
-               "(e.g. 40E, 35SW; the side must name one end of the strike line clearly)")
 
 
 def parse_plane(text):

@@ -405,7 +405,7 @@ def _add_check(p: argparse.ArgumentParser) -> None:
         have["out"].default = "check"
         have["out"].help = "folder for discovery.json and check.json (default: check)"
     g = p.add_argument_group("interpretation (structural notation, degrees)")
-    from anisotropy.check import PITCH_FORMS, PLANE_FORMS
+    from anisotropy.constants import PITCH_FORMS, PLANE_FORMS
 
     g.add_argument("--plane", metavar="DIPDIR/DIP|strike:STRIKE/DIP",
                    help="plane of greatest continuity, as " + PLANE_FORMS.replace("%", "%%"))
@@ -608,10 +608,15 @@ def _cmd_batch(args) -> int:
 # >>> demo
 def _demo_bootstrap():
     """The bundled demo config's replicates (for the help text)."""
-    try:
-        from anisotropy.batch import demo_paths, load_config
+    try:  # read here, not through anisotropy.batch, so that --help does not load the engine
+        try:
+            import tomllib
+        except ImportError:  # pragma: no cover - Python 3.10
+            import tomli as tomllib
+        from anisotropy.constants import demo_paths
 
-        return load_config(demo_paths()["config"])["options"].get("bootstrap", "none")
+        with open(demo_paths()["config"], "rb") as fh:
+            return tomllib.load(fh).get("options", {}).get("bootstrap", "none")
     except Exception:  # noqa: BLE001 - the help must not fail on a damaged installation
         return "from the config"
 

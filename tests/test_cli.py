@@ -382,3 +382,22 @@ def test_batch_takes_units_and_the_bootstrap_method(monkeypatch, tmp_path):
     assert code == cli.EXIT_OK
     assert seen["units"] == "g/t" and seen["bootstrap_method"] == "model"
     assert seen["bootstrap"] == cli.DEFAULT_BOOTSTRAP
+
+
+def test_help_does_not_load_the_engine():
+    # reference: the interpreter's own module table, in a fresh process (what --help
+    # imports decides how long a geologist waits for it)
+    import subprocess
+    import sys
+
+    code = ("import sys; from anisotropy.cli import build_parser; build_parser(); "
+            "print(sorted(m for m in sys.modules if m.startswith(('anisotropy.pipeline', "
+            "'anisotropy.check', 'anisotropy.batch', 'numba', 'scipy', 'matplotlib'))))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         check=True).stdout.strip()
+    assert out == "[]"
+    # the demo's help still names the bundled config's replicates, read from the file
+    from anisotropy.cli import _demo_bootstrap
+    from anisotropy.batch import demo_paths, load_config
+
+    assert _demo_bootstrap() == load_config(demo_paths()["config"])["options"]["bootstrap"]
