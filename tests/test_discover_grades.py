@@ -103,6 +103,7 @@ def test_refit_volume_holds_the_grades_semivariogram_by_brute_force(log_run):
     k = np.ceil(x).astype(int)
     edge = np.abs(x - np.round(x)) < 1e-9
     sq = (z[j] - z[i]) ** 2
+    assert g.volume.block_sums.shape[0] == 0     # no bootstrap of the grade model: no blocks
     sums = g.volume.coarse_sums()
     checked = 0
     for cls in range(1, n_lags + 1):

@@ -150,7 +150,7 @@ def refit_grades(coords, grades, model: NestedModel, lags: LagChoice, *, holes=N
     if not model.structures:
         raise InputError("the discovered model has no structure whose frame could be held.")
     pv = build_volume(c, z, lags, estimator="semivariogram", coarse_spacing=coarse_spacing,
-                      source=source)
+                      source=source, blocks=False)   # no bootstrap of the grade model
     if holes is not None and spacing is None:
         raise InputError("the spacing is needed with hole ids (down-hole nugget).")
     wb = weighted_bins(pv, c, z, holes=holes, spacing=spacing, lags=lags, total=var,
