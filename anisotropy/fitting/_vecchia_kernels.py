@@ -200,42 +200,46 @@ def backward(A, k, v):
 
 
 @njit(cache=True)
-def _add_pair(S, codes, shares, a, b, wq, wl, gq, gl):
-    """``gq += wq s(a, b)`` and ``gl += wl s(a, b)`` for a pair ``a != b``.
-
-    ``s`` holds, per structure ``k``, the six entries of
-    ``f_k g(h_k) u u'`` (00, 11, 22, 01, 02, 12) and ``rho_k(h_k)`` at
-    ``7 k .. 7 k + 6`` (see the module notes).
-    """
+def cov_keep(S, codes, shares, a, b, H, Rh, r, t):
+    """As :func:`cov` (same arithmetic, same bits), keeping each structure's scaled
+    distance and correlation in ``H[:, r, t]`` and ``Rh[:, r, t]`` for the gradient."""
+    c = 0.0
     for k in range(S.shape[0]):
-        u0 = S[k, a, 0] - S[k, b, 0]
-        u1 = S[k, a, 1] - S[k, b, 1]
-        u2 = S[k, a, 2] - S[k, b, 2]
-        h = np.sqrt(u0 * u0 + u1 * u1 + u2 * u2)
-        g = shares[k] * slope_over_h(codes[k], h)
-        sq = wq * g
-        sl = wl * g
+        d0 = S[k, a, 0] - S[k, b, 0]
+        d1 = S[k, a, 1] - S[k, b, 1]
+        d2 = S[k, a, 2] - S[k, b, 2]
+        h = np.sqrt(d0 * d0 + d1 * d1 + d2 * d2)
         rk = rho(codes[k], h)
-        j = 7 * k
-        gq[j] += sq * u0 * u0
-        gq[j + 1] += sq * u1 * u1
-        gq[j + 2] += sq * u2 * u2
-        gq[j + 3] += sq * u0 * u1
-        gq[j + 4] += sq * u0 * u2
-        gq[j + 5] += sq * u1 * u2
-        gq[j + 6] += wq * rk
-        gl[j] += sl * u0 * u0
-        gl[j + 1] += sl * u1 * u1
-        gl[j + 2] += sl * u2 * u2
-        gl[j + 3] += sl * u0 * u1
-        gl[j + 4] += sl * u0 * u2
-        gl[j + 5] += sl * u1 * u2
-        gl[j + 6] += wl * rk
+        H[k, r, t] = h
+        Rh[k, r, t] = rk
+        c += shares[k] * rk
+    return c
 
 
 @njit(cache=True)
-def _set_grad(S, codes, shares, i, idx, k, w, bb, e, var, gq, gl):
-    """One conditioning set's share of ``Gq`` and ``Gl`` (see the module notes)."""
+def slope_kept(code, h, rk):
+    """:func:`slope_over_h` from a kept correlation (same bits: the exponential's
+    and Gaussian's slopes are multiples of the correlation itself)."""
+    if h <= 0.0:
+        return 0.0
+    if code == 1:
+        return -3.0 * rk / h
+    if code == 2:
+        return -6.0 * rk
+    return slope_over_h(code, h)
+
+
+@njit(cache=True)
+def _set_grad(S, codes, shares, i, idx, k, w, bb, e, var, H, Rh, gq, gl):
+    """One conditioning set's share of ``Gq`` and ``Gl`` (see the module notes).
+
+    Per structure ``s`` the sums ``f_s g(h_s) u u'`` (entries 00, 11, 22, 01,
+    02, 12) and ``rho_s(h_s)`` weighted by each pair's ``Gq`` and ``Gl``
+    weights go to ``7 s .. 7 s + 6``, then the diagonal's weight to
+    ``7 K``. The pairs are the neighbour pairs ``(r, t)``, ``t < r``, and each
+    neighbour with the sample (column ``k`` of ``H`` and ``Rh``, as
+    :func:`cov_keep` filled them).
+    """
     K = S.shape[0]
     aq = -e * e / (var * var)  # weight of dv in Gq
     bq = 2.0 * e / var         # weight of de in Gq
@@ -248,15 +252,58 @@ def _set_grad(S, codes, shares, i, idx, k, w, bb, e, var, gq, gl):
         dl += al * w[r] * w[r]
     gq[7 * K] += dq
     gl[7 * K] += dl
-    for r in range(k):
-        a = idx[r]
-        # the neighbour-sample covariances k: weight -(2 alpha w + beta b)
-        _add_pair(S, codes, shares, a, i,
-                  -(2.0 * aq * w[r] + bq * bb[r]), -2.0 * al * w[r], gq, gl)
-        for t in range(r):
-            wq = w[r] * (aq * w[t] + bq * bb[t]) + w[t] * (aq * w[r] + bq * bb[r])
-            _add_pair(S, codes, shares, a, idx[t], wq,
-                      2.0 * al * w[r] * w[t], gq, gl)
+    for s in range(K):
+        code = codes[s]
+        f = shares[s]
+        q0 = q1 = q2 = q3 = q4 = q5 = q6 = 0.0
+        l0 = l1 = l2 = l3 = l4 = l5 = l6 = 0.0
+        for r in range(k):
+            a = idx[r]
+            cr = aq * w[r] + bq * bb[r]
+            for tt in range(r + 1):
+                if tt == r:  # the neighbour with the sample: weight -(2 alpha w + beta b)
+                    t, b = k, i
+                    wq = -(cr + aq * w[r])
+                    wl = -2.0 * al * w[r]
+                else:
+                    t, b = tt, idx[tt]
+                    wq = w[r] * (aq * w[t] + bq * bb[t]) + w[t] * cr
+                    wl = 2.0 * al * w[r] * w[t]
+                u0 = S[s, a, 0] - S[s, b, 0]
+                u1 = S[s, a, 1] - S[s, b, 1]
+                u2 = S[s, a, 2] - S[s, b, 2]
+                g = f * slope_kept(code, H[s, r, t], Rh[s, r, t])
+                sq = wq * g
+                sl = wl * g
+                q0 += sq * u0 * u0
+                q1 += sq * u1 * u1
+                q2 += sq * u2 * u2
+                q3 += sq * u0 * u1
+                q4 += sq * u0 * u2
+                q5 += sq * u1 * u2
+                q6 += wq * Rh[s, r, t]
+                l0 += sl * u0 * u0
+                l1 += sl * u1 * u1
+                l2 += sl * u2 * u2
+                l3 += sl * u0 * u1
+                l4 += sl * u0 * u2
+                l5 += sl * u1 * u2
+                l6 += wl * Rh[s, r, t]
+        j = 7 * s
+        gq[j] += q0
+        gq[j + 1] += q1
+        gq[j + 2] += q2
+        gq[j + 3] += q3
+        gq[j + 4] += q4
+        gq[j + 5] += q5
+        gq[j + 6] += q6
+        gl[j] += l0
+        gl[j + 1] += l1
+        gl[j + 2] += l2
+        gl[j + 3] += l3
+        gl[j + 4] += l4
+        gl[j + 5] += l5
+        gl[j + 6] += l6
 
 
 @njit(cache=True, parallel=True)
@@ -264,9 +311,11 @@ def vecchia_terms_grad(S, y, nbr, codes, shares, nugget):
     """As :func:`vecchia_terms`, with the raw gradients ``Gq`` and ``Gl``.
 
     Returns ``(q, ld, Gq, Gl, ok)``; the raw gradients hold ``7 K + 1``
-    sums: per structure the layout of :func:`_add_pair`, then the weight of
-    the diagonal (``dc0`` and ``diag dSigma``, 1 for every share). The value is computed with the same arithmetic as
-    :func:`vecchia_terms` (same bits).
+    sums: per structure the layout of :func:`_set_grad`, then the weight of
+    the diagonal (``dc0`` and ``diag dSigma``, 1 for every share). The value
+    is computed with the same arithmetic as :func:`vecchia_terms` (same bits);
+    the scaled distances and correlations of its covariances are kept
+    (:func:`cov_keep`) and reused by the gradient.
     """
     n, m = nbr.shape
     K = S.shape[0]
@@ -283,6 +332,8 @@ def vecchia_terms_grad(S, y, nbr, codes, shares, nugget):
         kv = np.empty(m)
         yv = np.empty(m)
         idx = np.empty(m, dtype=np.int64)
+        H = np.empty((K, m, m + 1))  # per structure: scaled distances and correlations
+        Rh = np.empty((K, m, m + 1))  # of the set's pairs (column m: with the sample)
         gq = np.zeros(P)  # thread-local, copied out at the end of the chunk
         gl = np.zeros(P)
         q = 0.0
@@ -295,10 +346,10 @@ def vecchia_terms_grad(S, y, nbr, codes, shares, nugget):
                     k += 1
             for r in range(k):
                 a = idx[r]
-                kv[r] = cov(S, codes, shares, a, i)
+                kv[r] = cov_keep(S, codes, shares, a, i, H, Rh, r, k)
                 yv[r] = y[a]
                 for t in range(r + 1):
-                    A[r, t] = cov(S, codes, shares, a, idx[t])
+                    A[r, t] = cov_keep(S, codes, shares, a, idx[t], H, Rh, r, t)
                 A[r, r] += nugget
             if not cholesky_lower(A, k):
                 bad[c] = 1
@@ -313,7 +364,7 @@ def vecchia_terms_grad(S, y, nbr, codes, shares, nugget):
             ld += np.log(var)
             backward(A, k, kv)  # w = Sigma^-1 k
             backward(A, k, yv)  # b = Sigma^-1 y_N
-            _set_grad(S, codes, shares, i, idx, k, kv, yv, e, var, gq, gl)
+            _set_grad(S, codes, shares, i, idx, k, kv, yv, e, var, H, Rh, gq, gl)
         qs[c] = q
         gqs[c] = gq
         gls[c] = gl
