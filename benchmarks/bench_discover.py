@@ -39,6 +39,7 @@ on 5,000 drill-hole composites.
 
 Run:  python benchmarks/bench_discover.py [--realisations 12] [--scenarios holes]
       [--bootstrap 100] [--skip-speed] [--json rows.json]
+      [--set fitting.refine.LIKELIHOOD_MAX_SAMPLES=3000]
 """
 
 from __future__ import annotations
@@ -553,6 +554,28 @@ def speed():
     return rows
 
 
+def set_constants(assignments):
+    """Set ``anisotropy.<module>.<NAME>`` to each literal value (``--set``); returns them.
+
+    The value is read as a Python literal (number, string, tuple); the constant
+    must already exist, so a misspelt name fails instead of running the default.
+    """
+    import ast
+    import importlib
+
+    done = {}
+    for item in assignments:
+        path, _, text = item.partition("=")
+        mod, _, name = path.rpartition(".")
+        module = importlib.import_module(f"anisotropy.{mod}")
+        if not hasattr(module, name):
+            raise SystemExit(f"--set {item}: anisotropy.{mod} has no constant {name}")
+        setattr(module, name, ast.literal_eval(text))
+        done[path] = getattr(module, name)
+        print(f"variant: anisotropy.{path} = {done[path]!r}", file=sys.stderr)
+    return done
+
+
 def main(argv=None):
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--realisations", "--seeds", type=int, default=12,
@@ -566,7 +589,12 @@ def main(argv=None):
     ap.add_argument("--skip-speed", action="store_true")
     ap.add_argument("--skip-accuracy", action="store_true")
     ap.add_argument("--json", default=None, help="write all rows to this JSON file")
+    ap.add_argument("--set", nargs="*", default=(), metavar="MODULE.NAME=VALUE",
+                    help="run a variant: set a constant of the package first, e.g. "
+                         "fitting.refine.LIKELIHOOD_MAX_SAMPLES=3000 (printed and kept in "
+                         "the JSON; for studies of a tuned constant)")
     a = ap.parse_args(argv)
+    variant = set_constants(a.set)
     rows = []
     if not a.skip_accuracy:
         for name, spec in SCENARIOS.items():
@@ -603,7 +631,8 @@ def main(argv=None):
                   f"| {r['lags']['unit_lag']:.3g} m / {r['lags']['n_lags']} |")
     if a.json:
         with open(a.json, "w") as f:
-            json.dump({"accuracy": rows, "speed": sp}, f, indent=1, default=float)
+            json.dump({"accuracy": rows, "speed": sp, "variant": variant}, f, indent=1,
+                      default=float)
 
 
 if __name__ == "__main__":
