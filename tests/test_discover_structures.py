@@ -88,3 +88,31 @@ def test_refinement_keeps_the_fit_for_few_samples_and_catches_only_data_errors()
     # a shape bug is not a data problem: it surfaces
     with pytest.raises(ValueError):
         refine_frame(fit, bins, coords, rng.normal(size=299), fit_kwargs=SETTINGS.kwargs())
+
+
+def test_a_one_structure_refit_that_relabels_the_likelihoods_axes_is_not_reported():
+    # issue 15, oblique holes seed 104: the likelihood put its longest range (158 m) on the
+    # first column, the variogram refit with that frame held put 111 m on the second and
+    # 102 m on the first, so the reported major became the likelihood's semi-major
+    from anisotropy.fitting.likelihood import LikelihoodFit
+    from anisotropy.fitting.refine import _keep_axis_order, _Problem
+
+    bins = _bins(np.eye(3), [(0.9, (100.0, 50.0, 20.0))])  # the variogram: major on x
+    rng = np.random.default_rng(0)
+    start = _search(bins).best
+    P = _Problem(bins, rng.uniform(0, 100, (300, 3)), rng.normal(size=300), 0,
+                 SETTINGS.kwargs(), start)
+    lk = LikelihoodFit(frame=np.eye(3), ranges=np.array([[50.0, 100.0, 20.0]]),
+                       nugget_share=0.1, shares=np.array([0.9]), negloglik=0.0,
+                       negloglik_start=0.0, n_samples=300, n_neighbours=30)
+    f = P.refit((np.eye(3), start.nugget, start.sills, start.ranges, start.kinds), np.eye(3))
+    assert np.argmax(f.ranges[0]) == 0  # the refit's longest range is on x
+    kept, held, warning = _keep_axis_order(P, lk, f)
+    # by hand: the likelihood's ranges (y longest), its shares at the refit's total sill
+    assert np.allclose(kept.ranges, [[50.0, 100.0, 20.0]])
+    tot = float(f.nugget + np.sum(f.sills))
+    assert kept.nugget == pytest.approx(0.1 * tot) and kept.sills[0] == pytest.approx(0.9 * tot)
+    assert "changed which axis is the major" in held and warning.startswith(held)
+    # the same order: the refit stands
+    same = dataclasses.replace(lk, ranges=np.array([[100.0, 50.0, 20.0]]))
+    assert _keep_axis_order(P, same, f) == (f, None, None)

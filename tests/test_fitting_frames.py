@@ -7,7 +7,8 @@ import pytest
 from scipy.spatial.transform import Rotation
 
 from anisotropy.fitting.frames import (FrameStart, axis_swap_shares, choose_frame,
-                                       dominant_directions, frame_starts, likelihood_margin)
+                                       decide_rivals, dominant_directions, frame_starts,
+                                       likelihood_margin)
 from anisotropy.geometry import line_to_vector
 
 
@@ -165,6 +166,37 @@ def test_rivals_are_judged_against_the_frame_finally_reported():
     # a final frame within 15 degrees of every candidate has no rival
     mid = Rotation.from_euler("z", 10, degrees=True).as_matrix()
     assert not ch.relative_to(mid).ambiguous
+
+
+def test_rivals_are_decided_again_on_the_finer_likelihood():
+    # screening (coarse stand-in): F best, G a rival 1 unit below, H outside the margin;
+    # the finer stand-in reverses F and G. Expected by hand: G kept, F its rival, H pruned
+    # with its screening value
+    F = np.eye(3)
+    G = Rotation.from_euler("z", 40, degrees=True).as_matrix()
+    H = Rotation.from_euler("x", 50, degrees=True).as_matrix()
+    R = np.array([[100.0, 60.0, 10.0]])
+    starts = [FrameStart("f", F, R), FrameStart("g", G, R), FrameStart("h", H, R)]
+    coarse = choose_frame(starts, _quadratic_polish([(F, R, 0.0), (G, R, 1.0), (H, R, 9.0)]))
+    assert coarse.best.name == "f" and coarse.rivals == (1,)
+    seen = []
+
+    def fine(frame, ranges):
+        seen.append(frame)
+        return _quadratic_polish([(F, R, 5.0), (G, R, 3.0), (H, R, 0.0)])(frame, ranges)
+
+    ch = decide_rivals(coarse, fine)
+    assert len(seen) == 2  # only the finalists are searched again (not h)
+    assert ch.best.name == "g" and [c.name for c in ch.candidates] == ["g", "f"]
+    assert ch.rivals == (1,) and ch.ambiguous_axes == ("major", "semi_major")
+    assert ch.pruned == (("h", 9.0),)
+    assert ch.to_dict()["pruned_at_screening"] == [{"name": "h", "loglik_below_best": 9.0}]
+    # beyond the margin on the finer likelihood the loser is no longer a rival
+    far = decide_rivals(coarse, _quadratic_polish([(F, R, 9.0), (G, R, 3.0), (H, R, 0.0)]))
+    assert far.best.name == "g" and not far.ambiguous
+    # no rival: nothing is searched again
+    alone = choose_frame(starts[:1], _quadratic_polish([(F, R, 0.0)]))
+    assert decide_rivals(alone, lambda f, r: pytest.fail("searched")) is alone
 
 
 def test_matched_rotation_ignores_a_relabelling_of_the_same_axes():

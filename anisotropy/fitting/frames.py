@@ -31,7 +31,7 @@ log-likelihoods are comparable.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Callable, Sequence
 
 import numpy as np
@@ -44,7 +44,7 @@ from anisotropy.geometry import to_lower_hemisphere, vector_to_line
 
 __all__ = ["FrameStart", "PolishedFrame", "FrameChoice", "frame_starts",
            "dominant_directions", "choose_frame", "likelihood_margin", "axis_swap_shares",
-           "global_frame_choice", "ordered_axes", "AXIS_NAMES"]
+           "global_frame_choice", "ordered_axes", "decide_rivals", "AXIS_NAMES"]
 
 AXIS_NAMES = ("major", "semi_major", "minor")
 #: Axes of two frames that differ by more than this are "elsewhere" (degrees):
@@ -120,6 +120,10 @@ class FrameChoice:
     reported : ndarray (3, 3) or None
         The frame finally reported, when the rivals were judged against it
         (:meth:`relative_to`) rather than against the best candidate.
+    pruned : tuple of (str, float)
+        Candidates left out by a coarser screening before the candidates
+        were compared (:func:`decide_rivals`): name and log-likelihood below
+        the screening's best, on the screening's approximation.
     """
 
     candidates: tuple
@@ -127,6 +131,7 @@ class FrameChoice:
     rivals: tuple
     ambiguous_axes: tuple
     reported: np.ndarray | None = None
+    pruned: tuple = ()
 
     @property
     def best(self) -> PolishedFrame:
@@ -151,7 +156,7 @@ class FrameChoice:
                 rivals.append(k)
                 axes |= {AXIS_NAMES[i] for i in np.flatnonzero(differ)}
         return FrameChoice(self.candidates, self.margin, tuple(rivals),
-                           tuple(a for a in AXIS_NAMES if a in axes), F)
+                           tuple(a for a in AXIS_NAMES if a in axes), F, self.pruned)
 
     @property
     def ambiguous(self) -> bool:
@@ -178,7 +183,9 @@ class FrameChoice:
             rows.append(d)
         return {"candidates": rows, "margin": float(self.margin),
                 "ambiguous_axes": list(self.ambiguous_axes),
-                "rival_angles": self.rival_angles()}
+                "rival_angles": self.rival_angles(),
+                "pruned_at_screening": [{"name": n, "loglik_below_best": float(d)}
+                                        for n, d in self.pruned]}
 
 
 def likelihood_margin(confidence=0.9, dof=3) -> float:
@@ -348,6 +355,41 @@ def choose_frame(starts: Sequence[FrameStart], polish: Callable, *, margin=None,
     return FrameChoice(tuple(done), margin, tuple(rivals), ambiguous)
 
 
+def decide_rivals(choice: FrameChoice, polish: Callable, *, confidence=0.9) -> FrameChoice:
+    """The screening's best frame and its rivals compared again on a finer likelihood.
+
+    A coarse screening (few neighbours, a subsample) ranks every candidate
+    cheaply, but among frames it cannot separate (its best and the rivals
+    within its margin) the order may be set by the coarse approximation's
+    own error rather than by the samples.  Those finalists are searched
+    again with ``polish`` (a finer approximation: the refinement's own sizes)
+    and compared there, with the same margin rule; the other candidates are
+    kept in ``pruned`` with their screening log-likelihoods.
+
+    Parameters
+    ----------
+    choice : FrameChoice
+        The coarse screening.
+    polish : callable
+        As for :func:`choose_frame`, on the finer approximation.
+    confidence : float
+
+    Returns
+    -------
+    FrameChoice
+        ``choice`` itself when it has no rivals.
+    """
+    if not choice.rivals:
+        return choice
+    keep = (0, *choice.rivals)
+    best = choice.best.negloglik
+    pruned = tuple((c.name, float(c.negloglik - best))
+                   for k, c in enumerate(choice.candidates) if k not in keep)
+    starts = [FrameStart(choice.candidates[k].name, choice.candidates[k].frame,
+                         choice.candidates[k].ranges) for k in keep]
+    return replace(choose_frame(starts, polish, confidence=confidence), pruned=pruned)
+
+
 def axis_swap_shares(frame, replicate_frames) -> dict:
     """Share of replicates in which an axis is matched to another axis of ``frame``.
 
@@ -377,7 +419,8 @@ def axis_swap_shares(frame, replicate_frames) -> dict:
 
 def global_frame_choice(coords, values, frame, ranges, nugget, sills, kinds, *, holes=None,
                         other_frames=(), seed=0, n_neighbours=30, max_samples=2000,
-                        confidence=0.9, ftol=1e-4, maxiter=SCREEN_ITERATIONS) -> FrameChoice:
+                        confidence=0.9, ftol=1e-4, maxiter=SCREEN_ITERATIONS,
+                        decide_neighbours=None, decide_max_samples=None) -> FrameChoice:
     """Every candidate start polished by one shared likelihood, and the best kept.
 
     The conditioning sets are built once, in the plain Euclidean metric
@@ -408,6 +451,10 @@ def global_frame_choice(coords, values, frame, ranges, nugget, sills, kinds, *, 
     maxiter : int
         Iterations of each candidate's search (a screening: the chosen frame
         is searched again to convergence by the caller).
+    decide_neighbours, decide_max_samples : int, optional
+        When given, the best candidate and its rivals are compared again on
+        conditioning sets of these sizes (:func:`decide_rivals`; same metric
+        and rule, a second shared setup).
 
     Returns
     -------
@@ -423,9 +470,18 @@ def global_frame_choice(coords, values, frame, ranges, nugget, sills, kinds, *, 
                           max_samples=max_samples, seed=seed, holes=holes)
     starts = frame_starts(frame, ranges, hole_directions=dirs, other_frames=other_frames)
 
-    def polish(F, R):
-        return refine_frame_likelihood(coords, values, F, R, nugget, sills, kinds,
-                                       setup=setup, ftol=ftol, seed=seed, maxiter=maxiter,
-                                       n_neighbours=n_neighbours, max_samples=max_samples)
+    def polisher(st, m, n):
+        def polish(F, R):
+            return refine_frame_likelihood(coords, values, F, R, nugget, sills, kinds,
+                                           setup=st, ftol=ftol, seed=seed, maxiter=maxiter,
+                                           n_neighbours=m, max_samples=n)
+        return polish
 
-    return choose_frame(starts, polish, confidence=confidence)
+    choice = choose_frame(starts, polisher(setup, n_neighbours, max_samples),
+                          confidence=confidence)
+    if decide_neighbours is None or not choice.rivals:
+        return choice
+    m, n = int(decide_neighbours), int(decide_max_samples or max_samples)
+    fine = vecchia_setup(coords, values, metric=np.eye(3), n_neighbours=m, max_samples=n,
+                         seed=seed, holes=holes)
+    return decide_rivals(choice, polisher(fine, m, n), confidence=confidence)

@@ -74,6 +74,14 @@ SCREEN_NEIGHBOURS = 15
 #: there are more): the screening compares basins, which a thousand samples
 #: separate; the chosen frame is then searched on ``LIKELIHOOD_MAX_SAMPLES``.
 SCREEN_MAX_SAMPLES = 1000
+#: The global choice's best candidate and its rivals (frames the screening
+#: cannot separate) are compared again with ``LIKELIHOOD_NEIGHBOURS`` on
+#: ``LIKELIHOOD_MAX_SAMPLES`` (:func:`anisotropy.fitting.frames.decide_rivals`):
+#: on issue-15 oblique holes seed 104 the screening's order among four
+#: frames within its margin was its approximation's, and the frame it kept
+#: was 59 degrees off on two axes (benchmarks/RESULTS.md, "Issue-15
+#: scenarios"). Off only to measure what it costs and changes.
+DECIDE_RIVALS = True
 #: Fewest samples for the likelihood to add anything.
 MIN_SAMPLES_LIKELIHOOD = 100
 
@@ -179,10 +187,12 @@ def _first_search(P, fit, one_structure):
 
 def _keep_axis_order(P, lk, f):
     """Report the likelihood's ranges when the variogram refit relabelled its axes."""
-    if not (len(f.sills) > 1 and _axis_order(f.ranges) != _axis_order(lk.ranges)):
+    if _axis_order(f.ranges) == _axis_order(lk.ranges):
         return f, None, None
-    # the variogram refit traded ranges between the structures and relabelled the axes
-    # the likelihood's frame was fitted for: the likelihood's own ranges and shares are
+    # the variogram refit relabelled the axes the likelihood's frame was fitted for (it
+    # traded ranges between two structures, or, with one structure, its two longest or
+    # shortest ranges came out the other way round: issue-15 oblique holes seed 104 had
+    # the major reported 87 degrees off): the likelihood's own ranges and shares are
     # reported instead (scaled to the refit's total sill)
     tot = float(f.nugget + np.sum(f.sills))
     f = P.refit(_likelihood_model(lk, f, f.kinds), lk.frame, optimise=False)
@@ -304,7 +314,9 @@ def _global_start(fit, coords, values, seed, holes, other_frames, confidence):
     choice = global_frame_choice(coords, values, frame, ranges, fit.nugget, fit.sills,
                                  fit.kinds, holes=holes, other_frames=other_frames, seed=seed,
                                  n_neighbours=SCREEN_NEIGHBOURS,
-                                 max_samples=SCREEN_MAX_SAMPLES, confidence=confidence)
+                                 max_samples=SCREEN_MAX_SAMPLES, confidence=confidence,
+                                 decide_neighbours=LIKELIHOOD_NEIGHBOURS if DECIDE_RIVALS
+                                 else None, decide_max_samples=LIKELIHOOD_MAX_SAMPLES)
     best = choice.best
     if best.name == "variogram fit":
         return choice, fit
