@@ -108,11 +108,14 @@ def test_a_one_structure_refit_that_relabels_the_likelihoods_axes_is_not_reporte
     f = P.refit((np.eye(3), start.nugget, start.sills, start.ranges, start.kinds), np.eye(3))
     assert np.argmax(f.ranges[0]) == 0  # the refit's longest range is on x
     kept, held, warning = _keep_axis_order(P, lk, f)
-    # by hand: the likelihood's ranges (y longest), its shares at the refit's total sill
+    # by hand: the likelihood's ranges (y longest) with the refit's own nugget and sill
+    # (not the likelihood's shares: lk says 0.1 / 0.9, the refit of these bins about 0.1)
     assert np.allclose(kept.ranges, [[50.0, 100.0, 20.0]])
-    tot = float(f.nugget + np.sum(f.sills))
-    assert kept.nugget == pytest.approx(0.1 * tot) and kept.sills[0] == pytest.approx(0.9 * tot)
+    assert kept.nugget == pytest.approx(f.nugget) and kept.sills[0] == pytest.approx(f.sills[0])
     assert "changed which axis is the major" in held and warning.startswith(held)
+    # a likelihood that put its whole sill on the structure (no nugget) leaves the nugget
+    no_nugget = dataclasses.replace(lk, nugget_share=0.0, shares=np.array([1.0]))
+    assert _keep_axis_order(P, no_nugget, f)[0].nugget == pytest.approx(f.nugget)
     # the same order: the refit stands
     same = dataclasses.replace(lk, ranges=np.array([[100.0, 50.0, 20.0]]))
     assert _keep_axis_order(P, same, f) == (f, None, None)

@@ -484,9 +484,10 @@ def _search(p0, args, method, maxiter, ftol, gradient):
     if ftol is not None:
         opts["ftol"] = float(ftol)
     if gradient == "analytic":
-        # a trial step of L-BFGS-B can overflow a log range; the value is then 1e30 and
-        # the search steps back, so the floating-point warnings say nothing to the user
-        with np.errstate(over="ignore", invalid="ignore"):
+        # a trial step of L-BFGS-B can overflow a log range (or underflow it to a zero
+        # range); the value is then 1e30 and the search steps back, so the floating-point
+        # warnings say nothing to the user
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
             return minimize(vecchia_negloglik_grad, p0, args=args, method=method, jac=True,
                             options=opts), f0
     opts["eps"] = 1e-4

@@ -189,17 +189,24 @@ def _keep_axis_order(P, lk, f):
     """Report the likelihood's ranges when the variogram refit relabelled its axes."""
     if _axis_order(f.ranges) == _axis_order(lk.ranges):
         return f, None, None
-    # the variogram refit relabelled the axes the likelihood's frame was fitted for (it
-    # traded ranges between two structures, or, with one structure, its two longest or
-    # shortest ranges came out the other way round: issue-15 oblique holes seed 104 had
-    # the major reported 87 degrees off): the likelihood's own ranges and shares are
-    # reported instead (scaled to the refit's total sill)
+    # the variogram refit relabelled the axes the likelihood's frame was fitted for: it
+    # traded ranges between two structures (the likelihood's ranges and shares are then
+    # reported, scaled to the refit's total sill), or, with one structure, its two longest
+    # or shortest ranges came out the other way round (issue-15 oblique holes seed 104: the
+    # major reported 87 degrees off); the likelihood's ranges are then reported with the
+    # refit's nugget and sill (a pure nugget's likelihood can put all the sill on a
+    # structure shorter than any sample spacing, which its nugget share would hide)
     tot = float(f.nugget + np.sum(f.sills))
-    f = P.refit(_likelihood_model(lk, f, f.kinds), lk.frame, optimise=False)
-    held = (f"the variogram refit with the likelihood's frame held {_RELABELLED}; "
-            "the likelihood's ranges and sill shares are reported")
-    return f, held, (f"{held} (scaled to a total sill of {tot:.3g}); compare them "
-                     "with the experimental variograms")
+    if len(f.sills) == 1:
+        start = (lk.frame, f.nugget, f.sills, np.asarray(lk.ranges, float), tuple(f.kinds))
+        what = "the likelihood's ranges are reported with the refit's nugget and sill"
+    else:
+        start = _likelihood_model(lk, f, f.kinds)
+        what = (f"the likelihood's ranges and sill shares are reported (scaled to a total "
+                f"sill of {tot:.3g})")
+    f = P.refit(start, lk.frame, optimise=False)
+    held = f"the variogram refit with the likelihood's frame held {_RELABELLED}; {what}"
+    return f, held, f"{held}; compare them with the experimental variograms"
 
 
 def _added_to_variogram(P, lk2, f, nested):
