@@ -65,6 +65,11 @@ SCENARIOS = {
 }
 
 
+
+def _holds(lo, hi, t):
+    """The interval holds ``t``; a bound beyond the lags (``None`` in the record) is open."""
+    return bool((lo is None or lo <= t) and (hi is None or t <= hi))
+
 def lean_refit(total):
     def refit(sums, *, fixed_frame=None, start=None):
         b = bins_from_sums(sums, min_pairs=10)
@@ -128,14 +133,15 @@ def one(name, sim, reps, cone_cal=1.0, range_cal=1.0):
         # the factor the cone would need to contain the truth
         out[f"{ax}_need"] = err / max(cone, 1e-9)
         lo, hi = d[ax]["range"]
-        out[f"{ax}_range_in"] = bool(lo <= sc["ranges"][i] <= hi)
+        out[f"{ax}_range_in"] = _holds(lo, hi, sc["ranges"][i])
         # BCa too, for comparison with the percentile default
         est = float(res.reference_ranges[i])
         blo, bhi = U.bca_interval(res.ranges[:, i], est, 0.9, acceleration=U.influence_acceleration(
             res.ranges[:, i], res.counts))
         out[f"{ax}_range_bca_in"] = bool(blo <= sc["ranges"][i] <= bhi)
         out[f"{ax}_range_est"] = est
-        out[f"{ax}_range_lo"], out[f"{ax}_range_hi"] = float(lo), float(hi)
+        out[f"{ax}_range_lo"], out[f"{ax}_range_hi"] = (None if lo is None else float(lo),
+                                                         None if hi is None else float(hi))
         t = sc["ranges"][i]
         bound = lo if t < est else hi
         with np.errstate(all="ignore"):
@@ -184,7 +190,7 @@ def one_model(name, sim, reps):
             out[f"{label}_{ax}_cone"] = d[ax]["cone_deg"]
             out[f"{label}_{ax}_in"] = bool(err <= d[ax]["cone_deg"])
             lo, hi = d[ax]["range"]
-            out[f"{label}_{ax}_range_in"] = bool(lo <= sc["ranges"][i] <= hi)
+            out[f"{label}_{ax}_range_in"] = _holds(lo, hi, sc["ranges"][i])
         out[f"{label}_failed"] = res.n_failed
     return out
 
@@ -309,9 +315,10 @@ def one_discover(name, sim, reps, refine=True):
         out[f"{ax}_in"] = bool(err <= cone)
         lo, hi = d[ax]["range"]
         t = sc["ranges"][i]
-        out[f"{ax}_range_in"] = bool(lo <= t <= hi)
+        out[f"{ax}_range_in"] = _holds(lo, hi, t)
         out[f"{ax}_range_est"] = float(res.reference_ranges[i])
-        out[f"{ax}_range_lo"], out[f"{ax}_range_hi"] = float(lo), float(hi)
+        out[f"{ax}_range_lo"], out[f"{ax}_range_hi"] = (None if lo is None else float(lo),
+                                                         None if hi is None else float(hi))
     return out
 
 
