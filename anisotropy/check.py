@@ -524,9 +524,13 @@ def candidate_frames(frame, frame_candidates) -> list:
         The reported frame.
     frame_candidates : dict or None
         ``diagnostics.frame_candidates`` of the result; its rows flagged
-        ``rival`` are the frames the likelihood cannot tell from the reported one.
+        ``rival`` (and those of its ``screening``) are the frames the
+        likelihood cannot tell from the reported one.
     """
-    rows = [c for c in (frame_candidates or {}).get("candidates") or [] if c.get("rival")]
+    rows, rec = [], frame_candidates or {}
+    while rec:  # the final comparison's rivals, then its coarser screening's
+        rows += [c for c in rec.get("candidates") or [] if c.get("rival")]
+        rec = rec.get("screening") or {}
     frames = [np.asarray(frame, dtype=float)]
     for c in rows:
         frames.append(np.column_stack([line_to_vector(c["axes"][a]["trend"],

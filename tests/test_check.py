@@ -382,6 +382,10 @@ def test_the_data_cannot_tell_between_a_rival_frame_and_the_reported_one():
                                      "minor": {"trend": 0.0, "plunge": 90.0}}}
     frames = candidate_frames(F, {"candidates": [{"rival": False}, rival]})
     assert len(frames) == 2       # the reported frame and the one rival
+    # a rival of the coarser screening only (the record's nested "screening") counts too
+    nested = candidate_frames(F, {"candidates": [{"rival": False}],
+                                  "screening": {"candidates": [rival]}})
+    assert len(nested) == 2 and np.allclose(nested[1], frames[1])
     resolved = {"verdict": "resolved"}
     east, north = np.array([1.0, 0, 0]), np.array([0, 1.0, 0])
     support = {"major": {"cone_deg": 5.0}}

@@ -191,9 +191,17 @@ def test_rivals_are_decided_again_on_the_finer_likelihood():
     assert ch.rivals == (1,) and ch.ambiguous_axes == ("major", "semi_major")
     assert ch.pruned == (("h", 9.0),)
     assert ch.to_dict()["pruned_at_screening"] == [{"name": "h", "loglik_below_best": 9.0}]
-    # beyond the margin on the finer likelihood the loser is no longer a rival
+    assert ch.to_dict()["screening"]["candidates"][0]["name"] == "f"
+    # beyond the margin on the finer likelihood f is no rival there, but the screening
+    # could not separate it from g: it stays a rival (the union of the two comparisons)
     far = decide_rivals(coarse, _quadratic_polish([(F, R, 9.0), (G, R, 3.0), (H, R, 0.0)]))
-    assert far.best.name == "g" and not far.ambiguous
+    assert far.best.name == "g" and far.rivals == ()
+    assert far.ambiguous and far.ambiguous_axes == ("major", "semi_major")
+    assert [c.name for c, _ in far.rival_frames()] == ["f"]
+    assert far.rival_angles()["major"] == pytest.approx(40.0)
+    moved = far.relative_to(G)  # judged against the frame finally reported: the same
+    assert moved.ambiguous_axes == ("major", "semi_major")
+    assert moved.to_dict()["screening"]["candidates"][0]["rival"]
     # no rival: nothing is searched again
     alone = choose_frame(starts[:1], _quadratic_polish([(F, R, 0.0)]))
     assert decide_rivals(alone, lambda f, r: pytest.fail("searched")) is alone

@@ -124,6 +124,11 @@ class FrameChoice:
         Candidates left out by a coarser screening before the candidates
         were compared (:func:`decide_rivals`): name and log-likelihood below
         the screening's best, on the screening's approximation.
+    screening : FrameChoice or None
+        That coarser screening (:func:`decide_rivals`). Its rivals stay
+        rivals: a frame either comparison cannot separate from the reported
+        one leaves its axes open (``ambiguous_axes`` and
+        :meth:`rival_angles` hold both comparisons).
     """
 
     candidates: tuple
@@ -132,6 +137,7 @@ class FrameChoice:
     ambiguous_axes: tuple
     reported: np.ndarray | None = None
     pruned: tuple = ()
+    screening: "FrameChoice | None" = None
 
     @property
     def best(self) -> PolishedFrame:
@@ -155,19 +161,30 @@ class FrameChoice:
             if differ.any():
                 rivals.append(k)
                 axes |= {AXIS_NAMES[i] for i in np.flatnonzero(differ)}
+        screening = None if self.screening is None else self.screening.relative_to(F)
+        if screening is not None:
+            axes |= set(screening.ambiguous_axes)
         return FrameChoice(self.candidates, self.margin, tuple(rivals),
-                           tuple(a for a in AXIS_NAMES if a in axes), F, self.pruned)
+                           tuple(a for a in AXIS_NAMES if a in axes), F, self.pruned,
+                           screening)
 
     @property
     def ambiguous(self) -> bool:
-        return bool(self.rivals)
+        return bool(self.rivals) or (self.screening is not None and self.screening.ambiguous)
+
+    def rival_frames(self) -> list:
+        """``(candidate, log-likelihood below its comparison's best)`` of every rival,
+        this comparison's first, then the screening's."""
+        out = [(self.candidates[k], self.candidates[k].negloglik - self.best.negloglik)
+               for k in self.rivals]
+        return out + (self.screening.rival_frames() if self.screening is not None else [])
 
     def rival_angles(self) -> dict:
         """Largest angle (degrees) between each axis of the best frame and of any rival."""
         out = {a: 0.0 for a in AXIS_NAMES}
         ref = self.best.frame if self.reported is None else self.reported
-        for r in self.rivals:
-            ang = _axis_angles(ref, self.candidates[r].frame)
+        for c, _ in self.rival_frames():
+            ang = _axis_angles(ref, c.frame)
             for i, a in enumerate(AXIS_NAMES):
                 out[a] = max(out[a], float(ang[i]))
         return out
@@ -185,7 +202,8 @@ class FrameChoice:
                 "ambiguous_axes": list(self.ambiguous_axes),
                 "rival_angles": self.rival_angles(),
                 "pruned_at_screening": [{"name": n, "loglik_below_best": float(d)}
-                                        for n, d in self.pruned]}
+                                        for n, d in self.pruned],
+                "screening": None if self.screening is None else self.screening.to_dict()}
 
 
 def likelihood_margin(confidence=0.9, dof=3) -> float:
@@ -363,8 +381,11 @@ def decide_rivals(choice: FrameChoice, polish: Callable, *, confidence=0.9) -> F
     within its margin) the order may be set by the coarse approximation's
     own error rather than by the samples.  Those finalists are searched
     again with ``polish`` (a finer approximation: the refinement's own sizes)
-    and compared there, with the same margin rule; the other candidates are
-    kept in ``pruned`` with their screening log-likelihoods.
+    and compared there, with the same margin rule; the best there is kept.
+    The other candidates are listed in ``pruned`` with their screening
+    log-likelihoods, and the screening itself is kept: its rivals remain
+    rivals (neither approximation is the exact likelihood, so a frame either
+    cannot separate from the reported one is reported as a rival).
 
     Parameters
     ----------
@@ -387,7 +408,9 @@ def decide_rivals(choice: FrameChoice, polish: Callable, *, confidence=0.9) -> F
                    for k, c in enumerate(choice.candidates) if k not in keep)
     starts = [FrameStart(choice.candidates[k].name, choice.candidates[k].frame,
                          choice.candidates[k].ranges) for k in keep]
-    return replace(choose_frame(starts, polish, confidence=confidence), pruned=pruned)
+    fine = replace(choose_frame(starts, polish, confidence=confidence), pruned=pruned,
+                   screening=choice)
+    return fine.relative_to(fine.best.frame)  # the screening's rivals judged against it
 
 
 def axis_swap_shares(frame, replicate_frames) -> dict:

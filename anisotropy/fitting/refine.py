@@ -340,9 +340,9 @@ def _choice_texts(choice: FrameChoice):
                      "each polished by one shared likelihood; the highest kept"}
     if not choice.ambiguous:
         return row, None
-    rivals = "; ".join(_frame_words(choice.candidates[k].frame) + (
-        f", {choice.candidates[k].negloglik - best.negloglik:.2f} log-likelihood units below "
-        "the best candidate") for k in choice.rivals)
+    rivals = "; ".join(_frame_words(c.frame) + (
+        f", {below:.2f} log-likelihood units below the best candidate")
+        for c, below in choice.rival_frames())
     axes = " and ".join(a.replace("_", "-") for a in choice.ambiguous_axes)
     reported = best.frame if choice.reported is None else choice.reported
     warning = (f"the {axes} axes are ambiguous: the samples cannot tell the reported frame "
