@@ -379,6 +379,8 @@ def engine_record(D, spec, real):
         for i, ax in enumerate(("major", "semi_major", "minor")):
             e = u.get(ax)
             rec[f"{ax}_cone"] = None if not isinstance(e, dict) else e.get("cone_deg")
+            # widened to hold a rival frame of the likelihood (not the bootstrap's width)
+            rec[f"{ax}_cone_widened"] = isinstance(e, dict) and "cone_note" in e
             rec[f"{ax}_in_cone"] = cone_holds(e, D.frame[:, i], R[:, i])
         rec["swap_rate"] = u.get("swap_rate")
     return rec

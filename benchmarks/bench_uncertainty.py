@@ -313,6 +313,8 @@ def one_discover(name, sim, reps, refine=True):
         out[f"{ax}_err_variogram"] = float(axis_angle(Fv[:, i], F[:, i]))
         out[f"{ax}_cone"] = cone
         out[f"{ax}_in"] = bool(err <= cone)
+        # widened to hold a rival frame of the likelihood (then not the bootstrap's width)
+        out[f"{ax}_widened"] = "cone_note" in d[ax]
         lo, hi = d[ax]["range"]
         t = sc["ranges"][i]
         out[f"{ax}_range_in"] = _holds(lo, hi, t)
