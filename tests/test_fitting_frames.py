@@ -202,6 +202,12 @@ def test_rivals_are_decided_again_on_the_finer_likelihood():
     moved = far.relative_to(G)  # judged against the frame finally reported: the same
     assert moved.ambiguous_axes == ("major", "semi_major")
     assert moved.to_dict()["screening"]["candidates"][0]["rival"]
+    # the choice row counts every candidate screened and says which were searched again
+    from anisotropy.fitting.refine import _choice_texts
+    row, warning = _choice_texts(far)
+    assert row["value"] == "g" and row["reason"].startswith("3 candidate frames")
+    assert "the best 2, which that screening could not separate, searched again" in row["reason"]
+    assert "0.00 log-likelihood units below the best candidate" in warning  # f led the screening
     # no rival: nothing is searched again
     alone = choose_frame(starts[:1], _quadratic_polish([(F, R, 0.0)]))
     assert decide_rivals(alone, lambda f, r: pytest.fail("searched")) is alone

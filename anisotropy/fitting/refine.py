@@ -334,10 +334,14 @@ def _global_start(fit, coords, values, seed, holes, other_frames, confidence):
 def _choice_texts(choice: FrameChoice):
     """The choice row of the global frame choice, and a warning when a rival is close."""
     best = choice.best
+    n = len(choice.candidates) + len(choice.pruned)
+    again = ("" if choice.screening is None else
+             f"; the best {len(choice.candidates)}, which that screening could not separate, "
+             "searched again with the refinement's neighbours and samples")
     row = {"choice": "frame candidates", "value": best.name,
-           "reason": f"{len(choice.candidates)} candidate frames (the variogram fit's, its "
-                     "axis exchanges, frames along the holes and other good search frames) "
-                     "each polished by one shared likelihood; the highest kept"}
+           "reason": f"{n} candidate frames (the variogram fit's, its axis exchanges, frames "
+                     "along the holes and other good search frames) each polished by one "
+                     f"shared likelihood{again}; the highest kept"}
     if not choice.ambiguous:
         return row, None
     rivals = "; ".join(_frame_words(c.frame) + (
