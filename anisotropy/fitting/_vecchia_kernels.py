@@ -255,6 +255,9 @@ def _set_grad(S, codes, shares, i, idx, k, w, bb, e, var, H, Rh, gq, gl):
     for s in range(K):
         code = codes[s]
         f = shares[s]
+        # fourteen scalars rather than a small array: the compiler keeps them in
+        # registers; a 14-entry array here ran 10-60 % slower
+        # (benchmarks/vecchia_kernel_cost.py, 2026-12-04)
         q0 = q1 = q2 = q3 = q4 = q5 = q6 = 0.0
         l0 = l1 = l2 = l3 = l4 = l5 = l6 = 0.0
         for r in range(k):
