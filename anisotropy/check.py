@@ -137,7 +137,6 @@ PITCH_SIDES = {"N": 0.0, "NE": 45.0, "E": 90.0, "SE": 135.0, "S": 180.0, "SW": 2
 PITCH_SIDE_TOLERANCE_DEG = 67.5
 
 
-
 def parse_plane(text):
     """Parse a plane written as dip direction/dip or, marked, as strike/dip.
 

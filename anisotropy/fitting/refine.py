@@ -196,14 +196,13 @@ def _keep_axis_order(P, lk, f):
     # major reported 87 degrees off); the likelihood's ranges are then reported with the
     # refit's nugget and sill (a pure nugget's likelihood can put all the sill on a
     # structure shorter than any sample spacing, which its nugget share would hide)
-    tot = float(f.nugget + np.sum(f.sills))
     if len(f.sills) == 1:
         start = (lk.frame, f.nugget, f.sills, np.asarray(lk.ranges, float), tuple(f.kinds))
         what = "the likelihood's ranges are reported with the refit's nugget and sill"
     else:
         start = _likelihood_model(lk, f, f.kinds)
         what = (f"the likelihood's ranges and sill shares are reported (scaled to a total "
-                f"sill of {tot:.3g})")
+                f"sill of {float(f.nugget + np.sum(f.sills)):.3g})")
     f = P.refit(start, lk.frame, optimise=False)
     held = f"the variogram refit with the likelihood's frame held {_RELABELLED}; {what}"
     return f, held, f"{held}; compare them with the experimental variograms"
