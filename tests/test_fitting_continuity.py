@@ -270,3 +270,73 @@ def test_permuted_sums_are_the_same_shuffles_on_any_thread_count():
         finally:
             numba.set_num_threads(numba.config.NUMBA_NUM_THREADS)
         np.testing.assert_allclose(got, expect, rtol=1e-12)
+
+
+def _all_permutation_ratios(y, pairs, classes, n_classes):
+    """Geary's ratio of each class and of all pairs for every permutation of ``y``
+    (exact brute force by enumeration with itertools)."""
+    import itertools
+
+    n = len(y)
+    ss = np.sum((y - y.mean()) ** 2)
+    out = []
+    for perm in itertools.permutations(range(n)):
+        yp = y[list(perm)]
+        d2 = (yp[pairs[:, 0]] - yp[pairs[:, 1]]) ** 2
+        row = [(n - 1) * d2[classes == c].sum() / (2 * np.sum(classes == c) * ss)
+               for c in range(n_classes)]
+        out.append(row + [(n - 1) * d2.sum() / (2 * len(pairs) * ss)])
+    return np.array(out)
+
+
+def test_randomisation_sd_equals_the_spread_over_every_permutation():
+    # exact brute force: all 7! = 5040 permutations of skewed values over a pair set in two
+    # classes (pairs sharing samples and disjoint ones); mean 1 exactly (Cliff & Ord 1981,
+    # ch. 2) and the standard deviation of the enumerated ratios
+    from anisotropy.fitting.continuity import randomisation_sd
+
+    rng = np.random.default_rng(11)
+    y = rng.lognormal(0.0, 1.0, 7)
+    pairs = np.array([(0, 1), (1, 2), (2, 3), (0, 3), (4, 5), (5, 6), (1, 5), (0, 6), (2, 4)])
+    classes = np.array([0, 0, 0, 1, 1, 1, 0, 1, 1])
+    ratios = _all_permutation_ratios(y, pairs, classes, 2)
+    np.testing.assert_allclose(ratios.mean(axis=0), 1.0, rtol=1e-12)
+    np.testing.assert_allclose(randomisation_sd(y, pairs, classes, 2), ratios.std(axis=0),
+                               rtol=1e-10)
+
+
+def test_tail_bound_is_never_below_the_exact_permutation_p_value():
+    # exact brute force: the p-value of the smallest standardised ratio over all 8! = 40320
+    # permutations, against Cantelli's inequality summed over the members (any distribution
+    # of mean 0 and variance 1: P(Z <= -t) <= 1 / (1 + t^2))
+    from anisotropy.fitting.continuity import randomisation_sd, tail_bound
+
+    rng = np.random.default_rng(12)
+    pairs = np.array([(k, k + 1) for k in range(7)] + [(0, 2), (3, 5), (4, 7)])
+    classes = np.array([0, 1, 0, 1, 0, 1, 0, 1, 0, 1])
+    for _ in range(3):
+        y = np.sort(rng.standard_normal(8)) + 0.3 * rng.standard_normal(8)  # alike neighbours
+        all_r = _all_permutation_ratios(y, pairs, classes, 2)
+        sd = randomisation_sd(y, pairs, classes, 2)
+        obs = all_r[0]                       # the identity permutation comes first
+        z_obs = np.min((obs - 1) / sd)
+        exact = np.mean(np.min((all_r - 1) / sd, axis=1) <= z_obs + 1e-12)
+        bound = tail_bound(z_obs, 3)
+        assert z_obs < 0
+        assert bound >= exact
+
+
+def test_tail_bound_skips_the_permutations_only_where_they_agree():
+    # a strongly correlated field with thousands of pairs: the bound decides (no
+    # permutation drawn), and the permutations, forced by alpha = 0, rank the observed
+    # ratio below every one of them (exact brute force by Monte Carlo permutation)
+    rng = np.random.default_rng(13)
+    X = rng.uniform(0, 200, (1200, 3))
+    y = _exp_field(X, rng, a=120.0)
+    pairs, dist = nearest_pairs(X, 6)
+    fast = continuity_test(y, pairs, distances=dist)
+    full = continuity_test(y, pairs, distances=dist, alpha=0.0, permutations=199)
+    assert fast.method == "tail_bound" and fast.permutations == 0
+    assert fast.significant and fast.p_value <= fast.alpha
+    assert full.method == "permutation" and full.p_value == pytest.approx(1 / 200)
+    assert fast.ratio == full.ratio
