@@ -40,6 +40,7 @@ import sys
 import time
 
 from anisotropy.audit import run_record
+from anisotropy.constants import AXES
 from anisotropy.fitting.continuity import check_continuity
 from anisotropy.fitting.resolution import hole_axes
 from anisotropy.discovery import (CAUTION, PLANAR_CAUTION, SCHEMA, DiscoverParams, Discovery,
@@ -252,11 +253,17 @@ def run_discovery(data, p: DiscoverParams) -> Discovery:
                           confidence_level=p.confidence, rng=p.seed, n_jobs=p.n_jobs,
                           scheduler=p.scheduler, progress=p.progress)
         _record_bootstrap_blocks(D)
-        after = with_bootstrap(D.diagnosis, D.uncertainty.swap_rates(), p.confidence)
+        after = with_bootstrap(D.diagnosis, D.uncertainty.swap_rates(), p.confidence,
+                               cones=_cones(D.uncertainty), tolerance=fr.tolerance)
         D.warnings.extend(w for w in after.warnings if w not in D.diagnosis.warnings)
         D.diagnosis = after
         D.seconds = t.total()
     return D
+
+
+def _cones(boot) -> dict:
+    """Each axis's cone half-angle (degrees) from the bootstrap."""
+    return {a: boot.axis_summary(i)["cone_deg"] for i, a in enumerate(AXES)}
 
 
 def _options(p: DiscoverParams) -> dict:

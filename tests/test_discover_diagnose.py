@@ -140,6 +140,36 @@ def test_axes_the_bootstrap_exchanges_too_often_become_unresolved():
     assert same is dg
 
 
+
+def test_an_axis_whose_cone_exceeds_twice_the_tolerance_becomes_unresolved():
+    from anisotropy.discovery.diagnose import with_bootstrap
+
+    dg = _diagnosis(unresolved_axes=["semi_major"])
+    none = {"major_semi_major": 0.0, "semi_major_minor": 0.0}
+    cones = {"major": 12.0, "semi_major": 50.0, "minor": 31.0}
+    out = with_bootstrap(dg, none, 0.9, cones=cones, tolerance=15.0)
+    # 31 > 2 x 15: the minor joins; 12 does not; the semi-major was already unresolved
+    assert out.unresolved_axes == ["semi_major", "minor"]
+    assert out.ambiguous_axes == ()
+    assert len(out.warnings) == 1 and "31 degrees" in out.warnings[0]
+    assert with_bootstrap(dg, none, 0.9, cones=cones, tolerance=16.0) is dg
+
+
+def test_tolerance_cones_more_than_twice_the_tolerance_apart_share_no_direction():
+    # the reason given for the rule above, by brute force with NumPy: unit vectors within
+    # 15 degrees of one axis are never within 15 degrees of an axis 30.5 degrees away
+    # (undirected), while at 29.5 degrees some are
+    rng = np.random.default_rng(5)
+    v = rng.standard_normal((400_000, 3))
+    v /= np.linalg.norm(v, axis=1, keepdims=True)
+    a = np.array([1.0, 0.0, 0.0])
+    near_a = v[np.degrees(np.arccos(np.minimum(np.abs(v @ a), 1))) <= 15.0]
+    for gap, shared in ((30.5, False), (29.5, True)):
+        g = np.radians(gap)
+        b = np.array([np.cos(g), np.sin(g), 0.0])
+        within_b = np.degrees(np.arccos(np.minimum(np.abs(near_a @ b), 1))) <= 15.0
+        assert within_b.any() == shared
+
 # ------------------------------------------------ issue 17: planar data (one bench)
 
 def _bench(step=3.0, n=12):

@@ -371,13 +371,18 @@ _SWAPS = {"major_semi_major": ("major", "semi_major"),
           "semi_major_minor": ("semi_major", "minor")}
 
 
-def with_bootstrap(dg: Diagnostics, swap_rates: dict, confidence: float) -> Diagnostics:
-    """The diagnosis after the bootstrap: axes its replicates exchange too often are open.
+def with_bootstrap(dg: Diagnostics, swap_rates: dict, confidence: float, *,
+                   cones: dict | None = None, tolerance: float | None = None) -> Diagnostics:
+    """The diagnosis after the bootstrap: axes its replicates leave open are unresolved.
 
     Two axes that trade places in more than ``1 - confidence`` of the
     replicates lie in each other's confidence region: the samples do not say
     which is the longer, so both are unresolved (the cones reach both modes,
-    see :meth:`anisotropy.uncertainty.BootstrapResult.axis_summary`).
+    see :meth:`anisotropy.uncertainty.BootstrapResult.axis_summary`).  An
+    axis whose cone is wider than twice the fan's angular ``tolerance`` is
+    unresolved too: its cone then reaches directions whose directional
+    variograms share no pair with the reported axis's (two tolerance cones
+    more than twice the tolerance apart are disjoint).
 
     Parameters
     ----------
@@ -385,13 +390,28 @@ def with_bootstrap(dg: Diagnostics, swap_rates: dict, confidence: float) -> Diag
     swap_rates : dict
         Share of replicates exchanging each pair of axes.
     confidence : float
+    cones : dict, optional
+        Each axis's cone half-angle (degrees) at ``confidence``.
+    tolerance : float, optional
+        The fan's angular tolerance (degrees).
 
     Returns
     -------
     Diagnostics
     """
-    limit = 1.0 - float(confidence)
-    texts, amb = [], set(dg.ambiguous_axes)
+    texts, amb = _swap_texts(swap_rates, 1.0 - float(confidence))
+    amb |= set(dg.ambiguous_axes)
+    wide, cone_texts = _wide_cones(cones, tolerance, confidence, set(dg.unresolved_axes) | amb)
+    if not texts and not wide:
+        return dg
+    axes = [x for x in AXES if x in set(dg.unresolved_axes) | amb | wide]
+    return replace(dg, unresolved_axes=axes, ambiguous_axes=tuple(x for x in AXES if x in amb),
+                   warnings=dg.warnings + tuple(texts + cone_texts))
+
+
+def _swap_texts(swap_rates, limit):
+    """Warnings and axes of the exchanges more frequent than ``limit``."""
+    texts, amb = [], set()
     for key, (a, b) in _SWAPS.items():
         rate = swap_rates.get(key)
         if rate is None or not np.isfinite(rate) or rate <= limit:
@@ -401,8 +421,18 @@ def with_bootstrap(dg: Diagnostics, swap_rates: dict, confidence: float) -> Diag
                      f"{b.replace('_', '-')} axes in {rate:.0%} of its replicates (more than "
                      f"{limit:.0%}): the samples do not say which of the two is the longer; "
                      "both are unresolved and their cones reach both")
-    if not texts:
-        return dg
-    axes = [x for x in AXES if x in set(dg.unresolved_axes) | amb]
-    return replace(dg, unresolved_axes=axes, ambiguous_axes=tuple(x for x in AXES if x in amb),
-                   warnings=dg.warnings + tuple(texts))
+    return texts, amb
+
+
+def _wide_cones(cones, tolerance, confidence, already):
+    """Axes (not already unresolved) whose cone exceeds twice the angular tolerance."""
+    if not cones or not tolerance or not np.isfinite(tolerance):
+        return set(), []
+    wide = {a for a in AXES if a not in already and np.isfinite(cones.get(a, np.nan))
+            and cones[a] > 2.0 * tolerance}
+    texts = [f"the {confidence:.0%} cone of the {a.replace('_', '-')} axis is "
+             f"{cones[a]:.0f} degrees, more than twice the fan's angular tolerance "
+             f"({tolerance:g} degrees): it reaches directions whose directional variograms "
+             "share no pair with the reported axis's, so that direction is unresolved"
+             for a in AXES if a in wide]
+    return wide, texts
