@@ -305,7 +305,9 @@ def one_discover(name, sim, reps, refine=True):
            "lag": float(D.lags.get("unit_lag", np.nan)), "n_lags": int(D.lags.get("n_lags", 0)),
            "cone_calibration": float(res.cone_calibration),
            "range_calibration": float(res.range_calibration),
-           "warnings": list(D.warnings)}
+           "warnings": list(D.warnings),
+           "unresolved": list(D.diagnostics.get("unresolved_axes") or []),
+           "ambiguous": list(D.diagnostics.get("ambiguous_axes") or [])}
     for i, ax in enumerate(U.AXIS_NAMES):
         err = float(axis_angle(ref[:, i], F[:, i]))
         cone = float(d[ax]["cone_deg"])
@@ -370,6 +372,9 @@ def summarise_discover(rows):
         r["refined"] = int(g["refined"].sum())
         r["med_turn"] = float(pd.to_numeric(g["turn_deg"]).median())
         r["failed"] = int(g["failed"].sum())
+        if "unresolved" in g:   # share of runs with each axis flagged unresolved
+            for ax in U.AXIS_NAMES:
+                r[f"flag_{ax}"] = float(np.mean([ax in u for u in g["unresolved"]]))
         lines.append(r)
     out = pd.DataFrame(lines)
     with pd.option_context("display.width", 250, "display.max_columns", 50):
