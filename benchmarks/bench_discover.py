@@ -383,6 +383,13 @@ def engine_record(D, spec, real):
             rec[f"{ax}_cone_widened"] = isinstance(e, dict) and "cone_note" in e
             rec[f"{ax}_in_cone"] = cone_holds(e, D.frame[:, i], R[:, i])
         rec["swap_rate"] = u.get("swap_rate")
+    info = (D.diagnostics.get("frame_refinement") or {}).get("information")
+    if info and info.get("cones_deg") and spec["structures"]:
+        # the likelihood's information cones (fitting.refine.INFORMATION_CONES), scored
+        for i, ax in enumerate(("major", "semi_major", "minor")):
+            c = info["cones_deg"][ax]
+            rec[f"{ax}_info_cone"] = c
+            rec[f"{ax}_in_info_cone"] = bool(axis_err(D.frame[:, i], R[:, i]) <= c)
     return rec
 
 
@@ -492,6 +499,12 @@ def summarise_issue15(rows):
             lines.append(f"\nAll {label} realisations: the 90 % cones hold the true major and "
                          f"minor axes in {sum(held)}/{len(held)} = {np.mean(held):.0%} of cases "
                          "(target 85-95 %).")
+        info = [r["engine"].get(f"{ax}_in_info_cone") for r in rows for ax in ("major", "minor")
+                if (r.get("spacing") is not None) == holes]
+        info = [h for h in info if h is not None]
+        if info:
+            lines.append(f"The likelihood's information cones hold them in {sum(info)}/"
+                         f"{len(info)} = {np.mean(info):.0%}.")
     by = [r for r in rows if r.get("spacing") is not None and "major" in r["engine"]]
     if by:
         lines += ["", "| scenario | spacing (m) | spacing / semi-major range | realisations "

@@ -267,19 +267,22 @@ def _scenario_field(name, sim):
     return coords, v, F
 
 
-def one_discover(name, sim, reps, refine=True):
+def one_discover(name, sim, reps, refine=True, information=False):
     """The real ``discover`` chain with its block bootstrap on one simulation, scored.
 
     ``refine=False`` switches the likelihood refinement of the frame off (for
-    comparison: the bands as they were before it).
+    comparison: the bands as they were before it); ``information=True`` also
+    scores the likelihood's information cones (``fitting.refine.INFORMATION_CONES``).
     """
     import pandas as pd
 
     from anisotropy.pipeline import discover
     from anisotropy.discovery import params
+    from anisotropy.fitting import refine as refine_module
 
     # read by the structures stage at run time
     params.LIKELIHOOD_REFINEMENT = bool(refine)
+    refine_module.INFORMATION_CONES = bool(information)
 
     sc = SCENARIOS[name]
     coords, v, F = _scenario_field(name, sim)
@@ -315,6 +318,9 @@ def one_discover(name, sim, reps, refine=True):
         out[f"{ax}_err_variogram"] = float(axis_angle(Fv[:, i], F[:, i]))
         out[f"{ax}_cone"] = cone
         out[f"{ax}_in"] = bool(err <= cone)
+        if lk is not None and (lk.get("information") or {}).get("cones_deg"):
+            out[f"{ax}_info_cone"] = float(lk["information"]["cones_deg"][ax])
+            out[f"{ax}_info_in"] = bool(err <= out[f"{ax}_info_cone"])
         # widened to hold a rival frame of the likelihood (then not the bootstrap's width)
         out[f"{ax}_widened"] = "cone_note" in d[ax]
         lo, hi = d[ax]["range"]
@@ -336,7 +342,7 @@ def discover_coverage(args):
     rows = []
     if args.jobs == 1:
         for n, s in tasks:  # one at a time, each row written as it comes
-            rows.append(one_discover(n, s, args.reps, not args.no_refinement))
+            rows.append(one_discover(n, s, args.reps, not args.no_refinement, args.information))
             r = rows[-1]
             print(f"{n} sim {s}: {r['seconds']:.0f} s, refined {r['refined']}, errors "
                   + " / ".join(f"{r[f'{ax}_err']:.1f}" for ax in U.AXIS_NAMES)
@@ -344,9 +350,8 @@ def discover_coverage(args):
                   flush=True)
             Path(args.out).write_text(json.dumps(rows, indent=1))
     else:
-        rows = Parallel(n_jobs=args.jobs, verbose=5)(delayed(one_discover)(n, s, args.reps,
-                                                                         not args.no_refinement)
-                                                     for n, s in tasks)
+        rows = Parallel(n_jobs=args.jobs, verbose=5)(delayed(one_discover)(
+            n, s, args.reps, not args.no_refinement, args.information) for n, s in tasks)
     wall = time.perf_counter() - t0
     Path(args.out).write_text(json.dumps(rows, indent=1))
     print(f"{len(rows)} simulations, {args.reps} replicates each, wall {wall:.0f} s")
@@ -372,6 +377,10 @@ def summarise_discover(rows):
         r["refined"] = int(g["refined"].sum())
         r["med_turn"] = float(pd.to_numeric(g["turn_deg"]).median())
         r["failed"] = int(g["failed"].sum())
+        if "major_info_in" in g:   # the likelihood's information cones
+            for ax in U.AXIS_NAMES:
+                r[f"info_{ax}"] = float(np.mean(g[f"{ax}_info_in"].dropna().astype(bool)))
+            r["med_info_cone_major"] = float(g["major_info_cone"].median())
         if "unresolved" in g:   # share of runs with each axis flagged unresolved
             for ax in U.AXIS_NAMES:
                 r[f"flag_{ax}"] = float(np.mean([ax in u for u in g["unresolved"]]))
@@ -445,6 +454,8 @@ if __name__ == "__main__":
     p.add_argument("--range-cal", type=float, default=1.0)
     p.add_argument("--only", default=None, help="speed: only the case containing this "
                    "text; discover-coverage: only the scenarios containing it")
+    p.add_argument("--information", action="store_true",
+                   help="discover-coverage: also score the likelihood's information cones")
     p.add_argument("--no-refinement", action="store_true",
                    help="discover-coverage: switch the likelihood frame refinement off")
     a = p.parse_args()

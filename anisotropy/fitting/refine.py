@@ -22,6 +22,7 @@ from anisotropy.errors import FitError
 from anisotropy.fitting.bins import FitBins
 from anisotropy.fitting.frames import (FrameChoice, PolishedFrame, global_frame_choice,
                                        likelihood_margin, ordered_axes)
+from anisotropy.fitting.information import information_cones
 from anisotropy.fitting.likelihood import refine_frame_likelihood, vecchia_setup
 from anisotropy.fitting.nested import NestedFit, fit_nested
 from anisotropy.geometry import vector_to_line
@@ -82,6 +83,11 @@ SCREEN_MAX_SAMPLES = 1000
 #: was 59 degrees off on two axes (benchmarks/RESULTS.md, "Issue-15
 #: scenarios"). Off only to measure what it costs and changes.
 DECIDE_RIVALS = True
+#: Also give each axis's cone from the likelihood's observed information
+#: (:mod:`anisotropy.fitting.information`), in the record's ``information``.
+#: Off by default: a study of their coverage (``benchmarks/RESULTS.md``), not
+#: yet what the reported cones use.
+INFORMATION_CONES = False
 #: Fewest samples for the likelihood to add anything.
 MIN_SAMPLES_LIKELIHOOD = 100
 
@@ -259,6 +265,19 @@ def _second_structure(P, lk, f, fit, add_structure):
             f = _added_to_variogram(P, lk2, f, nested)
         lk = lk2
     return lk, f, nested
+
+
+def _information(P, lk, f, confidence, seed):
+    """The likelihood's information cones, keyed by the reported model's axes."""
+    K = len(lk.shares)
+    kinds = tuple(f.kinds) if len(f.kinds) == K else (f.kinds[0],) * K
+    out = information_cones(lk, kinds, P.lk_kw["setup"], confidence, seed).to_dict()
+    if out["cones_deg"] is not None:   # the likelihood's columns matched to the model's
+        cos = np.abs(np.asarray(f.frame, float).T @ np.asarray(lk.frame, float))
+        cones = list(out["cones_deg"].values())
+        out["cones_deg"] = {a: cones[int(np.argmax(cos[i]))] for i, a in
+                            enumerate(("major", "semi_major", "minor"))}
+    return out
 
 
 def _outcome(fit, f, lk, nested, starts, held):
@@ -456,6 +475,8 @@ def refine_frame(fit: NestedFit, bins: FitBins, coords, values, *, seed=0, fit_k
     choices.append(frow)
     record["frame_candidates"] = choice.to_dict()
     record["hole_aware"] = holes is not None
+    if INFORMATION_CONES:
+        record["information"] = _information(P, lk, f, confidence, seed)
     # a rotation of space (axes matched by direction): the bootstrap's replicates refit the
     # variogram and are turned by it; where the likelihood exchanged two of the variogram's
     # axes the replicates keep the variogram's order, and their swap rate shows it

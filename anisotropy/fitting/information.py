@@ -1,0 +1,162 @@
+"""How sharply the likelihood fixes the frame: cones from its observed information.
+
+At the maximum of the nearest-neighbour likelihood the observed information
+``H`` (the Hessian of the negative log-likelihood) gives the large-sample
+covariance of the estimates, ``H^-1`` (the Wald approximation; Pawitan 2001,
+*In All Likelihood*, ch. 9).  Its block for the frame's rotation vector is
+the covariance of the frame with the ranges and sill shares estimated too
+(the profile information).  Rotation vectors drawn from that normal
+distribution turn each axis of the frame; the angle within which a share
+``confidence`` of the turned axes falls is the axis's cone.
+
+Here ``H`` is the central difference of the compiled analytic gradient
+(:func:`anisotropy.fitting.likelihood.vecchia_negloglik_grad`), one pair of
+gradient calls per parameter.  Where ``H`` is not positive definite (a flat
+or saddle direction, a share at its bound) no cone is given.
+
+These cones speak for the likelihood's own approximation only: its
+conditioning sets and subsample are fixed, and a rival frame elsewhere on
+the likelihood surface is not seen (that is :mod:`anisotropy.fitting.frames`'
+job).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.spatial.transform import Rotation
+
+from anisotropy.constants import AXES
+from anisotropy.fitting.likelihood import _start_vector, vecchia_negloglik_grad
+
+__all__ = ["InformationCones", "observed_information", "information_cones", "axis_cones"]
+
+#: Central-difference step of the gradient (radians of rotation, log ranges,
+#: share logits).
+STEP = 1e-4
+#: Rotation vectors drawn from the Wald distribution to measure the cones.
+DRAWS = 4000
+
+
+@dataclass(frozen=True)
+class InformationCones:
+    """Cones of the frame's axes from the likelihood's observed information.
+
+    Attributes
+    ----------
+    cones : dict or None
+        Half-angle (degrees) per axis of the frame's columns (major,
+        semi-major, minor); None where the information is not positive
+        definite.
+    confidence : float
+    rotation_sd : ndarray (3,) or None
+        Standard deviations (degrees) of the rotation vector's components.
+    note : str
+        Why no cone is given, or empty.
+    """
+
+    cones: dict | None
+    confidence: float
+    rotation_sd: np.ndarray | None = None
+    note: str = ""
+
+    def to_dict(self) -> dict:
+        """JSON-ready dictionary."""
+        return {"cones_deg": None if self.cones is None else
+                {k: float(v) for k, v in self.cones.items()},
+                "confidence": float(self.confidence),
+                "rotation_sd_deg": None if self.rotation_sd is None else
+                [float(x) for x in self.rotation_sd], "note": self.note}
+
+
+def observed_information(p, args, step=STEP):
+    """Symmetrised central-difference Jacobian of the analytic gradient at ``p``.
+
+    Parameters
+    ----------
+    p : ndarray
+        Parameter vector of :func:`~anisotropy.fitting.likelihood.vecchia_negloglik`.
+    args : tuple
+        ``(Y, y, nbr, kinds)`` of the same function.
+    step : float
+
+    Returns
+    -------
+    ndarray (len(p), len(p))
+    """
+    p = np.asarray(p, float)
+    H = np.empty((len(p), len(p)))
+    for j in range(len(p)):
+        e = np.zeros_like(p)
+        e[j] = step
+        H[:, j] = (vecchia_negloglik_grad(p + e, *args)[1]
+                   - vecchia_negloglik_grad(p - e, *args)[1]) / (2.0 * step)
+    return 0.5 * (H + H.T)
+
+
+def information_cones(fit, kinds, setup, confidence=0.9, seed=0) -> InformationCones:
+    """Cones of ``fit``'s axes from the observed information at its maximum.
+
+    Parameters
+    ----------
+    fit : anisotropy.fitting.likelihood.LikelihoodFit
+        A converged likelihood search.
+    kinds : sequence of str
+        Its structure kinds.
+    setup : anisotropy.fitting.likelihood.VecchiaSetup
+        The conditioning setup it was searched on.
+    confidence : float
+    seed : int
+        Seed of the rotation draws.
+
+    Returns
+    -------
+    InformationCones
+    """
+    K = len(fit.shares)
+    _, _, p = _start_vector(fit.frame, fit.ranges, fit.nugget_share, fit.shares, K)
+    args = (setup.coords, setup.values, setup.neighbours, tuple(kinds))
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        H = observed_information(p, args)
+    if not np.all(np.isfinite(H)):
+        return InformationCones(None, confidence, note="the information is not finite")
+    w, V = np.linalg.eigh(H)
+    if w[0] <= 1e-9 * max(w[-1], 1e-300):
+        return InformationCones(None, confidence, note=(
+            "the observed information is not positive definite (a flat or saddle "
+            "direction, or a sill share at its bound): no cone from it"))
+    rot = ((V / w) @ V.T)[:3, :3]
+    q = axis_cones(p[:3], rot, confidence, seed)
+    return InformationCones({a: float(q[i]) for i, a in enumerate(AXES)}, confidence,
+                            rotation_sd=np.degrees(np.sqrt(np.diag(rot))))
+
+
+def axis_cones(rotvec, covariance, confidence=0.9, seed=0, draws=DRAWS):
+    """Cone half-angles (degrees) of the columns of ``R(rotvec)`` under a normal rotation vector.
+
+    Rotation vectors are drawn from ``N(rotvec, covariance)``; each column's
+    angle to its place in ``R(rotvec)`` (undirected) is measured, and the
+    ``confidence`` quantile over the draws is its cone.
+
+    Parameters
+    ----------
+    rotvec : ndarray (3,)
+    covariance : ndarray (3, 3)
+        Covariance of the rotation vector (radians squared).
+    confidence : float
+    seed : int
+    draws : int
+
+    Returns
+    -------
+    ndarray (3,)
+    """
+    rv = np.asarray(rotvec, float)
+    F = Rotation.from_rotvec(rv).as_matrix()
+    rng = np.random.default_rng(seed)
+    d = rng.multivariate_normal(np.zeros(3), np.asarray(covariance, float), size=int(draws),
+                                method="cholesky")
+    M = Rotation.from_rotvec(rv + d).as_matrix()      # (draws, 3, 3): the turned frames
+    cos = np.abs(np.einsum("dki,ki->di", M, F))
+    return np.quantile(np.degrees(np.arccos(np.clip(cos, 0.0, 1.0))), confidence, axis=0)

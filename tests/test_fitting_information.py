@@ -1,0 +1,97 @@
+"""Tests of the likelihood's information cones (anisotropy.fitting.information)."""
+
+import numpy as np
+import pytest
+
+from anisotropy.fitting.information import axis_cones, information_cones, observed_information
+from anisotropy.fitting.likelihood import (refine_frame_likelihood, vecchia_negloglik,
+                                           vecchia_setup)
+
+
+def _field(n=400, seed=0):
+    """Scattered samples of an anisotropic exponential field, by a NumPy Cholesky
+    factorisation (independent of the engine): practical ranges 60 / 30 / 10 m
+    along x / y / z, correlation exp(-3 h)."""
+    rng = np.random.default_rng(seed)
+    X = rng.uniform(0, 120, (n, 3)) * [1.0, 1.0, 0.4]
+    h = np.sqrt((((X[:, None, :] - X[None, :, :]) / [60.0, 30.0, 10.0]) ** 2).sum(axis=2))
+    C = 0.9 * np.exp(-3.0 * h) + 0.1 * np.eye(n)
+    return X, np.linalg.cholesky(C) @ rng.standard_normal(n)
+
+
+def test_observed_information_matches_second_differences_of_the_value():
+    # brute force: the Hessian by second central differences of the value alone (the
+    # value kernel, not the gradient kernel) at a parameter vector off the maximum
+    X, y = _field(300, 1)
+    s = vecchia_setup(X, y, n_neighbours=10, seed=0)
+    args = (s.coords, s.values, s.neighbours, ("exponential",))
+    p = np.array([0.1, -0.2, 0.3, np.log(50.0), np.log(25.0), np.log(12.0), -1.5])
+    H = observed_information(p, args)
+    h = 1e-3
+    f = lambda q: vecchia_negloglik(q, *args)   # noqa: E731
+    E = np.eye(len(p)) * h
+    B = np.array([[(f(p + E[i] + E[j]) - f(p + E[i] - E[j]) - f(p - E[i] + E[j])
+                    + f(p - E[i] - E[j])) / (4 * h * h) for j in range(len(p))]
+                  for i in range(len(p))])
+    np.testing.assert_allclose(H, B, rtol=2e-3, atol=2e-3 * np.abs(B).max())
+
+
+def test_axis_cones_of_an_isotropic_small_turn_follow_the_rayleigh_quantile():
+    # a rotation vector N(0, s^2 I) with s small turns an axis by the norm of its two
+    # components across the axis: a Rayleigh angle, whose 90 % quantile is
+    # s sqrt(-2 ln 0.1) (the Rayleigh distribution's quantile function)
+    # (about the identity: elsewhere a rotation vector's spread is not isotropic in space)
+    s = np.radians(1.0)
+    q = axis_cones(np.zeros(3), s * s * np.eye(3), 0.9, seed=1, draws=40000)
+    np.testing.assert_allclose(q, np.sqrt(-2 * np.log(0.1)), rtol=0.03)
+
+
+def test_axis_cones_of_a_turn_about_one_axis_leave_that_axis_in_place():
+    # a rotation vector along the first column only turns the other two (by |N(0, s^2)|,
+    # 90 % quantile 1.645 s: the normal distribution's two-sided quantile, SciPy's
+    # norm.ppf(0.95))
+    from scipy.stats import norm
+
+    s = np.radians(2.0)
+    rv = np.zeros(3)
+    q = axis_cones(rv, np.diag([s * s, 1e-16, 1e-16]), 0.9, seed=2, draws=40000)
+    assert q[0] < 1e-3
+    np.testing.assert_allclose(q[1:], 2.0 * norm.ppf(0.95), rtol=0.03)
+
+
+def test_information_cones_at_a_maximum_are_given_and_shrink_with_more_samples():
+    # the Wald covariance scales as 1 / n (Pawitan 2001, ch. 9): eight times the
+    # samples of the same field give cones about 1 / sqrt(8) = 0.35 as wide (loose
+    # bounds on the geometric mean: one realisation each)
+    out = []
+    for n in (200, 1600):
+        X, y = _field(n, 3)
+        s = vecchia_setup(X, y, n_neighbours=15, seed=0)
+        lk = refine_frame_likelihood(X, y, np.eye(3), [[60.0, 30.0, 10.0]], 0.1, [0.9],
+                                     ("exponential",), setup=s)
+        ic = information_cones(lk, ("exponential",), s, 0.9)
+        assert ic.cones is not None and ic.note == ""
+        out.append(np.array(list(ic.cones.values())))
+    ratio = out[1] / out[0]
+    assert np.all(ratio < 1.0)
+    assert 0.15 < np.exp(np.mean(np.log(ratio))) < 0.6
+
+
+def test_no_cone_where_the_information_is_not_positive_definite():
+    # a one-structure model whose ranges are far beyond the samples' extent: the
+    # likelihood is flat along the frame's turn, and no cone is claimed
+    X, y = _field(200, 4)
+    y = np.random.default_rng(5).standard_normal(len(y))    # no correlation at all
+    s = vecchia_setup(X, y, n_neighbours=10, seed=0)
+
+    class Fit:   # a stand-in at the start, not a maximum: H may be indefinite there
+        frame = np.eye(3)
+        ranges = np.array([[5e3, 5e3, 5e3]])
+        nugget_share = 0.5
+        shares = np.array([0.5])
+
+    ic = information_cones(Fit, ("exponential",), s, 0.9)
+    if ic.cones is None:
+        assert "not positive definite" in ic.note
+    else:   # isotropic ranges leave the frame's turn without information: huge cones
+        assert min(ic.cones.values()) > 30.0
