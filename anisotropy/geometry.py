@@ -50,12 +50,41 @@ __all__ = [
     "canonical_frame",
     "is_rotation",
     "axis_angle",
+    "rotation_vector_jacobian",
     "fibonacci_hemisphere",
     "fan_for_spacing",
     "equal_area",
 ]
 
 _GOLDEN = (1.0 + math.sqrt(5.0)) / 2.0
+
+
+#: Step of the central difference in :func:`rotation_vector_jacobian`
+#: (truncation error ~1e-12, rounding ~1e-10).
+ROTVEC_STEP = 1e-6
+
+
+def rotation_vector_jacobian(rotvec) -> np.ndarray:
+    """Derivatives ``dR / d rotvec_i`` of the rotation matrix of a rotation vector.
+
+    A central difference (step :data:`ROTVEC_STEP`) of SciPy's
+    ``Rotation.from_rotvec(...).as_matrix()``: the last link of the chain
+    rule of fits parametrised by a rotation vector.
+
+    Parameters
+    ----------
+    rotvec : array_like (3,)
+
+    Returns
+    -------
+    ndarray (3, 3, 3)
+        ``[i]`` is the derivative of the 3 x 3 matrix along component ``i``.
+    """
+    from scipy.spatial.transform import Rotation
+
+    steps = ROTVEC_STEP * np.vstack([np.eye(3), -np.eye(3)])
+    M = Rotation.from_rotvec(np.asarray(rotvec, float)[None, :] + steps).as_matrix()
+    return (M[:3] - M[3:]) / (2.0 * ROTVEC_STEP)
 
 
 # ---------------------------------------------------------------------------

@@ -40,6 +40,7 @@ __all__ = [
     "STRUCTURE_KINDS",
     "NUGGET",
     "correlation",
+    "correlation_slope",
     "anisotropic_distance",
     "scaled_coordinates",
     "Structure",
@@ -107,6 +108,41 @@ def correlation(kind: str, h) -> np.ndarray:
         g = h2 * (7.0 - hc * (35.0 / 4.0 - h2 * (7.0 / 2.0 - 3.0 / 4.0 * h2)))
         return np.where(h < 1.0, 1.0 - g, 0.0)
     return np.where(h == 0.0, 1.0, 0.0)
+
+
+def correlation_slope(kind: str, h) -> np.ndarray:
+    """Derivative ``d rho / d h`` of :func:`correlation` (structure kinds only).
+
+    Differentiated term by term from the formulas above: spherical
+    ``-1.5 + 1.5 h^2``, exponential ``-3 exp(-3 h)``, Gaussian
+    ``-6 h exp(-3 h^2)``, cubic ``-(14 h - 105/4 h^2 + 35/2 h^4 - 21/4 h^6)``,
+    the bounded ones 0 from ``h = 1`` on.
+
+    Parameters
+    ----------
+    kind : str
+    h : array_like
+        Non-negative scaled distances.
+
+    Returns
+    -------
+    ndarray
+        Same shape as ``h``.
+    """
+    k = _check_kind(kind)
+    h = np.asarray(h, dtype=float)
+    hc = np.minimum(h, 1.0)
+    if k == "spherical":
+        return np.where(h < 1.0, -1.5 + 1.5 * hc * hc, 0.0)
+    if k == "exponential":
+        return -3.0 * np.exp(-3.0 * h)
+    if k == "gaussian":
+        return -6.0 * h * np.exp(-3.0 * h * h)
+    if k == "cubic":
+        h2 = hc * hc
+        d = hc * (14.0 - hc * (105.0 / 4.0 - h2 * (35.0 / 2.0 - 21.0 / 4.0 * h2)))
+        return np.where(h < 1.0, -d, 0.0)
+    raise ValueError("the nugget has no slope")
 
 
 def _check_ranges(ranges, where="structure") -> tuple[float, float, float]:

@@ -339,3 +339,55 @@ def test_shared_ratios_option(rng):
     assert free.n_params - f.n_params == 2
     long_ = int(np.argmax(f.ranges[:, 0]))
     assert np.allclose(np.sort(f.ranges[long_])[::-1], [160, 80, 32], rtol=0.12)
+
+
+# -- the analytic Jacobian of the joint fit --------------------------------------
+
+def test_correlation_slope_matches_central_differences_of_the_correlation():
+    # NumPy central differences of anisotropy.models.correlation, away from h = 1 (where
+    # the bounded kinds have a kink in their second derivative only)
+    from anisotropy.models import STRUCTURE_KINDS, correlation, correlation_slope
+
+    h = np.r_[np.linspace(0.01, 0.98, 60), np.linspace(1.02, 2.0, 20)]
+    e = 1e-6
+    for kind in STRUCTURE_KINDS:
+        fd = (correlation(kind, h + e) - correlation(kind, h - e)) / (2 * e)
+        np.testing.assert_allclose(correlation_slope(kind, h), fd, atol=1e-8)
+
+
+_CONFIGS = [dict(), dict(total_sill=1.0), dict(fixed_nugget=0.1), dict(total_sill=1.0,
+            fixed_nugget=0.15), dict(fixed_frame=True), dict(planar=True),
+            dict(shared_ratios=True), dict(shared_ratios=True, planar=True, total_sill=1.0)]
+
+
+@pytest.mark.parametrize("config", range(len(_CONFIGS)))
+@pytest.mark.parametrize("kinds", [("spherical",), ("exponential", "gaussian"),
+                                   ("cubic", "spherical", "exponential")])
+def test_nested_jacobian_matches_scipy_finite_differences(config, kinds):
+    # the analytic Jacobian of the residuals against scipy.optimize.approx_fprime
+    # (forward differences) at a random parameter vector, for every parametrisation
+    from scipy.optimize import approx_fprime
+    from scipy.spatial.transform import Rotation
+
+    from anisotropy.fitting.nested import _Problem
+
+    rng = np.random.default_rng(config + 10 * len(kinds))
+    lags, di, li = random_lags(rng, n_dir=40, n_lags=8)
+    gamma = rng.uniform(0.2, 1.2, len(lags))
+    bins = make_bins(lags, gamma, rng.integers(30, 300, len(lags)), di, li)
+    kw = dict(_CONFIGS[config])
+    frame = Rotation.from_rotvec(rng.normal(0, 0.6, 3)).as_matrix()
+    if kw.pop("fixed_frame", False):
+        kw["fixed_frame"] = frame
+    if kw.get("planar"):
+        frame = np.eye(3)
+    prob = _Problem(bins, kinds, **kw)
+    K = len(kinds)
+    p = prob.pack(frame, 0.1, rng.uniform(0.2, 0.6, K),
+                  rng.uniform(15, 90, (K, 3)))
+    p = p + rng.normal(0, 0.05, len(p))
+    for gw in (None, rng.uniform(0.3, 1.0, len(lags))):
+        prob.gw = gw
+        J = prob.jacobian(p)
+        ref = approx_fprime(p, prob.residuals, 1e-7)
+        np.testing.assert_allclose(J, ref, rtol=1e-4, atol=1e-5 * np.abs(ref).max())

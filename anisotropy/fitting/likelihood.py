@@ -35,6 +35,7 @@ from threadpoolctl import threadpool_limits
 from anisotropy.errors import FitError
 from anisotropy.fitting._vecchia_kernels import vecchia_terms as _vecchia_terms
 from anisotropy.fitting._vecchia_kernels import vecchia_terms_grad as _vecchia_terms_grad
+from anisotropy.geometry import rotation_vector_jacobian
 
 __all__ = ["LikelihoodFit", "VecchiaSetup", "refine_frame_likelihood", "vecchia_setup",
            "vecchia_neighbours", "vecchia_negloglik", "vecchia_negloglik_grad"]
@@ -219,11 +220,6 @@ def _unpack(p, K):
 
 _KIND_CODE = {"spherical": 0, "exponential": 1, "gaussian": 2, "cubic": 3}
 
-#: Step of the central difference of the rotation-vector-to-matrix map (the
-#: chain rule's last link; truncation error ~1e-12, rounding ~1e-10).
-_ROTVEC_STEP = 1e-6
-
-
 def _kind_codes(kinds):
     try:
         return np.array([_KIND_CODE[k] for k in kinds], dtype=np.int64)
@@ -277,13 +273,6 @@ def vecchia_negloglik(p, Y, y, nbr, kinds):
     return float(0.5 * (n * np.log(q / n) + ld))
 
 
-def _rotation_jacobian(rv):
-    """``dR / d rv_j`` (3, 3, 3), central difference on the 3 x 3 map."""
-    steps = _ROTVEC_STEP * np.vstack([np.eye(3), -np.eye(3)])
-    M = Rotation.from_rotvec(np.asarray(rv, float)[None, :] + steps).as_matrix()
-    return (M[:3] - M[3:]) / (2.0 * _ROTVEC_STEP)
-
-
 def vecchia_negloglik_grad(p, Y, y, nbr, kinds):
     """:func:`vecchia_negloglik` and its gradient with respect to ``p``, in one pass.
 
@@ -292,7 +281,8 @@ def vecchia_negloglik_grad(p, Y, y, nbr, kinds):
     formulas; see :mod:`anisotropy.fitting._vecchia_kernels`), computed in a
     compiled loop over the sets; only the last link of the chain rule, from
     the 3 x 3 frame to the rotation vector, is a central difference (step
-    ``1e-6``) of the 3 x 3 map. Arguments as for :func:`vecchia_negloglik`.
+    ``1e-6``, :func:`anisotropy.geometry.rotation_vector_jacobian`) of the
+    3 x 3 map. Arguments as for :func:`vecchia_negloglik`.
 
     Returns
     -------
@@ -313,7 +303,7 @@ def vecchia_negloglik_grad(p, Y, y, nbr, kinds):
     n = len(y)
     G = n / (2.0 * q) * gq + 0.5 * gl
     g_frame, g_logr, gf = _raw_to_model(G, frame, ranges)
-    g_rot = np.einsum("ed,jed->j", g_frame, _rotation_jacobian(p[:3]))
+    g_rot = np.einsum("ed,jed->j", g_frame, rotation_vector_jacobian(p[:3]))
     f = np.r_[nug, shares]
     g_logit = f * (gf - gf @ f)  # softmax chain rule; the last logit is fixed
     return float(0.5 * (n * np.log(q / n) + ld)), np.r_[g_rot, g_logr, g_logit[:K]]

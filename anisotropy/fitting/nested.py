@@ -33,9 +33,14 @@ from scipy.spatial.transform import Rotation
 from threadpoolctl import threadpool_limits
 
 from anisotropy.errors import FitError
-from anisotropy.models import STRUCTURE_KINDS as KINDS, correlation
+from anisotropy.geometry import rotation_vector_jacobian
+from anisotropy.models import STRUCTURE_KINDS as KINDS, correlation, correlation_slope
 
-__all__ = ["NestedFit", "fit_nested", "rho", "model_gamma", "KINDS"]
+__all__ = ["NestedFit", "fit_nested", "rho", "model_gamma", "KINDS", "ANALYTIC_JACOBIAN"]
+
+#: The search uses the analytic Jacobian of the residuals
+#: (:meth:`_Problem.jacobian`); False: SciPy's forward differences, as before.
+ANALYTIC_JACOBIAN = True
 
 
 
@@ -253,6 +258,75 @@ class _Problem:
             return self.sw * (self.gamma - self.gamma_model(p)) / self.gw
         return self.sw * (self.gamma / self.gamma_model(p) - 1.0)
 
+    def jacobian(self, p):
+        """Analytic Jacobian of :meth:`residuals` (chain rule through :meth:`unpack`)."""
+        g, G = self.gamma_jacobian(p)
+        floored = g <= self.floor                 # the floor is flat in every parameter
+        G[floored] = 0.0
+        g = np.maximum(g, self.floor)
+        if self.gw is not None:
+            return -(self.sw / self.gw)[:, None] * G
+        return -(self.sw * self.gamma / (g * g))[:, None] * G
+
+    def gamma_jacobian(self, p):
+        """The model variogram at the bins (no floor) and its derivatives, (m,), (m, len(p)).
+
+        Per structure ``k`` with local lags ``u = l F`` and scaled ones ``s = u / a_k``
+        at ``h = |s|``: ``d gamma / d c_k = 1 - rho``, ``d gamma / d log a_kj =
+        c_k rho'(h) s_j^2 / h`` and ``d gamma / d F_ej = -c_k rho'(h) l_e s_j /
+        (a_kj h)``; then through the frame, range and sill parametrisations.
+        """
+        frame, nug, sills, ranges = self.unpack(p)
+        u = self.lags @ frame
+        g = np.full(len(u), float(nug))
+        one_minus = np.empty((len(u), self.K))
+        d_logr = np.empty((len(u), self.K, 3))
+        d_frame = np.zeros((len(u), 3, 3))
+        for k, kind in enumerate(self.kinds):
+            sk = u / ranges[k]
+            h = np.maximum(np.sqrt(np.sum(sk * sk, axis=1)), 1e-300)
+            one_minus[:, k] = 1.0 - rho(kind, h)
+            slope = sills[k] * correlation_slope(kind, h) / h
+            g += sills[k] * one_minus[:, k]
+            d_logr[:, k, :] = slope[:, None] * sk * sk
+            d_frame -= (slope[:, None, None] * self.lags[:, :, None]
+                        * (sk / ranges[k])[:, None, :])
+        cols = [self._frame_columns(p, d_frame), self._range_columns(d_logr),
+                self._sill_columns(p, nug, sills, one_minus)]
+        return g, np.column_stack([c for c in cols if c.shape[1]])
+
+    def _frame_columns(self, p, d_frame):
+        if self.planar:
+            c, s_ = np.cos(p[0]), np.sin(p[0])
+            dF = np.array([[-s_, -c, 0.0], [c, -s_, 0.0], [0.0, 0.0, 0.0]]) @ self.base
+            return np.einsum("mej,ej->m", d_frame, dF)[:, None]
+        if self.fixed_frame is not None:
+            return np.empty((len(d_frame), 0))
+        return np.einsum("mej,iej->mi", d_frame, rotation_vector_jacobian(p[:3]))
+
+    def _range_columns(self, d_logr):
+        d = d_logr[:, :, :self.nr].copy()
+        if self.planar:                           # the minor range is the semi-major's
+            d[:, :, 1] += d_logr[:, :, 2]
+        if self.shared:
+            return np.column_stack([d.sum(axis=1), d[:, 1:, :].sum(axis=2)])
+        return d.reshape(len(d), -1)
+
+    def _sill_columns(self, p, nug, sills, one_minus):
+        if self.total is None:
+            cols = ([] if self.fixed_nugget is not None else [np.full(len(one_minus), nug)])
+            return np.column_stack(cols + [sills * one_minus])
+        if self.fixed_nugget is not None:         # sills = rest softmax([0, s])
+            D = one_minus
+            f = sills / max(sills.sum(), 1e-300)
+            scale, logit_of = sills.sum(), np.arange(1, self.K)
+        else:                                     # (nugget, sills) = T softmax([s0, 0, s1..])
+            D = np.column_stack([np.ones(len(one_minus)), one_minus])
+            f = np.r_[nug, sills] / self.total
+            scale, logit_of = self.total, np.r_[0, np.arange(2, self.K + 1)]
+        mean = D @ f
+        return scale * f[logit_of] * (D[:, logit_of] - mean[:, None])
+
 
 def _to_model(frame, nugget, sills, ranges, kinds):
     from anisotropy.models import NestedModel, Structure
@@ -385,6 +459,7 @@ def fit_nested(bins, start, *, n_structures=None, kinds=None, fixed_frame=None,
         return _fit_result(prob, p0, cost, success=True, nfev=1, make_model=make_model,
                            message="evaluated at the start (optimise=False)")
     n_outer = 1 if weighting == "cressie" else max(int(outer), 1)
+    jac = prob.jacobian if ANALYTIC_JACOBIAN else "2-point"
     nfev = 0
     x = p0
     with threadpool_limits(1):
@@ -394,7 +469,7 @@ def fit_nested(bins, start, *, n_structures=None, kinds=None, fixed_frame=None,
             if weighting != "cressie":
                 prob.gw = np.maximum(prob.gamma_model(x), 1e-3 * prob.scale)
             try:
-                res = least_squares(prob.residuals, x, bounds=(lo, hi), loss=loss,
+                res = least_squares(prob.residuals, x, jac=jac, bounds=(lo, hi), loss=loss,
                                     f_scale=f_scale, method="trf", x_scale="jac",
                                     max_nfev=max_nfev, ftol=ftol, xtol=1e-8, gtol=1e-8)
             except Exception as exc:  # pragma: no cover - numerical failure inside SciPy
