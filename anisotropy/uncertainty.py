@@ -841,6 +841,11 @@ class BootstrapResult:
     rival_angles : dict or None
         Per axis, the angle (degrees) to a rival frame the likelihood cannot
         tell from the reported one; the cone is widened to hold it.
+    information_cones : dict or None
+        Per axis, the cone (degrees) from the likelihood's observed
+        information (:meth:`anisotropy.fitting.refine.FrameRefinement.information_cones`);
+        where given, it is the axis's cone unless the replicates exchange that
+        axis with another more often than ``1 - confidence``.
     """
 
     method: str
@@ -870,6 +875,7 @@ class BootstrapResult:
     interval_method: str = "percentile"
     group_of_block: np.ndarray | None = None
     rival_angles: dict | None = None
+    information_cones: dict | None = None
 
     # -- derived -----------------------------------------------------------
     @property
@@ -937,6 +943,10 @@ class BootstrapResult:
         if ranked is not None:
             cone = max(cone, axis_cone(ranked, ref, conf)[1])
         cone = min(90.0, cone * self.cone_calibration)
+        replicate_cone, source = cone, "replicates"
+        info = (self.information_cones or {}).get(AXIS_NAMES[i])
+        if info is not None and not self._exchanged(i, conf):
+            cone, source = min(90.0, float(info)), "likelihood information"
         rival = float((self.rival_angles or {}).get(AXIS_NAMES[i], 0.0))
         widened_to_rival = rival > cone
         cone = max(cone, min(90.0, rival))
@@ -946,7 +956,9 @@ class BootstrapResult:
         rng, widened = holding_estimate(self._calibrate(rng, est), est)
         rng, beyond = bounded_by_lags(rng, self.longest_lag)
         mt, mp = _trend_plunge(mean)
-        out = {"cone_deg": float(cone), "trend": trend, "plunge": plunge, "range": rng,
+        out = {"cone_deg": float(cone), "cone_source": source,
+               "replicate_cone_deg": float(replicate_cone),
+               "trend": trend, "plunge": plunge, "range": rng,
                "range_interval": how + (", widened to hold the estimate" if widened else ""),
                "mean_axis": {"vector": [float(x) for x in mean], "trend": float(mt),
                              "plunge": float(mp)}}
@@ -958,6 +970,13 @@ class BootstrapResult:
             out["cone_note"] = (f"widened to {cone:.0f} degrees to hold a rival frame the "
                                 "likelihood cannot tell from this one")
         return out
+
+    def _exchanged(self, i, conf):
+        """True when the replicates exchange axis ``i`` with another in more than ``1 - conf``."""
+        rates = self.swap_rates()
+        pairs = {0: ("major_semi_major",), 1: ("major_semi_major", "semi_major_minor"),
+                 2: ("semi_major_minor",)}[i]
+        return any(np.isfinite(rates[k]) and rates[k] > 1.0 - conf for k in pairs)
 
     def _ranked_axes(self, i):
         """Axis ``i`` of each replicate's own frame (ordered by its ranges), or None."""

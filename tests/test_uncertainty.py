@@ -604,3 +604,28 @@ def test_confidence_interval_record_in_the_manner_of_scipy(rng):
     frame = ci.to_frame()
     assert list(frame.index) == list(ci.names)
     assert ci.to_dict()["intervals"]["nugget"]["low"] is None
+
+
+def test_information_cones_replace_the_replicates_unless_the_axes_are_exchanged(rng):
+    # the rule of BootstrapResult.axis_summary: a cone from the likelihood's information,
+    # where given, is the axis's cone; where the replicates exchange two axes in more than
+    # 1 - confidence of them (the nearly isotropic plane above), those two keep the
+    # replicates' cone, which reaches both modes; a rival frame still widens any cone
+    R = Rotation.from_euler("z", 30, degrees=True).as_matrix()
+    for T, exchanged in ((R @ np.diag([9.0, 4.0, 1.0]) @ R.T, False),
+                         (R @ np.diag([4.1, 4.0, 1.0]) @ R.T, True)):
+        vol = _StandInVolume((8, 8, 1), (10, 10, 10), np.random.default_rng(9), T, noise=0.3)
+        res = U.block_bootstrap(vol, _stand_in_refit, _reference(vol), n_replicates=60, seed=4)
+        plain = [res.axis_summary(i) for i in range(3)]
+        res.information_cones = {"major": 2.5, "semi_major": 3.5, "minor": 1.5}
+        got = [res.axis_summary(i) for i in range(3)]
+        assert [g["replicate_cone_deg"] for g in got] == [p["cone_deg"] for p in plain]
+        assert got[2]["cone_deg"] == 1.5 and got[2]["cone_source"] == "likelihood information"
+        for i in (0, 1):
+            if exchanged:
+                assert got[i]["cone_deg"] == plain[i]["cone_deg"]
+                assert got[i]["cone_source"] == "replicates"
+            else:
+                assert got[i]["cone_deg"] == (2.5, 3.5)[i]
+        res.rival_angles = {"major": 40.0}
+        assert res.axis_summary(0)["cone_deg"] == max(40.0, got[0]["cone_deg"])

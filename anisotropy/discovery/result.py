@@ -464,7 +464,24 @@ class Discovery:
             res = block_bootstrap(self.volume_with_blocks(), self.refit, self.model,
                                   estimator=self.estimator, **kw)
         res.rival_angles = self.rival_angles()
+        res.information_cones = self.information_cones(confidence_level)
         return res
+
+    def information_cones(self, confidence=0.9) -> dict | None:
+        """Each reported axis's cone (degrees) from the likelihood's observed information.
+
+        Given for samples without drill holes only: there the cones from the
+        likelihood's information held the true axes at about the stated
+        confidence, while the replicates' cones (variogram refits, turned by
+        the likelihood's rotation) were about twice as wide; along drill-hole
+        strings the likelihood's approximation overstates its information and
+        the replicates' cones are kept (``benchmarks/RESULTS.md``,
+        *Uncertainty: coverage of the real discover chain*). None otherwise.
+        """
+        fr = self.refinement.frame_refinement
+        if fr is None or self.samples.holes is not None:
+            return None
+        return fr.information_cones(self.frame, confidence, seed=self.params.seed)
 
     def rival_angles(self) -> dict | None:
         """Angle (degrees) from each reported axis to a rival frame's, where one is as likely.

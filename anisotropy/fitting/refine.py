@@ -18,6 +18,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
+from anisotropy.constants import AXES
 from anisotropy.errors import FitError
 from anisotropy.fitting.bins import FitBins
 from anisotropy.fitting.frames import (FrameChoice, PolishedFrame, global_frame_choice,
@@ -83,10 +84,10 @@ SCREEN_MAX_SAMPLES = 1000
 #: was 59 degrees off on two axes (benchmarks/RESULTS.md, "Issue-15
 #: scenarios"). Off only to measure what it costs and changes.
 DECIDE_RIVALS = True
-#: Also give each axis's cone from the likelihood's observed information
-#: (:mod:`anisotropy.fitting.information`), in the record's ``information``.
-#: Off by default: a study of their coverage (``benchmarks/RESULTS.md``), not
-#: yet what the reported cones use.
+#: Also write each axis's cone from the likelihood's observed information
+#: (:meth:`FrameRefinement.information_cones`) into the record's
+#: ``information``, whatever the layout (a study, ``benchmarks/RESULTS.md``;
+#: the bootstrap asks for them itself where they are used).
 INFORMATION_CONES = False
 #: Fewest samples for the likelihood to add anything.
 MIN_SAMPLES_LIKELIHOOD = 100
@@ -111,6 +112,10 @@ class FrameRefinement:
         The rotation from the variogram fit's frame to the refined one
         (``refined = correction @ variogram``).
     choices, warnings : tuple
+    likelihood : tuple or None
+        The final likelihood search, its structure kinds and its
+        conditioning setup, kept in memory (not in the record) for
+        :meth:`information_cones`.
     """
 
     fit: NestedFit
@@ -118,6 +123,25 @@ class FrameRefinement:
     correction: np.ndarray | None = None
     choices: tuple[dict, ...] = ()
     warnings: tuple[str, ...] = ()
+    likelihood: tuple | None = None
+
+    def information_cones(self, frame, confidence=0.9, seed=0) -> dict | None:
+        """Each column of ``frame``'s cone (degrees) from the likelihood's observed information.
+
+        The likelihood's axes are matched to ``frame``'s columns by direction
+        (:func:`anisotropy.fitting.information.information_cones`). None
+        without a likelihood, or where its information is not positive
+        definite.
+        """
+        if self.likelihood is None:
+            return None
+        lk, kinds, setup = self.likelihood
+        ic = information_cones(lk, kinds, setup, confidence, seed)
+        if ic.cones is None:
+            return None
+        cos = np.abs(np.asarray(frame, float).T @ np.asarray(lk.frame, float))
+        cones = list(ic.cones.values())
+        return {a: cones[int(np.argmax(cos[i]))] for i, a in enumerate(AXES)}
 
 
 def _likelihood_model(lk, fit, kinds):
@@ -265,19 +289,6 @@ def _second_structure(P, lk, f, fit, add_structure):
             f = _added_to_variogram(P, lk2, f, nested)
         lk = lk2
     return lk, f, nested
-
-
-def _information(P, lk, f, confidence, seed):
-    """The likelihood's information cones, keyed by the reported model's axes."""
-    K = len(lk.shares)
-    kinds = tuple(f.kinds) if len(f.kinds) == K else (f.kinds[0],) * K
-    out = information_cones(lk, kinds, P.lk_kw["setup"], confidence, seed).to_dict()
-    if out["cones_deg"] is not None:   # the likelihood's columns matched to the model's
-        cos = np.abs(np.asarray(f.frame, float).T @ np.asarray(lk.frame, float))
-        cones = list(out["cones_deg"].values())
-        out["cones_deg"] = {a: cones[int(np.argmax(cos[i]))] for i, a in
-                            enumerate(("major", "semi_major", "minor"))}
-    return out
 
 
 def _outcome(fit, f, lk, nested, starts, held):
@@ -475,11 +486,17 @@ def refine_frame(fit: NestedFit, bins: FitBins, coords, values, *, seed=0, fit_k
     choices.append(frow)
     record["frame_candidates"] = choice.to_dict()
     record["hole_aware"] = holes is not None
-    if INFORMATION_CONES:
-        record["information"] = _information(P, lk, f, confidence, seed)
+    K = len(lk.shares)
+    state = (lk, tuple(f.kinds) if len(f.kinds) == K else (f.kinds[0],) * K,
+             P.lk_kw["setup"])
     # a rotation of space (axes matched by direction): the bootstrap's replicates refit the
     # variogram and are turned by it; where the likelihood exchanged two of the variogram's
     # axes the replicates keep the variogram's order, and their swap rate shows it
     correction = matched_rotation(lk.frame, fit.frame)
-    return FrameRefinement(fit=f, record=record, correction=correction,
-                           choices=tuple(choices) + (row,), warnings=tuple(warnings))
+    out = FrameRefinement(fit=f, record=record, correction=correction,
+                          choices=tuple(choices) + (row,), warnings=tuple(warnings),
+                          likelihood=state)
+    if INFORMATION_CONES:   # a study: the cones in the record (benchmarks/RESULTS.md)
+        record["information"] = {"cones_deg": out.information_cones(f.frame, confidence,
+                                                                    seed)}
+    return out
