@@ -1,7 +1,6 @@
 """Tests of the likelihood's information cones (anisotropy.fitting.information)."""
 
 import numpy as np
-import pytest
 
 from anisotropy.fitting.information import axis_cones, information_cones, observed_information
 from anisotropy.fitting.likelihood import (refine_frame_likelihood, vecchia_negloglik,
