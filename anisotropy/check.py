@@ -30,8 +30,10 @@ The verdict and its thresholds (:data:`DEFAULT_THRESHOLDS`, printed with
 every result):
 
 * an axis is **outside** when its angle exceeds the radius of the
-  ``confidence`` (0.9) cone of that axis (the cone as reported, i.e. with the
-  bootstrap's calibration factor) and exceeds ``practical_deg`` (10 degrees:
+  ``confidence`` (0.9) cone of that axis (the cone as reported before any
+  widening to a rival frame: the likelihood's information cone on samples
+  without drill holes, else the replicates' with the bootstrap's calibration
+  factor; :meth:`anisotropy.uncertainty.BootstrapResult.cone`) and exceeds ``practical_deg`` (10 degrees:
   differences below this are within what careful practitioners disagree by,
   common practice, and never count against an interpretation);
 * the fit is **worse** when the share of bootstrap ratios at least as large
@@ -619,9 +621,8 @@ def check_interpretation(discovery, interpretation: Interpretation, *, threshold
     volume = discovery.volume_
     boot = discovery.uncertainty
     if boot is None:
-        boot = unc.block_bootstrap(discovery.volume_with_blocks(), refit, discovery.model, n_replicates=200,
-                                   confidence=th["confidence"], seed=0, n_jobs=n_jobs,
-                                   scheduler=scheduler, progress=progress)
+        boot = discovery.bootstrap(200, confidence_level=th["confidence"], rng=0,
+                                   n_jobs=n_jobs, scheduler=scheduler, progress=progress)
         warnings.append("the discovery had no bootstrap; a block bootstrap of 200 replicates "
                         "(seed 0) was run for the check")
     if boot.n_replicates < 2:
@@ -652,8 +653,7 @@ def check_interpretation(discovery, interpretation: Interpretation, *, threshold
         ang = float(axis_angle(v, D[:, j]))
         reps = rep_angles[:, j]
         within = float(np.mean(reps <= ang))
-        _, cone = unc.axis_cone(boot.axes[:, :, j], D[:, j], th["confidence"])
-        cone = min(90.0, cone * float(getattr(boot, "cone_calibration", 1.0)))
+        cone = boot.cone(j, th["confidence"])[0]
         outside = bool(ang > cone and ang > th["practical_deg"])
         angles[k] = ang
         support[k] = {"replicates_within": within, "cone_deg": float(cone),

@@ -935,18 +935,8 @@ class BootstrapResult:
         conf = self.confidence if confidence is None else confidence
         ref = self.reference_frame[:, i]
         reps = self.axes[:, :, i]
-        mean, cone = axis_cone(reps, ref, conf)
-        # the cone also holds the replicates' own axis of the same rank (their own major
-        # for the major): where replicates exchange two axes more often than 1 - confidence,
-        # it reaches the other mode instead of hiding the exchange by matching
-        ranked = self._ranked_axes(i)
-        if ranked is not None:
-            cone = max(cone, axis_cone(ranked, ref, conf)[1])
-        cone = min(90.0, cone * self.cone_calibration)
-        replicate_cone, source = cone, "replicates"
-        info = (self.information_cones or {}).get(AXIS_NAMES[i])
-        if info is not None and not self._exchanged(i, conf):
-            cone, source = min(90.0, float(info)), "likelihood information"
+        mean = axis_cone(reps, ref, conf)[0]
+        cone, source, replicate_cone = self.cone(i, conf)
         rival = float((self.rival_angles or {}).get(AXIS_NAMES[i], 0.0))
         widened_to_rival = rival > cone
         cone = max(cone, min(90.0, rival))
@@ -970,6 +960,35 @@ class BootstrapResult:
             out["cone_note"] = (f"widened to {cone:.0f} degrees to hold a rival frame the "
                                 "likelihood cannot tell from this one")
         return out
+
+    def cone(self, i, confidence=None):
+        """Cone radius (degrees) of reference axis ``i``, before any widening to a rival frame.
+
+        The replicates' cone (calibrated), or the likelihood's information
+        cone where one was given at this confidence and the replicates do not
+        exchange the axis with another more often than ``1 - confidence``.
+
+        Returns
+        -------
+        cone : float
+        source : str
+            "replicates" or "likelihood information".
+        replicate_cone : float
+        """
+        conf = self.confidence if confidence is None else confidence
+        ref = self.reference_frame[:, i]
+        cone = axis_cone(self.axes[:, :, i], ref, conf)[1]
+        # the cone also holds the replicates' own axis of the same rank (their own major
+        # for the major): where replicates exchange two axes more often than 1 - confidence,
+        # it reaches the other mode instead of hiding the exchange by matching
+        ranked = self._ranked_axes(i)
+        if ranked is not None:
+            cone = max(cone, axis_cone(ranked, ref, conf)[1])
+        cone = min(90.0, cone * self.cone_calibration)
+        info = (self.information_cones or {}).get(AXIS_NAMES[i])
+        if info is None or conf != self.confidence or self._exchanged(i, conf):
+            return cone, "replicates", cone
+        return min(90.0, float(info)), "likelihood information", cone
 
     def _exchanged(self, i, conf):
         """True when the replicates exchange axis ``i`` with another in more than ``1 - conf``."""

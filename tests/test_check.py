@@ -164,6 +164,13 @@ def test_correct_interpretation_is_consistent(field):
     assert set(d["angles"]) == {"major", "semi_major", "minor"}
     assert d["fit"]["ratio"] >= 0.99  # a fixed frame cannot fit better than the free one
     assert "thresholds" in res.summary()
+    # scattered samples: the cone judged against is the reported one, from the
+    # likelihood's information where the replicates do not exchange the axis
+    for k, j in (("major", 0), ("minor", 2)):
+        cone, source, _ = found.uncertainty.cone(j)
+        assert res.support[k]["cone_deg"] == cone
+        assert found.uncertainty.axis_summary(j)["cone_source"] == source
+    assert "likelihood information" in {found.uncertainty.cone(j)[1] for j in range(3)}
 
 
 @pytest.mark.slow
