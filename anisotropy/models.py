@@ -116,18 +116,8 @@ def correlation_slope(kind: str, h) -> np.ndarray:
     Differentiated term by term from the formulas above: spherical
     ``-1.5 + 1.5 h^2``, exponential ``-3 exp(-3 h)``, Gaussian
     ``-6 h exp(-3 h^2)``, cubic ``-(14 h - 105/4 h^2 + 35/2 h^4 - 21/4 h^6)``,
-    the bounded ones 0 from ``h = 1`` on.
-
-    Parameters
-    ----------
-    kind : str
-    h : array_like
-        Non-negative scaled distances.
-
-    Returns
-    -------
-    ndarray
-        Same shape as ``h``.
+    the bounded ones 0 from ``h = 1`` on. Arguments and result as for
+    :func:`correlation`; the nugget has no slope (ValueError).
     """
     k = _check_kind(kind)
     h = np.asarray(h, dtype=float)
