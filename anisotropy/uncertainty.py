@@ -846,6 +846,10 @@ class BootstrapResult:
         information (:meth:`anisotropy.fitting.refine.FrameRefinement.information_cones`);
         where given, it is the axis's cone unless the replicates exchange that
         axis with another more often than ``1 - confidence``.
+    information_axes : ndarray (draws, 3, 3) or None
+        Frames drawn from the likelihood's Wald distribution (columns matched
+        to the reference axes): the trend and plunge intervals of an axis
+        whose cone is the information cone are read from them.
     """
 
     method: str
@@ -876,6 +880,7 @@ class BootstrapResult:
     group_of_block: np.ndarray | None = None
     rival_angles: dict | None = None
     information_cones: dict | None = None
+    information_axes: np.ndarray | None = None
 
     # -- derived -----------------------------------------------------------
     @property
@@ -940,7 +945,10 @@ class BootstrapResult:
         rival = float((self.rival_angles or {}).get(AXIS_NAMES[i], 0.0))
         widened_to_rival = rival > cone
         cone = max(cone, min(90.0, rival))
-        trend, plunge, note = trend_plunge_intervals(reps, ref, conf, cone_deg=cone)
+        drawn = reps
+        if source != "replicates" and self.information_axes is not None:
+            drawn = self.information_axes[:, :, i]     # intervals agreeing with the cone
+        trend, plunge, note = trend_plunge_intervals(drawn, ref, conf, cone_deg=cone)
         est = self.reference_ranges[i]
         rng, how = self._interval(self.ranges[:, i], est, conf)
         rng, widened = holding_estimate(self._calibrate(rng, est), est)

@@ -627,5 +627,11 @@ def test_information_cones_replace_the_replicates_unless_the_axes_are_exchanged(
                 assert got[i]["cone_source"] == "replicates"
             else:
                 assert got[i]["cone_deg"] == (2.5, 3.5)[i]
+        # trend and plunge intervals then come from the frames drawn for the information
+        # cone: draws all at the reference frame give a point interval (its own plunge)
+        res.information_axes = np.repeat(res.reference_frame[None], 50, axis=0)
+        lo, hi = res.axis_summary(2)["plunge"]
+        assert hi - lo < 1e-9
+        assert res.axis_summary(2)["plunge"] != plain[2]["plunge"]
         res.rival_angles = {"major": 40.0}
         assert res.axis_summary(0)["cone_deg"] == max(40.0, got[0]["cone_deg"])

@@ -464,10 +464,10 @@ class Discovery:
             res = block_bootstrap(self.volume_with_blocks(), self.refit, self.model,
                                   estimator=self.estimator, **kw)
         res.rival_angles = self.rival_angles()
-        res.information_cones = self.information_cones(confidence_level)
+        res.information_cones, res.information_axes = self.information_cones(confidence_level)
         return res
 
-    def information_cones(self, confidence=0.9) -> dict | None:
+    def information_cones(self, confidence=0.9):
         """Each reported axis's cone (degrees) from the likelihood's observed information.
 
         Given for samples without drill holes only: there the cones from the
@@ -476,11 +476,20 @@ class Discovery:
         the likelihood's rotation) were about twice as wide; along drill-hole
         strings the likelihood's approximation overstates its information and
         the replicates' cones are kept (``benchmarks/RESULTS.md``,
-        *Uncertainty: coverage of the real discover chain*). None otherwise.
+        *Uncertainty: coverage of the real discover chain*).
+
+        Returns
+        -------
+        cones : dict or None
+            Per axis; None with drill holes, without a likelihood refinement,
+            or where its information is not positive definite.
+        axes : ndarray (draws, 3, 3) or None
+            Frames drawn from the Wald distribution (for trend and plunge
+            intervals), columns matched to the reported axes.
         """
         fr = self.refinement.frame_refinement
         if fr is None or self.samples.holes is not None:
-            return None
+            return None, None
         return fr.information_cones(self.frame, confidence, seed=self.params.seed)
 
     def rival_angles(self) -> dict | None:

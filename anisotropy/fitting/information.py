@@ -30,7 +30,8 @@ from scipy.spatial.transform import Rotation
 from anisotropy.constants import AXES
 from anisotropy.fitting.likelihood import _start_vector, vecchia_negloglik_grad
 
-__all__ = ["InformationCones", "observed_information", "information_cones", "axis_cones"]
+__all__ = ["InformationCones", "observed_information", "information_cones", "axis_cones",
+           "drawn_frames"]
 
 #: Central-difference step of the gradient (radians of rotation, log ranges,
 #: share logits).
@@ -54,12 +55,16 @@ class InformationCones:
         Standard deviations (degrees) of the rotation vector's components.
     note : str
         Why no cone is given, or empty.
+    frames : ndarray (draws, 3, 3) or None
+        The frames drawn from the Wald distribution (columns as the fit's),
+        for trend and plunge intervals; not in :meth:`to_dict`.
     """
 
     cones: dict | None
     confidence: float
     rotation_sd: np.ndarray | None = None
     note: str = ""
+    frames: np.ndarray | None = None
 
     def to_dict(self) -> dict:
         """JSON-ready dictionary."""
@@ -127,9 +132,30 @@ def information_cones(fit, kinds, setup, confidence=0.9, seed=0) -> InformationC
             "the observed information is not positive definite (a flat or saddle "
             "direction, or a sill share at its bound): no cone from it"))
     rot = ((V / w) @ V.T)[:3, :3]
-    q = axis_cones(p[:3], rot, confidence, seed)
+    M = drawn_frames(p[:3], rot, seed)
+    q = _cone_quantiles(M, p[:3], confidence)
     return InformationCones({a: float(q[i]) for i, a in enumerate(AXES)}, confidence,
-                            rotation_sd=np.degrees(np.sqrt(np.diag(rot))))
+                            rotation_sd=np.degrees(np.sqrt(np.diag(rot))), frames=M)
+
+
+def drawn_frames(rotvec, covariance, seed=0, draws=DRAWS):
+    """Frames ``R(v)`` for rotation vectors ``v`` drawn from ``N(rotvec, covariance)``.
+
+    Returns
+    -------
+    ndarray (draws, 3, 3)
+    """
+    rng = np.random.default_rng(seed)
+    d = rng.multivariate_normal(np.zeros(3), np.asarray(covariance, float), size=int(draws),
+                                method="cholesky")
+    return Rotation.from_rotvec(np.asarray(rotvec, float) + d).as_matrix()
+
+
+def _cone_quantiles(M, rotvec, confidence):
+    """Each column's ``confidence`` quantile of its angle to ``R(rotvec)`` (degrees)."""
+    F = Rotation.from_rotvec(np.asarray(rotvec, float)).as_matrix()
+    cos = np.abs(np.einsum("dki,ki->di", M, F))
+    return np.quantile(np.degrees(np.arccos(np.clip(cos, 0.0, 1.0))), confidence, axis=0)
 
 
 def axis_cones(rotvec, covariance, confidence=0.9, seed=0, draws=DRAWS):
@@ -152,11 +178,4 @@ def axis_cones(rotvec, covariance, confidence=0.9, seed=0, draws=DRAWS):
     -------
     ndarray (3,)
     """
-    rv = np.asarray(rotvec, float)
-    F = Rotation.from_rotvec(rv).as_matrix()
-    rng = np.random.default_rng(seed)
-    d = rng.multivariate_normal(np.zeros(3), np.asarray(covariance, float), size=int(draws),
-                                method="cholesky")
-    M = Rotation.from_rotvec(rv + d).as_matrix()      # (draws, 3, 3): the turned frames
-    cos = np.abs(np.einsum("dki,ki->di", M, F))
-    return np.quantile(np.degrees(np.arccos(np.clip(cos, 0.0, 1.0))), confidence, axis=0)
+    return _cone_quantiles(drawn_frames(rotvec, covariance, seed, draws), rotvec, confidence)

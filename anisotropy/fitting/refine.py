@@ -125,23 +125,31 @@ class FrameRefinement:
     warnings: tuple[str, ...] = ()
     likelihood: tuple | None = None
 
-    def information_cones(self, frame, confidence=0.9, seed=0) -> dict | None:
+    def information_cones(self, frame, confidence=0.9, seed=0):
         """Each column of ``frame``'s cone (degrees) from the likelihood's observed information.
 
         The likelihood's axes are matched to ``frame``'s columns by direction
-        (:func:`anisotropy.fitting.information.information_cones`). None
-        without a likelihood, or where its information is not positive
-        definite.
+        (:func:`anisotropy.fitting.information.information_cones`).
+
+        Returns
+        -------
+        cones : dict or None
+            Per axis name; None without a likelihood, or where its
+            information is not positive definite.
+        axes : ndarray (draws, 3, 3) or None
+            The frames drawn from the Wald distribution, columns matched to
+            ``frame``'s.
         """
         if self.likelihood is None:
-            return None
+            return None, None
         lk, kinds, setup = self.likelihood
         ic = information_cones(lk, kinds, setup, confidence, seed)
         if ic.cones is None:
-            return None
+            return None, None
         cos = np.abs(np.asarray(frame, float).T @ np.asarray(lk.frame, float))
+        col = [int(np.argmax(cos[i])) for i in range(3)]
         cones = list(ic.cones.values())
-        return {a: cones[int(np.argmax(cos[i]))] for i, a in enumerate(AXES)}
+        return {a: cones[col[i]] for i, a in enumerate(AXES)}, ic.frames[:, :, col]
 
 
 def _likelihood_model(lk, fit, kinds):
@@ -498,5 +506,5 @@ def refine_frame(fit: NestedFit, bins: FitBins, coords, values, *, seed=0, fit_k
                           likelihood=state)
     if INFORMATION_CONES:   # a study: the cones in the record (benchmarks/RESULTS.md)
         record["information"] = {"cones_deg": out.information_cones(f.frame, confidence,
-                                                                    seed)}
+                                                                    seed)[0]}
     return out
