@@ -840,7 +840,8 @@ class BootstrapResult:
     seed, seconds, warnings
     rival_angles : dict or None
         Per axis, the angle (degrees) to a rival frame the likelihood cannot
-        tell from the reported one; the cone is widened to hold it.
+        tell from the reported one; the cone is widened to hold it and a cone
+        as wide around it (the angle plus the cone).
     information_cones : dict or None
         Per axis, the cone (degrees) from the likelihood's observed
         information (:meth:`anisotropy.fitting.refine.FrameRefinement.information_cones`);
@@ -942,9 +943,12 @@ class BootstrapResult:
         reps = self.axes[:, :, i]
         mean = axis_cone(reps, ref, conf)[0]
         cone, source, replicate_cone = self.cone(i, conf)
+        # a rival frame's axis with a cone as wide around it: the smallest cone about the
+        # reported axis holding both is the two angles summed (triangle inequality)
         rival = float((self.rival_angles or {}).get(AXIS_NAMES[i], 0.0))
-        widened_to_rival = rival > cone
-        cone = max(cone, min(90.0, rival))
+        reach = min(90.0, rival + cone) if rival > 0 else 0.0
+        widened_to_rival = reach > cone
+        cone = max(cone, reach)
         drawn = reps
         if source != "replicates" and self.information_axes is not None:
             drawn = self.information_axes[:, :, i]     # intervals agreeing with the cone
@@ -966,7 +970,8 @@ class BootstrapResult:
             out["range_note"] = beyond
         if widened_to_rival:
             out["cone_note"] = (f"widened to {cone:.0f} degrees to hold a rival frame the "
-                                "likelihood cannot tell from this one")
+                                f"likelihood cannot tell from this one ({rival:.0f} degrees "
+                                "away) and a cone as wide around it")
         return out
 
     def cone(self, i, confidence=None):

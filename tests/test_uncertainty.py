@@ -633,5 +633,8 @@ def test_information_cones_replace_the_replicates_unless_the_axes_are_exchanged(
         lo, hi = res.axis_summary(2)["plunge"]
         assert hi - lo < 1e-9
         assert res.axis_summary(2)["plunge"] != plain[2]["plunge"]
+        # a rival frame 40 degrees away: the cone holds the rival's axis and a cone as wide
+        # around it (their sum, the triangle inequality on the sphere), at most 90
         res.rival_angles = {"major": 40.0}
-        assert res.axis_summary(0)["cone_deg"] == max(40.0, got[0]["cone_deg"])
+        assert res.axis_summary(0)["cone_deg"] == min(90.0, 40.0 + got[0]["cone_deg"])
+        assert "40 degrees away" in res.axis_summary(0)["cone_note"]
