@@ -970,7 +970,7 @@ class BootstrapResult:
             out["range_note"] = beyond
         if widened_to_rival:
             out["cone_note"] = (f"widened to {cone:.0f} degrees to hold a rival frame the "
-                                f"likelihood cannot tell from this one ({rival:.0f} degrees "
+                                f"likelihood cannot tell from this one ({rival:.1f} degrees "
                                 "away) and a cone as wide around it")
         return out
 

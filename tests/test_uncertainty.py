@@ -637,4 +637,4 @@ def test_information_cones_replace_the_replicates_unless_the_axes_are_exchanged(
         # around it (their sum, the triangle inequality on the sphere), at most 90
         res.rival_angles = {"major": 40.0}
         assert res.axis_summary(0)["cone_deg"] == min(90.0, 40.0 + got[0]["cone_deg"])
-        assert "40 degrees away" in res.axis_summary(0)["cone_note"]
+        assert "40.0 degrees away" in res.axis_summary(0)["cone_note"]
