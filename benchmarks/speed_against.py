@@ -7,6 +7,9 @@ versions on the same inputs (this machine's absolute times drift)::
     python benchmarks/speed_against.py /tmp/old
     python benchmarks/speed_against.py .
 
+With ``--demo-domains`` the calls are ``discover`` on each demo domain
+instead (the 2-3k drill-hole domains of issue 16).
+
 Each tree's own ``anisotropy`` package and ``benchmarks/bench_discover.py``
 are imported (the inputs of ``speed()`` are the same in both as long as its
 layouts are). Printed per call: (case, discover seconds, pair-pass seconds),
@@ -24,9 +27,13 @@ def main(argv=None):
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("tree", help="root of the source tree to time")
     ap.add_argument("--calls", type=int, default=3, help="calls; the first compiles")
+    ap.add_argument("--demo-domains", action="store_true",
+                    help="time discover on each demo domain instead (see demo_domains)")
     args = ap.parse_args(argv)
     tree = os.path.abspath(args.tree)
     sys.path.insert(0, tree)
+    if args.demo_domains:
+        return demo_domains(tree, args.calls)
     spec = importlib.util.spec_from_file_location("bench_discover_of_tree",
                                                   os.path.join(tree, "benchmarks",
                                                                "bench_discover.py"))
@@ -44,6 +51,36 @@ def main(argv=None):
             if "stages" in r:
                 print("   ", r["case"], {s: round(float(t), 2) for s, t in r["stages"].items()},
                       flush=True)
+
+
+
+def demo_domains(tree, calls):
+    """``discover`` (no bootstrap, the demo's seed) on each demo domain of ``tree``.
+
+    The tree's own package and bundled composites (the same data in every
+    tree since the demo was added). Printed per domain: the tree, the domain,
+    its composites and the seconds of each call; the first call compiles or
+    warms the kernels.
+    """
+    import time
+
+    import pandas as pd
+
+    import anisotropy
+
+    if not os.path.abspath(anisotropy.__file__).startswith(tree):
+        sys.exit(f"imported {anisotropy.__file__}, not the package of {tree}")
+    df = pd.read_csv(os.path.join(tree, "anisotropy", "data", "fenwright_composites.csv"))
+    kw = dict(value="au_gpt", x="mid_x", y="mid_y", z="mid_z", hole="hole_id",
+              seed=20261201)
+    for dom in ("shoot", "vein_corridor", "blanket"):
+        d = df[df["domain"] == dom]
+        ts = []
+        for _ in range(calls):
+            t0 = time.perf_counter()
+            anisotropy.discover(d, **kw)
+            ts.append(time.perf_counter() - t0)
+        print(tree, dom, len(d), [round(t, 2) for t in ts], flush=True)
 
 
 if __name__ == "__main__":
