@@ -3,8 +3,8 @@
 import numpy as np
 
 from anisotropy.fitting.information import axis_cones, information_cones, observed_information
-from anisotropy.fitting.likelihood import (refine_frame_likelihood, vecchia_negloglik,
-                                           vecchia_setup)
+from anisotropy.fitting.likelihood import (LikelihoodFit, refine_frame_likelihood,
+                                           vecchia_negloglik, vecchia_setup)
 
 
 def _field(n=400, seed=0):
@@ -68,7 +68,8 @@ def test_information_cones_at_a_maximum_are_given_and_shrink_with_more_samples()
         s = vecchia_setup(X, y, n_neighbours=15, seed=0)
         lk = refine_frame_likelihood(X, y, np.eye(3), [[60.0, 30.0, 10.0]], 0.1, [0.9],
                                      ("exponential",), setup=s)
-        ic = information_cones(lk, ("exponential",), s, 0.9)
+        assert lk.kinds == ("exponential",)
+        ic = information_cones(lk, s, 0.9)
         assert ic.cones is not None and ic.note == ""
         out.append(np.array(list(ic.cones.values())))
     ratio = out[1] / out[0]
@@ -83,13 +84,12 @@ def test_no_cone_where_the_information_is_not_positive_definite():
     y = np.random.default_rng(5).standard_normal(len(y))    # no correlation at all
     s = vecchia_setup(X, y, n_neighbours=10, seed=0)
 
-    class Fit:   # a stand-in at the start, not a maximum: H may be indefinite there
-        frame = np.eye(3)
-        ranges = np.array([[5e3, 5e3, 5e3]])
-        nugget_share = 0.5
-        shares = np.array([0.5])
-
-    ic = information_cones(Fit, ("exponential",), s, 0.9)
+    # a stand-in at the start, not a maximum: H may be indefinite there
+    fit = LikelihoodFit(frame=np.eye(3), ranges=np.array([[5e3, 5e3, 5e3]]),
+                        nugget_share=0.5, shares=np.array([0.5]), negloglik=0.0,
+                        negloglik_start=0.0, n_samples=len(y), n_neighbours=10,
+                        kinds=("exponential",))
+    ic = information_cones(fit, s, 0.9)
     if ic.cones is None:
         assert "not positive definite" in ic.note
     else:   # isotropic ranges leave the frame's turn without information: huge cones

@@ -28,7 +28,7 @@ import numpy as np
 from scipy.spatial.transform import Rotation
 
 from anisotropy.constants import AXES
-from anisotropy.fitting.likelihood import _start_vector, vecchia_negloglik_grad
+from anisotropy.fitting.likelihood import vecchia_negloglik_grad
 
 __all__ = ["InformationCones", "observed_information", "information_cones", "axis_cones",
            "drawn_frames"]
@@ -100,15 +100,13 @@ def observed_information(p, args, step=STEP):
     return 0.5 * (H + H.T)
 
 
-def information_cones(fit, kinds, setup, confidence=0.9, seed=0) -> InformationCones:
+def information_cones(fit, setup, confidence=0.9, seed=0) -> InformationCones:
     """Cones of ``fit``'s axes from the observed information at its maximum.
 
     Parameters
     ----------
     fit : anisotropy.fitting.likelihood.LikelihoodFit
-        A converged likelihood search.
-    kinds : sequence of str
-        Its structure kinds.
+        A converged likelihood search (its parameter vector and kinds).
     setup : anisotropy.fitting.likelihood.VecchiaSetup
         The conditioning setup it was searched on.
     confidence : float
@@ -119,9 +117,8 @@ def information_cones(fit, kinds, setup, confidence=0.9, seed=0) -> InformationC
     -------
     InformationCones
     """
-    K = len(fit.shares)
-    _, _, p = _start_vector(fit.frame, fit.ranges, fit.nugget_share, fit.shares, K)
-    args = (setup.coords, setup.values, setup.neighbours, tuple(kinds))
+    p = fit.parameters()
+    args = (setup.coords, setup.values, setup.neighbours, tuple(fit.kinds))
     with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
         H = observed_information(p, args)
     if not np.all(np.isfinite(H)):

@@ -67,6 +67,8 @@ class LikelihoodFit:
         Optimiser message, function and gradient evaluations (``nfev``,
         ``njev``), the gradient used, and the conditioning setup's summary
         (:meth:`VecchiaSetup.to_dict`: samples used, dropped, hole-aware).
+    kinds : tuple of str
+        The structure kinds searched.
     """
 
     frame: np.ndarray
@@ -78,6 +80,12 @@ class LikelihoodFit:
     n_samples: int
     n_neighbours: int
     info: dict = field(default_factory=dict)
+    kinds: tuple = ()
+
+    def parameters(self) -> np.ndarray:
+        """The fit as the parameter vector of :func:`vecchia_negloglik`."""
+        return _start_vector(self.frame, self.ranges, self.nugget_share, self.shares,
+                             len(self.shares))[2]
 
     def to_dict(self) -> dict:
         return {"frame": np.asarray(self.frame, float).tolist(),
@@ -567,4 +575,4 @@ def refine_frame_likelihood(coords, values, frame, ranges, nugget, sills, kinds,
     return LikelihoodFit(frame=fr, ranges=rr, nugget_share=float(nug), shares=sh,
                          negloglik=float(min(res.fun, f0)),
                          negloglik_start=float(f0), n_samples=setup.n_samples,
-                         n_neighbours=setup.n_neighbours, info=info)
+                         n_neighbours=setup.n_neighbours, info=info, kinds=kinds)

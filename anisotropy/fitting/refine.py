@@ -113,9 +113,8 @@ class FrameRefinement:
         (``refined = correction @ variogram``).
     choices, warnings : tuple
     likelihood : tuple or None
-        The final likelihood search, its structure kinds and its
-        conditioning setup, kept in memory (not in the record) for
-        :meth:`information_cones`.
+        The final likelihood search and its conditioning setup, kept in
+        memory (not in the record) for :meth:`information_cones`.
     """
 
     fit: NestedFit
@@ -142,8 +141,8 @@ class FrameRefinement:
         """
         if self.likelihood is None:
             return None, None
-        lk, kinds, setup = self.likelihood
-        ic = information_cones(lk, kinds, setup, confidence, seed)
+        lk, setup = self.likelihood
+        ic = information_cones(lk, setup, confidence, seed)
         if ic.cones is None:
             return None, None
         cos = np.abs(np.asarray(frame, float).T @ np.asarray(lk.frame, float))
@@ -494,16 +493,13 @@ def refine_frame(fit: NestedFit, bins: FitBins, coords, values, *, seed=0, fit_k
     choices.append(frow)
     record["frame_candidates"] = choice.to_dict()
     record["hole_aware"] = holes is not None
-    K = len(lk.shares)
-    state = (lk, tuple(f.kinds) if len(f.kinds) == K else (f.kinds[0],) * K,
-             P.lk_kw["setup"])
     # a rotation of space (axes matched by direction): the bootstrap's replicates refit the
     # variogram and are turned by it; where the likelihood exchanged two of the variogram's
     # axes the replicates keep the variogram's order, and their swap rate shows it
     correction = matched_rotation(lk.frame, fit.frame)
     out = FrameRefinement(fit=f, record=record, correction=correction,
                           choices=tuple(choices) + (row,), warnings=tuple(warnings),
-                          likelihood=state)
+                          likelihood=(lk, P.lk_kw["setup"]))
     if INFORMATION_CONES:   # a study: the cones in the record (benchmarks/RESULTS.md)
         record["information"] = {"cones_deg": out.information_cones(f.frame, confidence,
                                                                     seed)[0]}
