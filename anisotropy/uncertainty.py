@@ -83,6 +83,7 @@ __all__ = [
     "bounded_by_lags",
     "range_text",
     "AXIS_NAMES",
+    "SWAP_AXES",
     "MIN_BLOCKS",
     "BootstrapResult",
     "BlockGrouping",
@@ -104,6 +105,11 @@ __all__ = [
     "trend_plunge_intervals",
     "fixed_frame_objectives",
 ]
+
+#: The axis exchanges :meth:`BootstrapResult.swap_rates` counts, and the two
+#: axes each involves.
+SWAP_AXES = {"major_semi_major": ("major", "semi_major"),
+             "semi_major_minor": ("semi_major", "minor")}
 
 #: Fewest occupied blocks the resampling should have (common practice: with
 #: fewer than a few dozen blocks the bootstrap distribution is too coarse).
@@ -1006,9 +1012,8 @@ class BootstrapResult:
     def _exchanged(self, i, conf):
         """True when the replicates exchange axis ``i`` with another in more than ``1 - conf``."""
         rates = self.swap_rates()
-        pairs = {0: ("major_semi_major",), 1: ("major_semi_major", "semi_major_minor"),
-                 2: ("semi_major_minor",)}[i]
-        return any(np.isfinite(rates[k]) and rates[k] > 1.0 - conf for k in pairs)
+        return any(np.isfinite(rates[k]) and rates[k] > 1.0 - conf
+                   for k, axes in SWAP_AXES.items() if AXIS_NAMES[i] in axes)
 
     def _ranked_axes(self, i):
         """Axis ``i`` of each replicate's own frame (ordered by its ranges), or None."""

@@ -10,6 +10,7 @@ from anisotropy.fitting import DirectionRanges, FitBins, direction_ranges
 from anisotropy.fitting.resolution import downhole_resolved_axes
 from anisotropy.geometry import vector_to_line
 from anisotropy.models import NestedModel
+from anisotropy.uncertainty import SWAP_AXES
 
 from anisotropy.constants import AXES
 from anisotropy.discovery.fan import FanRanges
@@ -366,10 +367,6 @@ def diagnose(model: NestedModel, fan: FanRanges, bins: FitBins, *, spacing, has_
                        resolved_down_hole=by_holes, ambiguous_axes=amb)
 
 
-#: Replicate axis exchanges counted by :meth:`BootstrapResult.swap_rates`.
-_SWAPS = {"major_semi_major": ("major", "semi_major"),
-          "semi_major_minor": ("semi_major", "minor")}
-
 
 def with_bootstrap(dg: Diagnostics, swap_rates: dict, confidence: float, *,
                    cones: dict | None = None, tolerance: float | None = None) -> Diagnostics:
@@ -412,7 +409,7 @@ def with_bootstrap(dg: Diagnostics, swap_rates: dict, confidence: float, *,
 def _swap_texts(swap_rates, limit):
     """Warnings and axes of the exchanges more frequent than ``limit``."""
     texts, amb = [], set()
-    for key, (a, b) in _SWAPS.items():
+    for key, (a, b) in SWAP_AXES.items():
         rate = swap_rates.get(key)
         if rate is None or not np.isfinite(rate) or rate <= limit:
             continue
