@@ -34,8 +34,9 @@ every result):
   widening to a rival frame: the likelihood's information cone on samples
   without drill holes, else the replicates' with the bootstrap's calibration
   factor; :meth:`anisotropy.uncertainty.BootstrapResult.cone`) and exceeds
-  ``practical_deg`` (10 degrees: differences below this are within what careful practitioners disagree by,
-  common practice, and never count against an interpretation);
+  ``practical_deg`` (10 degrees: differences below this are within what
+  careful practitioners disagree by, common practice, and never count
+  against an interpretation);
 * the fit is **worse** when the share of bootstrap ratios at least as large
   as the interpretation's is below ``ratio_share`` (0.1);
 * **consistent**: no axis outside and the fit not worse, or no axis outside
