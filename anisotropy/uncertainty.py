@@ -82,6 +82,7 @@ __all__ = [
     "holding_estimate",
     "bounded_by_lags",
     "range_text",
+    "carried_interval",
     "AXIS_NAMES",
     "SWAP_AXES",
     "MIN_BLOCKS",
@@ -371,6 +372,32 @@ def _scalar_interval(replicates, estimate, confidence, counts=None, *, prefer_bc
         if np.isfinite(blo) and np.isfinite(bhi):
             lo, hi, method = blo, bhi, "bca"
     return [float(lo), float(hi)], method
+
+
+def carried_interval(replicates, estimate, confidence):
+    """A percentile interval of positive replicates carried to an estimate from elsewhere.
+
+    ``estimate * q / median``, with ``q`` the replicates' equal-tailed
+    percentiles and ``median`` their median: the replicates' spread about
+    their own centre, on the log scale, placed about the estimate (the
+    estimate is then always inside). Plain percentiles where the estimate or
+    the median is not positive.
+
+    Returns
+    -------
+    interval : list of float
+    method : str
+    """
+    r = np.asarray(replicates, dtype=float)
+    r = r[np.isfinite(r)]
+    if r.size < 2:
+        return [math.nan, math.nan], "none"
+    lo, hi = percentile_interval(r, confidence)
+    med = float(np.median(r))
+    if estimate is None or not np.isfinite(estimate) or not estimate > 0 or not med > 0:
+        return [float(lo), float(hi)], "percentile"
+    k = float(estimate) / med
+    return [float(lo * k), float(hi * k)], "percentile, carried to the estimate"
 
 
 def range_text(interval, longest_lag=None) -> str:
@@ -844,6 +871,14 @@ class BootstrapResult:
     blocks : dict or None
         The block grouping used (see :class:`BlockGrouping`).
     seed, seconds, warnings
+    recentred : bool
+        The reference model comes from another estimator than the
+        replicates' refits (the likelihood's model, while each replicate
+        refits the variogram): the replicates then say how far their
+        estimator spreads about its own centre, not where the reference's
+        interval lies, so each replicate interval and band is carried to the
+        reference, ``estimate * quantile / median`` of the replicates
+        (percentile ratios; no BCa).
     rival_angles : dict or None
         Per axis, the angle (degrees) to a rival frame the likelihood cannot
         tell from the reported one; the cone is widened to hold it and a cone
@@ -857,6 +892,11 @@ class BootstrapResult:
         Frames drawn from the likelihood's Wald distribution (columns matched
         to the reference axes): the trend and plunge intervals of an axis
         whose cone is the information cone are read from them.
+    information_log_range_sd : dict or None
+        Per axis, the standard deviation of the log range from the same
+        information: where the cone is the information cone and the reported
+        model is the likelihood's, the range interval is the Wald interval
+        ``range * exp(+-z sd)`` (no calibration factor).
     """
 
     method: str
@@ -884,10 +924,12 @@ class BootstrapResult:
     cone_calibration: float = 1.0
     range_calibration: float = 1.0
     interval_method: str = "percentile"
+    recentred: bool = False
     group_of_block: np.ndarray | None = None
     rival_angles: dict | None = None
     information_cones: dict | None = None
     information_axes: np.ndarray | None = None
+    information_log_range_sd: dict | None = None
 
     # -- derived -----------------------------------------------------------
     @property
@@ -960,8 +1002,8 @@ class BootstrapResult:
             drawn = self.information_axes[:, :, i]     # intervals agreeing with the cone
         trend, plunge, note = trend_plunge_intervals(drawn, ref, conf, cone_deg=cone)
         est = self.reference_ranges[i]
-        rng, how = self._interval(self.ranges[:, i], est, conf)
-        rng, widened = holding_estimate(self._calibrate(rng, est), est)
+        rng, how = self._range_interval(i, est, conf, source)
+        rng, widened = holding_estimate(rng, est)
         rng, beyond = bounded_by_lags(rng, self.longest_lag)
         mt, mp = _trend_plunge(mean)
         out = {"cone_deg": float(cone), "cone_source": source,
@@ -1009,6 +1051,17 @@ class BootstrapResult:
             return cone, "replicates", cone
         return min(90.0, float(info)), "likelihood information", cone
 
+    def _range_interval(self, i, estimate, conf, source):
+        """The Wald interval on the log scale where the cone is the information's, else the
+        replicates' interval (calibrated); and how it was made."""
+        sd = (self.information_log_range_sd or {}).get(AXIS_NAMES[i])
+        if source == "replicates" or sd is None or not np.isfinite(sd) or not estimate > 0:
+            rng, how = self._interval(self.ranges[:, i], estimate, conf)
+            return self._calibrate(rng, estimate), how
+        z = float(ndtri(0.5 + 0.5 * conf))
+        return ([float(estimate * np.exp(-z * sd)), float(estimate * np.exp(z * sd))],
+                "likelihood information (Wald, log scale)")
+
     def _exchanged(self, i, conf):
         """True when the replicates exchange axis ``i`` with another in more than ``1 - conf``."""
         rates = self.swap_rates()
@@ -1031,6 +1084,8 @@ class BootstrapResult:
         return holding_estimate(self._interval(replicates, estimate, conf)[0], estimate)[0]
 
     def _interval(self, replicates, estimate, conf):
+        if self.recentred:
+            return carried_interval(replicates, estimate, conf)
         return _scalar_interval(replicates, estimate, conf, self.counts,
                                 prefer_bca=self.interval_method == "bca")
 
@@ -1124,6 +1179,11 @@ class BootstrapResult:
                 curves[k, j] = m.variogram_along(u, d)
         ref = np.stack([self.reference.variogram_along(u, d) for u in dirs])
         lo, hi = percentile_interval(curves, conf, axis=0)
+        if self.recentred:   # the replicates' relative spread, carried to the reference
+            with np.errstate(invalid="ignore", divide="ignore"):
+                med = np.nanmedian(curves, axis=0)
+                scale = np.where(med > 0, ref / med, 1.0)
+            lo, hi = lo * scale, hi * scale
         return {"distance": d, "model": ref, "lo": lo, "hi": hi}
 
     def experimental_bands(self, confidence=None):
@@ -1193,7 +1253,12 @@ class BootstrapResult:
             ("BCa (Efron & Tibshirani 1993, ch. 14) where the bias correction is finite, "
              "percentile otherwise" if self.interval_method == "bca" else
              "percentile (Efron & Tibshirani 1993, ch. 13)")
+            + ("; the reported model is the likelihood's and each replicate refits the "
+               "variogram, so replicate intervals and bands are the replicates' percentiles "
+               "carried to the reported value (times it, over their median)"
+               if self.recentred else "")
             + "; cones: the confidence quantile of replicate-to-reported axis angles")
+        out["recentred"] = bool(self.recentred)
         out["calibration"] = {"cone": float(self.cone_calibration),
                               "range_log": float(self.range_calibration),
                               "source": "benchmarks/RESULTS.md, uncertainty coverage study"}

@@ -119,3 +119,89 @@ def test_a_one_structure_refit_that_relabels_the_likelihoods_axes_is_not_reporte
     # the same order: the refit stands
     same = dataclasses.replace(lk, ranges=np.array([[100.0, 50.0, 20.0]]))
     assert _keep_axis_order(P, same, f) == (f, None, None)
+
+
+def _problem(fixed_nugget=None, n=300, seed=0, values=None, coords=None):
+    from anisotropy.fitting.refine import _Problem
+
+    bins = _bins(np.eye(3), [(0.9, (100.0, 50.0, 20.0))])
+    rng = np.random.default_rng(seed)
+    settings = FitSettings.for_lags(10.0, 155.0, fixed_nugget=fixed_nugget, total_sill=1.0,
+                                    planar=False)
+    coords = rng.uniform(0, 100, (n, 3)) if coords is None else coords
+    values = rng.normal(size=n) if values is None else values
+    start = _search(bins).best
+    return _Problem(bins, coords, values, 0, settings.kwargs(), start), start
+
+
+def test_the_likelihoods_model_is_reported_in_the_variograms_terms(monkeypatch):
+    # by hand: the likelihood's ranges, its nugget share 0.2 and structure share 0.8 of
+    # the refit's total sill; a held nugget stays held and the structure takes the rest
+    from anisotropy.fitting import refine
+    from anisotropy.fitting.likelihood import LikelihoodFit
+
+    lk = LikelihoodFit(frame=np.eye(3), ranges=np.array([[90.0, 40.0, 15.0]]),
+                       nugget_share=0.2, shares=np.array([0.8]), negloglik=0.0,
+                       negloglik_start=0.0, n_samples=300, n_neighbours=30,
+                       kinds=("spherical",))
+    for held_nugget in (None, 0.3):
+        P, start = _problem(held_nugget)
+        f = P.refit((np.eye(3), start.nugget, start.sills, start.ranges, start.kinds),
+                    np.eye(3))
+        tot = float(f.nugget + np.sum(f.sills))
+        out, refit, what = refine._likelihood_reported(P, lk, f, None)
+        assert np.allclose(out.ranges, [[90.0, 40.0, 15.0]])
+        nugget = 0.2 * tot if held_nugget is None else held_nugget
+        assert out.nugget == pytest.approx(nugget)
+        assert out.sills[0] == pytest.approx(tot - nugget)
+        assert refit["ranges"] == np.asarray(f.ranges).tolist() and "likelihood" in what
+        # nothing to replace: the axes were relabelled (held), other structures or kinds,
+        # or the switch off
+        assert refine._likelihood_reported(P, lk, f, "held")[0] is f
+        two = dataclasses.replace(lk, ranges=np.array([[30.0, 20.0, 5.0], [90.0, 40.0, 15.0]]),
+                                  shares=np.array([0.3, 0.5]), kinds=("spherical",) * 2)
+        assert refine._likelihood_reported(P, two, f, None)[0] is f
+        other = dataclasses.replace(lk, kinds=("exponential",))
+        assert refine._likelihood_reported(P, other, f, None)[0] is f
+        monkeypatch.setattr(refine, "REPORT_LIKELIHOOD_MODEL", False)
+        assert refine._likelihood_reported(P, lk, f, None) == (f, None, None)
+        monkeypatch.setattr(refine, "REPORT_LIKELIHOOD_MODEL", True)
+
+
+def test_the_kind_of_one_structure_is_chosen_by_the_likelihood():
+    # a spherical field (Cholesky of the spherical formula, Journel & Huijbregts 1978,
+    # ch. II, computed here with NumPy), started from an exponential: the spherical
+    # likelihood is the higher, and the variogram refit then carries that kind
+    from anisotropy.fitting.refine import _kind_choice
+
+    rng = np.random.default_rng(3)
+    X = rng.uniform(0, 150, (700, 3)) * [1.0, 1.0, 0.5]
+    h = np.sqrt((((X[:, None, :] - X[None, :, :]) / [80.0, 40.0, 20.0]) ** 2).sum(axis=2))
+    C = 0.95 * np.where(h < 1, 1 - 1.5 * h + 0.5 * h ** 3, 0.0) + 0.05 * np.eye(len(X))
+    y = np.linalg.cholesky(C) @ rng.standard_normal(len(X))
+    P, start = _problem(coords=X, values=y)
+    lk = P.likelihood(np.eye(3), [[80.0, 40.0, 20.0]], 0.05, [0.95], ("exponential",))
+    f = P.refit((np.eye(3), start.nugget, start.sills, start.ranges, ("exponential",)),
+                lk.frame)
+    best, g, record = _kind_choice(P, lk, f, ("spherical", "exponential"))
+    nll = record["negloglik"]
+    assert set(nll) == {"spherical", "exponential"} and record["variogram_kind"] == "exponential"
+    assert nll["spherical"] < nll["exponential"] and record["chosen"] == "spherical"
+    assert best.kinds == ("spherical",) and tuple(g.kinds) == ("spherical",)
+    assert best.negloglik == pytest.approx(nll["spherical"])
+    # the kind fixed by the user (no candidates), or two structures: nothing compared
+    assert _kind_choice(P, lk, f, ()) == (lk, f, None)
+
+
+def test_half_correlation_distances_solve_the_kinds_formulas():
+    # closed forms worked by hand from the formulas (Journel & Huijbregts 1978, ch. II;
+    # the exponential and Gaussian in their practical-range form): exp(-3h) = 1/2 at
+    # h = ln 2 / 3, exp(-3h^2) = 1/2 at sqrt(ln 2 / 3); the spherical's root of
+    # 1 - 1.5h + 0.5h^3 = 1/2 by NumPy's polynomial roots
+    from anisotropy.fitting.refine import half_correlation
+
+    assert half_correlation("exponential") == pytest.approx(np.log(2) / 3)
+    assert half_correlation("gaussian") == pytest.approx(np.sqrt(np.log(2) / 3))
+    roots = np.roots([0.5, 0.0, -1.5, 0.5])
+    sph = [r.real for r in roots if abs(r.imag) < 1e-12 and 0 < r.real < 1]
+    assert half_correlation("spherical") == pytest.approx(sph[0])

@@ -90,3 +90,26 @@ def test_no_cone_where_the_information_is_not_positive_definite():
                         kinds=("exponential",))
     ic = information_cones(fit, s, 0.9)
     assert ic.cones is None and "not positive definite" in ic.note
+
+
+def test_log_range_sd_is_the_inverse_information_of_the_log_ranges():
+    # the Wald covariance is the inverse of the observed information (Pawitan 2001,
+    # ch. 9): here its log-range diagonal against NumPy's inverse of the Hessian taken by
+    # second differences of the value kernel alone (a different code path)
+    X, y = _field(300, 6)
+    s = vecchia_setup(X, y, n_neighbours=10, seed=0)
+    lk = refine_frame_likelihood(X, y, np.eye(3), [[60.0, 30.0, 10.0]], 0.1, [0.9],
+                                 ("exponential",), setup=s)
+    ic = information_cones(lk, s, 0.9)
+    assert ic.log_range_sd is not None and ic.log_range_sd.shape == (1, 3)
+    p = lk.parameters()
+    f = lambda q: vecchia_negloglik(q, s.coords, s.values, s.neighbours,  # noqa: E731
+                                    ("exponential",))
+    h = 1e-3
+    E = np.eye(len(p)) * h
+    B = np.array([[(f(p + E[i] + E[j]) - f(p + E[i] - E[j]) - f(p - E[i] + E[j])
+                    + f(p - E[i] - E[j])) / (4 * h * h) for j in range(len(p))]
+                  for i in range(len(p))])
+    expected = np.sqrt(np.diag(np.linalg.inv(0.5 * (B + B.T)))[3:6])
+    np.testing.assert_allclose(ic.log_range_sd[0], expected, rtol=0.02)
+    assert ic.to_dict()["log_range_sd"] == [list(ic.log_range_sd[0])]

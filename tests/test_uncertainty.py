@@ -638,3 +638,71 @@ def test_information_cones_replace_the_replicates_unless_the_axes_are_exchanged(
         res.rival_angles = {"major": 40.0}
         assert res.axis_summary(0)["cone_deg"] == min(90.0, 40.0 + got[0]["cone_deg"])
         assert "40.0 degrees away" in res.axis_summary(0)["cone_note"]
+
+
+def test_range_interval_is_the_wald_interval_where_the_cone_is_the_informations(rng):
+    # where an axis's cone comes from the likelihood's information and that information's
+    # log-range standard deviation is given, the range interval is range * exp(+-z sd)
+    # with z the normal quantile (SciPy's norm.ppf), uncalibrated; an axis whose cone is
+    # the replicates' keeps the replicates' (calibrated) interval
+    from scipy.stats import norm
+
+    R = Rotation.from_euler("z", 30, degrees=True).as_matrix()
+    vol = _StandInVolume((8, 8, 1), (10, 10, 10), np.random.default_rng(9),
+                         R @ np.diag([9.0, 4.0, 1.0]) @ R.T, noise=0.3)
+    res = U.block_bootstrap(vol, _stand_in_refit, _reference(vol), n_replicates=60, seed=4)
+    res.distances = None     # no longest lag: bounds are kept as they are (tested elsewhere)
+    plain = [res.axis_summary(i) for i in range(3)]
+    res.information_log_range_sd = {"major": 0.1, "semi_major": 0.2, "minor": 0.05}
+    assert [res.axis_summary(i) for i in range(3)] == plain      # no information cones
+    res.information_cones = {"major": 2.5, "semi_major": 3.5, "minor": 1.5}
+    z = norm.ppf(0.5 + 0.5 * res.confidence)
+    for i, axis in enumerate(("major", "semi_major", "minor")):
+        got = res.axis_summary(i)
+        est = res.reference_ranges[i]
+        sd = res.information_log_range_sd[axis]
+        np.testing.assert_allclose(got["range"], [est * np.exp(-z * sd), est * np.exp(z * sd)])
+        assert got["range_interval"] == "likelihood information (Wald, log scale)"
+    res.information_cones = None
+    assert [res.axis_summary(i)["range"] for i in range(3)] == [p["range"] for p in plain]
+
+
+def test_carried_interval_is_the_replicates_spread_about_their_median_placed_at_the_estimate():
+    # by hand with NumPy's quantiles: estimate * q / median, the estimate inside; plain
+    # percentiles where the estimate is not positive
+    r = np.random.default_rng(2).lognormal(np.log(100.0), 0.3, 500)
+    lo, hi = np.quantile(r, [0.05, 0.95])
+    med = np.median(r)
+    got, how = U.carried_interval(r, 150.0, 0.9)
+    np.testing.assert_allclose(got, [150.0 * lo / med, 150.0 * hi / med])
+    assert got[0] < 150.0 < got[1] and how == "percentile, carried to the estimate"
+    np.testing.assert_allclose(U.carried_interval(r, 0.0, 0.9)[0], [lo, hi])
+    assert U.carried_interval(r[:1], 150.0, 0.9)[1] == "none"
+
+
+def test_a_recentred_bootstrap_carries_its_intervals_and_bands_to_the_reference(rng):
+    # the reference from another estimator (here: the stand-in's ranges scaled by 1.4):
+    # the range intervals and the model bands are the replicates' percentiles times the
+    # reference over the replicates' median (carried_interval above; NumPy by hand)
+    R = Rotation.from_euler("z", 30, degrees=True).as_matrix()
+    vol = _StandInVolume((8, 8, 1), (10, 10, 10), np.random.default_rng(9),
+                         R @ np.diag([9.0, 4.0, 1.0]) @ R.T, noise=0.3)
+    ref = _reference(vol)
+    res = U.block_bootstrap(vol, _stand_in_refit, ref, n_replicates=60, seed=4,
+                            range_calibration=1.0)
+    res.distances = None
+    res.recentred = True
+    for i in range(3):
+        est = res.reference_ranges[i]
+        r = res.ranges[:, i]
+        lo, hi = np.quantile(r, [0.05, 0.95])
+        np.testing.assert_allclose(res.axis_summary(i)["range"],
+                                   [est * lo / np.median(r), est * hi / np.median(r)])
+    u = res.reference_frame[:, 0]
+    d = np.array([5.0, 20.0, 60.0])
+    band = res.variogram_bands(u[None], d)
+    curves = np.array([m.variogram_along(u, d) for m in res.models])
+    k = band["model"][0] / np.median(curves, axis=0)
+    np.testing.assert_allclose(band["lo"][0], np.quantile(curves, 0.05, axis=0) * k)
+    np.testing.assert_allclose(band["hi"][0], np.quantile(curves, 0.95, axis=0) * k)
+    assert res.to_dict()["recentred"] is True

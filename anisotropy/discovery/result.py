@@ -464,7 +464,11 @@ class Discovery:
             res = block_bootstrap(self.volume_with_blocks(), self.refit, self.model,
                                   estimator=self.estimator, **kw)
         res.rival_angles = self.rival_angles()
-        res.information_cones, res.information_axes = self.information_cones(confidence_level)
+        fr = self.refinement.frame_refinement
+        res.recentred = bool(fr is not None and (fr.record or {}).get(
+            "likelihood_model_reported"))
+        (res.information_cones, res.information_axes,
+         res.information_log_range_sd) = self.information_cones(confidence_level)
         return res
 
     def information_cones(self, confidence=0.9):
@@ -486,11 +490,17 @@ class Discovery:
         axes : ndarray (draws, 3, 3) or None
             Frames drawn from the Wald distribution (for trend and plunge
             intervals), columns matched to the reported axes.
+        log_range_sd : dict or None
+            Per axis, the standard deviation of the log range (Wald range
+            intervals, where the reported model is the likelihood's).
         """
         fr = self.refinement.frame_refinement
         if fr is None or self.samples.holes is not None:
-            return None, None
-        return fr.information_cones(self.frame, confidence, seed=self.params.seed)
+            return None, None, None
+        cones, axes, sd = fr.information_cones(self.frame, confidence, seed=self.params.seed)
+        if not (fr.record or {}).get("likelihood_model_reported"):
+            sd = None   # the reported ranges are a variogram refit's, not the likelihood's
+        return cones, axes, sd
 
     def rival_angles(self) -> dict | None:
         """Angle (degrees) from each reported axis to a rival frame's, where one is as likely.

@@ -152,7 +152,9 @@ def choose_structures(bins: FitBins, search: Search, settings: FitSettings, *, c
         others = tuple((f"search start {k + 1}", f.frame) for k, f in enumerate(search.polished))
         fr = refine_frame(fit, bins, coords, values, seed=seed, fit_kwargs=common,
                           add_structure=n_structures is None, one_structure=best,
-                          holes=holes, other_frames=others, confidence=confidence)
+                          holes=holes, other_frames=others, confidence=confidence,
+                          kinds=() if kinds is not None else
+                          tuple(k["kind"] for k in search.kinds))
         fit = fr.fit
     choices = (() if fr is None else fr.choices) + (
         _structures_choice(n_structures, fit, None if fr is None else fr.record),)

@@ -7,7 +7,9 @@ covariance of the estimates, ``H^-1`` (the Wald approximation; Pawitan 2001,
 the covariance of the frame with the ranges and sill shares estimated too
 (the profile information).  Rotation vectors drawn from that normal
 distribution turn each axis of the frame; the angle within which a share
-``confidence`` of the turned axes falls is the axis's cone.
+``confidence`` of the turned axes falls is the axis's cone.  Its diagonal
+at the log ranges gives their standard deviations, hence Wald intervals of
+the ranges on the log scale.
 
 Here ``H`` is the central difference of the compiled analytic gradient
 (:func:`anisotropy.fitting.likelihood.vecchia_negloglik_grad`), one pair of
@@ -58,6 +60,10 @@ class InformationCones:
     frames : ndarray (draws, 3, 3) or None
         The frames drawn from the Wald distribution (columns as the fit's),
         for trend and plunge intervals; not in :meth:`to_dict`.
+    log_range_sd : ndarray (K, 3) or None
+        Standard deviations of the natural logarithms of the fit's ranges
+        (structures and columns as the fit's), the other parameters
+        estimated too.
     """
 
     cones: dict | None
@@ -65,6 +71,7 @@ class InformationCones:
     rotation_sd: np.ndarray | None = None
     note: str = ""
     frames: np.ndarray | None = None
+    log_range_sd: np.ndarray | None = None
 
     def to_dict(self) -> dict:
         """JSON-ready dictionary."""
@@ -72,7 +79,9 @@ class InformationCones:
                 {k: float(v) for k, v in self.cones.items()},
                 "confidence": float(self.confidence),
                 "rotation_sd_deg": None if self.rotation_sd is None else
-                [float(x) for x in self.rotation_sd], "note": self.note}
+                [float(x) for x in self.rotation_sd], "note": self.note,
+                "log_range_sd": None if self.log_range_sd is None else
+                np.asarray(self.log_range_sd, float).tolist()}
 
 
 def observed_information(p, args, step=STEP):
@@ -128,11 +137,14 @@ def information_cones(fit, setup, confidence=0.9, seed=0) -> InformationCones:
         return InformationCones(None, confidence, note=(
             "the observed information is not positive definite (a flat or saddle "
             "direction, or a sill share at its bound): no cone from it"))
-    rot = ((V / w) @ V.T)[:3, :3]
+    C = (V / w) @ V.T
+    rot = C[:3, :3]
     M = drawn_frames(p[:3], rot, seed)
     q = _cone_quantiles(M, p[:3], confidence)
+    K = len(fit.kinds)
     return InformationCones({a: float(q[i]) for i, a in enumerate(AXES)}, confidence,
-                            rotation_sd=np.degrees(np.sqrt(np.diag(rot))), frames=M)
+                            rotation_sd=np.degrees(np.sqrt(np.diag(rot))), frames=M,
+                            log_range_sd=np.sqrt(np.diag(C)[3:3 + 3 * K]).reshape(K, 3))
 
 
 def drawn_frames(rotvec, covariance, seed=0, draws=DRAWS):
