@@ -339,6 +339,17 @@ def cone_holds(entry, reported, truth):
     return bool(held)
 
 
+def range_holds(entry, truth):
+    """Whether a range interval (uncertainty.to_dict()[axis]["range"]) holds the true range.
+
+    A missing bound (beyond the longest lag) is open on that side. None when no interval.
+    """
+    if not isinstance(entry, dict) or not entry.get("range"):
+        return None
+    lo, hi = entry["range"]
+    return bool((lo is None or lo <= truth) and (hi is None or truth <= hi))
+
+
 def _plain(x):
     """JSON-ready copy of a diagnostics entry (arrays to lists, numbers to floats)."""
     if isinstance(x, dict):
@@ -382,6 +393,7 @@ def engine_record(D, spec, real):
             # widened to hold a rival frame of the likelihood (not the bootstrap's width)
             rec[f"{ax}_cone_widened"] = isinstance(e, dict) and "cone_note" in e
             rec[f"{ax}_in_cone"] = cone_holds(e, D.frame[:, i], R[:, i])
+            rec[f"{ax}_range_in"] = range_holds(e, true_r[i])
         rec["swap_rate"] = u.get("swap_rate")
     info = (D.diagnostics.get("frame_refinement") or {}).get("information")
     if info and info.get("cones_deg") and spec["structures"]:

@@ -329,6 +329,7 @@ def one_discover(name, sim, reps, refine=True, information=False):
         out[f"{ax}_range_est"] = float(res.reference_ranges[i])
         out[f"{ax}_range_lo"], out[f"{ax}_range_hi"] = (None if lo is None else float(lo),
                                                          None if hi is None else float(hi))
+        out[f"{ax}_range_how"] = d[ax].get("range_interval")
     return out
 
 
@@ -372,6 +373,10 @@ def summarise_discover(rows):
             r[f"range_{ax}"] = float(np.mean(g[f"{ax}_range_in"]))
         for ax in U.AXIS_NAMES:
             r[f"med_err_{ax}"] = float(g[f"{ax}_err"].median())
+        for i, ax in enumerate(U.AXIS_NAMES):   # median |log(reported / true range)|
+            true = np.array([SCENARIOS[n]["ranges"][i] for n in g["scenario"]])
+            r[f"med_range_logerr_{ax}"] = float(np.median(np.abs(np.log(
+                g[f"{ax}_range_est"].to_numpy(float) / true))))
         r["med_err_major_vario"] = float(g["major_err_variogram"].median())
         r["med_cone_major"] = float(g["major_cone"].median())
         r["refined"] = int(g["refined"].sum())
