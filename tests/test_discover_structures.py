@@ -205,3 +205,30 @@ def test_half_correlation_distances_solve_the_kinds_formulas():
     roots = np.roots([0.5, 0.0, -1.5, 0.5])
     sph = [r.real for r in roots if abs(r.imag) < 1e-12 and 0 < r.real < 1]
     assert half_correlation("spherical") == pytest.approx(sph[0])
+
+
+def test_a_kind_whose_search_fails_is_left_out_of_the_choice():
+    # a data failure (FitError) of one candidate kind's search does not end the refinement:
+    # that kind is listed as failed and the others are compared as usual
+    from anisotropy.errors import FitError
+    from anisotropy.fitting.likelihood import LikelihoodFit
+    from anisotropy.fitting.refine import _kind_choice, _kind_row
+
+    P, start = _problem()
+    lk = LikelihoodFit(frame=np.eye(3), ranges=np.array([[90.0, 40.0, 15.0]]),
+                       nugget_share=0.2, shares=np.array([0.8]), negloglik=-10.0,
+                       negloglik_start=0.0, n_samples=300, n_neighbours=30,
+                       kinds=("spherical",))
+    f = P.refit((np.eye(3), start.nugget, start.sills, start.ranges, start.kinds), np.eye(3))
+
+    def likelihood(frame, ranges, nugget, sills, kinds, **kw):
+        if kinds == ("gaussian",):
+            raise FitError("the covariance is not positive definite")
+        return dataclasses.replace(lk, kinds=kinds, negloglik=-5.0)
+
+    P.likelihood = likelihood
+    best, g, record = _kind_choice(P, lk, f, ("spherical", "exponential", "gaussian"))
+    assert best is lk and g is f
+    assert record["negloglik"] == {"spherical": -10.0, "exponential": -5.0}
+    assert "positive definite" in record["failed"]["gaussian"]
+    assert "gaussian not compared" in _kind_row(record)["reason"]

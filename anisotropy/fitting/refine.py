@@ -263,12 +263,13 @@ def _kind_choice(P, lk, f, kinds):
         The best likelihood and the variogram refit of its kind with its
         frame held (unchanged where the variogram's kind is best).
     record : dict or None
-        Each kind's negative log-likelihood; None with other than one
-        structure or fewer than two kinds.
+        Each kind's negative log-likelihood, and in ``failed`` the kinds
+        whose search failed for data reasons (with why); None with other
+        than one structure or fewer than two kinds.
     """
     if len(f.sills) != 1 or len(lk.shares) != 1 or len(set(kinds)) < 2:
         return lk, f, None
-    table, best = {lk.kinds[0]: float(lk.negloglik)}, lk
+    table, best, failed = {lk.kinds[0]: float(lk.negloglik)}, lk, {}
     for kind in dict.fromkeys(kinds):
         if kind in table:
             continue
@@ -277,11 +278,16 @@ def _kind_choice(P, lk, f, kinds):
         # 15 log-units below its maximum (tests/test_discover_structures.py)
         ranges = np.asarray(lk.ranges, float) * (half_correlation(lk.kinds[0])
                                                  / half_correlation(kind))
-        alt = P.likelihood(lk.frame, ranges, lk.nugget_share, lk.shares, (kind,),
-                           ftol=LIKELIHOOD_FTOL)
+        try:
+            alt = P.likelihood(lk.frame, ranges, lk.nugget_share, lk.shares, (kind,),
+                               ftol=LIKELIHOOD_FTOL)
+        except FitError as exc:   # one kind's search failing leaves the others standing
+            failed[kind] = str(exc)
+            continue
         table[kind] = float(alt.negloglik)
         best = alt if alt.negloglik < best.negloglik else best
-    record = {"negloglik": table, "variogram_kind": lk.kinds[0], "chosen": best.kinds[0]}
+    record = {"negloglik": table, "variogram_kind": lk.kinds[0], "chosen": best.kinds[0],
+              "failed": failed}
     if best is lk:
         return lk, f, record
     f = P.refit((best.frame, f.nugget, f.sills, np.asarray(best.ranges, float),
@@ -300,8 +306,10 @@ def _kind_row(record):
     """The choice row of the likelihood's choice of structure kind."""
     nll = record["negloglik"]
     best = nll[record["chosen"]]
-    others = ", ".join(f"{k} {v - best:.1f} below" for k, v in nll.items()
-                       if k != record["chosen"])
+    others = ", ".join([f"{k} {v - best:.1f} below" for k, v in nll.items()
+                        if k != record["chosen"]]
+                       + [f"{k} not compared: its search failed"
+                          for k in record.get("failed", {})])
     return {"choice": "structure kind", "value": record["chosen"],
             "reason": f"the highest likelihood of the candidate kinds on the same "
                       f"conditioning sets ({others} log-likelihood units); the variogram fit "
