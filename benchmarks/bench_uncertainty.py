@@ -310,7 +310,12 @@ def one_discover(name, sim, reps, refine=True, information=False):
            "range_calibration": float(res.range_calibration),
            "warnings": list(D.warnings),
            "unresolved": list(D.diagnostics.get("unresolved_axes") or []),
-           "ambiguous": list(D.diagnostics.get("ambiguous_axes") or [])}
+           "ambiguous": list(D.diagnostics.get("ambiguous_axes") or []),
+           # the nugget in the model's units (the simulated field has unit variance)
+           "nugget_est": float(D.model.nugget), "nugget_true": float(sc["nugget"]),
+           "nugget_interval": d.get("nugget"),
+           "nugget_in": _holds(*(d.get("nugget") or (None, None)), sc["nugget"])
+           if d.get("nugget") is not None else None}
     for i, ax in enumerate(U.AXIS_NAMES):
         err = float(axis_angle(ref[:, i], F[:, i]))
         cone = float(d[ax]["cone_deg"])
@@ -386,6 +391,10 @@ def summarise_discover(rows):
             for ax in U.AXIS_NAMES:
                 r[f"info_{ax}"] = float(np.mean(g[f"{ax}_info_in"].dropna().astype(bool)))
             r["med_info_cone_major"] = float(g["major_info_cone"].median())
+        if "nugget_in" in g:   # the nugget's interval and error (model units, unit variance)
+            held = g["nugget_in"].dropna()
+            r["nugget_in"] = float(np.mean(held.astype(bool))) if len(held) else np.nan
+            r["med_nugget_abs_err"] = float(np.median(np.abs(g["nugget_est"] - g["nugget_true"])))
         if "unresolved" in g:   # share of runs with each axis flagged unresolved
             for ax in U.AXIS_NAMES:
                 r[f"flag_{ax}"] = float(np.mean([ax in u for u in g["unresolved"]]))
