@@ -53,7 +53,6 @@ def main(argv=None):
                       flush=True)
 
 
-
 def demo_domains(tree, calls):
     """``discover`` (no bootstrap, the demo's seed) on each demo domain of ``tree``.
 

@@ -367,7 +367,6 @@ def diagnose(model: NestedModel, fan: FanRanges, bins: FitBins, *, spacing, has_
                        resolved_down_hole=by_holes, ambiguous_axes=amb)
 
 
-
 def with_bootstrap(dg: Diagnostics, swap_rates: dict, confidence: float, *,
                    cones: dict | None = None, tolerance: float | None = None) -> Diagnostics:
     """The diagnosis after the bootstrap: axes its replicates leave open are unresolved.

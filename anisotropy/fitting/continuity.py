@@ -420,11 +420,11 @@ def directional_test(values, pairs, classes, directions, *, name="first_lag",
     pairs plus all the pairs together. Each member's ratio is standardised by
     its exact mean and standard deviation under permutation
     (:func:`randomisation_sd`), and the statistic is the smallest
-    standardised ratio, tested against the permutation distribution of that same minimum (the single-step max-T
-    adjustment with standardised statistics, Westfall & Young 1993,
-    *Resampling-Based Multiple Testing*, ch. 2), so testing many members
-    costs no false alarms and a member with few pairs does not dominate by its
-    spread alone. Where Cantelli's bound summed over the members
+    standardised ratio, tested against the permutation distribution of that
+    same minimum (the single-step max-T adjustment with standardised
+    statistics, Westfall & Young 1993, *Resampling-Based Multiple Testing*,
+    ch. 2), so testing many members costs no false alarms and a member with
+    few pairs does not dominate by its spread alone. Where Cantelli's bound summed over the members
     (:func:`tail_bound`) is already below ``alpha`` no permutation is drawn.
 
     Parameters

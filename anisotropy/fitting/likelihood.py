@@ -228,6 +228,7 @@ def _unpack(p, K):
 
 _KIND_CODE = {"spherical": 0, "exponential": 1, "gaussian": 2, "cubic": 3}
 
+
 def _kind_codes(kinds):
     try:
         return np.array([_KIND_CODE[k] for k in kinds], dtype=np.int64)

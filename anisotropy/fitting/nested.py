@@ -43,7 +43,6 @@ __all__ = ["NestedFit", "fit_nested", "rho", "model_gamma", "KINDS", "ANALYTIC_J
 ANALYTIC_JACOBIAN = True
 
 
-
 def rho(kind: str, h):
     """Correlation of a unit-sill structure at scaled distance ``h``.
 
