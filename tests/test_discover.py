@@ -656,6 +656,14 @@ def test_model_based_bootstrap_option(tmp_path):
     assert u[0]["method"] == "model_bootstrap" and u[0]["replicates"] == 12
     assert u[0]["major"]["cone_deg"] == u[1]["major"]["cone_deg"]
     assert u[0]["major"]["range"] == u[1]["major"]["range"]
+    # the reported model is the likelihood's (its ranges as recorded, held inside the fit's
+    # range limit), so the replicates, which refit the variogram, are carried to it
+    fr = runs[0].refinement.frame_refinement
+    lk_ranges = sorted(runs[0].diagnostics["frame_refinement"]["ranges"][0], reverse=True)
+    limit = runs[0].refit.settings.max_range
+    assert fr.reports_likelihood_model and u[0]["recentred"] is True
+    assert runs[0].model.structures[0].ranges == pytest.approx(
+        np.minimum(lk_ranges, limit), rel=1e-5)
     with pytest.raises(anisotropy.InputError, match="bootstrap method"):
         anisotropy.discover(df, value="grade", bootstrap=5, bootstrap_method="jackknife")
 

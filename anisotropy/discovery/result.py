@@ -465,8 +465,7 @@ class Discovery:
                                   estimator=self.estimator, **kw)
         res.rival_angles = self.rival_angles()
         fr = self.refinement.frame_refinement
-        res.recentred = bool(fr is not None and (fr.record or {}).get(
-            "likelihood_model_reported"))
+        res.recentred = fr is not None and fr.reports_likelihood_model
         (res.information_cones, res.information_axes,
          res.information_log_range_sd) = self.information_cones(confidence_level)
         return res
@@ -498,7 +497,7 @@ class Discovery:
         if fr is None or self.samples.holes is not None:
             return None, None, None
         cones, axes, sd = fr.information_cones(self.frame, confidence, seed=self.params.seed)
-        if not (fr.record or {}).get("likelihood_model_reported"):
+        if not fr.reports_likelihood_model:
             sd = None   # the reported ranges are a variogram refit's, not the likelihood's
         return cones, axes, sd
 

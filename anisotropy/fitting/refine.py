@@ -138,6 +138,11 @@ class FrameRefinement:
     warnings: tuple[str, ...] = ()
     likelihood: tuple | None = None
 
+    @property
+    def reports_likelihood_model(self) -> bool:
+        """True when :attr:`fit` carries the likelihood's ranges (not a variogram refit's)."""
+        return bool((self.record or {}).get("likelihood_model_reported"))
+
     def information_cones(self, frame, confidence=0.9, seed=0):
         """Each column of ``frame``'s cone (degrees) from the likelihood's observed information.
 
