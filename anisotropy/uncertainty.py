@@ -392,12 +392,25 @@ def carried_interval(replicates, estimate, confidence):
     r = r[np.isfinite(r)]
     if r.size < 2:
         return [math.nan, math.nan], "none"
-    lo, hi = percentile_interval(r, confidence)
-    med = float(np.median(r))
-    if estimate is None or not np.isfinite(estimate) or not estimate > 0 or not med > 0:
-        return [float(lo), float(hi)], "percentile"
-    k = float(estimate) / med
-    return [float(lo * k), float(hi * k)], "percentile, carried to the estimate"
+    if estimate is None or not np.isfinite(estimate) or not estimate > 0 \
+            or not np.median(r) > 0:
+        return [float(x) for x in percentile_interval(r, confidence)], "percentile"
+    lo, hi = _carried(r, estimate, confidence)
+    return [float(lo), float(hi)], "percentile, carried to the estimate"
+
+
+def _carried(replicates, estimate, confidence, axis=0):
+    """``estimate * quantile / median`` of the replicates along ``axis`` (NaN ignored).
+
+    Where the median or the estimate is not positive the plain percentiles
+    are kept.
+    """
+    lo, hi = percentile_interval(replicates, confidence, axis=axis)
+    with np.errstate(invalid="ignore", divide="ignore"), _warnings.catch_warnings():
+        _warnings.simplefilter("ignore", RuntimeWarning)   # all-NaN columns stay NaN
+        med = np.nanmedian(np.asarray(replicates, dtype=float), axis=axis)
+        scale = np.where((med > 0) & (np.asarray(estimate) > 0), estimate / med, 1.0)
+    return lo * scale, hi * scale
 
 
 def range_text(interval, longest_lag=None) -> str:
@@ -1178,12 +1191,10 @@ class BootstrapResult:
             for j, u in enumerate(dirs):
                 curves[k, j] = m.variogram_along(u, d)
         ref = np.stack([self.reference.variogram_along(u, d) for u in dirs])
-        lo, hi = percentile_interval(curves, conf, axis=0)
         if self.recentred:   # the replicates' relative spread, carried to the reference
-            with np.errstate(invalid="ignore", divide="ignore"):
-                med = np.nanmedian(curves, axis=0)
-                scale = np.where(med > 0, ref / med, 1.0)
-            lo, hi = lo * scale, hi * scale
+            lo, hi = _carried(curves, ref, conf)
+        else:
+            lo, hi = percentile_interval(curves, conf, axis=0)
         return {"distance": d, "model": ref, "lo": lo, "hi": hi}
 
     def experimental_bands(self, confidence=None):
