@@ -314,7 +314,7 @@ def _kind_row(record):
     others = ", ".join([f"{k} {v - best:.1f} below" for k, v in nll.items()
                         if k != record["chosen"]]
                        + [f"{k} not compared: its search failed"
-                          for k in record.get("failed", {})])
+                          for k in record["failed"]])
     return {"choice": "structure kind", "value": record["chosen"],
             "reason": f"the highest likelihood of the candidate kinds on the same "
                       f"conditioning sets ({others} log-likelihood units); the variogram fit "
