@@ -66,11 +66,12 @@ from typing import Callable
 
 import numpy as np
 from scipy.optimize import linear_sum_assignment
-from scipy.special import ndtr, ndtri
+from scipy.special import expit, ndtr, ndtri
 
 from anisotropy.constants import AXES as AXIS_NAMES
 from anisotropy.errors import AnisotropyError, InputError, InsufficientDataError
 from anisotropy.estimators import check_estimator, estimate
+from anisotropy.fitting.information import ReportedInformation
 from anisotropy.geometry import axis_angle, to_lower_hemisphere, vector_to_line
 from anisotropy.pairs import build_volume
 from anisotropy.parallel import check_jobs, n_workers, run_tasks
@@ -896,20 +897,17 @@ class BootstrapResult:
         Per axis, the angle (degrees) to a rival frame the likelihood cannot
         tell from the reported one; the cone is widened to hold it and a cone
         as wide around it (the angle plus the cone).
-    information_cones : dict or None
-        Per axis, the cone (degrees) from the likelihood's observed
-        information (:meth:`anisotropy.fitting.refine.FrameRefinement.information_cones`);
-        where given, it is the axis's cone unless the replicates exchange that
-        axis with another more often than ``1 - confidence``.
-    information_axes : ndarray (draws, 3, 3) or None
-        Frames drawn from the likelihood's Wald distribution (columns matched
-        to the reference axes): the trend and plunge intervals of an axis
-        whose cone is the information cone are read from them.
-    information_log_range_sd : dict or None
-        Per axis, the standard deviation of the log range from the same
-        information: where the cone is the information cone and the reported
-        model is the likelihood's, the range interval is the Wald interval
-        ``range * exp(+-z sd)`` (no calibration factor).
+    information : anisotropy.fitting.information.ReportedInformation or None
+        The likelihood's observed information in the reported model's terms
+        (:meth:`anisotropy.fitting.refine.FrameRefinement.likelihood_information`).
+        Its cone of an axis is that axis's cone unless the replicates
+        exchange the axis with another more often than ``1 - confidence``;
+        the trend and plunge intervals of such an axis are read from its
+        Wald frames. Where its log-range standard deviation is given too, the
+        axis's range interval is the Wald interval ``range * exp(+-z sd)``
+        (no calibration factor); where its share-logit standard deviations
+        are given, the nugget's and sills' intervals are the Wald intervals
+        of their shares on the logit scale, times the reported total sill.
     """
 
     method: str
@@ -940,9 +938,7 @@ class BootstrapResult:
     recentred: bool = False
     group_of_block: np.ndarray | None = None
     rival_angles: dict | None = None
-    information_cones: dict | None = None
-    information_axes: np.ndarray | None = None
-    information_log_range_sd: dict | None = None
+    information: ReportedInformation | None = None
 
     # -- derived -----------------------------------------------------------
     @property
@@ -1011,8 +1007,9 @@ class BootstrapResult:
         widened_to_rival = reach > cone
         cone = max(cone, reach)
         drawn = reps
-        if source != "replicates" and self.information_axes is not None:
-            drawn = self.information_axes[:, :, i]     # intervals agreeing with the cone
+        axes = None if self.information is None else self.information.axes
+        if source != "replicates" and axes is not None:
+            drawn = axes[:, :, i]     # intervals agreeing with the cone
         trend, plunge, note = trend_plunge_intervals(drawn, ref, conf, cone_deg=cone)
         est = self.reference_ranges[i]
         rng, how = self._range_interval(i, est, conf, source)
@@ -1059,7 +1056,7 @@ class BootstrapResult:
         if ranked is not None:
             cone = max(cone, axis_cone(ranked, ref, conf)[1])
         cone = min(90.0, cone * self.cone_calibration)
-        info = (self.information_cones or {}).get(AXIS_NAMES[i])
+        info = self._information("cones", AXIS_NAMES[i])
         if info is None or conf != self.confidence or self._exchanged(i, conf):
             return cone, "replicates", cone
         return min(90.0, float(info)), "likelihood information", cone
@@ -1067,13 +1064,35 @@ class BootstrapResult:
     def _range_interval(self, i, estimate, conf, source):
         """The Wald interval on the log scale where the cone is the information's, else the
         replicates' interval (calibrated); and how it was made."""
-        sd = (self.information_log_range_sd or {}).get(AXIS_NAMES[i])
+        sd = self._information("log_range_sd", AXIS_NAMES[i])
         if source == "replicates" or sd is None or not np.isfinite(sd) or not estimate > 0:
             rng, how = self._interval(self.ranges[:, i], estimate, conf)
             return self._calibrate(rng, estimate), how
         z = float(ndtri(0.5 + 0.5 * conf))
         return ([float(estimate * np.exp(-z * sd)), float(estimate * np.exp(z * sd))],
                 "likelihood information (Wald, log scale)")
+
+    def _information(self, what, name):
+        """``self.information``'s entry ``name`` of its field ``what``, or None."""
+        return (getattr(self.information, what, None) or {}).get(name)
+
+    def _scalar_band(self, name, conf, notes):
+        """Interval of "nugget", "total_sill" or "sill<k>" (None where held fixed).
+
+        The Wald interval of its share of the total sill on the logit scale,
+        times the reported total sill, where the likelihood's information
+        gives the share's standard deviation; else the replicates'.
+        """
+        est = self._estimate_of(name)
+        sd = self._information("logit_share_sd", name)
+        tot = float(self.reference.total_sill)
+        if sd is not None and np.isfinite(sd) and 0.0 < est < tot:
+            z = float(ndtri(0.5 + 0.5 * conf))
+            logit = math.log(est / (tot - est))
+            return [float(tot * expit(logit - z * sd)), float(tot * expit(logit + z * sd))]
+        what = {"nugget": "nugget", "total_sill": "total sill"}.get(name) or \
+            f"sill of structure {int(name[4:]) + 1}"
+        return self._held_or_interval(self._replicates_of(name), est, conf, what, notes)
 
     def _exchanged(self, i, conf):
         """True when the replicates exchange axis ``i`` with another in more than ``1 - conf``."""
@@ -1121,8 +1140,7 @@ class BootstrapResult:
         if name in AXIS_NAMES:
             return self.axis_summary(AXIS_NAMES.index(name), conf)["range"]
         if name in self._scalar_names():
-            return self._held_or_interval(self._replicates_of(name), self._estimate_of(name),
-                                          conf, name, [])
+            return self._scalar_band(name, conf, [])
         raise InputError(f"no interval called {name!r}")
 
     @property
@@ -1141,8 +1159,7 @@ class BootstrapResult:
                 notes[axis] = summ["range_note"]
         for name in self._scalar_names():
             held = []
-            band = self._held_or_interval(self._replicates_of(name), self._estimate_of(name),
-                                          self.confidence, name.replace("_", " "), held)
+            band = self._scalar_band(name, self.confidence, held)
             names.append(name)
             est.append(self._estimate_of(name))
             low.append(np.nan if band is None else band[0])
@@ -1251,12 +1268,14 @@ class BootstrapResult:
             out[name] = self.axis_summary(i, conf)
         notes = []
         ref = self.reference
-        out["nugget"] = self._held_or_interval(self.nugget, ref.nugget, conf, "nugget", notes)
-        out["sills"] = [self._held_or_interval(self.sills[:, k], s.sill, conf,
-                                               f"sill of structure {k + 1}", notes)
-                        for k, s in enumerate(ref.structures)]
-        out["total_sill"] = self._held_or_interval(self.total_sill, ref.total_sill, conf,
-                                                   "total sill", notes)
+        out["nugget"] = self._scalar_band("nugget", conf, notes)
+        out["sills"] = [self._scalar_band(f"sill{k}", conf, notes)
+                        for k in range(len(ref.structures))]
+        out["total_sill"] = self._scalar_band("total_sill", conf, notes)
+        out["share_interval"] = ("likelihood information (Wald, logit scale of the share, "
+                                 "times the total sill)"
+                                 if self._information("logit_share_sd", "nugget") is not None
+                                 else "replicates")
         out["notes"] = notes
         out["swap_rate"] = self.swap_rates()
         out["interval_method"] = self.interval_method

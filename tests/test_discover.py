@@ -664,6 +664,15 @@ def test_model_based_bootstrap_option(tmp_path):
     assert fr.reports_likelihood_model and u[0]["recentred"] is True
     assert runs[0].model.structures[0].ranges == pytest.approx(
         np.minimum(lk_ranges, limit), rel=1e-5)
+    # the nugget is the likelihood's share, so its interval is the Wald interval of that
+    # share on the logit scale (SciPy's norm.ppf, logit, expit), times the total sill
+    from scipy.special import expit, logit
+    from scipy.stats import norm
+    sd = runs[0].likelihood_information(0.9).logit_share_sd["nugget"]
+    tot, nug = runs[0].model.total_sill, runs[0].model.nugget
+    z = norm.ppf(0.95)
+    np.testing.assert_allclose(u[0]["nugget"], tot * expit(logit(nug / tot) + np.r_[-z, z] * sd))
+    assert u[0]["share_interval"].startswith("likelihood information")
     with pytest.raises(anisotropy.InputError, match="bootstrap method"):
         anisotropy.discover(df, value="grade", bootstrap=5, bootstrap_method="jackknife")
 

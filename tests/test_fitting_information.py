@@ -2,7 +2,8 @@
 
 import numpy as np
 
-from anisotropy.fitting.information import axis_cones, information_cones, observed_information
+from anisotropy.fitting.information import (axis_cones, information_cones, observed_information,
+                                            share_logit_sd)
 from anisotropy.fitting.likelihood import (LikelihoodFit, refine_frame_likelihood,
                                            vecchia_negloglik, vecchia_setup)
 
@@ -113,3 +114,29 @@ def test_log_range_sd_is_the_inverse_information_of_the_log_ranges():
     expected = np.sqrt(np.diag(np.linalg.inv(0.5 * (B + B.T)))[3:6])
     np.testing.assert_allclose(ic.log_range_sd[0], expected, rtol=0.02)
     assert ic.to_dict()["log_range_sd"] == [list(ic.log_range_sd[0])]
+    # one structure: the nugget share is the logistic of the one free logit, so both
+    # shares' logits are +-that logit and share its standard deviation
+    logit_sd = np.sqrt(np.linalg.inv(0.5 * (B + B.T))[6, 6])
+    np.testing.assert_allclose(ic.logit_share_sd, [logit_sd, logit_sd], rtol=0.02)
+
+
+def test_share_logit_sd_is_the_delta_method_through_the_softmax():
+    # against a central-difference Jacobian (NumPy) of logit(softmax(z, 0)) at random
+    # logits, and the closed form of one structure (the logistic: sd unchanged)
+    rng = np.random.default_rng(5)
+    z = rng.normal(size=2)
+    A = rng.normal(size=(2, 2))
+    C = A @ A.T + 0.1 * np.eye(2)
+
+    def logit_shares(v):
+        e = np.exp(np.r_[v, 0.0])
+        f = e / e.sum()
+        return np.log(f / (1.0 - f))
+
+    h = 1e-6
+    J = np.stack([(logit_shares(z + h * e) - logit_shares(z - h * e)) / (2 * h)
+                  for e in np.eye(2)], axis=1)
+    e = np.exp(np.r_[z, 0.0])
+    got = share_logit_sd(C, e / e.sum())
+    np.testing.assert_allclose(got, np.sqrt(np.diag(J @ C @ J.T)), rtol=1e-6)
+    np.testing.assert_allclose(share_logit_sd([[0.09]], [0.2, 0.8]), [0.3, 0.3])

@@ -11,7 +11,7 @@ Outside references used below:
 from __future__ import annotations
 
 import itertools
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 import pytest
@@ -20,6 +20,7 @@ from scipy.spatial.transform import Rotation
 
 from anisotropy import uncertainty as U
 from anisotropy.errors import InputError, InsufficientDataError
+from anisotropy.fitting.information import ReportedInformation
 from anisotropy.geometry import fibonacci_hemisphere, line_to_vector
 
 
@@ -617,7 +618,7 @@ def test_information_cones_replace_the_replicates_unless_the_axes_are_exchanged(
         vol = _StandInVolume((8, 8, 1), (10, 10, 10), np.random.default_rng(9), T, noise=0.3)
         res = U.block_bootstrap(vol, _stand_in_refit, _reference(vol), n_replicates=60, seed=4)
         plain = [res.axis_summary(i) for i in range(3)]
-        res.information_cones = {"major": 2.5, "semi_major": 3.5, "minor": 1.5}
+        res.information = ReportedInformation({"major": 2.5, "semi_major": 3.5, "minor": 1.5})
         got = [res.axis_summary(i) for i in range(3)]
         assert [g["replicate_cone_deg"] for g in got] == [p["cone_deg"] for p in plain]
         assert got[2]["cone_deg"] == 1.5 and got[2]["cone_source"] == "likelihood information"
@@ -629,7 +630,8 @@ def test_information_cones_replace_the_replicates_unless_the_axes_are_exchanged(
                 assert got[i]["cone_deg"] == (2.5, 3.5)[i]
         # trend and plunge intervals then come from the frames drawn for the information
         # cone: draws all at the reference frame give a point interval (its own plunge)
-        res.information_axes = np.repeat(res.reference_frame[None], 50, axis=0)
+        res.information = replace(res.information,
+                                  axes=np.repeat(res.reference_frame[None], 50, axis=0))
         lo, hi = res.axis_summary(2)["plunge"]
         assert hi - lo < 1e-9
         assert res.axis_summary(2)["plunge"] != plain[2]["plunge"]
@@ -653,18 +655,47 @@ def test_range_interval_is_the_wald_interval_where_the_cone_is_the_informations(
     res = U.block_bootstrap(vol, _stand_in_refit, _reference(vol), n_replicates=60, seed=4)
     res.distances = None     # no longest lag: bounds are kept as they are (tested elsewhere)
     plain = [res.axis_summary(i) for i in range(3)]
-    res.information_log_range_sd = {"major": 0.1, "semi_major": 0.2, "minor": 0.05}
+    sds = {"major": 0.1, "semi_major": 0.2, "minor": 0.05}
+    res.information = ReportedInformation({}, log_range_sd=sds)
     assert [res.axis_summary(i) for i in range(3)] == plain      # no information cones
-    res.information_cones = {"major": 2.5, "semi_major": 3.5, "minor": 1.5}
+    res.information = ReportedInformation({"major": 2.5, "semi_major": 3.5, "minor": 1.5},
+                                          log_range_sd=sds)
     z = norm.ppf(0.5 + 0.5 * res.confidence)
     for i, axis in enumerate(("major", "semi_major", "minor")):
         got = res.axis_summary(i)
         est = res.reference_ranges[i]
-        sd = res.information_log_range_sd[axis]
+        sd = sds[axis]
         np.testing.assert_allclose(got["range"], [est * np.exp(-z * sd), est * np.exp(z * sd)])
         assert got["range_interval"] == "likelihood information (Wald, log scale)"
-    res.information_cones = None
+    res.information = None
     assert [res.axis_summary(i)["range"] for i in range(3)] == [p["range"] for p in plain]
+
+
+def test_nugget_and_sill_intervals_are_wald_intervals_of_their_shares_where_given(rng):
+    # where the likelihood's information gives the standard deviation of a share's logit,
+    # the interval is total * expit(logit(share) +- z sd), z the normal quantile (SciPy's
+    # norm.ppf, expit and logit); the total sill keeps the replicates' interval
+    from scipy.special import expit, logit
+    from scipy.stats import norm
+
+    vol = _StandInVolume((8, 8, 1), (10, 10, 10), np.random.default_rng(9), _truth(), noise=0.3)
+    res = U.block_bootstrap(vol, _stand_in_refit, _reference(vol), n_replicates=40, seed=4)
+    plain = res.to_dict()
+    assert plain["nugget"] is None and plain["share_interval"] == "replicates"   # held
+    res.information = ReportedInformation({}, logit_share_sd={"nugget": 0.4, "sill0": 0.4})
+    z = norm.ppf(0.5 + 0.5 * res.confidence)
+    got = res.to_dict()
+    for band, share in ((got["nugget"], 0.1), (got["sills"][0], 0.9)):
+        np.testing.assert_allclose(band, [expit(logit(share) - z * 0.4),
+                                          expit(logit(share) + z * 0.4)])
+        assert band[0] < share < band[1]
+    assert got["total_sill"] == plain["total_sill"]
+    assert got["share_interval"].startswith("likelihood information (Wald, logit scale")
+    np.testing.assert_allclose(res.interval("nugget"), got["nugget"])
+    ci = res.confidence_interval
+    k = ci.names.index("sill0")
+    np.testing.assert_allclose([ci.low[k], ci.high[k]], got["sills"][0])
+    assert "nugget" not in ci.notes and "sill0" not in ci.notes
 
 
 def test_carried_interval_is_the_replicates_spread_about_their_median_placed_at_the_estimate():

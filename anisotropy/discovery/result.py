@@ -466,12 +466,11 @@ class Discovery:
         res.rival_angles = self.rival_angles()
         fr = self.refinement.frame_refinement
         res.recentred = fr is not None and fr.reports_likelihood_model
-        (res.information_cones, res.information_axes,
-         res.information_log_range_sd) = self.information_cones(confidence_level)
+        res.information = self.likelihood_information(confidence_level)
         return res
 
-    def information_cones(self, confidence=0.9):
-        """Each reported axis's cone (degrees) from the likelihood's observed information.
+    def likelihood_information(self, confidence=0.9):
+        """Cones and Wald intervals of the reported model from the likelihood's information.
 
         Given for samples without drill holes only: there the cones from the
         likelihood's information held the true axes at about the stated
@@ -483,23 +482,17 @@ class Discovery:
 
         Returns
         -------
-        cones : dict or None
-            Per axis; None with drill holes, without a likelihood refinement,
-            or where its information is not positive definite.
-        axes : ndarray (draws, 3, 3) or None
-            Frames drawn from the Wald distribution (for trend and plunge
-            intervals), columns matched to the reported axes.
-        log_range_sd : dict or None
-            Per axis, the standard deviation of the log range (Wald range
-            intervals, where the reported model is the likelihood's).
+        anisotropy.fitting.information.ReportedInformation or None
+            None with drill holes, without a likelihood refinement, or where
+            its information is not positive definite. Its cones are per
+            reported axis; its standard deviations of the log ranges and of
+            the share logits (Wald intervals) are None where the reported
+            model is a variogram refit's, not the likelihood's.
         """
         fr = self.refinement.frame_refinement
         if fr is None or self.samples.holes is not None:
-            return None, None, None
-        cones, axes, sd = fr.information_cones(self.frame, confidence, seed=self.params.seed)
-        if not fr.reports_likelihood_model:
-            sd = None   # the reported ranges are a variogram refit's, not the likelihood's
-        return cones, axes, sd
+            return None
+        return fr.likelihood_information(self.frame, confidence, seed=self.params.seed)
 
     def rival_angles(self) -> dict | None:
         """Angle (degrees) from each reported axis to a rival frame's, where one is as likely.

@@ -9,7 +9,9 @@ the covariance of the frame with the ranges and sill shares estimated too
 distribution turn each axis of the frame; the angle within which a share
 ``confidence`` of the turned axes falls is the axis's cone.  Its diagonal
 at the log ranges gives their standard deviations, hence Wald intervals of
-the ranges on the log scale.
+the ranges on the log scale, and carried through the shares' softmax (the
+delta method; Pawitan 2001, sec. 4.7) Wald intervals of the nugget and sill
+shares on the logit scale.
 
 Here ``H`` is the central difference of the compiled analytic gradient
 (:func:`anisotropy.fitting.likelihood.vecchia_negloglik_grad`), one pair of
@@ -32,8 +34,8 @@ from scipy.spatial.transform import Rotation
 from anisotropy.constants import AXES
 from anisotropy.fitting.likelihood import vecchia_negloglik_grad
 
-__all__ = ["InformationCones", "observed_information", "information_cones", "axis_cones",
-           "drawn_frames"]
+__all__ = ["InformationCones", "ReportedInformation", "observed_information",
+           "information_cones", "share_logit_sd", "axis_cones", "drawn_frames"]
 
 #: Central-difference step of the gradient (radians of rotation, log ranges,
 #: share logits).
@@ -64,6 +66,9 @@ class InformationCones:
         Standard deviations of the natural logarithms of the fit's ranges
         (structures and columns as the fit's), the other parameters
         estimated too.
+    logit_share_sd : ndarray (K + 1,) or None
+        Standard deviations of the logits of the nugget share and of each
+        structure's share of the sill (:func:`share_logit_sd`).
     """
 
     cones: dict | None
@@ -72,6 +77,7 @@ class InformationCones:
     note: str = ""
     frames: np.ndarray | None = None
     log_range_sd: np.ndarray | None = None
+    logit_share_sd: np.ndarray | None = None
 
     def to_dict(self) -> dict:
         """JSON-ready dictionary."""
@@ -81,7 +87,36 @@ class InformationCones:
                 "rotation_sd_deg": None if self.rotation_sd is None else
                 [float(x) for x in self.rotation_sd], "note": self.note,
                 "log_range_sd": None if self.log_range_sd is None else
-                np.asarray(self.log_range_sd, float).tolist()}
+                np.asarray(self.log_range_sd, float).tolist(),
+                "logit_share_sd": None if self.logit_share_sd is None else
+                np.asarray(self.logit_share_sd, float).tolist()}
+
+
+@dataclass(frozen=True)
+class ReportedInformation:
+    """The likelihood's information in the reported model's terms.
+
+    Attributes
+    ----------
+    cones : dict
+        Cone half-angle (degrees) per reported axis name.
+    axes : ndarray (draws, 3, 3) or None
+        Frames drawn from the Wald distribution, columns matched to the
+        reported axes (trend and plunge intervals are read from them).
+    log_range_sd : dict or None
+        Per axis name, the standard deviation of the log range of the
+        structure that reaches furthest along it; None where the reported
+        ranges are not the likelihood's.
+    logit_share_sd : dict or None
+        Standard deviations of the logits of the shares of the total sill:
+        ``"nugget"``, ``"sill0"``, ``"sill1"``, ...; None where the reported
+        nugget and sills are not the likelihood's shares.
+    """
+
+    cones: dict
+    axes: np.ndarray | None = None
+    log_range_sd: dict | None = None
+    logit_share_sd: dict | None = None
 
 
 def observed_information(p, args, step=STEP):
@@ -142,9 +177,38 @@ def information_cones(fit, setup, confidence=0.9, seed=0) -> InformationCones:
     M = drawn_frames(p[:3], rot, seed)
     q = _cone_quantiles(M, p[:3], confidence)
     K = len(fit.kinds)
+    shares = np.r_[fit.nugget_share, np.asarray(fit.shares, float)]
     return InformationCones({a: float(q[i]) for i, a in enumerate(AXES)}, confidence,
                             rotation_sd=np.degrees(np.sqrt(np.diag(rot))), frames=M,
-                            log_range_sd=np.sqrt(np.diag(C)[3:3 + 3 * K]).reshape(K, 3))
+                            log_range_sd=np.sqrt(np.diag(C)[3:3 + 3 * K]).reshape(K, 3),
+                            logit_share_sd=share_logit_sd(C[3 + 3 * K:, 3 + 3 * K:], shares))
+
+
+def share_logit_sd(covariance, shares):
+    """Standard deviations of ``logit(f_i)`` for shares ``f = softmax(z, 0)`` (delta method).
+
+    The likelihood's shares of the sill (nugget first, then the structures)
+    are the softmax of its free logits ``z`` (one per share but the last)
+    with the last logit fixed at 0. By the chain rule
+    ``d logit(f_i) / d z_j = (delta_ij - f_j) / (1 - f_i)``; the variance of
+    ``logit(f_i)`` is ``g_i^T covariance g_i`` (the delta method).
+
+    Parameters
+    ----------
+    covariance : ndarray (K, K)
+        Covariance of the free logits.
+    shares : ndarray (K + 1,)
+        The shares, summing to one.
+
+    Returns
+    -------
+    ndarray (K + 1,)
+    """
+    f = np.asarray(shares, float)
+    K = len(f) - 1
+    G = (np.eye(K + 1)[:, :K] - f[None, :K]) / np.maximum(1.0 - f, 1e-300)[:, None]
+    var = np.einsum("ij,jk,ik->i", G, np.asarray(covariance, float).reshape(K, K), G)
+    return np.sqrt(np.maximum(var, 0.0))
 
 
 def drawn_frames(rotvec, covariance, seed=0, draws=DRAWS):

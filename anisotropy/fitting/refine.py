@@ -28,7 +28,7 @@ from anisotropy.errors import FitError
 from anisotropy.fitting.bins import FitBins
 from anisotropy.fitting.frames import (FrameChoice, PolishedFrame, global_frame_choice,
                                        likelihood_margin, ordered_axes)
-from anisotropy.fitting.information import information_cones
+from anisotropy.fitting.information import ReportedInformation, information_cones
 from anisotropy.fitting.likelihood import refine_frame_likelihood, vecchia_setup
 from anisotropy.fitting.nested import NestedFit, fit_nested
 from anisotropy.geometry import vector_to_line
@@ -143,37 +143,48 @@ class FrameRefinement:
         """True when :attr:`fit` carries the likelihood's ranges (not a variogram refit's)."""
         return bool((self.record or {}).get("likelihood_model_reported"))
 
-    def information_cones(self, frame, confidence=0.9, seed=0):
-        """Each column of ``frame``'s cone (degrees) from the likelihood's observed information.
+    def likelihood_information(self, frame, confidence=0.9, seed=0):
+        """The likelihood's observed information matched to ``frame``'s columns.
 
         The likelihood's axes are matched to ``frame``'s columns by direction
         (:func:`anisotropy.fitting.information.information_cones`).
 
         Returns
         -------
-        cones : dict or None
-            Per axis name; None without a likelihood, or where its
-            information is not positive definite.
-        axes : ndarray (draws, 3, 3) or None
-            The frames drawn from the Wald distribution, columns matched to
-            ``frame``'s.
-        log_range_sd : dict or None
-            Per axis name, the standard deviation of the log range of the
-            likelihood's structure that reaches furthest along it.
+        anisotropy.fitting.information.ReportedInformation or None
+            None without a likelihood, or where its information is not
+            positive definite. Its ``log_range_sd`` is per axis name, from the
+            structure that reaches furthest along it, and None where the
+            reported ranges are a variogram refit's; its ``logit_share_sd``
+            is None unless the reported nugget is the likelihood's share of
+            the total sill (not held).
         """
         if self.likelihood is None:
-            return None, None, None
+            return None
         lk, setup = self.likelihood
         ic = information_cones(lk, setup, confidence, seed)
         if ic.cones is None:
-            return None, None, None
+            return None
         cos = np.abs(np.asarray(frame, float).T @ np.asarray(lk.frame, float))
         col = [int(np.argmax(cos[i])) for i in range(3)]
         cones = list(ic.cones.values())
         ranges = np.atleast_2d(np.asarray(lk.ranges, float))
         sd = {a: float(ic.log_range_sd[int(np.argmax(ranges[:, col[i]])), col[i]])
               for i, a in enumerate(AXES)}
-        return {a: cones[col[i]] for i, a in enumerate(AXES)}, ic.frames[:, :, col], sd
+        return ReportedInformation(cones={a: cones[col[i]] for i, a in enumerate(AXES)},
+                                   axes=ic.frames[:, :, col],
+                                   log_range_sd=sd if self.reports_likelihood_model else None,
+                                   logit_share_sd=self._share_sd(lk, ic.logit_share_sd))
+
+    def _share_sd(self, lk, logit_sd):
+        """``logit_sd`` by share name where the reported nugget and sills are ``lk``'s shares."""
+        f = self.fit
+        tot = float(f.nugget + np.sum(f.sills))
+        if not self.reports_likelihood_model or not np.isclose(
+                f.nugget, tot * float(lk.nugget_share), rtol=1e-9, atol=1e-12 * tot):
+            return None
+        names = ("nugget",) + tuple(f"sill{k}" for k in range(len(f.sills)))
+        return {n: float(v) for n, v in zip(names, logit_sd)}
 
 
 def _likelihood_model(lk, fit, kinds):
@@ -646,6 +657,6 @@ def refine_frame(fit: NestedFit, bins: FitBins, coords, values, *, seed=0, fit_k
                           choices=tuple(choices) + (row,), warnings=tuple(warnings),
                           likelihood=(lk, P.lk_kw["setup"]))
     if INFORMATION_CONES:   # a study: the cones in the record (benchmarks/RESULTS.md)
-        record["information"] = {"cones_deg": out.information_cones(f.frame, confidence,
-                                                                    seed)[0]}
+        info = out.likelihood_information(f.frame, confidence, seed)
+        record["information"] = {"cones_deg": None if info is None else info.cones}
     return out
