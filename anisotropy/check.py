@@ -33,7 +33,7 @@ every result):
   ``confidence`` (0.9) cone of that axis (the cone as reported before any
   widening to a rival frame: the likelihood's information cone on samples
   without drill holes, else the replicates' with the bootstrap's calibration
-  factor; :meth:`anisotropy.uncertainty.BootstrapResult.cone`) and exceeds
+  factor; :meth:`anisotropy.uncertainty.result.BootstrapResult.cone`) and exceeds
   ``practical_deg`` (10 degrees: differences below this are within what
   careful practitioners disagree by, common practice, and never count
   against an interpretation);
@@ -593,7 +593,7 @@ def check_interpretation(discovery, interpretation: Interpretation, *, threshold
     discovery : Discovery
         The result of :func:`anisotropy.discover`. Read: ``frame``, ``model``, ``volume_``,
         ``volume_with_blocks()`` (a new pass if the run kept no blocks), ``refit_function()``,
-        ``uncertainty`` (a :class:`~anisotropy.uncertainty.BootstrapResult`; when it is
+        ``uncertainty`` (a :class:`~anisotropy.uncertainty.result.BootstrapResult`; when it is
         None a block bootstrap of 200 replicates, seed 0, is run), the frame
         candidates of ``refinement.record`` and the continuity record of
         ``diagnosis`` (for the "cannot tell" rule).
@@ -601,7 +601,7 @@ def check_interpretation(discovery, interpretation: Interpretation, *, threshold
     thresholds : dict, optional
         Overrides of :data:`DEFAULT_THRESHOLDS`.
     n_jobs, scheduler, progress
-        For the refits, as in :func:`anisotropy.uncertainty.block_bootstrap`.
+        For the refits, as in :func:`anisotropy.uncertainty.replicates.block_bootstrap`.
 
     Returns
     -------

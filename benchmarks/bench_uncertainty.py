@@ -12,7 +12,7 @@ The fit here is a lean stand-in for ``discover`` (``build_volume`` +
 ``fitting.fit_nested`` with a fixed lag, one structure of the true kind and
 a total sill fixed at the sample variance) because the full ``discover``
 chain is too slow on this shared machine to repeat 60 times; the bootstrap
-code under test (:func:`anisotropy.uncertainty.block_bootstrap`) is the one
+code under test (:func:`anisotropy.uncertainty.replicates.block_bootstrap`) is the one
 ``discover`` calls.
 
 Speed: 200 replicates with the refit of the real ``discover`` chain on
@@ -50,6 +50,7 @@ from anisotropy.geometry import axis_angle, fan_for_spacing, frame_from_angles
 from anisotropy.models import NestedModel, Structure
 from anisotropy.pairs import build_volume
 from anisotropy.simulate import simulate_field
+from anisotropy.uncertainty.blocks import _occupied_blocks
 
 SCENARIOS = {
     # name: box (m), n samples, kind, ranges, frame angles (azimuth, plunge, rotation), lag, n_lags
@@ -437,7 +438,7 @@ def speed(args):
         t0 = time.perf_counter()
         vol = D.volume_with_blocks()
         t_vol = time.perf_counter() - t0
-        occ = int(np.count_nonzero(U._occupied_blocks(vol)))
+        occ = int(np.count_nonzero(_occupied_blocks(vol)))
         same = bool(np.allclose(vol.coarse_sums(), D.volume_.coarse_sums(), rtol=1e-9,
                                 atol=1e-9, equal_nan=True))   # channels not kept are NaN
         refit = D.refit_function()

@@ -1,7 +1,7 @@
 """Cost of the bootstrap-sized blocks on the 89k blast holes of ``bench_discover.speed()``.
 
 ``discover`` builds its pair volume with blocks sized for the block bootstrap
-(:func:`anisotropy.uncertainty.engine_block_side`) whether or not a bootstrap
+(:func:`anisotropy.uncertainty.blocks.engine_block_side`) whether or not a bootstrap
 follows. This runs ``discover`` once for its lag classes, then builds the
 same volume (the semivariogram's channels, the default coarse fan) with the
 pair engine's default blocks and with the sized ones, alternately, in one

@@ -374,7 +374,7 @@ def with_bootstrap(dg: Diagnostics, swap_rates: dict, confidence: float, *,
     Two axes that trade places in more than ``1 - confidence`` of the
     replicates lie in each other's confidence region: the samples do not say
     which is the longer, so both are unresolved (the cones reach both modes,
-    see :meth:`anisotropy.uncertainty.BootstrapResult.axis_summary`).  An
+    see :meth:`anisotropy.uncertainty.result.BootstrapResult.axis_summary`).  An
     axis whose cone is wider than twice the fan's angular ``tolerance`` is
     unresolved too: its cone then reaches directions whose directional
     variograms share no pair with the reported axis's (two tolerance cones

@@ -173,7 +173,7 @@ def build_volume(coords, values, lags: LagChoice, *, estimator="semivariogram",
     Only the chosen estimator's channels are kept: everything downstream (fits,
     fan, maps, the bootstrap's block sums, the report) reads that estimator.
     With ``blocks`` the pass also keeps block sums, the blocks sized for the
-    block bootstrap (:func:`anisotropy.uncertainty.engine_block_side`).
+    block bootstrap (:func:`anisotropy.uncertainty.blocks.engine_block_side`).
     Blocks partition the pairs and change no answer of the fits; they cost
     about as much as the fine sums themselves (half the pass on 89k blast
     holes, most of it on a domain of 2,000 composites), so a run without a
@@ -189,7 +189,7 @@ def build_volume(coords, values, lags: LagChoice, *, estimator="semivariogram",
     choice = {"choice": "bootstrap blocks", "value": side,
               "reason": "block side giving about 100 occupied blocks, so that the block "
                         "bootstrap has room to resample "
-                        "(anisotropy.uncertainty.engine_block_side)" if blocks else
+                        "(anisotropy.uncertainty.blocks.engine_block_side)" if blocks else
                         "no block bootstrap asked for: the pass keeps no block sums (a later "
                         "bootstrap or check makes one more pass with them)"}
     coarse = fan_for_spacing(DEFAULT_COARSE_SPACING if coarse_spacing is None

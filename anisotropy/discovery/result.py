@@ -442,7 +442,7 @@ class Discovery:
 
         Returns
         -------
-        anisotropy.uncertainty.BootstrapResult
+        anisotropy.uncertainty.result.BootstrapResult
             Its ``confidence_interval`` holds the bands (low and high per
             quantity, cones per axis). Not stored on the result
             (``discover(bootstrap=n)`` stores it as ``uncertainty``).
@@ -500,7 +500,7 @@ class Discovery:
         The replicates refit the variogram and are turned like the main frame,
         so they cannot see a second maximum of the likelihood; the cones are
         widened to these angles (see
-        :class:`anisotropy.uncertainty.BootstrapResult`) so that they hold both.
+        :class:`anisotropy.uncertainty.result.BootstrapResult`) so that they hold both.
         """
         cand = (self.refinement.record or {}).get("frame_candidates") or {}
         if not cand.get("ambiguous_axes"):
