@@ -1,0 +1,174 @@
+"""Tests of anisotropy.uncertainty.result: BootstrapResult's cones, intervals and bands.
+
+Outside references used below:
+* scipy.stats.norm.ppf, scipy.special.expit and logit (Wald intervals)
+* numpy.quantile (carried intervals)
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+from scipy.spatial.transform import Rotation
+
+from anisotropy import uncertainty as U
+from anisotropy.fitting.information import ReportedInformation
+from uncertainty_stand_ins import StandInVolume, reference, stand_in_refit, truth
+
+
+def test_nugget_held_in_the_replicates_has_no_interval(rng):
+    # the stand-in refit holds its nugget at 0.1 in every replicate (as the down-hole
+    # nugget is held in the real chain's replicates)
+    vol = StandInVolume((8, 8, 1), (10, 10, 10), rng, truth())
+    res = U.block_bootstrap(vol, stand_in_refit, reference(vol), n_replicates=20, seed=3)
+    assert np.all(res.nugget == 0.1)
+    d = res.to_dict()
+    assert d["nugget"] is None
+    assert any("nugget is held fixed" in n for n in d["notes"])
+    assert "nugget held fixed" in res.summary()
+
+
+def test_confidence_interval_record_in_the_manner_of_scipy(rng):
+    # reference: the same bands read one by one through interval() and axis_summary(),
+    # whose percentile and BCa rules are held against numpy.quantile and
+    # scipy.stats.bootstrap in the tests at the top of this module
+    vol = StandInVolume((8, 8, 1), (10, 10, 10), rng, truth())
+    res = U.block_bootstrap(vol, stand_in_refit, reference(vol), n_replicates=40, seed=4)
+    ci = res.confidence_interval
+    assert ci.names[:3] == ("major", "semi_major", "minor")
+    assert ci.confidence_level == res.confidence
+    for k, name in enumerate(ci.names):
+        band = res.interval(name)
+        if band is None:          # held fixed: NaN bounds and the reason kept
+            assert np.isnan(ci.low[k]) and np.isnan(ci.high[k]) and name in ci.notes
+            continue
+        for got, want in zip((ci.low[k], ci.high[k]), band):
+            assert (np.isnan(got) and want is None) or got == want
+        if np.isfinite(ci.low[k]) and np.isfinite(ci.high[k]):
+            assert ci.low[k] <= ci.estimate[k] <= ci.high[k]
+    assert ci.notes["nugget"].startswith("the nugget is held fixed")
+    for i, axis in enumerate(("major", "semi_major", "minor")):
+        assert ci.cone_deg[axis] == res.axis_summary(i)["cone_deg"]
+    frame = ci.to_frame()
+    assert list(frame.index) == list(ci.names)
+    assert ci.to_dict()["intervals"]["nugget"]["low"] is None
+
+
+def test_information_cones_replace_the_replicates_unless_the_axes_are_exchanged(rng):
+    # the rule of BootstrapResult.axis_summary: a cone from the likelihood's information,
+    # where given, is the axis's cone; where the replicates exchange two axes in more than
+    # 1 - confidence of them (the nearly isotropic plane above), those two keep the
+    # replicates' cone, which reaches both modes; a rival frame still widens any cone
+    R = Rotation.from_euler("z", 30, degrees=True).as_matrix()
+    for T, exchanged in ((R @ np.diag([9.0, 4.0, 1.0]) @ R.T, False),
+                         (R @ np.diag([4.1, 4.0, 1.0]) @ R.T, True)):
+        vol = StandInVolume((8, 8, 1), (10, 10, 10), np.random.default_rng(9), T, noise=0.3)
+        res = U.block_bootstrap(vol, stand_in_refit, reference(vol), n_replicates=60, seed=4)
+        plain = [res.axis_summary(i) for i in range(3)]
+        res.information = ReportedInformation({"major": 2.5, "semi_major": 3.5, "minor": 1.5})
+        got = [res.axis_summary(i) for i in range(3)]
+        assert [g["replicate_cone_deg"] for g in got] == [p["cone_deg"] for p in plain]
+        assert got[2]["cone_deg"] == 1.5 and got[2]["cone_source"] == "likelihood information"
+        for i in (0, 1):
+            if exchanged:
+                assert got[i]["cone_deg"] == plain[i]["cone_deg"]
+                assert got[i]["cone_source"] == "replicates"
+            else:
+                assert got[i]["cone_deg"] == (2.5, 3.5)[i]
+        # trend and plunge intervals then come from the frames drawn for the information
+        # cone: draws all at the reference frame give a point interval (its own plunge)
+        res.information = replace(res.information,
+                                  axes=np.repeat(res.reference_frame[None], 50, axis=0))
+        lo, hi = res.axis_summary(2)["plunge"]
+        assert hi - lo < 1e-9
+        assert res.axis_summary(2)["plunge"] != plain[2]["plunge"]
+        # a rival frame 40 degrees away: the cone holds the rival's axis and a cone as wide
+        # around it (their sum, the triangle inequality on the sphere), at most 90
+        res.rival_angles = {"major": 40.0}
+        assert res.axis_summary(0)["cone_deg"] == min(90.0, 40.0 + got[0]["cone_deg"])
+        assert "40.0 degrees away" in res.axis_summary(0)["cone_note"]
+
+
+def test_range_interval_is_the_wald_interval_where_the_cone_is_the_informations(rng):
+    # where an axis's cone comes from the likelihood's information and that information's
+    # log-range standard deviation is given, the range interval is range * exp(+-z sd)
+    # with z the normal quantile (SciPy's norm.ppf), uncalibrated; an axis whose cone is
+    # the replicates' keeps the replicates' (calibrated) interval
+    from scipy.stats import norm
+
+    R = Rotation.from_euler("z", 30, degrees=True).as_matrix()
+    vol = StandInVolume((8, 8, 1), (10, 10, 10), np.random.default_rng(9),
+                         R @ np.diag([9.0, 4.0, 1.0]) @ R.T, noise=0.3)
+    res = U.block_bootstrap(vol, stand_in_refit, reference(vol), n_replicates=60, seed=4)
+    res.distances = None     # no longest lag: bounds are kept as they are (tested elsewhere)
+    plain = [res.axis_summary(i) for i in range(3)]
+    sds = {"major": 0.1, "semi_major": 0.2, "minor": 0.05}
+    res.information = ReportedInformation({}, log_range_sd=sds)
+    assert [res.axis_summary(i) for i in range(3)] == plain      # no information cones
+    res.information = ReportedInformation({"major": 2.5, "semi_major": 3.5, "minor": 1.5},
+                                          log_range_sd=sds)
+    z = norm.ppf(0.5 + 0.5 * res.confidence)
+    for i, axis in enumerate(("major", "semi_major", "minor")):
+        got = res.axis_summary(i)
+        est = res.reference_ranges[i]
+        sd = sds[axis]
+        np.testing.assert_allclose(got["range"], [est * np.exp(-z * sd), est * np.exp(z * sd)])
+        assert got["range_interval"] == "likelihood information (Wald, log scale)"
+    res.information = None
+    assert [res.axis_summary(i)["range"] for i in range(3)] == [p["range"] for p in plain]
+
+
+def test_nugget_and_sill_intervals_are_wald_intervals_of_their_shares_where_given(rng):
+    # where the likelihood's information gives the standard deviation of a share's logit,
+    # the interval is total * expit(logit(share) +- z sd), z the normal quantile (SciPy's
+    # norm.ppf, expit and logit); the total sill keeps the replicates' interval
+    from scipy.special import expit, logit
+    from scipy.stats import norm
+
+    vol = StandInVolume((8, 8, 1), (10, 10, 10), np.random.default_rng(9), truth(), noise=0.3)
+    res = U.block_bootstrap(vol, stand_in_refit, reference(vol), n_replicates=40, seed=4)
+    plain = res.to_dict()
+    assert plain["nugget"] is None and plain["share_interval"] == "replicates"   # held
+    res.information = ReportedInformation({}, logit_share_sd={"nugget": 0.4, "sill0": 0.4})
+    z = norm.ppf(0.5 + 0.5 * res.confidence)
+    got = res.to_dict()
+    for band, share in ((got["nugget"], 0.1), (got["sills"][0], 0.9)):
+        np.testing.assert_allclose(band, [expit(logit(share) - z * 0.4),
+                                          expit(logit(share) + z * 0.4)])
+        assert band[0] < share < band[1]
+    assert got["total_sill"] == plain["total_sill"]
+    assert got["share_interval"].startswith("likelihood information (Wald, logit scale")
+    np.testing.assert_allclose(res.interval("nugget"), got["nugget"])
+    ci = res.confidence_interval
+    k = ci.names.index("sill0")
+    np.testing.assert_allclose([ci.low[k], ci.high[k]], got["sills"][0])
+    assert "nugget" not in ci.notes and "sill0" not in ci.notes
+
+
+def test_a_recentred_bootstrap_carries_its_intervals_and_bands_to_thereference(rng):
+    # the reference from another estimator (here: the stand-in's ranges scaled by 1.4):
+    # the range intervals and the model bands are the replicates' percentiles times the
+    # reference over the replicates' median (carried_interval above; NumPy by hand)
+    R = Rotation.from_euler("z", 30, degrees=True).as_matrix()
+    vol = StandInVolume((8, 8, 1), (10, 10, 10), np.random.default_rng(9),
+                         R @ np.diag([9.0, 4.0, 1.0]) @ R.T, noise=0.3)
+    ref = reference(vol)
+    res = U.block_bootstrap(vol, stand_in_refit, ref, n_replicates=60, seed=4,
+                            range_calibration=1.0)
+    res.distances = None
+    res.recentred = True
+    for i in range(3):
+        est = res.reference_ranges[i]
+        r = res.ranges[:, i]
+        lo, hi = np.quantile(r, [0.05, 0.95])
+        np.testing.assert_allclose(res.axis_summary(i)["range"],
+                                   [est * lo / np.median(r), est * hi / np.median(r)])
+    u = res.reference_frame[:, 0]
+    d = np.array([5.0, 20.0, 60.0])
+    band = res.variogram_bands(u[None], d)
+    curves = np.array([m.variogram_along(u, d) for m in res.models])
+    k = band["model"][0] / np.median(curves, axis=0)
+    np.testing.assert_allclose(band["lo"][0], np.quantile(curves, 0.05, axis=0) * k)
+    np.testing.assert_allclose(band["hi"][0], np.quantile(curves, 0.95, axis=0) * k)
+    assert res.to_dict()["recentred"] is True
