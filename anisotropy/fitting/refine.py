@@ -91,7 +91,7 @@ SCREEN_MAX_SAMPLES = 1000
 #: scenarios"). Off only to measure what it costs and changes.
 DECIDE_RIVALS = True
 #: Also write each axis's cone from the likelihood's observed information
-#: (:meth:`FrameRefinement.information_cones`) into the record's
+#: (:meth:`FrameRefinement.likelihood_information`) into the record's
 #: ``information``, whatever the layout (a study, ``benchmarks/RESULTS.md``;
 #: the bootstrap asks for them itself where they are used).
 INFORMATION_CONES = False
