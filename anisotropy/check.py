@@ -689,7 +689,8 @@ def check_interpretation(discovery, interpretation: Interpretation, *, threshold
         ratio = None
     share = None
     if ratio is not None and boot.counts is not None:
-        fx, fr = unc.fixed_frame_objectives(boot, discovery.volume_with_blocks(), refit, D,
+        vol = discovery.volume_with_blocks()   # its replicates re-read a held nugget as theirs
+        fx, fr = unc.fixed_frame_objectives(boot, vol, discovery.refit_function(vol), D,
                                             max_replicates=th["max_ratio_replicates"],
                                             n_jobs=n_jobs, scheduler=scheduler,
                                             progress=progress)

@@ -103,6 +103,25 @@ def test_downhole_nugget_is_the_line_through_the_first_two_lags():
     assert downhole_nugget((d, ij), values, 2.0, 1.0, "madogram") == (None, None)
 
 
+@pytest.mark.parametrize("estimator", ["semivariogram", "correlogram"])
+def test_weighted_downhole_nugget_equals_the_nugget_of_the_repeated_pairs(estimator):
+    # integer pair weights (a replicate's block counts) are the same as repeating each pair
+    # that many times: the unweighted rule on the repeated pairs (np.repeat) is the reference
+    rng = np.random.default_rng(4)
+    values = rng.normal(size=600)
+    ij = rng.integers(0, 600, size=(300, 2))
+    d = rng.choice([2.0, 4.0, 6.0], size=300) + rng.uniform(-0.3, 0.3, 300)
+    w = rng.integers(0, 4, size=300)
+    got = downhole_nugget((d, ij), values, 2.0, 1.0, estimator, weights=w)
+    want = downhole_nugget((np.repeat(d, w), np.repeat(ij, w, axis=0)), values, 2.0, 1.0,
+                           estimator)
+    assert got[0] == pytest.approx(want[0], rel=1e-9)
+    np.testing.assert_allclose([p[:2] for p in got[1]], [p[:2] for p in want[1]], rtol=1e-9)
+    # weights of one are the plain rule
+    assert downhole_nugget((d, ij), values, 2.0, 1.0, estimator, weights=np.ones(300))[0] == \
+        pytest.approx(downhole_nugget((d, ij), values, 2.0, 1.0, estimator)[0], rel=1e-12)
+
+
 def test_scattered_bins_are_weighted_by_pairs_per_metre():
     rng = np.random.default_rng(1)
     coords = rng.uniform(0, 100, (400, 3))

@@ -4,7 +4,9 @@ The field is simulated by Cholesky factorisation (``scipy.linalg.cholesky``)
 of the spherical covariance (Journel & Huijbregts 1978, ch. II) written
 here; the bootstrap's block side is checked against
 ``anisotropy.uncertainty.engine_block_side`` and its block count against
-``numpy.unique`` of the block indices.
+``numpy.unique`` of the block indices; a replicate's down-hole nugget against
+the plain rule on the pairs whose midpoints (``numpy.floor`` on the block
+grid) lie in the blocks it kept.
 """
 
 import numpy as np
@@ -15,7 +17,9 @@ from scipy.linalg import cholesky
 import anisotropy
 from anisotropy.discovery import Discovery, RefitState
 from anisotropy.errors import InputError
+from anisotropy.discovery.bins import downhole_nugget
 from anisotropy.uncertainty import MIN_BLOCKS, BootstrapResult, engine_block_side
+from anisotropy.uncertainty.blocks import block_weights_from_groups
 
 STAGES = ("read", "prepare", "transform", "sill", "lags", "volume", "bins", "fan", "starts",
           "search", "structures", "continuity", "diagnose")
@@ -102,3 +106,55 @@ def test_the_refit_gives_back_the_main_fit(run):
     assert np.isfinite(objective)
     for i in range(3):
         assert abs(model.frame[:, i] @ run.frame[:, i]) > np.cos(np.radians(1.0))
+
+
+def _holes_table(seed=2):
+    # 6 x 6 vertical holes 20 m apart, 2 m composites to 50 m; spherical 90 / 45 / 12 m
+    # along x, y, z with a 0.3 nugget (Cholesky, as _table)
+    rng = np.random.default_rng(seed)
+    z = np.arange(1.0, 50.0, 2.0)
+    coords = np.array([[20.0 * i, 20.0 * j, -zz] for i in range(6) for j in range(6)
+                       for zz in z])
+    holes = np.repeat([f"H{k:02d}" for k in range(36)], len(z))
+    h = np.sqrt(np.sum(((coords[:, None] - coords[None]) / [90.0, 45.0, 12.0]) ** 2, -1))
+    hc = np.minimum(h, 1.0)
+    C = 0.7 * (1 - 1.5 * hc + 0.5 * hc ** 3) + 0.3 * np.eye(len(coords))
+    v = cholesky(C, lower=True) @ rng.standard_normal(len(coords))
+    return pd.DataFrame({"x": coords[:, 0], "y": coords[:, 1], "z": coords[:, 2],
+                         "g": v + 10.0, "hole": holes})
+
+
+def test_the_bootstrap_re_reads_the_held_downhole_nugget_in_each_replicate():
+    # issue 15, item 6: on drill holes the nugget is held at the down-hole one in the fit;
+    # each block-bootstrap replicate reads it again from its re-weighted down-hole pairs,
+    # so the nugget (and the one structure's sill) get intervals instead of none
+    D = anisotropy.discover(_holes_table(), value="g", hole="hole", transform="raw",
+                            structures=1, seed=3)
+    wb = D.weighted
+    assert wb.fixed_nugget is not None and D.model.nugget == pytest.approx(wb.fixed_nugget)
+    V = D.volume_with_blocks()
+    refit = D.refit_function(V)
+    assert refit.downhole is not None and D.refit_function().downhole is None
+    # all blocks kept: the main nugget; only some blocks kept: the plain rule on the pairs
+    # whose midpoints lie in them (block grid by hand)
+    assert refit.downhole(np.ones(V.n_blocks)) == pytest.approx(wb.fixed_nugget, rel=1e-12)
+    d, ij = wb.downhole_pairs
+    c = D.samples.coords
+    mid = 0.5 * (c[ij[:, 0]] + c[ij[:, 1]]) - V.block_origin
+    shape = np.array(V.block_shape)
+    b = np.minimum(np.floor(mid / V.block_size).astype(int), shape - 1)
+    flat = (b[:, 0] * shape[1] + b[:, 1]) * shape[2] + b[:, 2]
+    keep = np.isin(np.arange(V.n_blocks), np.unique(flat)[::2])
+    m = keep[flat]
+    want = downhole_nugget((d[m], ij[m]), D.transform_choice.values,
+                           wb.downhole["composite"], D.refit.settings.total_sill,
+                           D.estimator)[0]
+    assert refit.downhole(keep.astype(float)) == pytest.approx(want, rel=1e-12)
+    # the replicates' nuggets are those of their own block weights, and have an interval
+    boot = D.bootstrap(16, rng=1)
+    weights = block_weights_from_groups(boot.counts, boot.group_of_block)
+    np.testing.assert_allclose(boot.nugget, [refit.downhole(w) for w in weights], rtol=1e-9)
+    u = boot.to_dict()
+    assert np.ptp(boot.nugget) > 0 and u["nugget"] is not None and u["sills"][0] is not None
+    assert u["nugget"][0] <= D.model.nugget <= u["nugget"][1]
+    assert not any("nugget is held" in n for n in u["notes"])

@@ -158,6 +158,8 @@ def test_block_of_pair_is_block_of_midpoint(data, volume):
     flat = (b[:, 0] * shape[1] + b[:, 1]) * shape[2] + b[:, 2]
     want = np.bincount(flat, minlength=volume.n_blocks)
     np.testing.assert_array_equal(volume.block_sums[..., 0].sum(axis=(1, 2)), want)
+    # LagVolume.blocks_of_pairs files the same pairs in the same blocks as the pass
+    np.testing.assert_array_equal(volume.blocks_of_pairs(c, i[keep], j[keep]), flat)
     # each sample's own block on the same grid
     bs = np.minimum(np.floor((c - volume.block_origin) / volume.block_size).astype(int), shape - 1)
     np.testing.assert_array_equal(volume.block_of_sample,

@@ -113,7 +113,7 @@ def test_failed_refits_are_counted(rng):
     ref = reference(vol)
     calls = {"n": 0}
 
-    def flaky(sums, *, fixed_frame=None, start=None):
+    def flaky(sums, *, fixed_frame=None, start=None, block_weights=None):
         calls["n"] += 1
         if calls["n"] % 5 == 0:
             raise RuntimeError("did not converge")
@@ -132,7 +132,7 @@ def test_unknown_estimator_is_refused_before_any_replicate(rng):
     ref = reference(vol)
     calls = {"n": 0}
 
-    def counting(sums, *, fixed_frame=None, start=None):
+    def counting(sums, *, fixed_frame=None, start=None, block_weights=None):
         calls["n"] += 1
         return stand_in_refit(sums, fixed_frame=fixed_frame, start=start)
 
@@ -150,7 +150,7 @@ def test_a_bug_in_the_refit_is_not_counted_as_a_failed_replicate(rng):
     vol = StandInVolume((8, 8, 1), (10, 10, 10), rng, truth())
     ref = reference(vol)
 
-    def buggy(sums, *, fixed_frame=None, start=None):
+    def buggy(sums, *, fixed_frame=None, start=None, block_weights=None):
         return sums[None][7, 7, 7]  # IndexError
 
     with pytest.raises(IndexError):
@@ -175,7 +175,7 @@ def _lean_chain(n, ranges, seed=1, box=(300.0, 300.0, 120.0), angles=(60.0, 20.0
                        blocks=U.engine_block_side(coords), progress=False, map_cell=False)
     total = float(np.var(v))
 
-    def refit(sums, *, fixed_frame=None, start=None):
+    def refit(sums, *, fixed_frame=None, start=None, block_weights=None):
         f = fit_nested(bins_from_sums(sums, min_pairs=10), start, fixed_frame=fixed_frame,
                        total_sill=total, max_nfev=200)
         m = f.model

@@ -172,3 +172,24 @@ def test_a_recentred_bootstrap_carries_its_intervals_and_bands_to_thereference(r
     np.testing.assert_allclose(band["lo"][0], np.quantile(curves, 0.05, axis=0) * k)
     np.testing.assert_allclose(band["hi"][0], np.quantile(curves, 0.95, axis=0) * k)
     assert res.to_dict()["recentred"] is True
+
+
+def test_a_rival_nugget_outside_the_band_widens_it_and_says_so(rng):
+    # two estimates of the nugget (the held down-hole one and the likelihood's): the band
+    # is widened to hold the second, and with one structure the sill's band to hold the
+    # total less it (by hand: total 1.0, rival 0.25 -> sill 0.75); one inside is a no-op
+    vol = StandInVolume((8, 8, 1), (10, 10, 10), np.random.default_rng(9), truth(), noise=0.3)
+    res = U.block_bootstrap(vol, stand_in_refit, reference(vol), n_replicates=40, seed=4)
+    res.nugget = 0.1 + 0.01 * rng.standard_normal(res.n_replicates)
+    res.sills = (1.0 - res.nugget)[:, None]
+    plain = res.to_dict()
+    assert plain["nugget"][1] < 0.25 and plain["sills"][0][0] > 0.75
+    res.rival_nugget = (0.25, "the likelihood's nugget")
+    got = res.to_dict()
+    assert got["nugget"] == [plain["nugget"][0], 0.25]
+    assert got["sills"][0] == [0.75, plain["sills"][0][1]]
+    assert any("widened to hold the likelihood's nugget (0.25)" in n for n in got["notes"])
+    assert res.confidence_interval.notes["nugget"].startswith("the nugget interval is widened")
+    res.rival_nugget = (0.1, "the likelihood's nugget")
+    assert res.to_dict()["nugget"] == plain["nugget"]
+    assert res.to_dict()["notes"] == plain["notes"]       # the total sill's note only

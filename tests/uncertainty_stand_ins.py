@@ -74,7 +74,7 @@ class StandInVolume:
         return np.tensordot(w, self.block_sums, axes=(0, 0))
 
 
-def stand_in_refit(sums, *, fixed_frame=None, start=None):
+def stand_in_refit(sums, *, fixed_frame=None, start=None, block_weights=None):
     """Frame from a least-squares tensor through the directional mean squares."""
     g = sums[1, :, 2] / sums[1, :, 0]
     A = np.stack([np.outer(d, d)[np.triu_indices(3)] for d in DIRECTIONS])

@@ -18,7 +18,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from anisotropy.errors import InsufficientDataError
+from anisotropy.errors import FitError, InsufficientDataError
 from anisotropy.exploration import Spacing
 from anisotropy.fitting import FitBins, bins_from_sums
 
@@ -41,6 +41,10 @@ class WeightedBins:
         The down-hole variogram's first points and nugget (drill holes only).
     min_pairs : float
         Fewest pairs of a bin.
+    downhole_pairs : tuple or None
+        Distances (m,) and sample indices (m, 2) of the down-hole pairs the
+        held nugget came from (for the bootstrap, which re-estimates it in
+        each replicate); None when the nugget is fitted.
     """
 
     bins: FitBins
@@ -50,6 +54,68 @@ class WeightedBins:
     min_pairs: float
     choices: tuple[dict, ...] = ()
     warnings: tuple[str, ...] = ()
+    downhole_pairs: tuple | None = None
+
+
+@dataclass(frozen=True)
+class ReplicateNugget:
+    """The held down-hole nugget of a block-bootstrap replicate: the same rule, re-weighted.
+
+    Each down-hole pair carries the replicate's weight of the block holding
+    its midpoint (:meth:`anisotropy.pairs.LagVolume.blocks_of_pairs`), as
+    the pass's pairs do in the re-weighted block sums, and the nugget is
+    read from the weighted first lags by :func:`downhole_nugget`. So the
+    replicates re-estimate the nugget instead of holding the main one.
+
+    Attributes
+    ----------
+    distances : ndarray (m,)
+    pairs : ndarray (m, 2)
+        Sample indices of the down-hole pairs.
+    pair_block : ndarray (m,)
+        Block of each pair's midpoint in the resampled volume.
+    values : ndarray (n,)
+        The analysed values.
+    composite : float
+    total : float or None
+    estimator : str
+    """
+
+    distances: np.ndarray
+    pairs: np.ndarray
+    pair_block: np.ndarray
+    values: np.ndarray
+    composite: float
+    total: float | None
+    estimator: str
+
+    @classmethod
+    def of(cls, weighted: "WeightedBins", volume, coords, values, *, total, estimator):
+        """The rule for ``volume``'s blocks, or None where ``weighted`` holds no down-hole
+        nugget."""
+        if weighted.fixed_nugget is None or weighted.downhole_pairs is None:
+            return None
+        d, ij = weighted.downhole_pairs
+        return cls(distances=d, pairs=ij, pair_block=volume.blocks_of_pairs(coords, ij[:, 0],
+                                                                            ij[:, 1]),
+                   values=np.asarray(values, float),
+                   composite=float(weighted.downhole["composite"]), total=total,
+                   estimator=estimator)
+
+    def __call__(self, block_weights) -> float:
+        """The nugget for one replicate's block weights.
+
+        Raises
+        ------
+        FitError
+            Too few down-hole pairs of positive weight for the rule.
+        """
+        w = np.asarray(block_weights, float)[self.pair_block]
+        nug, _ = downhole_nugget((self.distances, self.pairs), self.values, self.composite,
+                                 self.total, self.estimator, weights=w)
+        if nug is None:
+            raise FitError("the replicate's down-hole pairs are too few to read its nugget")
+        return nug
 
 
 def information_weight(bins: FitBins, ratio) -> np.ndarray:
@@ -60,7 +126,8 @@ def information_weight(bins: FitBins, ratio) -> np.ndarray:
 
 
 def _drill_hole_ratio(pv, csums, coords, holes, values, spacing, lags, total, estimator):
-    """Information per pair of each (class, cell), the down-hole nugget, and the choices."""
+    """Information per pair of each (class, cell), the down-hole nugget, the choices, and the
+    down-hole pairs where the nugget is held."""
     within, within_h, dh = within_hole_pairs(pv.volume, coords, holes)
     N = csums[..., 0]
     if np.any(within > N):   # the same rule files both: a subset cannot outnumber its bin
@@ -83,7 +150,7 @@ def _drill_hole_ratio(pv, csums, coords, holes, values, spacing, lags, total, es
                                   "composites), extrapolated to zero and held in the fit "
                                   "(the joint fit's shortest lag is "
                                   f"{lags.unit_lag:.3g} m)"})
-    return ratio, fixed, downhole, choices
+    return ratio, fixed, downhole, choices, dh if fixed is not None else None
 
 
 def weighted_bins(pv: PairVolume, coords, values, *, holes, spacing: Spacing,
@@ -120,10 +187,10 @@ def weighted_bins(pv: PairVolume, coords, values, *, holes, spacing: Spacing,
             f"({pv.n_pairs} pairs in all): too few for a 3D answer, which needs pairs in many "
             "directions. Add samples or holes in other directions, widen the lag, or fit "
             "a 2D or omnidirectional model by hand.")
-    ratio, fixed, downhole, choices = np.ones(csums.shape[:2]), None, None, []
+    ratio, fixed, downhole, choices, dh = np.ones(csums.shape[:2]), None, None, [], None
     if holes is not None and spacing.n_holes and spacing.n_holes > 1:
-        ratio, fixed, downhole, choices = _drill_hole_ratio(pv, csums, coords, holes, values,
-                                                            spacing, lags, total, estimator)
+        ratio, fixed, downhole, choices, dh = _drill_hole_ratio(
+            pv, csums, coords, holes, values, spacing, lags, total, estimator)
     bins.weight = information_weight(bins, ratio)
     choices.append({"choice": "bin weights", "value": "pairs / distance",
                     "reason": "the pairs of a 3D lag bin grow with the square of the distance, "
@@ -134,7 +201,7 @@ def weighted_bins(pv: PairVolume, coords, values, *, holes, spacing: Spacing,
         choices.append({"choice": "nugget", "value": "fitted",
                         "reason": "fitted jointly, pinned by the shortest lags of the volume"})
     return WeightedBins(bins=bins, ratio=ratio, fixed_nugget=fixed, downhole=downhole,
-                        min_pairs=min_pairs, choices=tuple(choices))
+                        min_pairs=min_pairs, choices=tuple(choices), downhole_pairs=dh)
 
 
 def within_hole_pairs(volume, coords, holes):
@@ -211,25 +278,48 @@ def _position_along_hole(coords, inv):
     return pos
 
 
-def downhole_nugget(dh, values, composite, total, estimator):
-    """Nugget from the first down-hole lags: linear extrapolation to zero."""
+def downhole_nugget(dh, values, composite, total, estimator, weights=None):
+    """Nugget from the first down-hole lags: linear extrapolation to zero.
+
+    Parameters
+    ----------
+    dh : tuple
+        Distances (m,) and sample indices (m, 2) of the down-hole pairs.
+    values : ndarray (n,)
+    composite : float or None
+        The composite length (m): pairs are classed by ``round(d / composite)``.
+    total : float or None
+        Total sill: the nugget is at most 0.95 of it.
+    estimator : str
+    weights : ndarray (m,), optional
+        A weight per pair (a bootstrap replicate's block weights): every
+        mean is then the weighted mean, and a class needs 20 pairs of
+        positive weight.
+
+    Returns
+    -------
+    nugget : float or None
+        None with fewer than 30 pairs, no composite length, an estimator
+        without a variance-like nugget, or fewer than two classes.
+    points : list of (mean distance, value, pairs) or None
+    """
     d, ij = dh
     if d.size < 30 or not composite or estimator not in ("semivariogram", "robust",
                                                           "correlogram"):
         return None, None
+    w = np.ones(d.size) if weights is None else np.asarray(weights, float)
     cls = np.round(d / composite).astype(int)
     pts = []
     for k in (1, 2, 3):
-        m = cls == k
+        m = (cls == k) & (w > 0)
         if m.sum() >= 20:
-            diff = values[ij[m, 1]] - values[ij[m, 0]]
+            a, b = values[ij[m, 0]], values[ij[m, 1]]
             if estimator == "correlogram":
-                a, b = values[ij[m, 0]], values[ij[m, 1]]
-                r = np.corrcoef(a, b)[0, 1]
-                g = 1.0 - r
+                g = 1.0 - np.corrcoef(a, b)[0, 1] if weights is None else \
+                    1.0 - _weighted_correlation(a, b, w[m])
             else:
-                g = 0.5 * np.mean(diff ** 2)
-            pts.append((float(np.mean(d[m])), float(g), int(m.sum())))
+                g = 0.5 * np.average((b - a) ** 2, weights=w[m])
+            pts.append((float(np.average(d[m], weights=w[m])), float(g), int(m.sum())))
     if len(pts) < 2:
         return None, pts
     x = np.array([p[0] for p in pts])
@@ -239,3 +329,7 @@ def downhole_nugget(dh, values, composite, total, estimator):
     return nug, pts
 
 
+def _weighted_correlation(a, b, w):
+    """Pearson correlation of ``a`` and ``b`` with frequency-like weights ``w``."""
+    c = np.cov(a, b, aweights=w)
+    return c[0, 1] / np.sqrt(c[0, 0] * c[1, 1])

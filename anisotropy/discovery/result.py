@@ -10,7 +10,7 @@ pairs for the block bootstrap.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
@@ -30,7 +30,7 @@ from anisotropy.transform import TransformResult
 from anisotropy.uncertainty import (DEFAULT_REPLICATES, BootstrapResult, block_bootstrap,
                                     model_bootstrap)
 
-from anisotropy.discovery.bins import WeightedBins, information_weight
+from anisotropy.discovery.bins import ReplicateNugget, WeightedBins, information_weight
 from anisotropy.discovery.diagnose import AXES, Diagnostics
 from anisotropy.discovery.fan import FanRanges
 from anisotropy.discovery.grades import GradeRefit, refit_grades
@@ -65,12 +65,14 @@ def _as_start(model):
 class RefitState:
     """Everything a bootstrap replicate's refit shares with the main fit.
 
-    Calling it, ``refit(coarse_sums, *, fixed_frame=None, start=None) ->
-    (NestedModel, objective)``, rebuilds the fit bins from (re-weighted)
-    coarse sums, re-applies the main fit's information weights (per bin, as a
-    ratio to the pair count), and refits the same number and kinds of
-    structures, warm-started from ``start`` (default: the main fit), with the
-    same nugget policy, one re-weighting pass (the Cressie denominators of the
+    Calling it, ``refit(coarse_sums, *, fixed_frame=None, start=None,
+    block_weights=None) -> (NestedModel, objective)``, rebuilds the fit bins
+    from (re-weighted) coarse sums, re-applies the main fit's information
+    weights (per bin, as a ratio to the pair count), and refits the same
+    number and kinds of structures, warm-started from ``start`` (default: the
+    main fit), with the same nugget policy (a held down-hole nugget is read
+    again from the replicate's ``block_weights`` where ``downhole`` is set,
+    see :meth:`for_volume`), one re-weighting pass (the Cressie denominators of the
     warm start) and a relative cost tolerance of 1e-5; ``fixed_frame`` holds
     the frame (for checking an interpretation).  No pass over the pairs.  The
     returned model's frame is ordered and canonical like the main one.  Where
@@ -87,6 +89,7 @@ class RefitState:
     max_nfev: int
     shared_ratios: bool
     frame_correction: np.ndarray | None = None
+    downhole: ReplicateNugget | None = None
 
     @classmethod
     def of(cls, refinement: Refinement, weighted: WeightedBins, settings: FitSettings, *,
@@ -99,7 +102,14 @@ class RefitState:
                    max_nfev=60 * (fit.n_params + 1 + (3 if Q is not None else 0)),
                    shared_ratios=shared_ratios, frame_correction=Q)
 
-    def __call__(self, coarse_sums, *, fixed_frame=None, start=None):
+    def for_volume(self, weighted: WeightedBins, volume, coords, values) -> "RefitState":
+        """This refit, re-reading a held down-hole nugget in each replicate of ``volume``'s
+        blocks (itself where no nugget is held)."""
+        rule = ReplicateNugget.of(weighted, volume, coords, values,
+                                  total=self.settings.total_sill, estimator=self.estimator)
+        return self if rule is None else replace(self, downhole=rule)
+
+    def __call__(self, coarse_sums, *, fixed_frame=None, start=None, block_weights=None):
         bins = bins_from_sums(coarse_sums, estimator=self.estimator, min_pairs=self.min_pairs)
         bins.weight = information_weight(bins, self.weight_ratio)
         if bins.n < 3:
@@ -114,9 +124,12 @@ class RefitState:
             s0 = _as_start(s0) if not isinstance(s0, tuple) else s0
             s0 = (Q.T @ np.asarray(s0[0], float),) + tuple(s0[1:])
         st = self.settings
+        nugget = st.fixed_nugget
+        if self.downhole is not None and block_weights is not None:
+            nugget = self.downhole(block_weights)
         f = fit_nested(bins, s0, n_structures=len(main.structures),
                        kinds=tuple(x.kind for x in main.structures),
-                       fixed_frame=fixed_frame, fixed_nugget=st.fixed_nugget,
+                       fixed_frame=fixed_frame, fixed_nugget=nugget,
                        total_sill=st.total_sill, max_nfev=self.max_nfev,
                        min_range=st.min_range, max_range=st.max_range,
                        planar=st.planar, ftol=1e-5, outer=1,
@@ -414,9 +427,17 @@ class Discovery:
                 progress=self.params.progress, source=str(s.source), blocks=True)
         return self._blocked_volume.volume
 
-    def refit_function(self) -> RefitState:
-        """The refit of a bootstrap replicate (see :class:`RefitState`)."""
-        return self.refit
+    def refit_function(self, volume=None) -> RefitState:
+        """The refit of a bootstrap replicate (see :class:`RefitState`).
+
+        Given the volume whose blocks a block bootstrap resamples, a held
+        down-hole nugget is read again in each replicate from its re-weighted
+        down-hole pairs (:meth:`RefitState.for_volume`).
+        """
+        if volume is None:
+            return self.refit
+        return self.refit.for_volume(self.weighted, volume, self.samples.coords,
+                                     self.transform_choice.values)
 
     def bootstrap(self, n_resamples=DEFAULT_REPLICATES, *, method="block",
                   confidence_level=0.9, rng=0, n_jobs=1, scheduler=None,
@@ -461,9 +482,11 @@ class Discovery:
             res = model_bootstrap(self.samples.coords, self.model, self.refit,
                                   volume=self.volume_, **kw)
         else:
-            res = block_bootstrap(self.volume_with_blocks(), self.refit, self.model,
+            vol = self.volume_with_blocks()
+            res = block_bootstrap(vol, self.refit_function(vol), self.model,
                                   estimator=self.estimator, **kw)
         res.rival_angles = self.rival_angles()
+        res.rival_nugget = self.rival_nugget()
         fr = self.refinement.frame_refinement
         res.recentred = fr is not None and fr.reports_likelihood_model
         res.information = self.likelihood_information(confidence_level)
@@ -493,6 +516,27 @@ class Discovery:
         if fr is None or self.samples.holes is not None:
             return None
         return fr.likelihood_information(self.frame, confidence, seed=self.params.seed)
+
+    def rival_nugget(self) -> tuple | None:
+        """The likelihood's nugget, where the fit holds the down-hole one: a second estimate.
+
+        On drill holes the fit holds the nugget read from the first down-hole
+        lags, a straight line through two points that a curved structure
+        biases; the likelihood estimates the nugget with the structures from
+        every sample. The bootstrap widens the nugget's band to hold both
+        (:class:`anisotropy.uncertainty.result.BootstrapResult`).
+
+        Returns
+        -------
+        tuple or None
+            ``(value, what)``; None where the nugget is fitted, or without a
+            likelihood refinement.
+        """
+        fr = self.refinement.frame_refinement
+        share = ((fr.record or {}) if fr is not None else {}).get("nugget_share")
+        if self.weighted.fixed_nugget is None or share is None:
+            return None
+        return float(self.model.total_sill) * float(share), "the likelihood's nugget"
 
     def rival_angles(self) -> dict | None:
         """Angle (degrees) from each reported axis to a rival frame's, where one is as likely.

@@ -584,6 +584,32 @@ class LagVolume:
         full[m, m, m] = self.map_sums[m, m, m]
         return (np.arange(-m, m + 1) * self.map_cell, full)
 
+    def blocks_of_pairs(self, coords, i, j) -> np.ndarray:
+        """Flat block index of each pair ``(i, j)``'s midpoint, by this pass's own rule.
+
+        As the pass credits a pair: the midpoint of the two samples'
+        coordinates less ``block_origin``, times the inverse block side,
+        floored and clamped to the grid. Sums over pairs weighted by their
+        block's weight then re-weight exactly as the block sums do.
+
+        Parameters
+        ----------
+        coords : array_like (n, 3)
+            The coordinates the volume was built from.
+        i, j : array_like of int (m,)
+
+        Returns
+        -------
+        ndarray of int64 (m,)
+        """
+        c = np.asarray(coords, dtype=np.float64) - self.block_origin
+        mid = 0.5 * (c[np.asarray(i)] + c[np.asarray(j)])
+        size = np.asarray(self.block_size, dtype=float)
+        inv = np.where(size > 0, 1.0 / np.where(size > 0, size, 1.0), 0.0)
+        shape = np.asarray(self.block_shape, dtype=np.int64)
+        b = np.clip(np.floor(mid * inv).astype(np.int64), 0, np.maximum(shape - 1, 0))
+        return (b[:, 0] * shape[1] + b[:, 1]) * shape[2] + b[:, 2]
+
     def bins_of_pairs(self, coords, i, j) -> tuple:
         """Distance class and coarse cell of the pairs ``(i, j)``, by this pass's own rule.
 

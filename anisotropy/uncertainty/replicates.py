@@ -60,7 +60,7 @@ def _run_chunk(weights, refit, start, keep_experimental, estimator, *, block_sum
         sums = reweighted_sums(block_sums, w)
         exp = np.asarray(estimate(sums, estimator), dtype=float) if keep_experimental else None
         try:
-            model, obj = refit(sums, start=start)
+            model, obj = refit(sums, start=start, block_weights=w)
             out.append((model, float(obj), exp, None))
         except REPLICATE_ERRORS as exc:  # counted and reported, never hidden
             out.append((None, math.nan, exp, f"{type(exc).__name__}: {exc}"))
@@ -148,9 +148,11 @@ def block_bootstrap(volume, refit: Callable, reference, *, n_replicates=DEFAULT_
         ``block_shape``, ``block_size``, ``coarse_directions`` and
         ``block_of_sample``.
     refit : callable
-        ``refit(coarse_sums, *, fixed_frame=None, start=None) -> (NestedModel,
-        objective)``, from ``Discovery.refit_function()``. Called once per
-        replicate with ``start=reference`` (warm start).
+        ``refit(coarse_sums, *, fixed_frame=None, start=None, block_weights=None)
+        -> (NestedModel, objective)``, from ``Discovery.refit_function(volume)``.
+        Called once per replicate with ``start=reference`` (warm start) and
+        the replicate's weight of each block (for what the refit re-estimates
+        besides the sums: a held down-hole nugget).
     reference : NestedModel
         The main fit; its frame is what replicate axes are matched to.
     n_replicates : int
@@ -232,7 +234,8 @@ def _fixed_chunk(weights, refit, frame, start, *, block_sums):
     out = []
     for w in weights:
         try:
-            _, obj = refit(reweighted_sums(block_sums, w), fixed_frame=frame, start=start)
+            _, obj = refit(reweighted_sums(block_sums, w), fixed_frame=frame, start=start,
+                           block_weights=w)
             out.append(float(obj))
         except REPLICATE_ERRORS:  # counted by the caller as NaN
             out.append(math.nan)

@@ -119,6 +119,12 @@ class BootstrapResult:
         Per axis, the angle (degrees) to a rival frame the likelihood cannot
         tell from the reported one; the cone is widened to hold it and a cone
         as wide around it (the angle plus the cone).
+    rival_nugget : tuple or None
+        ``(value, what)``: a second estimate of the nugget by another rule
+        (the likelihood's, where the fit holds the down-hole nugget). The
+        nugget's interval is widened to hold it, and with one structure the
+        sill's to hold the total sill less it, with a note: two estimates
+        that disagree both stay inside the band.
     information : anisotropy.fitting.information.ReportedInformation or None
         The likelihood's observed information in the reported model's terms
         (:meth:`anisotropy.fitting.refine.FrameRefinement.likelihood_information`).
@@ -160,6 +166,7 @@ class BootstrapResult:
     recentred: bool = False
     group_of_block: np.ndarray | None = None
     rival_angles: dict | None = None
+    rival_nugget: tuple | None = None
     information: ReportedInformation | None = None
 
     # -- derived -----------------------------------------------------------
@@ -303,7 +310,8 @@ class BootstrapResult:
 
         The Wald interval of its share of the total sill on the logit scale,
         times the reported total sill, where the likelihood's information
-        gives the share's standard deviation; else the replicates'.
+        gives the share's standard deviation; else the replicates', widened
+        to hold a rival nugget where one is given (:attr:`rival_nugget`).
         """
         est = self._estimate_of(name)
         sd = self._information("logit_share_sd", name)
@@ -314,7 +322,28 @@ class BootstrapResult:
             return [float(tot * expit(logit - z * sd)), float(tot * expit(logit + z * sd))]
         what = {"nugget": "nugget", "total_sill": "total sill"}.get(name) or \
             f"sill of structure {int(name[4:]) + 1}"
-        return self._held_or_interval(self._replicates_of(name), est, conf, what, notes)
+        band = self._held_or_interval(self._replicates_of(name), est, conf, what, notes)
+        return self._holding_rival_nugget(name, band, notes)
+
+    def _holding_rival_nugget(self, name, band, notes):
+        """``band`` widened to hold the rival nugget (or, with one structure, the sill the
+        total leaves beside it), with a note; unchanged without a rival or a band."""
+        if self.rival_nugget is None or band is None:
+            return band
+        value, what = self.rival_nugget
+        one = len(self.reference.structures) == 1
+        if name == "nugget":
+            target = float(value)
+        elif name == "sill0" and one:
+            target = float(self.reference.total_sill) - float(value)
+        else:
+            return band
+        if not np.isfinite(target) or band[0] <= target <= band[1]:
+            return band
+        if name == "nugget":
+            notes.append(f"the nugget interval is widened to hold {what} ({value:.3g}), "
+                         "a second estimate outside the replicates' interval")
+        return [float(min(band[0], target)), float(max(band[1], target))]
 
     def _exchanged(self, i, conf):
         """True when the replicates exchange axis ``i`` with another in more than ``1 - conf``."""
