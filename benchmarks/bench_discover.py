@@ -395,6 +395,20 @@ def engine_record(D, spec, real):
             rec[f"{ax}_in_cone"] = cone_holds(e, D.frame[:, i], R[:, i])
             rec[f"{ax}_range_in"] = range_holds(e, true_r[i])
         rec["swap_rate"] = u.get("swap_rate")
+        # the nugget and its interval in the model's units: the fields have unit variance
+        # and the runs use the raw values, so the true nugget is the scenario's
+        nb = u.get("nugget")
+        rec["nugget"] = float(D.model.nugget)
+        rec["nugget_interval"] = nb
+        rec["nugget_in"] = None if nb is None else bool(nb[0] <= spec["nugget"] <= nb[1])
+        rival = getattr(D.uncertainty, "rival_nugget", None)
+        rec["rival_nugget"] = None if rival is None else rival[0]
+        if rival is not None:   # the replicates' own interval, before it holds the rival
+            D.uncertainty.rival_nugget = None
+            own = D.uncertainty.to_dict().get("nugget")
+            D.uncertainty.rival_nugget = rival
+            rec["nugget_replicates_in"] = None if own is None else bool(
+                own[0] <= spec["nugget"] <= own[1])
     info = (D.diagnostics.get("frame_refinement") or {}).get("information")
     if info and info.get("cones_deg") and spec["structures"]:
         # the likelihood's information cones (fitting.refine.INFORMATION_CONES), scored
@@ -433,6 +447,30 @@ def one(name, spec, seed, bootstrap=0):
                            "minor": axis_err(Fb[:, 2], R[:, 2]),
                            "range_err": list(np.abs(rb / true_r - 1))}
     return out
+
+
+def summarise_nugget(rows):
+    """Per scenario: the nugget's median error, and how often its interval holds the truth.
+
+    In the model's units (the fields have unit variance and the runs use the raw values).
+    """
+    lines = ["| scenario | realisations | nugget median error (signed) | median abs error "
+             "| interval holds the truth | median interval width |", "|---|---|---|---|---|---|"]
+    for name in dict.fromkeys(r["scenario"] for r in rows):
+        e = [r["engine"] for r in rows if r["scenario"] == name and "nugget" in
+             r.get("engine", {})]
+        truth = SCENARIOS[name]["nugget"]
+        if not e or not SCENARIOS[name]["structures"]:
+            continue
+        err = np.array([x["nugget"] - truth for x in e])
+        held = [x["nugget_in"] for x in e if x.get("nugget_in") is not None]
+        width = [x["nugget_interval"][1] - x["nugget_interval"][0] for x in e
+                 if x.get("nugget_interval")]
+        lines.append(f"| {name} | {len(e)} | {np.median(err):+.3f} | "
+                     f"{np.median(np.abs(err)):.3f} | "
+                     + (f"{sum(held)}/{len(held)}" if held else "none") + " | "
+                     + (f"{np.median(width):.3f}" if width else "-") + " |")
+    return "\n".join(lines)
 
 
 def summarise(rows):

@@ -72,7 +72,7 @@ def _holds(lo, hi, t):
     return bool((lo is None or lo <= t) and (hi is None or t <= hi))
 
 def lean_refit(total):
-    def refit(sums, *, fixed_frame=None, start=None):
+    def refit(sums, *, fixed_frame=None, start=None, block_weights=None):
         b = bins_from_sums(sums, min_pairs=10)
         f = fit_nested(b, start, fixed_frame=fixed_frame, total_sill=total, max_nfev=200)
         m = f.model

@@ -174,10 +174,12 @@ def test_a_recentred_bootstrap_carries_its_intervals_and_bands_to_thereference(r
     assert res.to_dict()["recentred"] is True
 
 
-def test_a_rival_nugget_outside_the_band_widens_it_and_says_so(rng):
+def test_a_rival_nugget_widens_the_band_to_hold_it_with_the_replicates_spread(rng):
     # two estimates of the nugget (the held down-hole one and the likelihood's): the band
-    # is widened to hold the second, and with one structure the sill's band to hold the
-    # total less it (by hand: total 1.0, rival 0.25 -> sill 0.75); one inside is a no-op
+    # joins the replicates' interval with their spread carried to the second (NumPy
+    # quantiles times 0.25 over their median, by hand), and with one structure the sill's
+    # band with that carried to the total less it (1.0 - 0.25); one that adds nothing
+    # leaves the band and the notes as they were
     vol = StandInVolume((8, 8, 1), (10, 10, 10), np.random.default_rng(9), truth(), noise=0.3)
     res = U.block_bootstrap(vol, stand_in_refit, reference(vol), n_replicates=40, seed=4)
     res.nugget = 0.1 + 0.01 * rng.standard_normal(res.n_replicates)
@@ -186,10 +188,14 @@ def test_a_rival_nugget_outside_the_band_widens_it_and_says_so(rng):
     assert plain["nugget"][1] < 0.25 and plain["sills"][0][0] > 0.75
     res.rival_nugget = (0.25, "the likelihood's nugget")
     got = res.to_dict()
-    assert got["nugget"] == [plain["nugget"][0], 0.25]
-    assert got["sills"][0] == [0.75, plain["sills"][0][1]]
-    assert any("widened to hold the likelihood's nugget (0.25)" in n for n in got["notes"])
+    q = np.quantile(res.nugget, [0.05, 0.95])
+    np.testing.assert_allclose(got["nugget"],
+                               [plain["nugget"][0], 0.25 * q[1] / np.median(res.nugget)])
+    qs = np.quantile(res.sills[:, 0], [0.05, 0.95])
+    np.testing.assert_allclose(got["sills"][0],
+                               [0.75 * qs[0] / np.median(res.sills[:, 0]), plain["sills"][0][1]])
+    assert any("widened to hold the likelihood's nugget (0.25) too" in n for n in got["notes"])
     assert res.confidence_interval.notes["nugget"].startswith("the nugget interval is widened")
-    res.rival_nugget = (0.1, "the likelihood's nugget")
+    res.rival_nugget = (float(np.median(res.nugget)), "the likelihood's nugget")
     assert res.to_dict()["nugget"] == plain["nugget"]
     assert res.to_dict()["notes"] == plain["notes"]       # the total sill's note only

@@ -523,7 +523,9 @@ class Discovery:
         On drill holes the fit holds the nugget read from the first down-hole
         lags, a straight line through two points that a curved structure
         biases; the likelihood estimates the nugget with the structures from
-        every sample. The bootstrap widens the nugget's band to hold both
+        every sample, and can give part of it to a short structure. Neither
+        is better everywhere, so the bootstrap's nugget band holds both, each
+        with the replicates' spread about it
         (:class:`anisotropy.uncertainty.result.BootstrapResult`).
 
         Returns

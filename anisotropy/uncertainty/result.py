@@ -323,27 +323,34 @@ class BootstrapResult:
         what = {"nugget": "nugget", "total_sill": "total sill"}.get(name) or \
             f"sill of structure {int(name[4:]) + 1}"
         band = self._held_or_interval(self._replicates_of(name), est, conf, what, notes)
-        return self._holding_rival_nugget(name, band, notes)
+        return self._holding_rival_nugget(name, band, conf, notes)
 
-    def _holding_rival_nugget(self, name, band, notes):
-        """``band`` widened to hold the rival nugget (or, with one structure, the sill the
-        total leaves beside it), with a note; unchanged without a rival or a band."""
+    def _holding_rival_nugget(self, name, band, conf, notes):
+        """``band`` joined with the replicates' spread carried to the rival nugget (with one
+        structure, to the sill the total leaves beside it), with a note where that widens it.
+
+        Both estimates then stay inside the band, each with the replicates'
+        spread about it (:func:`~anisotropy.uncertainty.intervals.carried_interval`);
+        unchanged without a rival or a band.
+        """
         if self.rival_nugget is None or band is None:
             return band
         value, what = self.rival_nugget
-        one = len(self.reference.structures) == 1
         if name == "nugget":
             target = float(value)
-        elif name == "sill0" and one:
+        elif name == "sill0" and len(self.reference.structures) == 1:
             target = float(self.reference.total_sill) - float(value)
         else:
             return band
-        if not np.isfinite(target) or band[0] <= target <= band[1]:
+        if not np.isfinite(target):
             return band
-        if name == "nugget":
-            notes.append(f"the nugget interval is widened to hold {what} ({value:.3g}), "
-                         "a second estimate outside the replicates' interval")
-        return [float(min(band[0], target)), float(max(band[1], target))]
+        other = carried_interval(self._replicates_of(name), target, conf)[0]
+        lo = float(min(band[0], other[0], target))
+        hi = float(max(band[1], other[1], target))
+        if name == "nugget" and (lo < band[0] or hi > band[1]):
+            notes.append(f"the nugget interval is widened to hold {what} ({value:.3g}) too, "
+                         "with the replicates' spread about it: two estimates of the nugget")
+        return [lo, hi]
 
     def _exchanged(self, i, conf):
         """True when the replicates exchange axis ``i`` with another in more than ``1 - conf``."""
