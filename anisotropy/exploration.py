@@ -17,7 +17,7 @@ Standard deviations here are population values (divisor n, or weights
 summing to one), consistent between the raw and the declustered figures and
 with the variogram sill.
 
-``explore`` takes an :class:`anisotropy.samples.SampleSet` (the usual route)
+``explore`` takes an :class:`anisotropy.samples.record.SampleSet` (the usual route)
 or, for scripts and tests, plain arrays: ``explore(coords, values,
 holes=None)``.
 """
@@ -1178,7 +1178,7 @@ def explore(samples, values=None, *, holes=None, quantiles=DEFAULT_QUANTILES,
     Parameters
     ----------
     samples : SampleSet or array_like
-        An :class:`anisotropy.samples.SampleSet`; or, with ``values`` given,
+        An :class:`anisotropy.samples.record.SampleSet`; or, with ``values`` given,
         an (n, 3) array of local coordinates.
     values : array_like, optional
         Grades, when ``samples`` is a coordinate array.

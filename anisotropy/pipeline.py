@@ -96,7 +96,7 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
     data : str, path, pandas.DataFrame or SampleSet
         The sample table (or samples already read).
     value, x, y, z, domain, domain_value, hole : str, optional
-        Columns (see :func:`anisotropy.samples.samples_from_frame`).
+        Columns (see :func:`anisotropy.samples.intake.samples_from_frame`).
     transform : {"auto", "normal_score", "raw", "log", "indicator"}
         "auto" = normal scores when the grades are skewed (CV > 1 or skewness > 1).
     estimator : str

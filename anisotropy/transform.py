@@ -714,7 +714,7 @@ def apply_top_cut(samples, top_cut, mode="cap", *, choices=None):
 
     Parameters
     ----------
-    samples : anisotropy.samples.SampleSet
+    samples : anisotropy.samples.record.SampleSet
     top_cut : float, "auto" or None
         The top-cut grade, ``"auto"`` for the suggestion of
         :func:`anisotropy.exploration.suggested_topcut` (computed on these
