@@ -1,15 +1,11 @@
-"""Tests of the sample intake (anisotropy.samples).
+"""Tests of anisotropy.samples.intake: the row rules, in order, every sample counted.
 
-The outside references used here: plain arithmetic on the table written by
-the test (brute-force counts), NumPy float64 arithmetic, difflib from the
-standard library (closest column name), pandas groupby (duplicate averages),
-numpy.linalg.svd (planarity), pyarrow (Parquet writing).
+Outside references: plain arithmetic on the table written by the test
+(brute-force counts), NumPy float64 arithmetic, pandas groupby (duplicate
+averages), numpy.linalg.svd (planarity).
 """
 
 from __future__ import annotations
-
-import difflib
-import json
 
 import numpy as np
 import pandas as pd
@@ -19,205 +15,15 @@ from hypothesis import strategies as st
 
 from anisotropy.errors import ColumnError, DataError, InputError, InsufficientDataError
 from anisotropy.samples import (
-    SampleSet,
-    detect_coordinate_columns,
     domain_values,
     read_samples,
-    read_table,
     samples_from_frame,
 )
 
-# ---------------------------------------------------------------------------
-# helpers
-# ---------------------------------------------------------------------------
-
-GOOD = pd.DataFrame({
-    "hole": ["FH001"] * 4 + ["FH002"] * 4,
-    "x": [1000.0, 1000.5, 1001.0, 1001.5, 1050.0, 1050.0, 1050.0, 1050.0],
-    "y": [2000.0, 2000.0, 2000.0, 2000.0, 2040.0, 2041.0, 2042.0, 2043.0],
-    "z": [300.0, 298.0, 296.0, 294.0, 310.0, 308.0, 306.0, 304.0],
-    "au": [0.5, 1.25, 3.0, 0.75, 2.5, 0.125, 4.0, 1.5],
-    "domain": ["vein", "vein", "vein", "blanket", "vein", "vein", "blanket", "vein"],
-})
+from samples_helpers import DUPS, GOOD, write
 
 
-def write(tmp_path, text, name="t.csv"):
-    p = tmp_path / name
-    p.write_text(text, encoding="utf-8")
-    return p
-
-
-def as_text(df, sep):
-    return df.to_csv(sep=sep, index=False)
-
-
-# ---------------------------------------------------------------------------
-# separators and formats
-# ---------------------------------------------------------------------------
-
-@pytest.mark.parametrize("sep,name", [(",", "comma"), (";", "semicolon"), ("\t", "tab")])
-def test_each_separator_reads_the_same_numbers(tmp_path, sep, name):
-    p = write(tmp_path, as_text(GOOD, sep))
-    s = read_samples(p, value="au", hole="hole")
-    # reference: the numbers the test itself wrote (exact brute force)
-    np.testing.assert_array_equal(s.values, GOOD["au"].to_numpy())
-    np.testing.assert_array_equal(s.world_coords, GOOD[["x", "y", "z"]].to_numpy())
-    assert s.table["separator"] == name
-    assert list(s.holes) == list(GOOD["hole"])
-
-
-def test_whitespace_separated(tmp_path):
-    lines = ["hole   x      y      z     au"]
-    for r in GOOD.itertuples():
-        lines.append(f"{r.hole}  {r.x:8.2f}   {r.y:9.2f} {r.z:7.2f}  {r.au}")
-    p = write(tmp_path, "\n".join(lines) + "\n", "t.txt")
-    s = read_samples(p, value="au")
-    np.testing.assert_array_equal(s.values, GOOD["au"].to_numpy())  # exact: written by the test
-    np.testing.assert_array_equal(s.world_coords, GOOD[["x", "y", "z"]].to_numpy())
-    assert s.table["separator"] == "whitespace"
-
-
-def test_semicolon_with_decimal_comma(tmp_path):
-    text = "x;y;z;au\n1000,5;2000,25;300;1,5\n1001,5;2001,25;298;-0,02\n1003;2004;297;2\n1005;2000;290;0,5\n"
-    s = read_samples(write(tmp_path, text), value="au")
-    # arithmetic on the written cells; -0.02 -> 0.01 is DL/2 (common practice)
-    np.testing.assert_array_equal(s.values, [1.5, 0.01, 2.0, 0.5])
-    np.testing.assert_array_equal(s.world_coords[:, 0], [1000.5, 1001.5, 1003.0, 1005.0])
-    assert s.table["decimal"] == ","
-
-
-def test_parquet_round_trip(tmp_path):
-    pytest.importorskip("pyarrow")
-    p = tmp_path / "t.parquet"
-    GOOD.to_parquet(p)  # written by pyarrow, the reference Parquet writer
-    s = read_samples(p, value="au", domain="domain", domain_value="vein")
-    ref = GOOD[GOOD.domain == "vein"]
-    np.testing.assert_array_equal(s.values, ref["au"].to_numpy())
-    np.testing.assert_array_equal(s.world_coords, ref[["x", "y", "z"]].to_numpy())
-    assert s.table["format"] == "parquet"
-
-
-def test_parquet_without_pyarrow_says_what_to_install(tmp_path, monkeypatch):
-    import builtins
-
-    p = tmp_path / "t.parquet"
-    p.write_bytes(b"PAR1")
-    real_import = builtins.__import__
-
-    def fake_import(name, *args, **kwargs):
-        if name == "pyarrow" or name.startswith("pyarrow."):
-            raise ImportError("no pyarrow")
-        return real_import(name, *args, **kwargs)
-
-    monkeypatch.setattr(builtins, "__import__", fake_import)
-    with pytest.raises(InputError, match="pyarrow") as info:
-        read_table(p)
-    assert "t.parquet" in str(info.value) and "CSV" in str(info.value)
-
-
-@pytest.mark.parametrize("text,needle", [
-    ("", "empty"),
-    ("1,2,3\n4,5,6\n", "header"),
-    ("x,y,z,au\n1,2,3,4\n1,2,3,4,5,6\n", "line"),
-])
-def test_unreadable_tables_give_input_errors(tmp_path, text, needle):
-    p = write(tmp_path, text)
-    with pytest.raises(InputError, match=needle) as info:
-        read_table(p)
-    if needle == "line":  # counted by hand: line 3 has 6 fields, the header 4
-        assert "line 3 of the file has 6 fields where the header line has 4" in str(info.value)
-
-
-def test_missing_file_and_workbook(tmp_path):
-    with pytest.raises(InputError, match="not found"):
-        read_table(tmp_path / "nope.csv")
-    (tmp_path / "book.xlsx").write_bytes(b"PK")
-    with pytest.raises(InputError, match="CSV"):
-        read_table(tmp_path / "book.xlsx")
-
-
-# ---------------------------------------------------------------------------
-# column detection and overrides
-# ---------------------------------------------------------------------------
-
-@pytest.mark.parametrize("names", [
-    ("X", "Y", "Z"),
-    ("East", "North", "Elev"),
-    ("EASTING", "NORTHING", "RL"),
-    ("easting", "northing", "elevation"),
-    ("MIDX", "MIDY", "MIDZ"),
-    ("mid_x", "mid_y", "mid_z"),
-    ("xmid", "ymid", "zmid"),
-    ("X_MID", "Y_MID", "Z_MID"),
-    ("midpoint_x", "midpoint_y", "midpoint_z"),
-    ("centroid_x", "centroid_y", "centroid_z"),
-    ("Mid East", "Mid North", "Mid RL"),
-    ("Easting (m)", "Northing (m)", "RL [m]"),
-    ("x_m", "y_m", "z_m"),
-])
-def test_coordinate_names_geologists_use(names):
-    df = pd.DataFrame({names[0]: [1.0, 2.0], "HoleID": ["a", "b"], names[1]: [3.0, 4.0],
-                       names[2]: [5.0, 6.0], "Au_ppm": [1.0, 2.0]})
-    # expected by construction: the names issue 2 lists as the ones geologists use
-    assert detect_coordinate_columns(df) == {"x": names[0], "y": names[1], "z": names[2]}
-
-
-def test_overrides_win_over_detection():
-    df = pd.DataFrame({"x": [0.0, 1.0], "y": [0.0, 1.0], "z": [0.0, 1.0],
-                       "e_local": [5.0, 6.0], "n_local": [7.0, 8.0], "lvl": [9.0, 10.0],
-                       "au": [1.0, 2.0]})
-    s = samples_from_frame(df, value="au", x="e_local", y="n_local", z="lvl")
-    # the numbers written in the frame above (exact)
-    np.testing.assert_array_equal(s.world_coords, [[5, 7, 9], [6, 8, 10]])
-    assert s.columns["x"] == "e_local" and s.columns["z"] == "lvl"
-    # one override, the other two detected
-    s = samples_from_frame(df, value="au", z="lvl")
-    assert (s.columns["x"], s.columns["y"], s.columns["z"]) == ("x", "y", "lvl")
-
-
-def test_ambiguous_detection_names_the_candidates():
-    df = pd.DataFrame({"X": [1.0], "MIDX": [1.0], "Y": [2.0], "Z": [3.0], "au": [1.0]})
-    with pytest.raises(ColumnError) as info:
-        detect_coordinate_columns(df, source="holes.csv")
-    msg = str(info.value)
-    # both candidates written in the frame above must be named
-    assert "'X'" in msg and "'MIDX'" in msg and "--x" in msg and "holes.csv" in msg
-
-
-def test_missing_coordinate_column_lists_columns_and_closest(tmp_path):
-    p = write(tmp_path, "hole,Easting,Northing,Elevaton,au\nA,1,2,3,4\n")
-    with pytest.raises(ColumnError) as info:
-        read_samples(p, value="au")
-    msg = str(info.value)
-    assert str(p) in msg and "elevation (z)" in msg
-    for c in ("hole", "Easting", "Northing", "Elevaton", "au"):
-        assert repr(c) in msg
-    # reference for the closest match: difflib against the accepted names
-    assert difflib.get_close_matches("elevaton", ["elevation"], n=1)  # the typo is close
-    assert "closest match is 'Elevaton'" in msg
-
-
-def test_misspelt_value_column_suggests_closest_by_difflib(tmp_path):
-    p = write(tmp_path, as_text(GOOD, ","))
-    with pytest.raises(ColumnError) as info:
-        read_samples(p, value="Aux")
-    msg = str(info.value)
-    # reference: difflib.get_close_matches over the column names, case-folded
-    ref = difflib.get_close_matches("aux", [c.lower() for c in GOOD.columns], n=1, cutoff=0.5)
-    assert ref == ["au"]
-    assert "closest match is 'au'" in msg
-    assert all(repr(c) in msg for c in GOOD.columns)
-    assert "--value" in msg
-
-
-def test_value_column_found_case_insensitively():
-    s = samples_from_frame(GOOD, value="AU", hole="HOLE")
-    assert s.columns["value"] == "au" and s.columns["hole"] == "hole"
-
-
-# ---------------------------------------------------------------------------
 # blanks, codes, text
-# ---------------------------------------------------------------------------
 
 CODES = """hole,x,y,z,au
 A,0,0,0,1.0
@@ -303,40 +109,6 @@ def test_kept_missing_codes_are_not_halved_as_detection_limits(tmp_path):
     assert s.changed_rows == {"below-detection code (-DL) set to DL/2": [5, 6]}
 
 
-def test_text_in_grade_column_names_column_rows_and_text(tmp_path):
-    text = "x,y,z,Au_gpt\n0,0,0,1\n1,0,0,<0.01\n2,0,0,3\n3,0,0,NS\n4,0,0,2\n"
-    p = write(tmp_path, text)
-    with pytest.raises(DataError) as info:
-        read_samples(p, value="Au_gpt")
-    msg = str(info.value)
-    # data row 2 is line 3 of the file (header on line 1): counted by hand
-    assert "'Au_gpt'" in msg and str(p) in msg
-    assert "2 ('<0.01')" in msg and "4 ('NS')" in msg
-    assert "first row under the header" in msg
-    assert "(-0.01)" in msg  # the '<0.01' text gets the hint to write -DL codes
-
-
-def test_text_in_coordinate_column(tmp_path):
-    p = write(tmp_path, "x,y,z,au\n0,0,0,1\n1,zz,0,1\n")
-    with pytest.raises(DataError, match=r"'y'.*data row 2 \('zz'\)"):
-        read_samples(p, value="au")
-
-
-def test_thousands_separators_get_a_hint(tmp_path):
-    # semicolon table with decimal commas and '.' digit grouping, as some spreadsheets
-    # export it: the coordinates cannot be read, and the message says why
-    p = write(tmp_path, "x;y;z;au\n412.903,82;7.318.344,05;299,73;2,01\n"
-                        "412.905,10;7.318.346,00;297,70;1,50\n")
-    with pytest.raises(DataError) as info:
-        read_samples(p, value="au")
-    msg = str(info.value)
-    assert "'412.903,82'" in msg and "thousands separator" in msg
-    # a plain text cell gets no such hint
-    with pytest.raises(DataError) as info:
-        read_samples(write(tmp_path, "x,y,z,au\n0,0,0,1\n1,zz,0,1\n"), value="au")
-    assert "thousands separator" not in str(info.value)
-
-
 def test_all_values_missing_is_insufficient(tmp_path):
     p = write(tmp_path, "x,y,z,au\n0,0,0,-99\n1,0,0,\n")
     with pytest.raises(InsufficientDataError, match="no samples"):
@@ -372,9 +144,7 @@ def test_counts_match_brute_force(vals):
     assert listed == list(range(1, n + 1))
 
 
-# ---------------------------------------------------------------------------
 # domains and holes
-# ---------------------------------------------------------------------------
 
 def test_domain_selection_and_values():
     assert domain_values(GOOD, "domain") == ["blanket", "vein"]
@@ -424,16 +194,7 @@ def test_blank_hole_ids_become_their_own_holes():
     assert any("blank hole id" in w for w in s.warnings)
 
 
-# ---------------------------------------------------------------------------
 # duplicates
-# ---------------------------------------------------------------------------
-
-DUPS = pd.DataFrame({
-    "x": [0.0, 0.0, 5.0, 5.0, 5.0, 9.0, 0.0],
-    "y": [0.0, 0.0, 1.0, 1.0, 1.0, 3.0, 0.0],
-    "z": [0.0, 0.0, 2.0, 2.0, 2.0, 7.0, 4.0],
-    "v": [1.0, 3.0, 2.0, 4.0, 9.0, 5.0, 6.0],
-})
 
 
 def test_duplicates_keep():
@@ -473,9 +234,7 @@ def test_locations_a_tenth_of_a_millimetre_apart_are_duplicates():
     assert s.duplicates["locations"] == 2  # 0.1 mm rounds to the same millimetre
 
 
-# ---------------------------------------------------------------------------
 # origin shift and planarity
-# ---------------------------------------------------------------------------
 
 def test_origin_shift_keeps_full_precision(rng):
     n = 200
@@ -539,21 +298,7 @@ def test_three_dimensional_cloud_is_not_planar(rng):
     assert not any("plane" in w or "elevation" in w for w in s.warnings)
 
 
-def test_to_dict_is_json_ready():
-    s = samples_from_frame(DUPS, value="v", duplicates="average")
-    d = s.to_dict()
-    json.dumps(d, allow_nan=False)  # must not raise
-    assert d["n_read"] == 7 and d["n_used"] == 4
-    assert {"dropped", "changed", "duplicates", "warnings", "origin", "planar"} <= set(d)
-    full = s.to_dict(include_data=True)
-    json.dumps(full, allow_nan=False)
-    assert len(full["values"]) == 4
-    assert isinstance(s, SampleSet) and "used" in s.summary()
-
-
-# ---------------------------------------------------------------------------
 # robustness: any text gives a SampleSet or one of our errors, never a crash
-# ---------------------------------------------------------------------------
 
 @settings(max_examples=150, deadline=None)
 @given(st.text(alphabet=list("xyzau,;\t \n0123456789.-eNA\"#"), max_size=200))
@@ -572,67 +317,7 @@ def test_any_text_gives_samples_or_an_input_error(tmp_path_factory, text):
         assert np.all(np.isfinite(s.coords)) and np.all(np.isfinite(s.values))
 
 
-def test_public_helpers_for_other_modules():
-    from anisotropy.samples import domain_codes, find_column
-
-    assert find_column(GOOD, "DOMAIN") == "domain"
-    with pytest.raises(ColumnError, match="closest match is 'domain'"):
-        find_column(GOOD, "domian", role="domain", option="--domain")
-    # by hand: 1.0 -> "1", " a " -> "a", NaN -> None
-    assert domain_codes(pd.Series([1.0, " a ", np.nan])).tolist() == ["1", "a", None]
-
-
-# ---------------------------------------------------------------------------
-# repeated column names (issue 17)
-# ---------------------------------------------------------------------------
-
-@pytest.mark.parametrize("sep", [",", ";", "\t", " "])
-def test_a_repeated_column_name_is_refused_with_both_positions(tmp_path, sep):
-    # reference: the header line written by the test; positions counted by hand
-    # (x=1, y=2, z=3, Au=4, Au=5). pandas.read_csv alone would rename the second
-    # to 'Au.1' and read the table silently.
-    head = sep.join(["x", "y", "z", "Au", "Au"])
-    body = "\n".join(sep.join(str(v) for v in (i, 2 * i, 3, 0.5 + i, 9)) for i in range(6))
-    p = write(tmp_path, head + "\n" + body + "\n")
-    assert "Au.1" in pd.read_csv(p, sep=sep if sep != " " else r"\s+").columns  # the silent way
-    with pytest.raises(InputError) as e:
-        read_table(p)
-    msg = str(e.value)
-    assert str(p) in msg and "'Au'" in msg and "columns 4 and 5" in msg
-    assert "Rename" in msg
-
-
-def test_a_repeated_name_among_spaces_is_caught(tmp_path):
-    # 'Au' and ' Au ' are the same column name once the spaces are stripped
-    p = write(tmp_path, "x,y,z,Au, Au \n1,2,3,4,5\n2,3,4,5,6\n")
-    with pytest.raises(InputError, match="columns 4 and 5"):
-        read_table(p)
-
-
-def test_a_repeated_name_in_a_dataframe_is_refused():
-    # a DataFrame may hold two columns of one name (pandas allows it)
-    df = pd.DataFrame(np.arange(12.0).reshape(3, 4), columns=["x", "au", "y", "au"])
-    df["z"] = 1.0
-    with pytest.raises(InputError, match=r"'au' is the name of columns 2 and 4"):
-        samples_from_frame(df, value="au", source="frame")
-
-
-def test_a_repeated_name_in_parquet_is_refused(tmp_path):
-    pa = pytest.importorskip("pyarrow")
-    import pyarrow.parquet as pq
-
-    # pyarrow keeps repeated field names, so a Parquet file can hold them
-    cols = [pa.array([1.0, 2.0, 3.0]) for _ in range(5)]
-    table = pa.Table.from_arrays(cols, names=["x", "y", "z", "Au", "Au"])
-    p = tmp_path / "t.parquet"
-    pq.write_table(table, p)
-    with pytest.raises(InputError, match="columns 4 and 5"):
-        read_table(p)
-
-
-# ---------------------------------------------------------------------------
 # two-dimensional tables (issue 17)
-# ---------------------------------------------------------------------------
 
 def _plan_table(n=30, seed=3):
     rng = np.random.default_rng(seed)
