@@ -717,7 +717,7 @@ def apply_top_cut(samples, top_cut, mode="cap", *, choices=None):
     samples : anisotropy.samples.record.SampleSet
     top_cut : float, "auto" or None
         The top-cut grade, ``"auto"`` for the suggestion of
-        :func:`anisotropy.exploration.suggested_topcut` (computed on these
+        :func:`anisotropy.exploration.topcut.suggested_topcut` (computed on these
         samples' grades), or None for none.
     mode : {"cap", "exclude"}
         Set grades above the top-cut to it (default), or leave those samples

@@ -165,7 +165,7 @@ def weighted_bins(pv: PairVolume, coords, values, *, holes, spacing: Spacing,
         Sample coordinates and the analysed values.
     holes : ndarray or None
         Hole id of each sample.
-    spacing : anisotropy.exploration.Spacing
+    spacing : anisotropy.exploration.spacing.Spacing
     lags : LagChoice
     total : float or None
         Total sill (caps the down-hole nugget).

@@ -316,7 +316,7 @@ def diagnose(model: NestedModel, fan: FanRanges, bins: FitBins, *, spacing, has_
         The final model (frame columns major, semi-major, minor).
     fan : FanRanges
     bins : FitBins
-    spacing : anisotropy.exploration.Spacing
+    spacing : anisotropy.exploration.spacing.Spacing
     has_holes, planar : bool
     max_distance : float
         The longest lag.

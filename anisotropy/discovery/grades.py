@@ -104,7 +104,7 @@ def refit_grades(coords, grades, model: NestedModel, lags: LagChoice, *, holes=N
         The run's lag classes.
     holes : ndarray (n,), optional
         Hole ids (drill-hole information weights and down-hole nugget).
-    spacing : anisotropy.exploration.Spacing, optional
+    spacing : anisotropy.exploration.spacing.Spacing, optional
         The nominal spacing (needed with ``holes``).
     min_pairs : float
         Fewest pairs of a fit bin (the run's).

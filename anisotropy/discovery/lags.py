@@ -99,8 +99,8 @@ def choose_lags(coords, spacing: Spacing, *, has_holes=False, lag=None, n_lags=N
     ----------
     coords : ndarray (n, 3)
         Sample coordinates (local origin).
-    spacing : anisotropy.exploration.Spacing
-        The nominal spacing (:func:`anisotropy.exploration.nominal_spacing`).
+    spacing : anisotropy.exploration.spacing.Spacing
+        The nominal spacing (:func:`anisotropy.exploration.spacing.nominal_spacing`).
     has_holes : bool
         The samples carry hole ids.
     lag, n_lags : optional
