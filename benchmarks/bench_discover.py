@@ -686,6 +686,9 @@ def main(argv=None):
         print(summarise(rows))
         print()
         print(summarise_issue15(rows))
+        if a.bootstrap:
+            print()
+            print(summarise_nugget(rows))
     sp = []
     if not a.skip_speed:
         sp = speed()
