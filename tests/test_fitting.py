@@ -395,18 +395,17 @@ def test_nested_jacobian_matches_scipy_finite_differences(config, kinds):
 
 def test_share_sd_only_where_the_reported_nugget_is_the_likelihoods_share():
     # FrameRefinement.likelihood_information gives the shares' logit standard deviations
-    # only where the reported model is the likelihood's and its nugget is the likelihood's
-    # share of the total sill (by hand: 0.25 of 0.8 + 0.2 + ... = 1.0); a held nugget
-    # (0.3, not 0.25 of the total) has none
+    # (named nugget, sill0, sill1, ... by hand) only where the reported model is the
+    # likelihood's and its nugget was not held (the down-hole nugget on drill holes)
     from types import SimpleNamespace
 
     from anisotropy.fitting.refine import FrameRefinement
 
-    lk = SimpleNamespace(nugget_share=0.25)
-    rec = {"likelihood_model_reported": "the likelihood's ranges ..."}
-    ok = FrameRefinement(fit=SimpleNamespace(nugget=0.25, sills=[0.5, 0.25]), record=rec)
-    assert ok._share_sd(lk, [0.1, 0.2, 0.3]) == {"nugget": 0.1, "sill0": 0.2, "sill1": 0.3}
-    held = FrameRefinement(fit=SimpleNamespace(nugget=0.3, sills=[0.45, 0.25]), record=rec)
-    assert held._share_sd(lk, [0.1, 0.2, 0.3]) is None
-    refit = FrameRefinement(fit=SimpleNamespace(nugget=0.25, sills=[0.5, 0.25]), record={})
-    assert refit._share_sd(lk, [0.1, 0.2, 0.3]) is None
+    fit = SimpleNamespace(nugget=0.25, sills=[0.5, 0.25])
+    rec = {"likelihood_model_reported": "the likelihood's ranges ...", "nugget_held": False}
+    ok = FrameRefinement(fit=fit, record=rec)
+    assert ok._share_sd([0.1, 0.2, 0.3]) == {"nugget": 0.1, "sill0": 0.2, "sill1": 0.3}
+    held = FrameRefinement(fit=fit, record=dict(rec, nugget_held=True))
+    assert held._share_sd([0.1, 0.2, 0.3]) is None
+    refit = FrameRefinement(fit=fit, record={"nugget_held": False})
+    assert refit._share_sd([0.1, 0.2, 0.3]) is None

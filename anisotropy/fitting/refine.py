@@ -174,16 +174,14 @@ class FrameRefinement:
         return ReportedInformation(cones={a: cones[col[i]] for i, a in enumerate(AXES)},
                                    axes=ic.frames[:, :, col],
                                    log_range_sd=sd if self.reports_likelihood_model else None,
-                                   logit_share_sd=self._share_sd(lk, ic.logit_share_sd))
+                                   logit_share_sd=self._share_sd(ic.logit_share_sd))
 
-    def _share_sd(self, lk, logit_sd):
-        """``logit_sd`` by share name where the reported nugget and sills are ``lk``'s shares."""
-        f = self.fit
-        tot = float(f.nugget + np.sum(f.sills))
-        if not self.reports_likelihood_model or not np.isclose(
-                f.nugget, tot * float(lk.nugget_share), rtol=1e-9, atol=1e-12 * tot):
+    def _share_sd(self, logit_sd):
+        """``logit_sd`` by share name where the reported nugget and sills are the likelihood's
+        shares (its model reported, the nugget not held)."""
+        if not self.reports_likelihood_model or (self.record or {}).get("nugget_held"):
             return None
-        names = ("nugget",) + tuple(f"sill{k}" for k in range(len(f.sills)))
+        names = ("nugget",) + tuple(f"sill{k}" for k in range(len(self.fit.sills)))
         return {n: float(v) for n, v in zip(names, logit_sd)}
 
 
@@ -649,6 +647,7 @@ def refine_frame(fit: NestedFit, bins: FitBins, coords, values, *, seed=0, fit_k
     choices.append(frow)
     record["frame_candidates"] = choice.to_dict()
     record["hole_aware"] = holes is not None
+    record["nugget_held"] = P.kw.get("fixed_nugget") is not None
     # a rotation of space (axes matched by direction): the bootstrap's replicates refit the
     # variogram and are turned by it; where the likelihood exchanged two of the variogram's
     # axes the replicates keep the variogram's order, and their swap rate shows it
