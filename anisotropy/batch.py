@@ -661,7 +661,8 @@ def _domain_column(df, domain, source):
 
 
 def _domain_codes(series):
-    """Domain codes as text, compared the way :func:`anisotropy.samples.columns.domain_values` lists them."""
+    """Domain codes as text, compared the way
+    :func:`anisotropy.samples.columns.domain_values` lists them."""
     return domain_codes(series)
 
 

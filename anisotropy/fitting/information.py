@@ -10,8 +10,10 @@ distribution turn each axis of the frame; the angle within which a share
 ``confidence`` of the turned axes falls is the axis's cone.  Its diagonal
 at the log ranges gives their standard deviations, hence Wald intervals of
 the ranges on the log scale, and carried through the shares' softmax (the
-delta method; Pawitan 2001, sec. 4.7) Wald intervals of the nugget and sill
-shares on the logit scale.
+delta method, a first-order expansion; the reference to Pawitan 2001 for
+it is recalled from memory, and the tests check the derivative against
+central differences) Wald intervals of the nugget and sill shares on the
+logit scale.
 
 Here ``H`` is the central difference of the compiled analytic gradient
 (:func:`anisotropy.fitting.likelihood.vecchia_negloglik_grad`), one pair of

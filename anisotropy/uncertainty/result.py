@@ -122,9 +122,10 @@ class BootstrapResult:
     rival_nugget : tuple or None
         ``(value, what)``: a second estimate of the nugget by another rule
         (the likelihood's, where the fit holds the down-hole nugget). The
-        nugget's interval is widened to hold it, and with one structure the
-        sill's to hold the total sill less it, with a note: two estimates
-        that disagree both stay inside the band.
+        nugget's interval is joined with the replicates' spread carried to
+        it, and with one structure the sill's with that carried to the total
+        sill less it, with a note where that widens it: two estimates that
+        disagree both stay inside the band.
     information : anisotropy.fitting.information.ReportedInformation or None
         The likelihood's observed information in the reported model's terms
         (:meth:`anisotropy.fitting.refine.FrameRefinement.likelihood_information`).
@@ -310,8 +311,9 @@ class BootstrapResult:
 
         The Wald interval of its share of the total sill on the logit scale,
         times the reported total sill, where the likelihood's information
-        gives the share's standard deviation; else the replicates', widened
-        to hold a rival nugget where one is given (:attr:`rival_nugget`).
+        gives the share's standard deviation; else the replicates', joined
+        with their spread about a rival nugget where one is given
+        (:attr:`rival_nugget`).
         """
         est = self._estimate_of(name)
         sd = self._information("logit_share_sd", name)
