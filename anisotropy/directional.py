@@ -33,8 +33,9 @@ from . import geometry
 from .constants import CHANNEL_INDEX, CHANNELS
 from .errors import InputError
 from .estimators import check_estimator, estimate, mean_distance
-from .pairs import (LagVolume, against_cells, check_angular_tolerance, check_bandwidth,
-                    direction_vector, exact_sums, turn_round)
+from .pairs import (LagVolume, check_angular_tolerance, check_bandwidth, direction_vector,
+                    exact_sums)
+from .pairs.channels import against_cells, turn_round
 
 __all__ = [
     "experimental_variogram",

@@ -14,8 +14,7 @@ from scipy.spatial.distance import pdist
 
 from anisotropy import geometry
 from anisotropy.errors import DataError, InputError
-from anisotropy.pairs import (CHANNELS, build_volume, estimate_pair_count, plan_run,
-                              _lattice, _plan_batches)
+from anisotropy.pairs import CHANNELS, _lattice, build_volume
 import anisotropy.pairs as pairs_mod
 
 
@@ -202,41 +201,9 @@ def test_batches_give_identical_sums(data, volume):
     assert "pairs" in messages[0] and any("batch" in m for m in messages[1:])
 
 
-def test_plan_batches_cover_everything_once():
-    work = np.array([5.0, 1, 1, 8, 0, 3, 2, 2, 9, 1])
-    for target in (1, 4, 10, 100):
-        b = _plan_batches(work, target)
-        covered = np.concatenate([np.arange(q0, q1) for q0, q1 in b])
-        np.testing.assert_array_equal(covered, np.arange(len(work)))
-    assert _plan_batches(work, 100) == [(0, len(work))]
-
-
-def test_pair_count_estimate_close_to_pdist():
-    # brute-force count with scipy pdist; the estimate assumes uniformity within cells
-    rng = np.random.default_rng(3)
-    c = rng.random((1500, 3)) * [200.0, 150.0, 40.0]
-    for r in (10.0, 30.0, 80.0):
-        exact = np.count_nonzero(pdist(c) <= r)
-        est = estimate_pair_count(c, r)
-        assert abs(est - exact) <= 0.1 * exact
-
-
-def test_billions_of_pairs_are_estimated_and_chunked():
-    # 100k samples and a distance spanning the whole cube: ~5e9 pairs. Nothing is
-    # binned here; the plan must see them and split the run into many batches.
-    rng = np.random.default_rng(5)
-    c = rng.random((100_000, 3)) * 100.0
-    plan = plan_run(c, 200.0)
-    n = len(c)
-    assert abs(plan.estimated_pairs - n * (n - 1) / 2) <= 0.01 * n * (n - 1) / 2
-    assert plan.candidate_pairs >= n * (n - 1) / 2
-    assert plan.n_batches >= plan.candidate_pairs / pairs_mod.BATCH_CANDIDATES - 1
-    assert plan.n_batches > 5
-
-
 def test_long_run_announces_estimate(data, capsys, monkeypatch):
     c, v = data
-    monkeypatch.setattr(pairs_mod, "ANNOUNCE_PAIRS", 0)
+    monkeypatch.setattr(pairs_mod.build, "ANNOUNCE_PAIRS", 0)
     vol = build_volume(c, v, lag=5.0, n_lags=6, progress=True, batch_candidates=5000)
     err = capsys.readouterr().err
     assert "pair engine: about" in err and "batch" in err
