@@ -490,32 +490,48 @@ class Discovery:
         fr = self.refinement.frame_refinement
         res.recentred = fr is not None and fr.reports_likelihood_model
         res.information = self.likelihood_information(confidence_level)
+        res.variogram_gap = self.variogram_gap()
         return res
 
     def likelihood_information(self, confidence=0.9):
         """Cones and Wald intervals of the reported model from the likelihood's information.
 
-        Given for samples without drill holes only: there the cones from the
-        likelihood's information held the true axes at about the stated
-        confidence, while the replicates' cones (variogram refits, turned by
-        the likelihood's rotation) were about twice as wide; along drill-hole
-        strings the likelihood's approximation overstates its information and
-        the replicates' cones are kept (``benchmarks/RESULTS.md``,
-        *Uncertainty: coverage of the real discover chain*).
+        The cones from the likelihood's information hold the true axes at
+        about the stated confidence where the likelihood's and the variogram
+        fit's frames agree within the spread of their difference; where they
+        do not (on drill holes, mostly the worst realisations), the
+        information's cone alone missed the truth, and the bootstrap takes
+        the wider of it and the replicates' cone (:meth:`variogram_gap`,
+        :meth:`anisotropy.uncertainty.result.BootstrapResult.gap_check`;
+        ``benchmarks/RESULTS.md``, *Cones from the likelihood's information*).
 
         Returns
         -------
         anisotropy.fitting.information.ReportedInformation or None
-            None with drill holes, without a likelihood refinement, or where
-            its information is not positive definite. Its cones are per
-            reported axis; its standard deviations of the log ranges and of
-            the share logits (Wald intervals) are None where the reported
-            model is a variogram refit's, not the likelihood's.
+            None without a likelihood refinement, or where its information
+            is not positive definite. Its cones are per reported axis; its
+            standard deviations of the log ranges and of the share logits
+            (Wald intervals) are None where the reported model is a variogram
+            refit's, not the likelihood's.
         """
         fr = self.refinement.frame_refinement
-        if fr is None or self.samples.holes is not None:
+        if fr is None:
             return None
         return fr.likelihood_information(self.frame, confidence, seed=self.params.seed)
+
+    def variogram_gap(self) -> dict | None:
+        """Angle (degrees) from each reported axis to the variogram fit's matching axis.
+
+        The reported frame is the likelihood's; the variogram fit's (the
+        structure selection's best, before the likelihood) estimates the
+        same frame another way. Axes are matched by direction (largest
+        absolute cosine). None without a likelihood refinement.
+        """
+        if self.refinement.frame_refinement is None:
+            return None
+        V = np.asarray(self.refinement.selection.best.frame, float)
+        cos = np.clip(np.abs(self.frame.T @ V).max(axis=1), 0.0, 1.0)
+        return {a: float(np.degrees(np.arccos(c))) for a, c in zip(AXES, cos)}
 
     def rival_nugget(self) -> tuple | None:
         """The likelihood's nugget, where the fit holds the down-hole one: a second estimate.

@@ -137,6 +137,14 @@ class BootstrapResult:
         (no calibration factor); where its share-logit standard deviations
         are given, the nugget's and sills' intervals are the Wald intervals
         of their shares on the logit scale, times the reported total sill.
+    variogram_gap : dict or None
+        Per axis name, the angle (degrees) between the reported axis (the
+        likelihood's) and the variogram fit's axis matching it: two
+        estimates of one frame. The information's cone is kept only where
+        the gap is no larger than the spread their difference should have
+        (:meth:`gap_check`); otherwise the cone is the wider of the
+        replicates' and the information's. None: no such comparison (the
+        information's cone is kept as above).
     """
 
     method: str
@@ -169,6 +177,7 @@ class BootstrapResult:
     rival_angles: dict | None = None
     rival_nugget: tuple | None = None
     information: ReportedInformation | None = None
+    variogram_gap: dict | None = None
 
     # -- derived -----------------------------------------------------------
     @property
@@ -256,6 +265,10 @@ class BootstrapResult:
             out["trend_note"] = note
         if beyond:
             out["range_note"] = beyond
+        info = self._information("cones", AXIS_NAMES[i])
+        check = None if info is None else self.gap_check(i, replicate_cone, min(90.0, info))
+        if check is not None:
+            out["variogram_gap"] = check
         if widened_to_rival:
             out["cone_note"] = (f"widened to {cone:.0f} degrees to hold a rival frame the "
                                 f"likelihood cannot tell from this one ({rival:.1f} degrees "
@@ -266,8 +279,11 @@ class BootstrapResult:
         """Cone radius (degrees) of reference axis ``i``, before any widening to a rival frame.
 
         The replicates' cone (calibrated), or the likelihood's information
-        cone where one was given at this confidence and the replicates do not
-        exchange the axis with another more often than ``1 - confidence``.
+        cone where one was given at this confidence, the replicates do not
+        exchange the axis with another more often than ``1 - confidence``,
+        and the likelihood's and the variogram's axes agree within the spread
+        of their difference (:meth:`gap_check`); where they do not, the wider
+        of the two cones.
 
         Returns
         -------
@@ -289,7 +305,38 @@ class BootstrapResult:
         info = self._information("cones", AXIS_NAMES[i])
         if info is None or conf != self.confidence or self._exchanged(i, conf):
             return cone, "replicates", cone
-        return min(90.0, float(info)), "likelihood information", cone
+        info = min(90.0, float(info))
+        check = self.gap_check(i, cone, info)
+        if check is None or check["within"] or info >= cone:
+            return info, "likelihood information", cone
+        return cone, "replicates", cone
+
+    def gap_check(self, i, replicate_cone, information_cone) -> dict | None:
+        """Whether the likelihood's and the variogram's axis ``i`` agree as their spreads say.
+
+        Two estimators of one axis: the likelihood (efficient under the
+        model, spread: the information's cone) and the variogram fit
+        (spread: the replicates' cone, which are variogram refits). Under the
+        model the difference of an efficient and a consistent estimator has
+        the variance of the consistent one less the efficient one's (Hausman
+        1978, *Econometrica* 46, lemma 2.1; recalled from memory). So the
+        angle between the two axes should lie within
+        ``sqrt(replicate_cone**2 - information_cone**2)`` (cones of the same
+        confidence scale as standard deviations). Where it does not, the
+        model behind the information's cone is contradicted by the data's
+        two estimates, and the information's cone is not trusted alone.
+
+        Returns
+        -------
+        dict or None
+            ``{"gap_deg", "allowed_deg", "within"}``; None without a gap for
+            this axis (:attr:`variogram_gap`).
+        """
+        gap = (self.variogram_gap or {}).get(AXIS_NAMES[i])
+        if gap is None or not np.isfinite(gap):
+            return None
+        allowed = float(np.sqrt(max(replicate_cone ** 2 - information_cone ** 2, 0.0)))
+        return {"gap_deg": float(gap), "allowed_deg": allowed, "within": bool(gap <= allowed)}
 
     def _range_interval(self, i, estimate, conf, source):
         """The Wald interval on the log scale where the cone is the information's, else the
