@@ -31,9 +31,10 @@ every result):
 
 * an axis is **outside** when its angle exceeds the radius of the
   ``confidence`` (0.9) cone of that axis (the cone as reported before any
-  widening to a rival frame: the likelihood's information cone on samples
-  without drill holes, else the replicates' with the bootstrap's calibration
-  factor; :meth:`anisotropy.uncertainty.result.BootstrapResult.cone`) and exceeds
+  widening to a rival frame: the likelihood's information cone where its
+  axis and the variogram fit's agree, else the wider of it and the
+  replicates' cone with the bootstrap's calibration factor;
+  :meth:`anisotropy.uncertainty.result.BootstrapResult.cone`) and exceeds
   ``practical_deg`` (10 degrees: differences below this are within what
   careful practitioners disagree by, common practice, and never count
   against an interpretation);

@@ -586,6 +586,15 @@ def test_drill_hole_strings():
     for i in range(3):
         assert axis_err(D.frame[:, i], F[:, i]) < 8.0   # drill-hole median target of the issue
     assert D.axes()["minor"]["range"] == pytest.approx(20, rel=0.3)
+    # the angle from each reported axis to the variogram fit's nearest axis, by brute
+    # force over the nine pairs of axes (numpy.arccos of the absolute cosines)
+    V = D.refinement.selection.best.frame
+    angles = np.degrees(np.arccos(np.clip(np.abs(D.frame.T @ V), 0.0, 1.0)))
+    gap = D.variogram_gap()
+    for i, name in enumerate(("major", "semi_major", "minor")):
+        assert gap[name] == pytest.approx(angles[i].min(), abs=1e-9)
+    # drill holes get the likelihood's information too (the cones are chosen with the gap)
+    assert D.likelihood_information(0.9).cones.keys() == gap.keys()
 
 
 @pytest.mark.slow

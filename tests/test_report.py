@@ -479,3 +479,16 @@ def test_downhole_figure_of_a_record_draws_only_the_record():
     assert _fig_downhole({"diagnostics": {"downhole": None}}, None, "x") is None
     sec = _section_downhole({"diagnostics": {}})
     assert not sec["drawn"] and "not in drill holes" in sec["text"]
+
+
+def test_uncertainty_table_says_where_each_cone_comes_from():
+    from anisotropy.report.html import _uncertainty
+    gap = {"gap_deg": 12.4, "allowed_deg": 5.0, "within": False}
+    unc = {"method": "block", "replicates": 60, "confidence": 0.9,
+           "major": {"cone_deg": 20.0, "cone_source": "replicates", "variogram_gap": gap},
+           "semi_major": {"cone_deg": 8.0, "cone_source": "likelihood information"},
+           "minor": {"cone_deg": 3.0, "cone_source": "replicates"}}
+    text = str(_uncertainty(unc)["table"])
+    assert "differ by 12°, more than their spreads allow" in text
+    assert "likelihood information" in text
+    assert text.count("differ by") == 1       # the minor's replicates cone had no gap test

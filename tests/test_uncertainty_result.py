@@ -10,6 +10,7 @@ from __future__ import annotations
 from dataclasses import replace
 
 import numpy as np
+import pytest
 from scipy.spatial.transform import Rotation
 
 from anisotropy import uncertainty as U
@@ -83,11 +84,46 @@ def test_information_cones_replace_the_replicates_unless_the_axes_are_exchanged(
         lo, hi = res.axis_summary(2)["plunge"]
         assert hi - lo < 1e-9
         assert res.axis_summary(2)["plunge"] != plain[2]["plunge"]
-        # a rival frame 40 degrees away: the cone holds the rival's axis and a cone as wide
-        # around it (their sum, the triangle inequality on the sphere), at most 90
+        # a rival frame 40 degrees away: the likelihood has two maxima, so its curvature
+        # at one gives no cone; the replicates' cone holds the rival's axis and a cone as
+        # wide around it (their sum, the triangle inequality on the sphere), at most 90
         res.rival_angles = {"major": 40.0}
-        assert res.axis_summary(0)["cone_deg"] == min(90.0, 40.0 + got[0]["cone_deg"])
+        assert res.axis_summary(0)["cone_deg"] == min(90.0, 40.0 + plain[0]["cone_deg"])
         assert "40.0 degrees away" in res.axis_summary(0)["cone_note"]
+        assert all(res.axis_summary(i)["cone_source"] == "replicates" for i in range(3))
+
+
+def test_information_cone_kept_only_where_the_two_estimators_agree():
+    # BootstrapResult.gap_check: the angle between the likelihood's axis and the variogram
+    # fit's may reach sqrt(replicate cone^2 - information cone^2) (Hausman 1978: the
+    # difference of an efficient and a consistent estimator has the variance of the
+    # consistent one less the efficient one's), computed here by hand with NumPy
+    R = Rotation.from_euler("z", 30, degrees=True).as_matrix()
+    vol = StandInVolume((8, 8, 1), (10, 10, 10), np.random.default_rng(9),
+                        R @ np.diag([9.0, 4.0, 1.0]) @ R.T, noise=0.3)
+    res = U.block_bootstrap(vol, stand_in_refit, reference(vol), n_replicates=60, seed=4)
+    rep = [res.axis_summary(i)["cone_deg"] for i in range(3)]
+    info = {"major": 0.5 * rep[0], "semi_major": 0.5 * rep[1], "minor": 2.0 * rep[2]}
+    res.information = ReportedInformation(info)
+    allowed = [np.sqrt(rep[i] ** 2 - info[a] ** 2) if rep[i] > info[a] else 0.0
+               for i, a in enumerate(("major", "semi_major", "minor"))]
+    # the major's gap just inside what is allowed, the semi-major's just beyond it, the
+    # minor's information cone wider than the replicates' (nothing allowed)
+    res.variogram_gap = {"major": 0.99 * allowed[0], "semi_major": 1.01 * allowed[1],
+                         "minor": 1.0}
+    got = [res.axis_summary(i) for i in range(3)]
+    assert got[0]["cone_deg"] == info["major"]
+    assert got[0]["cone_source"] == "likelihood information"
+    assert got[1]["cone_deg"] == rep[1] and got[1]["cone_source"] == "replicates"
+    # beyond the allowed gap the cone is the wider of the two: here the information's
+    assert got[2]["cone_deg"] == info["minor"]
+    for g, a, within in zip(got, allowed, (True, False, False)):
+        assert g["variogram_gap"]["allowed_deg"] == pytest.approx(a, rel=1e-12)
+        assert g["variogram_gap"]["within"] is within
+    # without a comparison the information's cone is kept, as before
+    res.variogram_gap = None
+    assert [res.axis_summary(i)["cone_deg"] for i in range(3)] == list(info.values())
+    assert "variogram_gap" not in res.axis_summary(0)
 
 
 def test_range_interval_is_the_wald_interval_where_the_cone_is_the_informations(rng):

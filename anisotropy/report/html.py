@@ -609,7 +609,8 @@ def _uncertainty(unc) -> dict | None:
         rows.append({"axis": _AXIS_WORD[a], "cone radius (°)": _g(u.get("cone_deg"), ".1f"),
                      "trend interval": _pair(u.get("trend"), ".0f"),
                      "plunge interval": _pair(u.get("plunge"), ".0f"),
-                     "range interval (m)": _pair(u.get("range"), ".0f")})
+                     "range interval (m)": _pair(u.get("range"), ".0f"),
+                     "cone from": _cone_source(u)})
     nug = unc.get("nugget")
     if (isinstance(nug, (list, tuple)) and len(nug) == 2
             and _num(nug[0], ".3g") == _num(nug[1], ".3g")):
@@ -621,6 +622,16 @@ def _uncertainty(unc) -> dict | None:
             "replicates": _g(unc.get("replicates"), "d"),
             "confidence": _g((unc.get("confidence") or 0) * 100, ".0f"),
             "nugget": nug_text, "table": _grid(rows)}
+
+
+def _cone_source(u) -> str:
+    """Where an axis's cone comes from, and why not the likelihood's where it could have."""
+    source = str(u.get("cone_source") or "replicates")
+    gap = u.get("variogram_gap") or {}
+    if source == "replicates" and gap and not gap.get("within", True):
+        return (f"replicates (the likelihood's and the variogram's axes differ by "
+                f"{gap['gap_deg']:.0f}°, more than their spreads allow)")
+    return source
 
 
 def _range_marks(d) -> dict:

@@ -130,7 +130,9 @@ class BootstrapResult:
         The likelihood's observed information in the reported model's terms
         (:meth:`anisotropy.fitting.refine.FrameRefinement.likelihood_information`).
         Its cone of an axis is that axis's cone unless the replicates
-        exchange the axis with another more often than ``1 - confidence``;
+        exchange the axis with another more often than ``1 - confidence``,
+        or the likelihood has a rival frame (then every axis keeps the
+        replicates' cone), or :attr:`variogram_gap` says otherwise;
         the trend and plunge intervals of such an axis are read from its
         Wald frames. Where its log-range standard deviation is given too, the
         axis's range interval is the Wald interval ``range * exp(+-z sd)``
@@ -281,9 +283,11 @@ class BootstrapResult:
         The replicates' cone (calibrated), or the likelihood's information
         cone where one was given at this confidence, the replicates do not
         exchange the axis with another more often than ``1 - confidence``,
-        and the likelihood's and the variogram's axes agree within the spread
-        of their difference (:meth:`gap_check`); where they do not, the wider
-        of the two cones.
+        the likelihood has no rival frame (:attr:`rival_angles`: with two
+        maxima the curvature at one does not describe the uncertainty), and
+        the likelihood's and the variogram's axes agree within the spread of
+        their difference (:meth:`gap_check`); where they do not, the wider of
+        the two cones.
 
         Returns
         -------
@@ -303,7 +307,8 @@ class BootstrapResult:
             cone = max(cone, axis_cone(ranked, ref, conf)[1])
         cone = min(90.0, cone * self.cone_calibration)
         info = self._information("cones", AXIS_NAMES[i])
-        if info is None or conf != self.confidence or self._exchanged(i, conf):
+        if (info is None or conf != self.confidence or self._exchanged(i, conf)
+                or self.rival_angles):  # a second maximum: its curvature at one says little
             return cone, "replicates", cone
         info = min(90.0, float(info))
         check = self.gap_check(i, cone, info)
