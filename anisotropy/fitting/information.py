@@ -113,12 +113,18 @@ class ReportedInformation:
         Standard deviations of the logits of the shares of the total sill:
         ``"nugget"``, ``"sill0"``, ``"sill1"``, ...; None where the reported
         nugget and sills are not the likelihood's shares.
+    likelihood_logit_share_sd : dict or None
+        The same for the likelihood's own shares (named as above, in the
+        likelihood's structures), given whether or not they are reported:
+        where the fit holds the down-hole nugget, the likelihood's nugget is
+        a second estimate, and this is its spread.
     """
 
     cones: dict
     axes: np.ndarray | None = None
     log_range_sd: dict | None = None
     logit_share_sd: dict | None = None
+    likelihood_logit_share_sd: dict | None = None
 
 
 def observed_information(p, args, step=STEP):

@@ -174,7 +174,8 @@ class FrameRefinement:
         return ReportedInformation(cones={a: cones[col[i]] for i, a in enumerate(AXES)},
                                    axes=ic.frames[:, :, col],
                                    log_range_sd=sd if self.reports_likelihood_model else None,
-                                   logit_share_sd=self._share_sd(ic.logit_share_sd))
+                                   logit_share_sd=self._share_sd(ic.logit_share_sd),
+                                   likelihood_logit_share_sd=_share_names(ic.logit_share_sd))
 
     def _share_sd(self, logit_sd):
         """``logit_sd`` by share name where the reported nugget and sills are the likelihood's
@@ -183,6 +184,14 @@ class FrameRefinement:
             return None
         names = ("nugget",) + tuple(f"sill{k}" for k in range(len(self.fit.sills)))
         return {n: float(v) for n, v in zip(names, logit_sd)}
+
+
+def _share_names(logit_sd):
+    """The likelihood's share-logit standard deviations by name (nugget, sill0, ...)."""
+    if logit_sd is None:
+        return None
+    names = ("nugget",) + tuple(f"sill{k}" for k in range(len(logit_sd) - 1))
+    return {n: float(v) for n, v in zip(names, logit_sd)}
 
 
 def _likelihood_model(lk, fit, kinds):

@@ -384,8 +384,11 @@ class BootstrapResult:
         structure, to the sill the total leaves beside it), with a note where that widens it.
 
         Both estimates then stay inside the band, each with the replicates'
-        spread about it (:func:`~anisotropy.uncertainty.intervals.carried_interval`);
-        unchanged without a rival or a band.
+        spread about it (:func:`~anisotropy.uncertainty.intervals.carried_interval`),
+        and the rival nugget also with its own Wald interval where the
+        likelihood's information gives it
+        (``information.likelihood_logit_share_sd``); unchanged without a
+        rival or a band.
         """
         if self.rival_nugget is None or band is None:
             return band
@@ -401,10 +404,24 @@ class BootstrapResult:
         other = carried_interval(self._replicates_of(name), target, conf)[0]
         lo = float(min(band[0], other[0], target))
         hi = float(max(band[1], other[1], target))
+        own = self._rival_wald(name, target, conf)
+        if own is not None:   # the rival estimate's own spread, from the likelihood
+            lo, hi = float(min(lo, own[0])), float(max(hi, own[1]))
         if name == "nugget" and (lo < band[0] or hi > band[1]):
             notes.append(f"the nugget interval is widened to hold {what} ({value:.3g}) too, "
                          "with the replicates' spread about it: two estimates of the nugget")
         return [lo, hi]
+
+    def _rival_wald(self, name, target, conf):
+        """The Wald interval (logit scale of its share, times the total sill) of the rival
+        nugget from the likelihood's own information, or None."""
+        sd = self._information("likelihood_logit_share_sd", "nugget")
+        tot = float(self.reference.total_sill)
+        if name != "nugget" or sd is None or not np.isfinite(sd) or not 0.0 < target < tot:
+            return None
+        z = float(ndtri(0.5 + 0.5 * conf))
+        logit = math.log(target / (tot - target))
+        return [float(tot * expit(logit - z * sd)), float(tot * expit(logit + z * sd))]
 
     def _exchanged(self, i, conf):
         """True when the replicates exchange axis ``i`` with another in more than ``1 - conf``."""
