@@ -409,3 +409,7 @@ def test_share_sd_only_where_the_reported_nugget_is_the_likelihoods_share():
     assert held._share_sd([0.1, 0.2, 0.3]) is None
     refit = FrameRefinement(fit=fit, record={"nugget_held": False})
     assert refit._share_sd([0.1, 0.2, 0.3]) is None
+    # the likelihood's own shares are named whether or not they are reported
+    from anisotropy.fitting.refine import _share_names
+    assert _share_names([0.1, 0.2, 0.3]) == {"nugget": 0.1, "sill0": 0.2, "sill1": 0.3}
+    assert _share_names(None) is None

@@ -12,6 +12,8 @@ from dataclasses import replace
 import numpy as np
 import pytest
 from scipy.spatial.transform import Rotation
+from scipy.special import expit, logit
+from scipy.stats import norm
 
 from anisotropy import uncertainty as U
 from anisotropy.fitting.information import ReportedInformation
@@ -235,3 +237,17 @@ def test_a_rival_nugget_widens_the_band_to_hold_it_with_the_replicates_spread(rn
     res.rival_nugget = (float(np.median(res.nugget)), "the likelihood's nugget")
     assert res.to_dict()["nugget"] == plain["nugget"]
     assert res.to_dict()["notes"] == plain["notes"]       # the total sill's note only
+    # the rival's own spread from the likelihood's information: its Wald interval on the
+    # logit scale of the share, times the total sill (scipy.special.logit, expit and
+    # scipy.stats.norm.ppf), joins the band too; the sill's band is left as it was
+    res.rival_nugget = (0.25, "the likelihood's nugget")
+    res.information = ReportedInformation({}, likelihood_logit_share_sd={"nugget": 1.0,
+                                                                         "sill0": 1.0})
+    tot = float(res.reference.total_sill)
+    z = norm.ppf(0.95)
+    wald = tot * expit(logit(0.25 / tot) + np.array([-z, z]) * 1.0)
+    both = res.to_dict()
+    np.testing.assert_allclose(both["nugget"], [min(plain["nugget"][0], wald[0]),
+                                                max(got["nugget"][1], wald[1])])
+    assert wald[0] < plain["nugget"][0] and wald[1] > got["nugget"][1]
+    assert both["sills"] == got["sills"]
