@@ -550,7 +550,8 @@ class Discovery:
         biases; the likelihood estimates the nugget with the structures from
         every sample, and can give part of it to a short structure. Neither
         is better everywhere, so the bootstrap's nugget band holds both, each
-        with the replicates' spread about it
+        with the replicates' spread about it, and the likelihood's with its
+        own Wald interval too
         (:class:`anisotropy.uncertainty.result.BootstrapResult`).
 
         Returns

@@ -407,9 +407,11 @@ class BootstrapResult:
         own = self._rival_wald(name, target, conf)
         if own is not None:   # the rival estimate's own spread, from the likelihood
             lo, hi = float(min(lo, own[0])), float(max(hi, own[1]))
+        spread = ("the replicates' spread and its own Wald interval" if own is not None
+                  else "the replicates' spread")
         if name == "nugget" and (lo < band[0] or hi > band[1]):
             notes.append(f"the nugget interval is widened to hold {what} ({value:.3g}) too, "
-                         "with the replicates' spread about it: two estimates of the nugget")
+                         f"with {spread} about it: two estimates of the nugget")
         return [lo, hi]
 
     def _rival_wald(self, name, target, conf):
