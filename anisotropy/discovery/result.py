@@ -503,7 +503,7 @@ class Discovery:
         information's cone alone missed the truth, and the bootstrap takes
         the wider of it and the replicates' cone (:meth:`variogram_gap`,
         :meth:`anisotropy.uncertainty.result.BootstrapResult.gap_check`;
-        ``benchmarks/RESULTS.md``, *Cones from the likelihood's information*).
+        ``benchmarks/RESULTS.md``, *Which cone*).
 
         Returns
         -------
