@@ -25,6 +25,19 @@ SWAP_AXES = {"major_semi_major": ("major", "semi_major"),
              "semi_major_minor": ("semi_major", "minor")}
 
 
+def _share_wald(value, total, sd, conf):
+    """Wald interval of ``value`` as a share of ``total`` on the logit scale, times ``total``.
+
+    ``sd`` is the standard deviation of the share's logit; None where it is
+    missing or not finite, or the share is not strictly inside (0, 1).
+    """
+    if sd is None or not np.isfinite(sd) or not 0.0 < value < total:
+        return None
+    z = float(ndtri(0.5 + 0.5 * conf))
+    logit = math.log(value / (total - value))
+    return [float(total * expit(logit - z * sd)), float(total * expit(logit + z * sd))]
+
+
 def _model_ranges_along(model, axes):
     """Range of the model along each of the given axis vectors (columns)."""
     out = np.empty(3)
@@ -368,12 +381,10 @@ class BootstrapResult:
         (:attr:`rival_nugget`).
         """
         est = self._estimate_of(name)
-        sd = self._information("logit_share_sd", name)
-        tot = float(self.reference.total_sill)
-        if sd is not None and np.isfinite(sd) and 0.0 < est < tot:
-            z = float(ndtri(0.5 + 0.5 * conf))
-            logit = math.log(est / (tot - est))
-            return [float(tot * expit(logit - z * sd)), float(tot * expit(logit + z * sd))]
+        wald = _share_wald(est, float(self.reference.total_sill),
+                           self._information("logit_share_sd", name), conf)
+        if wald is not None:
+            return wald
         what = {"nugget": "nugget", "total_sill": "total sill"}.get(name) or \
             f"sill of structure {int(name[4:]) + 1}"
         band = self._held_or_interval(self._replicates_of(name), est, conf, what, notes)
@@ -417,13 +428,10 @@ class BootstrapResult:
     def _rival_wald(self, name, target, conf):
         """The Wald interval (logit scale of its share, times the total sill) of the rival
         nugget from the likelihood's own information, or None."""
-        sd = self._information("likelihood_logit_share_sd", "nugget")
-        tot = float(self.reference.total_sill)
-        if name != "nugget" or sd is None or not np.isfinite(sd) or not 0.0 < target < tot:
+        if name != "nugget":
             return None
-        z = float(ndtri(0.5 + 0.5 * conf))
-        logit = math.log(target / (tot - target))
-        return [float(tot * expit(logit - z * sd)), float(tot * expit(logit + z * sd))]
+        return _share_wald(target, float(self.reference.total_sill),
+                           self._information("likelihood_logit_share_sd", "nugget"), conf)
 
     def _exchanged(self, i, conf):
         """True when the replicates exchange axis ``i`` with another in more than ``1 - conf``."""
