@@ -410,13 +410,12 @@ def engine_record(D, spec, real):
             rec["nugget_replicates_in"] = None if own is None else bool(
                 own[0] <= spec["nugget"] <= own[1])
     info = (D.diagnostics.get("frame_refinement") or {}).get("information")
-    if spec["structures"] and D.refinement.frame_refinement is not None:
-        # how far the likelihood's frame lies from the variogram fit's, axis by axis
-        # (matched by direction): two estimators of one frame, compared
-        V = np.asarray(D.refinement.selection.best.frame, float)
-        cos = np.abs(D.frame.T @ V).max(axis=1)
-        for i, ax in enumerate(("major", "semi_major", "minor")):
-            rec[f"{ax}_variogram_turn"] = float(np.degrees(np.arccos(min(1.0, cos[i]))))
+    gap = D.variogram_gap()
+    if spec["structures"] and gap is not None:
+        # how far the likelihood's frame lies from the variogram fit's, axis by axis:
+        # two estimators of one frame, compared (the engine's own measure)
+        for ax, angle in gap.items():
+            rec[f"{ax}_variogram_turn"] = angle
     if info and info.get("cones_deg") and spec["structures"]:
         # the likelihood's information cones (fitting.refine.INFORMATION_CONES), scored
         for i, ax in enumerate(("major", "semi_major", "minor")):
