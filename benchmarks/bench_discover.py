@@ -394,6 +394,8 @@ def engine_record(D, spec, real):
             rec[f"{ax}_cone_widened"] = isinstance(e, dict) and "cone_note" in e
             rec[f"{ax}_in_cone"] = cone_holds(e, D.frame[:, i], R[:, i])
             rec[f"{ax}_range_in"] = range_holds(e, true_r[i])
+            rec[f"{ax}_range_true"] = float(true_r[i])
+            rec[f"{ax}_range_gap"] = None if not isinstance(e, dict) else e.get("range_gap")
         rec["swap_rate"] = u.get("swap_rate")
         # the nugget and its interval in the model's units: the fields have unit variance
         # and the runs use the raw values, so the true nugget is the scenario's
@@ -647,6 +649,20 @@ def set_constants(assignments):
     return done
 
 
+def summarise_range_rule(rows):
+    """Range intervals holding the true range: the engine's rule, the Wald and the replicates'
+    interval alone (bench_uncertainty.range_gap_coverage), all realisations with a model."""
+    from bench_uncertainty import range_gap_coverage
+
+    recs = [r["engine"] for r in rows if "major" in r["engine"]]
+    lines = ["| axis | cases | rule | Wald alone | replicates alone | joined by the rule |",
+             "|---|---|---|---|---|---|"]
+    for ax, c in range_gap_coverage(recs).items():
+        lines.append(f"| {ax} | {c['n']} | {100 * c['rule']:.0f} % | {100 * c['wald']:.0f} % "
+                     f"| {100 * c['replicates']:.0f} % | {100 * c['joined']:.0f} % |")
+    return "\n".join(lines)
+
+
 def main(argv=None):
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--realisations", "--seeds", type=int, default=12,
@@ -695,6 +711,8 @@ def main(argv=None):
         if a.bootstrap:
             print()
             print(summarise_nugget(rows))
+            print()
+            print(summarise_range_rule(rows))
     sp = []
     if not a.skip_speed:
         sp = speed()
