@@ -338,6 +338,7 @@ def one_discover(name, sim, reps, refine=True, information=False):
         out[f"{ax}_range_how"] = d[ax].get("range_interval")
         out[f"{ax}_range_true"] = float(t)
         out[f"{ax}_range_gap"] = d[ax].get("range_gap")
+    out["longest_lag"] = res.longest_lag
     return out
 
 
@@ -374,7 +375,9 @@ def range_gap_coverage(rows, axes=U.AXIS_NAMES):
     gap rule), and by the Wald and the replicates' interval alone where the
     rule had both to choose from (else the engine's), and the share of
     intervals the rule joined. Rows carry ``{ax}_range_in``,
-    ``{ax}_range_true`` and ``{ax}_range_gap``.
+    ``{ax}_range_true`` and ``{ax}_range_gap``, and ``longest_lag`` (a bound
+    beyond it is open, as in the engine's interval; rows without it keep
+    every bound).
     """
     out = {}
     for ax in axes:
@@ -385,8 +388,9 @@ def range_gap_coverage(rows, axes=U.AXIS_NAMES):
             g, t = r.get(f"{ax}_range_gap"), r.get(f"{ax}_range_true")
             got["rule"].append(bool(r[f"{ax}_range_in"]))
             for rule, key in (("wald", "wald_range"), ("replicates", "replicate_range")):
-                got[rule].append(bool(r[f"{ax}_range_in"]) if g is None else
-                                 _holds(*g[key], t))
+                # a bound beyond the longest lag is open, as in the engine's interval
+                got[rule].append(bool(r[f"{ax}_range_in"]) if g is None else _holds(
+                    *U.intervals.bounded_by_lags(g[key], r.get("longest_lag"))[0], t))
             got["joined"].append(g is not None and not g["within"])
         out[ax] = {k: float(np.mean(v)) if v else float("nan") for k, v in got.items()}
         out[ax]["n"] = len(got["rule"])

@@ -157,6 +157,53 @@ def test_range_interval_is_the_wald_interval_where_the_cone_is_the_informations(
     assert [res.axis_summary(i)["range"] for i in range(3)] == [p["range"] for p in plain]
 
 
+def test_wald_range_interval_kept_only_where_the_two_fits_ranges_agree():
+    # BootstrapResult.range_gap_check: on the log scale the gap between the likelihood's
+    # range and the variogram fit's may reach sqrt(r^2 - w^2), r and w the replicates'
+    # and the Wald interval's half-widths on the side of the gap (Hausman 1978, as for
+    # the cones); computed here by hand with NumPy and SciPy's norm.ppf. Beyond it the
+    # interval joins the two (it holds both the Wald interval and the replicates')
+    R = Rotation.from_euler("z", 30, degrees=True).as_matrix()
+    vol = StandInVolume((8, 8, 1), (10, 10, 10), np.random.default_rng(9),
+                        R @ np.diag([9.0, 4.0, 1.0]) @ R.T, noise=0.3)
+    res = U.block_bootstrap(vol, stand_in_refit, reference(vol), n_replicates=60, seed=4)
+    res.distances = None
+    rep = [res.axis_summary(i)["range"] for i in range(3)]
+    est = res.reference_ranges
+    sds = {"major": 0.01, "semi_major": 0.01, "minor": 0.01}
+    res.information = ReportedInformation({"major": 1.0, "semi_major": 1.0, "minor": 1.0},
+                                          log_range_sd=sds)
+    z = norm.ppf(0.95)
+    w = z * 0.01
+    up = [np.log(rep[i][1] / est[i]) for i in range(3)]
+    down = [np.log(est[i] / rep[i][0]) for i in range(3)]
+    assert min(up + down) > w          # the replicates' spread is the wider here
+    allowed_up = [np.sqrt(u * u - w * w) for u in up]
+    allowed_down = [np.sqrt(d * d - w * w) for d in down]
+    # the major's variogram range just inside the bound above, the semi-major's just
+    # beyond it, the minor's just beyond the bound below
+    res.variogram_ranges = {"major": est[0] * np.exp(0.99 * allowed_up[0]),
+                            "semi_major": est[1] * np.exp(1.01 * allowed_up[1]),
+                            "minor": est[2] * np.exp(-1.01 * allowed_down[2])}
+    got = [res.axis_summary(i) for i in range(3)]
+    wald = [[est[i] * np.exp(-w), est[i] * np.exp(w)] for i in range(3)]
+    np.testing.assert_allclose(got[0]["range"], wald[0])
+    assert got[0]["range_interval"] == "likelihood information (Wald, log scale)"
+    for i in (1, 2):
+        np.testing.assert_allclose(got[i]["range"], [min(rep[i][0], wald[i][0]),
+                                                     max(rep[i][1], wald[i][1])])
+        assert got[i]["range_interval"].startswith("the replicates' and the likelihood's")
+    for g, a, within in zip(got, (allowed_up[0], allowed_up[1], allowed_down[2]),
+                            (True, False, False)):
+        assert g["range_gap"]["log_allowed"] == pytest.approx(a, rel=1e-12)
+        assert g["range_gap"]["within"] is within
+        np.testing.assert_allclose(g["range_gap"]["wald_range"], wald[got.index(g)])
+    # without a variogram range the Wald interval is kept, as before
+    res.variogram_ranges = None
+    np.testing.assert_allclose(res.axis_summary(1)["range"], wald[1])
+    assert "range_gap" not in res.axis_summary(1)
+
+
 def test_nugget_and_sill_intervals_are_wald_intervals_of_their_shares_where_given(rng):
     # where the likelihood's information gives the standard deviation of a share's logit,
     # the interval is total * expit(logit(share) +- z sd), z the normal quantile (SciPy's
