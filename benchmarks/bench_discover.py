@@ -397,7 +397,6 @@ def engine_record(D, spec, real):
             rec[f"{ax}_range_true"] = float(true_r[i])
             rec[f"{ax}_range"] = None if not isinstance(e, dict) else e.get("range")
             rec[f"{ax}_range_est"] = float(D.uncertainty.reference_ranges[i])
-            rec[f"{ax}_range_gap"] = None if not isinstance(e, dict) else e.get("range_gap")
         rec["swap_rate"] = u.get("swap_rate")
         rec["longest_lag"] = D.uncertainty.longest_lag
         # the nugget and its interval in the model's units: the fields have unit variance
@@ -652,20 +651,6 @@ def set_constants(assignments):
     return done
 
 
-def summarise_range_rule(rows):
-    """Range intervals holding the true range: the engine's rule, the Wald and the replicates'
-    interval alone (bench_uncertainty.range_gap_coverage), all realisations with a model."""
-    from bench_uncertainty import range_gap_coverage
-
-    recs = [r["engine"] for r in rows if "major" in r["engine"]]
-    lines = ["| axis | cases | rule | Wald alone | replicates alone | joined by the rule |",
-             "|---|---|---|---|---|---|"]
-    for ax, c in range_gap_coverage(recs).items():
-        lines.append(f"| {ax} | {c['n']} | {100 * c['rule']:.0f} % | {100 * c['wald']:.0f} % "
-                     f"| {100 * c['replicates']:.0f} % | {100 * c['joined']:.0f} % |")
-    return "\n".join(lines)
-
-
 def main(argv=None):
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--realisations", "--seeds", type=int, default=12,
@@ -714,8 +699,6 @@ def main(argv=None):
         if a.bootstrap:
             print()
             print(summarise_nugget(rows))
-            print()
-            print(summarise_range_rule(rows))
     sp = []
     if not a.skip_speed:
         sp = speed()

@@ -337,7 +337,6 @@ def one_discover(name, sim, reps, refine=True, information=False):
                                                          None if hi is None else float(hi))
         out[f"{ax}_range_how"] = d[ax].get("range_interval")
         out[f"{ax}_range_true"] = float(t)
-        out[f"{ax}_range_gap"] = d[ax].get("range_gap")
     out["longest_lag"] = res.longest_lag
     return out
 
@@ -366,35 +365,6 @@ def discover_coverage(args):
     Path(args.out).write_text(json.dumps(rows, indent=1))
     print(f"{len(rows)} simulations, {args.reps} replicates each, wall {wall:.0f} s")
     summarise_discover(rows)
-
-
-def range_gap_coverage(rows, axes=U.AXIS_NAMES):
-    """Range intervals by three rules on the same runs, from each axis's ``range_gap`` record.
-
-    Per axis: the share of true ranges held by the engine's interval (the
-    gap rule), and by the Wald and the replicates' interval alone where the
-    rule had both to choose from (else the engine's), and the share of
-    intervals the rule joined. Rows carry ``{ax}_range_in``,
-    ``{ax}_range_true`` and ``{ax}_range_gap``, and ``longest_lag`` (a bound
-    beyond it is open, as in the engine's interval; rows without it keep
-    every bound).
-    """
-    out = {}
-    for ax in axes:
-        got = {"rule": [], "wald": [], "replicates": [], "joined": []}
-        for r in rows:
-            if r.get(f"{ax}_range_in") is None:
-                continue
-            g, t = r.get(f"{ax}_range_gap"), r.get(f"{ax}_range_true")
-            got["rule"].append(bool(r[f"{ax}_range_in"]))
-            for rule, key in (("wald", "wald_range"), ("replicates", "replicate_range")):
-                # a bound beyond the longest lag is open, as in the engine's interval
-                got[rule].append(bool(r[f"{ax}_range_in"]) if g is None else _holds(
-                    *U.intervals.bounded_by_lags(g[key], r.get("longest_lag"))[0], t))
-            got["joined"].append(g is not None and not g["within"])
-        out[ax] = {k: float(np.mean(v)) if v else float("nan") for k, v in got.items()}
-        out[ax]["n"] = len(got["rule"])
-    return out
 
 
 def summarise_discover(rows):
@@ -435,12 +405,6 @@ def summarise_discover(rows):
     out = pd.DataFrame(lines)
     with pd.option_context("display.width", 250, "display.max_columns", 50):
         print(out.round(3).to_string(index=False))
-    if any(f"{ax}_range_gap" in r for r in rows for ax in U.AXIS_NAMES):
-        print("range intervals hold the truth (rule / Wald alone / replicates alone; "
-              "share joined):")
-        for ax, c in range_gap_coverage(rows).items():
-            print(f"  {ax}: {c['rule']:.3f} / {c['wald']:.3f} / {c['replicates']:.3f}; "
-                  f"{c['joined']:.3f} (n = {c['n']})")
     n = len(df)
     if n:
         print(f"binomial standard error at 90 % with n = {n}: "

@@ -493,18 +493,3 @@ def test_uncertainty_table_says_where_each_cone_comes_from():
     assert "likelihood information" in text
     assert text.count("differ by") == 1       # the minor's replicates cone had no gap test
 
-
-def test_uncertainty_table_says_where_each_range_interval_comes_from():
-    # the factor is exp(log_gap) (numpy.exp by hand: exp(0.3) = 1.35)
-    from anisotropy.report.html import _uncertainty
-    gap = {"variogram_range": 40.0, "log_gap": 0.3, "log_allowed": 0.1, "within": False}
-    unc = {"method": "block", "replicates": 60, "confidence": 0.9,
-           "major": {"range_interval": "likelihood information (Wald, log scale)"},
-           "semi_major": {"range_interval": "the replicates' and the likelihood's Wald "
-                          "interval joined: ...", "range_gap": gap},
-           "minor": {"range_interval": "replicates (percentile)"}}
-    rows = _uncertainty(unc)["table"]
-    text = str(rows)
-    assert f"differ by a factor {np.exp(0.3):.2f}, more than their spreads allow" in text
-    assert text.count("replicates and likelihood joined") == 1
-    assert text.count("'likelihood information'") == 1

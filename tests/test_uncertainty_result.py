@@ -128,80 +128,29 @@ def test_information_cone_kept_only_where_the_two_estimators_agree():
     assert "variogram_gap" not in res.axis_summary(0)
 
 
-def test_range_interval_is_the_wald_interval_where_the_cone_is_the_informations(rng):
-    # where an axis's cone comes from the likelihood's information and that information's
-    # log-range standard deviation is given, the range interval is range * exp(+-z sd)
-    # with z the normal quantile (SciPy's norm.ppf), uncalibrated; an axis whose cone is
-    # the replicates' keeps the replicates' (calibrated) interval
-    from scipy.stats import norm
-
+def test_range_interval_stays_the_replicates_where_the_cone_is_the_informations(rng):
+    # the cones may come from the likelihood's information, but the range intervals are
+    # the replicates' (calibrated) on every layout: here the percentile interval of the
+    # replicates' ranges (numpy.quantile by hand) widened by the range calibration on
+    # the log scale about the estimate
     R = Rotation.from_euler("z", 30, degrees=True).as_matrix()
     vol = StandInVolume((8, 8, 1), (10, 10, 10), np.random.default_rng(9),
                          R @ np.diag([9.0, 4.0, 1.0]) @ R.T, noise=0.3)
-    res = U.block_bootstrap(vol, stand_in_refit, reference(vol), n_replicates=60, seed=4)
+    res = U.block_bootstrap(vol, stand_in_refit, reference(vol), n_replicates=60, seed=4,
+                            range_calibration=1.25)
     res.distances = None     # no longest lag: bounds are kept as they are (tested elsewhere)
+    res.interval_method = "percentile"
     plain = [res.axis_summary(i) for i in range(3)]
-    sds = {"major": 0.1, "semi_major": 0.2, "minor": 0.05}
-    res.information = ReportedInformation({}, log_range_sd=sds)
-    assert [res.axis_summary(i) for i in range(3)] == plain      # no information cones
-    res.information = ReportedInformation({"major": 2.5, "semi_major": 3.5, "minor": 1.5},
-                                          log_range_sd=sds)
-    z = norm.ppf(0.5 + 0.5 * res.confidence)
-    for i, axis in enumerate(("major", "semi_major", "minor")):
+    res.information = ReportedInformation({"major": 2.5, "semi_major": 3.5, "minor": 1.5})
+    for i in range(3):
         got = res.axis_summary(i)
+        assert got["cone_source"] == "likelihood information"
+        assert got["range"] == plain[i]["range"]
         est = res.reference_ranges[i]
-        sd = sds[axis]
-        np.testing.assert_allclose(got["range"], [est * np.exp(-z * sd), est * np.exp(z * sd)])
-        assert got["range_interval"] == "likelihood information (Wald, log scale)"
-    res.information = None
-    assert [res.axis_summary(i)["range"] for i in range(3)] == [p["range"] for p in plain]
-
-
-def test_wald_range_interval_kept_only_where_the_two_fits_ranges_agree():
-    # BootstrapResult.range_gap_check: on the log scale the gap between the likelihood's
-    # range and the variogram fit's may reach sqrt(r^2 - w^2), r and w the replicates'
-    # and the Wald interval's half-widths on the side of the gap (Hausman 1978, as for
-    # the cones); computed here by hand with NumPy and SciPy's norm.ppf. Beyond it the
-    # interval joins the two (it holds both the Wald interval and the replicates')
-    R = Rotation.from_euler("z", 30, degrees=True).as_matrix()
-    vol = StandInVolume((8, 8, 1), (10, 10, 10), np.random.default_rng(9),
-                        R @ np.diag([9.0, 4.0, 1.0]) @ R.T, noise=0.3)
-    res = U.block_bootstrap(vol, stand_in_refit, reference(vol), n_replicates=60, seed=4)
-    res.distances = None
-    rep = [res.axis_summary(i)["range"] for i in range(3)]
-    est = res.reference_ranges
-    sds = {"major": 0.01, "semi_major": 0.01, "minor": 0.01}
-    res.information = ReportedInformation({"major": 1.0, "semi_major": 1.0, "minor": 1.0},
-                                          log_range_sd=sds)
-    z = norm.ppf(0.95)
-    w = z * 0.01
-    up = [np.log(rep[i][1] / est[i]) for i in range(3)]
-    down = [np.log(est[i] / rep[i][0]) for i in range(3)]
-    assert min(up + down) > w          # the replicates' spread is the wider here
-    allowed_up = [np.sqrt(u * u - w * w) for u in up]
-    allowed_down = [np.sqrt(d * d - w * w) for d in down]
-    # the major's variogram range just inside the bound above, the semi-major's just
-    # beyond it, the minor's just beyond the bound below
-    res.variogram_ranges = {"major": est[0] * np.exp(0.99 * allowed_up[0]),
-                            "semi_major": est[1] * np.exp(1.01 * allowed_up[1]),
-                            "minor": est[2] * np.exp(-1.01 * allowed_down[2])}
-    got = [res.axis_summary(i) for i in range(3)]
-    wald = [[est[i] * np.exp(-w), est[i] * np.exp(w)] for i in range(3)]
-    np.testing.assert_allclose(got[0]["range"], wald[0])
-    assert got[0]["range_interval"] == "likelihood information (Wald, log scale)"
-    for i in (1, 2):
-        np.testing.assert_allclose(got[i]["range"], [min(rep[i][0], wald[i][0]),
-                                                     max(rep[i][1], wald[i][1])])
-        assert got[i]["range_interval"].startswith("the replicates' and the likelihood's")
-    for g, a, within in zip(got, (allowed_up[0], allowed_up[1], allowed_down[2]),
-                            (True, False, False)):
-        assert g["range_gap"]["log_allowed"] == pytest.approx(a, rel=1e-12)
-        assert g["range_gap"]["within"] is within
-        np.testing.assert_allclose(g["range_gap"]["wald_range"], wald[got.index(g)])
-    # without a variogram range the Wald interval is kept, as before
-    res.variogram_ranges = None
-    np.testing.assert_allclose(res.axis_summary(1)["range"], wald[1])
-    assert "range_gap" not in res.axis_summary(1)
+        lo, hi = np.quantile(res.ranges[:, i], [0.05, 0.95])
+        want = [est * (lo / est) ** 1.25, est * (hi / est) ** 1.25]
+        want = [min(want[0], est), max(want[1], est)]        # it holds the estimate
+        np.testing.assert_allclose(got["range"], want)
 
 
 def test_nugget_and_sill_intervals_are_wald_intervals_of_their_shares_where_given(rng):

@@ -491,7 +491,6 @@ class Discovery:
         res.recentred = fr is not None and fr.reports_likelihood_model
         res.information = self.likelihood_information(confidence_level)
         res.variogram_gap = self.variogram_gap()
-        res.variogram_ranges = self.variogram_ranges()
         return res
 
     def likelihood_information(self, confidence=0.9):
@@ -511,24 +510,16 @@ class Discovery:
         anisotropy.fitting.information.ReportedInformation or None
             None without a likelihood refinement, or where its information
             is not positive definite. Its cones are per reported axis; its
-            standard deviations of the log ranges and of the share logits
-            (Wald intervals) are None where the reported model is a variogram
-            refit's, not the likelihood's. On drill holes its log-range
-            standard deviations are None too: there the Wald range intervals
-            under-covered the true ranges (the minor's 83-85 % at a nominal
-            90 %) while the replicates' held them in 93-95 %, so the range
-            intervals stay the replicates'.
+            standard deviations of the share logits (Wald intervals) are None
+            where the reported model is a variogram refit's, not the
+            likelihood's. The range intervals are the replicates' on every
+            layout (the Wald range intervals under-covered: *Range intervals*
+            in ``benchmarks/RESULTS.md``).
         """
         fr = self.refinement.frame_refinement
         if fr is None:
             return None
-        info = fr.likelihood_information(self.frame, confidence, seed=self.params.seed)
-        if info is not None and self.samples.holes is not None:
-            # on drill holes the Wald range intervals held the true minor range in 83-85 %
-            # of 120 realisations against 93-95 % for the replicates' (RESULTS.md), and
-            # the range-gap rule in 87 % (it joins too seldom there)
-            info = replace(info, log_range_sd=None)
-        return info
+        return fr.likelihood_information(self.frame, confidence, seed=self.params.seed)
 
     def variogram_gap(self) -> dict | None:
         """Angle (degrees) from each reported axis to the variogram fit's matching axis.
@@ -543,18 +534,6 @@ class Discovery:
         V = np.asarray(self.refinement.selection.best.frame, float)
         cos = np.clip(np.abs(self.frame.T @ V).max(axis=1), 0.0, 1.0)
         return {a: float(np.degrees(np.arccos(c))) for a, c in zip(AXES, cos)}
-
-    def variogram_ranges(self) -> dict | None:
-        """The variogram fit's range (m) along each reported axis: a second estimate.
-
-        The range counterpart of :meth:`variogram_gap`: the structure
-        selection's best fit, before the likelihood, read along the reported
-        (the likelihood's) axes. None without a likelihood refinement.
-        """
-        if self.refinement.frame_refinement is None:
-            return None
-        model = self.refinement.selection.best.model
-        return {a: float(model.range_along(self.frame[:, i])) for i, a in enumerate(AXES)}
 
     def rival_nugget(self) -> tuple | None:
         """The likelihood's nugget, where the fit holds the down-hole one: a second estimate.

@@ -105,10 +105,6 @@ class ReportedInformation:
     axes : ndarray (draws, 3, 3) or None
         Frames drawn from the Wald distribution, columns matched to the
         reported axes (trend and plunge intervals are read from them).
-    log_range_sd : dict or None
-        Per axis name, the standard deviation of the log range of the
-        structure that reaches furthest along it; None where the reported
-        ranges are not the likelihood's.
     logit_share_sd : dict or None
         Standard deviations of the logits of the shares of the total sill:
         ``"nugget"``, ``"sill0"``, ``"sill1"``, ...; None where the reported
@@ -122,7 +118,6 @@ class ReportedInformation:
 
     cones: dict
     axes: np.ndarray | None = None
-    log_range_sd: dict | None = None
     logit_share_sd: dict | None = None
     likelihood_logit_share_sd: dict | None = None
 

@@ -153,10 +153,7 @@ class FrameRefinement:
         -------
         anisotropy.fitting.information.ReportedInformation or None
             None without a likelihood, or where its information is not
-            positive definite. Its ``log_range_sd`` is per axis name, from the
-            structure that reaches furthest along it, and None where the
-            reported ranges are a variogram refit's; its ``logit_share_sd``
-            is None unless the reported nugget is the likelihood's share of
+            positive definite. Its ``logit_share_sd`` is None unless the reported nugget is the likelihood's share of
             the total sill (not held).
         """
         if self.likelihood is None:
@@ -168,12 +165,8 @@ class FrameRefinement:
         cos = np.abs(np.asarray(frame, float).T @ np.asarray(lk.frame, float))
         col = [int(np.argmax(cos[i])) for i in range(3)]
         cones = list(ic.cones.values())
-        ranges = np.atleast_2d(np.asarray(lk.ranges, float))
-        sd = {a: float(ic.log_range_sd[int(np.argmax(ranges[:, col[i]])), col[i]])
-              for i, a in enumerate(AXES)}
         return ReportedInformation(cones={a: cones[col[i]] for i, a in enumerate(AXES)},
                                    axes=ic.frames[:, :, col],
-                                   log_range_sd=sd if self.reports_likelihood_model else None,
                                    logit_share_sd=self._share_sd(ic.logit_share_sd),
                                    likelihood_logit_share_sd=_share_names(ic.logit_share_sd))
 

@@ -610,7 +610,7 @@ def _uncertainty(unc) -> dict | None:
                      "trend interval": _pair(u.get("trend"), ".0f"),
                      "plunge interval": _pair(u.get("plunge"), ".0f"),
                      "range interval (m)": _pair(u.get("range"), ".0f"),
-                     "cone from": _cone_source(u), "range interval from": _range_source(u)})
+                     "cone from": _cone_source(u)})
     nug = unc.get("nugget")
     if (isinstance(nug, (list, tuple)) and len(nug) == 2
             and _num(nug[0], ".3g") == _num(nug[1], ".3g")):
@@ -632,18 +632,6 @@ def _cone_source(u) -> str:
         return (f"replicates (the likelihood's and the variogram's axes differ by "
                 f"{gap['gap_deg']:.0f}°, more than their spreads allow)")
     return source
-
-
-def _range_source(u) -> str:
-    """Where an axis's range interval comes from, and why both where the two fits disagree."""
-    how = str(u.get("range_interval") or "replicates")
-    gap = u.get("range_gap") or {}
-    if how.startswith("likelihood"):
-        return "likelihood information"
-    if gap and not gap.get("within", True):
-        return (f"replicates and likelihood joined (the two fits' ranges differ by a factor "
-                f"{np.exp(gap['log_gap']):.2f}, more than their spreads allow)")
-    return "replicates"
 
 
 def _range_marks(d) -> dict:
