@@ -385,6 +385,10 @@ def summarise_discover(rows):
             true = np.array([SCENARIOS[n]["ranges"][i] for n in g["scenario"]])
             r[f"med_range_logerr_{ax}"] = float(np.median(np.abs(np.log(
                 g[f"{ax}_range_est"].to_numpy(float) / true))))
+        for ax in U.AXIS_NAMES:   # median width of the range interval, log(hi / lo)
+            lo = pd.to_numeric(g[f"{ax}_range_lo"], errors="coerce")
+            hi = pd.to_numeric(g[f"{ax}_range_hi"], errors="coerce")
+            r[f"med_range_logwidth_{ax}"] = float(np.nanmedian(np.log(hi / lo)))
         r["med_err_major_vario"] = float(g["major_err_variogram"].median())
         r["med_cone_major"] = float(g["major_cone"].median())
         r["refined"] = int(g["refined"].sum())
@@ -486,8 +490,8 @@ if __name__ == "__main__":
         model_check(a)
     elif a.what == "discover-coverage":
         discover_coverage(a)
-    elif a.what == "summary":
-        rows = json.loads(Path(a.out).read_text())
+    elif a.what == "summary":     # --out a.json[,b.json,...]: the runs joined
+        rows = [r for path in a.out.split(",") for r in json.loads(Path(path).read_text())]
         if rows and "refined" in rows[0]:
             summarise_discover(rows)
         else:
