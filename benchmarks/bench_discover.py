@@ -40,6 +40,7 @@ on 5,000 drill-hole composites.
 Run:  python benchmarks/bench_discover.py [--realisations 12] [--scenarios holes]
       [--bootstrap 100] [--skip-speed] [--json rows.json]
       [--set fitting.refine.LIKELIHOOD_MAX_SAMPLES=3000]
+      python benchmarks/bench_discover.py --from-json a.json b.json   (runs joined)
 """
 
 from __future__ import annotations
@@ -664,11 +665,19 @@ def main(argv=None):
     ap.add_argument("--skip-speed", action="store_true")
     ap.add_argument("--skip-accuracy", action="store_true")
     ap.add_argument("--json", default=None, help="write all rows to this JSON file")
+    ap.add_argument("--from-json", nargs="*", default=None, metavar="FILE",
+                    help="print the tables of earlier --json runs joined (no new run)")
     ap.add_argument("--set", nargs="*", default=(), metavar="MODULE.NAME=VALUE",
                     help="run a variant: set a constant of the package first, e.g. "
                          "fitting.refine.LIKELIHOOD_MAX_SAMPLES=3000 (printed and kept in "
                          "the JSON; for studies of a tuned constant)")
     a = ap.parse_args(argv)
+    if a.from_json:
+        rows = [r for path in a.from_json for r in json.load(open(path))["accuracy"]]
+        print(summarise(rows))
+        print()
+        print(summarise_issue15(rows))
+        return
     variant = set_constants(a.set)
     rows = []
     if not a.skip_accuracy:
