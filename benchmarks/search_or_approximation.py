@@ -73,8 +73,11 @@ def referee_start(row):
 
 
 def polish(coords, z, start, kinds, setup, seed, args):
+    """Search the engine's likelihood from ``start``, in the start's own structure kinds
+    where it has them (the engine may report fewer structures than the truth has)."""
     F, R = ordered_axes(start["frame"], start["ranges"])
-    lk = refine_frame_likelihood(coords, z, F, R, start["nugget"], start["sills"], kinds,
+    lk = refine_frame_likelihood(coords, z, F, R, start["nugget"], start["sills"],
+                                 start.get("kinds", kinds),
                                  setup=setup, seed=seed, ftol=1e-6,
                                  n_neighbours=args.neighbours, max_samples=args.max_samples)
     return ordered_axes(lk.frame, lk.ranges)[0], float(lk.negloglik)
