@@ -414,6 +414,11 @@ def engine_record(D, spec, real):
             D.uncertainty.rival_nugget = rival
             rec["nugget_replicates_in"] = None if own is None else bool(
                 own[0] <= spec["nugget"] <= own[1])
+    # the likelihood's test of a second, shorter structure (where the fit kept one)
+    nested = (D.diagnostics.get("frame_refinement") or {}).get("nested")
+    if nested:
+        rec["nested"] = {k: _plain(nested.get(k)) for k in
+                         ("gain", "bic_penalty", "kept", "search_finished", "structure_added")}
     info = (D.diagnostics.get("frame_refinement") or {}).get("information")
     gap = D.variogram_gap()
     if spec["structures"] and gap is not None:
@@ -481,6 +486,35 @@ def summarise_nugget(rows):
                      f"{np.median(np.abs(err)):.3f} | "
                      + (f"{sum(held)}/{len(held)}" if held else "none") + " | "
                      + (f"{np.median(width):.3f}" if width else "-") + " |")
+    return "\n".join(lines)
+
+
+def summarise_nested(rows, margin=None):
+    """Per scenario: the likelihood's gain from a second, shorter structure, against its tests.
+
+    Where the variogram fit kept one structure, the engine adds a shorter
+    one in the likelihood and keeps it when the gain passes the BIC penalty
+    (Schwarz 1978; four added parameters). Beside it: how many gains pass
+    the 90 % likelihood-ratio margin of four parameters
+    (``fitting.frames.likelihood_margin(0.9, dof=4)``, half the chi-square
+    quantile: Wilks 1938), a less cautious criterion.
+    """
+    from anisotropy.fitting.frames import likelihood_margin
+
+    lr = likelihood_margin(0.9, dof=4) if margin is None else margin
+    lines = [f"| scenario | true structures | tested | gain median [min, max] (log-units) "
+             f"| BIC penalty (median) | kept by BIC | past the LR margin ({lr:.1f}) |",
+             "|---|---|---|---|---|---|---|"]
+    for name in dict.fromkeys(r["scenario"] for r in rows):
+        e = [r["engine"]["nested"] for r in rows
+             if r["scenario"] == name and r.get("engine", {}).get("nested")]
+        if not e:
+            continue
+        g = np.array([x["gain"] for x in e], float)
+        lines.append(f"| {name} | {len(SCENARIOS[name]['structures'])} | {len(e)} "
+                     f"| {np.median(g):.1f} [{g.min():.1f}, {g.max():.1f}] "
+                     f"| {np.median([x['bic_penalty'] for x in e]):.1f} "
+                     f"| {sum(bool(x['kept']) for x in e)} | {int(np.sum(g > lr))} |")
     return "\n".join(lines)
 
 
@@ -677,6 +711,8 @@ def main(argv=None):
         print(summarise(rows))
         print()
         print(summarise_issue15(rows))
+        print()
+        print(summarise_nested(rows))
         return
     variant = set_constants(a.set)
     rows = []
@@ -705,6 +741,8 @@ def main(argv=None):
         print(summarise(rows))
         print()
         print(summarise_issue15(rows))
+        print()
+        print(summarise_nested(rows))
         if a.bootstrap:
             print()
             print(summarise_nugget(rows))
