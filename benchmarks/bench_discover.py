@@ -489,22 +489,24 @@ def summarise_nugget(rows):
     return "\n".join(lines)
 
 
-def summarise_nested(rows, margin=None):
+def summarise_nested(rows, confidences=(0.9, 0.99, 0.999)):
     """Per scenario: the likelihood's gain from a second, shorter structure, against its tests.
 
     Where the variogram fit kept one structure, the engine adds a shorter
     one in the likelihood and keeps it when the gain passes the BIC penalty
     (Schwarz 1978; four added parameters). Beside it: how many gains pass
-    the 90 % likelihood-ratio margin of four parameters
-    (``fitting.frames.likelihood_margin(0.9, dof=4)``, half the chi-square
-    quantile: Wilks 1938), a less cautious criterion.
+    the likelihood-ratio margin of four parameters at each confidence
+    (``fitting.frames.likelihood_margin(c, dof=4)``, half the chi-square
+    quantile: Wilks 1938), less cautious criteria.
     """
     from anisotropy.fitting.frames import likelihood_margin
 
-    lr = likelihood_margin(0.9, dof=4) if margin is None else margin
-    lines = [f"| scenario | true structures | tested | gain median [min, max] (log-units) "
-             f"| BIC penalty (median) | kept by BIC | past the LR margin ({lr:.1f}) |",
-             "|---|---|---|---|---|---|---|"]
+    lr = [likelihood_margin(c, dof=4) for c in confidences]
+    lines = ["| scenario | true structures | tested | gain median [min, max] (log-units) "
+             "| BIC penalty (median) | kept by BIC | "
+             + " | ".join(f"past the {100 * c:g} % LR margin ({m:.1f})"
+                          for c, m in zip(confidences, lr)) + " |",
+             "|---|---|---|---|---|---|" + "---|" * len(lr)]
     for name in dict.fromkeys(r["scenario"] for r in rows):
         e = [r["engine"]["nested"] for r in rows
              if r["scenario"] == name and r.get("engine", {}).get("nested")]
@@ -514,7 +516,8 @@ def summarise_nested(rows, margin=None):
         lines.append(f"| {name} | {len(SCENARIOS[name]['structures'])} | {len(e)} "
                      f"| {np.median(g):.1f} [{g.min():.1f}, {g.max():.1f}] "
                      f"| {np.median([x['bic_penalty'] for x in e]):.1f} "
-                     f"| {sum(bool(x['kept']) for x in e)} | {int(np.sum(g > lr))} |")
+                     f"| {sum(bool(x['kept']) for x in e)} | "
+                     + " | ".join(str(int(np.sum(g > m))) for m in lr) + " |")
     return "\n".join(lines)
 
 
