@@ -492,4 +492,3 @@ def test_uncertainty_table_says_where_each_cone_comes_from():
     assert "differ by 12°, more than their spreads allow" in text
     assert "likelihood information" in text
     assert text.count("differ by") == 1       # the minor's replicates cone had no gap test
-

@@ -8,12 +8,13 @@ the covariance of the frame with the ranges and sill shares estimated too
 (the profile information).  Rotation vectors drawn from that normal
 distribution turn each axis of the frame; the angle within which a share
 ``confidence`` of the turned axes falls is the axis's cone.  Its diagonal
-at the log ranges gives their standard deviations, hence Wald intervals of
-the ranges on the log scale, and carried through the shares' softmax (the
-delta method, a first-order expansion; the reference to Pawitan 2001 for
-it is recalled from memory, and the tests check the derivative against
-central differences) Wald intervals of the nugget and sill shares on the
-logit scale.
+at the log ranges gives their standard deviations (kept in the record; the
+bootstrap does not use them for the range intervals, whose Wald form
+under-covered: ``benchmarks/RESULTS.md``, *Range intervals*).  Carried
+through the shares' softmax (the delta method, a first-order expansion; the
+reference to Pawitan 2001 for it is recalled from memory, and the tests
+check the derivative against central differences), it gives Wald intervals
+of the nugget and sill shares on the logit scale.
 
 Here ``H`` is the central difference of the compiled analytic gradient
 (:func:`anisotropy.fitting.likelihood.vecchia_negloglik_grad`), one pair of

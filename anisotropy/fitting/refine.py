@@ -153,8 +153,9 @@ class FrameRefinement:
         -------
         anisotropy.fitting.information.ReportedInformation or None
             None without a likelihood, or where its information is not
-            positive definite. Its ``logit_share_sd`` is None unless the reported nugget is the likelihood's share of
-            the total sill (not held).
+            positive definite. Its ``logit_share_sd`` is None unless the
+            reported nugget is the likelihood's share of the total sill (not
+            held).
         """
         if self.likelihood is None:
             return None
