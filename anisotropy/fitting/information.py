@@ -8,7 +8,7 @@ the covariance of the frame with the ranges and sill shares estimated too
 (the profile information).  Rotation vectors drawn from that normal
 distribution turn each axis of the frame; the angle within which a share
 ``confidence`` of the turned axes falls is the axis's cone.  Its diagonal
-at the log ranges gives their standard deviations (kept in the record; the
+at the log ranges gives their standard deviations (``log_range_sd``; the
 bootstrap does not use them for the range intervals, whose Wald form
 under-covered: ``benchmarks/RESULTS.md``, *Range intervals*).  Carried
 through the shares' softmax (the delta method, a first-order expansion; the
