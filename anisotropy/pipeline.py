@@ -11,9 +11,10 @@ carrying its own choices and warnings:
    ``choose_sill`` -> ``TransformChoice``, ``SillChoice``;
 4. ``choose_lags`` (from the nominal spacing, each choice recorded with its
    reason and overridable) -> ``LagChoice``;
-5. ``build_volume`` - one pass of the pair engine into the lag-vector volume,
-   with blocks sized for the block bootstrap when one is asked for ->
-   ``PairVolume``;
+5. ``build_volume`` - one pass of the pair engine into the lag-vector volume
+   -> ``PairVolume``; without blocks whether or not a bootstrap follows, so
+   that the answer does not depend on it (the bootstrap makes its own pass
+   with blocks, ``Discovery.volume_with_blocks``);
 6. ``weighted_bins`` - one fit bin per distance class and coarse direction
    cell, with drill-hole information weights and the down-hole nugget ->
    ``WeightedBins``;
@@ -206,7 +207,10 @@ def run_discovery(data, p: DiscoverParams) -> Discovery:
     t.say(f"pairs: unit lag {lc.unit_lag:.3g} m, {lc.n_lags} lags, {samples.n} samples")
     pv = t("volume", build_volume, samples.coords, tc.values, lc, estimator=p.estimator,
            coarse_spacing=p.coarse_spacing, progress=p.progress, source=samples.source,
-           blocks=bool(p.n_bootstrap) and p.bootstrap_method == "block")
+           # never blocks here: a pass that fills block channels adds the fine sums in
+           # another order, and on drill holes the frame choice carried those last bits
+           # into another answer (16 of 120 realisations; benchmarks/RESULTS.md)
+           blocks=False)
     wb = t("bins", weighted_bins, pv, samples.coords, tc.values, holes=samples.holes,
            spacing=prep.spacing, lags=lc, total=sc.total, estimator=p.estimator,
            min_pairs=p.min_pairs_bin, source=samples.source)
@@ -278,5 +282,7 @@ def _record_bootstrap_blocks(D: Discovery) -> None:
     used = getattr(D.uncertainty, "blocks", None) or {}
     for c in D.choices:
         if c.get("choice") == "bootstrap blocks" and used.get("side"):
-            c.update(value=float(max(used["side"])), engine_block_side=c["value"],
+            # the side of the bootstrap's own pass, and the one its grouping resampled
+            c.update(value=float(max(used["side"])),
+                     engine_block_side=float(max(D.volume_with_blocks().block_size)),
                      reason=f"resampled blocks: {used.get('rule')}")

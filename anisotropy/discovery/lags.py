@@ -174,11 +174,12 @@ def build_volume(coords, values, lags: LagChoice, *, estimator="semivariogram",
     fan, maps, the bootstrap's block sums, the report) reads that estimator.
     With ``blocks`` the pass also keeps block sums, the blocks sized for the
     block bootstrap (:func:`anisotropy.uncertainty.blocks.engine_block_side`).
-    Blocks partition the pairs and change no answer of the fits; they cost
-    about as much as the fine sums themselves (half the pass on 89k blast
-    holes, most of it on a domain of 2,000 composites), so a run without a
-    block bootstrap leaves them out and a later bootstrap or check makes
-    one more pass with them (``Discovery.volume_with_blocks``).
+    Blocks partition the pairs; they cost about as much as the fine sums
+    themselves (half the pass on 89k blast holes, most of it on a domain of
+    2,000 composites). ``discover`` leaves them out of the fit's pass and a
+    bootstrap or check makes one more pass with them
+    (``Discovery.volume_with_blocks``): a pass with blocks adds the fine sums
+    in another order, and on drill holes that changed the answer.
 
     Raises
     ------
@@ -190,8 +191,9 @@ def build_volume(coords, values, lags: LagChoice, *, estimator="semivariogram",
               "reason": "block side giving about 100 occupied blocks, so that the block "
                         "bootstrap has room to resample "
                         "(anisotropy.uncertainty.blocks.engine_block_side)" if blocks else
-                        "no block bootstrap asked for: the pass keeps no block sums (a later "
-                        "bootstrap or check makes one more pass with them)"}
+                        "the fit's pass keeps no block sums: a bootstrap or check makes its "
+                        "own pass with them, so that the answer does not depend on whether "
+                        "one follows"}
     coarse = fan_for_spacing(DEFAULT_COARSE_SPACING if coarse_spacing is None
                              else coarse_spacing)
     volume = _build_volume(coords, values, lag=lags.unit_lag, n_lags=lags.n_lags,
