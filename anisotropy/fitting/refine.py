@@ -176,8 +176,7 @@ class FrameRefinement:
         shares (its model reported, the nugget not held)."""
         if not self.reports_likelihood_model or (self.record or {}).get("nugget_held"):
             return None
-        names = ("nugget",) + tuple(f"sill{k}" for k in range(len(self.fit.sills)))
-        return {n: float(v) for n, v in zip(names, logit_sd)}
+        return _share_names(logit_sd)   # the reported structures are the likelihood's
 
 
 def _share_names(logit_sd):
