@@ -411,14 +411,11 @@ class Discovery:
     def volume_with_blocks(self) -> LagVolume:
         """The lag volume with block sums for the block bootstrap (built once on request).
 
-        The run's own volume when its pass kept blocks (``discover`` with a
-        block bootstrap); otherwise one more pass over the pairs, on the same
-        samples, values, lag classes and direction cells, with blocks sized
-        for the bootstrap. Its fine sums are those of ``volume_`` up to the
-        order of the floating-point additions.
+        One more pass over the pairs (the fit's pass keeps no blocks), on the
+        same samples, values, lag classes and direction cells, with blocks
+        sized for the bootstrap. Its fine sums are those of ``volume_`` up to
+        the order of the floating-point additions.
         """
-        if self.pair_volume.has_blocks:
-            return self.pair_volume.volume
         if self._blocked_volume is None:
             s = self.samples
             self._blocked_volume = build_volume(
