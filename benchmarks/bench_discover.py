@@ -395,11 +395,7 @@ def engine_record(D, spec, real):
             rec[f"{ax}_cone_widened"] = isinstance(e, dict) and "cone_note" in e
             rec[f"{ax}_in_cone"] = cone_holds(e, D.frame[:, i], R[:, i])
             rec[f"{ax}_range_in"] = range_holds(e, true_r[i])
-            rec[f"{ax}_range_true"] = float(true_r[i])
-            rec[f"{ax}_range"] = None if not isinstance(e, dict) else e.get("range")
-            rec[f"{ax}_range_est"] = float(D.uncertainty.reference_ranges[i])
         rec["swap_rate"] = u.get("swap_rate")
-        rec["longest_lag"] = D.uncertainty.longest_lag
         # the nugget and its interval in the model's units: the fields have unit variance
         # and the runs use the raw values, so the true nugget is the scenario's
         nb = u.get("nugget")

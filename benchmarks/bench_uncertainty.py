@@ -253,7 +253,7 @@ def summarise(rows):
     return out
 
 
-def _scenario_field(name, sim):
+def scenario_field(name, sim):
     """Sample coordinates, simulated values and true frame of one coverage simulation.
 
     The same seeds and simulation as :func:`one` (``coverage`` mode).
@@ -286,7 +286,7 @@ def one_discover(name, sim, reps, refine=True, information=False):
     refine_module.INFORMATION_CONES = bool(information)
 
     sc = SCENARIOS[name]
-    coords, v, F = _scenario_field(name, sim)
+    coords, v, F = scenario_field(name, sim)
     df = pd.DataFrame({"x": coords[:, 0], "y": coords[:, 1], "z": coords[:, 2], "value": v})
     t0 = time.perf_counter()
     # Gaussian values are half negative: keep them (the reader would otherwise read
@@ -336,8 +336,6 @@ def one_discover(name, sim, reps, refine=True, information=False):
         out[f"{ax}_range_lo"], out[f"{ax}_range_hi"] = (None if lo is None else float(lo),
                                                          None if hi is None else float(hi))
         out[f"{ax}_range_how"] = d[ax].get("range_interval")
-        out[f"{ax}_range_true"] = float(t)
-    out["longest_lag"] = res.longest_lag
     return out
 
 

@@ -54,7 +54,7 @@ def observed_cones(L, theta, R0, conf=0.9, step=1e-4, seed=0):
 def referee(name, sim):
     """The exact maximum's axis errors, ranges, nugget and own cones on one simulation."""
     sc = BU.SCENARIOS[name]
-    coords, v, F = BU._scenario_field(name, sim)
+    coords, v, F = BU.scenario_field(name, sim)
     L = EX.ProfileLikelihood(coords, v, [sc["kind"]], nugget=True)
     theta = np.r_[0.0, 0.0, 0.0, np.log(sc["ranges"]),
                   np.log((1.0 - sc["nugget"]) / sc["nugget"])]
