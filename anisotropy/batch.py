@@ -50,7 +50,6 @@ from pathlib import Path
 from typing import Mapping, Sequence
 
 import pandas as pd
-from threadpoolctl import threadpool_limits
 
 from anisotropy import safe_io as S
 from anisotropy import parallel
@@ -317,18 +316,9 @@ def _run_domain(task: Mapping, frame=None) -> dict:
     names, discover options, the interpretation spec, and the folder to
     write into; ``frame`` is the whole table (the domain is selected from it
     by discover, so that the data row numbers in every record and warning
-    are those of the file).
-
-    BLAS runs on one thread inside a domain: the domains themselves are the
-    parallel unit, and the fitted numbers then do not depend on where the
-    domain ran (the summation order of a multi-threaded BLAS moves the last
-    digits of a fit, which a bootstrap with few replicates can amplify).
+    are those of the file). It runs with BLAS on one thread wherever it runs
+    (:func:`anisotropy.parallel.run_tasks`).
     """
-    with threadpool_limits(limits=1):
-        return _run_domain_inner(task, frame)
-
-
-def _run_domain_inner(task: Mapping, frame) -> dict:
     start = time.perf_counter()
     domain, folder = task["domain"], task["folder"]
     dom_dir = Path(task["dom_dir"])

@@ -9,10 +9,11 @@ batch (one domain per task). The same call runs the tasks
 * on a Dask cluster (``scheduler``: an address such as
   ``tcp://scheduler-host:8786`` or a ``distributed.Client``).
 
-Results come back in task order whatever the route, so a seeded run gives
-the same answer on every route. Large inputs that every task shares (the
-block sums of a bootstrap, the sample table of a batch) are passed once in
-``shared``: a cluster receives them once per worker, not once per task.
+Results come back in task order whatever the route, and BLAS runs on one
+thread in every task, so a seeded run gives the same answer, to the last bit,
+on every route. Large inputs that every task shares (the block sums of a
+bootstrap, the sample table of a batch) are passed once in ``shared``: a
+cluster receives them once per worker, not once per task.
 
 :func:`warm_up` compiles every Numba kernel a discovery uses (the pair
 engine's and the likelihood's) once, in the parent, before workers start.
@@ -28,6 +29,7 @@ from typing import Callable, Mapping, Sequence
 
 import numpy as np
 from joblib import Parallel, delayed
+from threadpoolctl import threadpool_limits
 
 from anisotropy import pairs
 from anisotropy.errors import InputError
@@ -105,8 +107,19 @@ def dask_client(scheduler, *, timeout=SCHEDULER_TIMEOUT):
         client.close()
 
 
+def _one_blas_thread(fn, *args, **kwargs):
+    """``fn(*args, **kwargs)`` with BLAS on one thread, wherever it runs.
+
+    A multi-threaded BLAS adds in an order set by its thread count, which a
+    worker process or a cluster node chooses for itself: with one thread
+    everywhere a task gives the same bits on every route.
+    """
+    with threadpool_limits(limits=1):
+        return fn(*args, **kwargs)
+
+
 def _indexed(fn, k, task, shared):
-    return k, fn(*task, **shared)
+    return k, _one_blas_thread(fn, *task, **shared)
 
 
 def run_tasks(fn: Callable, tasks: Sequence[Sequence], *, shared: Mapping | None = None,
@@ -151,7 +164,7 @@ def run_tasks(fn: Callable, tasks: Sequence[Sequence], *, shared: Mapping | None
         with dask_client(scheduler) as client:
             sent = {name: client.scatter(v, broadcast=True) for name, v in shared.items()}
             token = uuid.uuid4().hex[:8]
-            futures = [client.submit(fn, *t, **sent, pure=False,
+            futures = [client.submit(_one_blas_thread, fn, *t, **sent, pure=False,
                                      key=f"anisotropy-{label}-{token}-{k}")
                        for k, t in enumerate(tasks)]
             # in task order: as_completed would need the client to be the default one
@@ -161,7 +174,7 @@ def run_tasks(fn: Callable, tasks: Sequence[Sequence], *, shared: Mapping | None
     n = check_jobs(n_jobs)
     if n == 1 or len(tasks) <= 1:
         for k, t in enumerate(tasks):
-            take(k, fn(*t, **shared))
+            take(k, _one_blas_thread(fn, *t, **shared))
         return results
     par = Parallel(n_jobs=n, backend="loky", return_as="generator_unordered")
     for k, res in par(delayed(_indexed)(fn, k, t, shared) for k, t in enumerate(tasks)):

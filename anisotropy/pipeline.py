@@ -40,6 +40,8 @@ import dataclasses
 import sys
 import time
 
+from threadpoolctl import threadpool_limits
+
 from anisotropy.audit import run_record
 from anisotropy.constants import AXES
 from anisotropy.fitting.continuity import check_continuity
@@ -190,7 +192,11 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
         pair_budget=pair_budget, shared_ratios=shared_ratios,
         bootstrap_method=bootstrap_method, top_cut=top_cut, top_cut_mode=top_cut_mode,
         **intake)
-    return run_discovery(data, p)
+    # BLAS on one thread: a multi-threaded BLAS adds in an order set by its thread count,
+    # and on a flat likelihood those last bits moved the demo blanket's ranges by 20 %
+    # between a direct call and a batch worker (benchmarks/RESULTS.md)
+    with threadpool_limits(limits=1):
+        return run_discovery(data, p)
 
 
 def run_discovery(data, p: DiscoverParams) -> Discovery:

@@ -13,8 +13,10 @@ import numpy as np
 import pandas as pd
 import pytest
 from scipy.linalg import cholesky
+from threadpoolctl import threadpool_info, threadpool_limits
 
 import anisotropy
+from anisotropy import pipeline
 from anisotropy.discovery import Discovery, RefitState
 from anisotropy.errors import InputError
 from anisotropy.discovery.bins import downhole_nugget
@@ -172,3 +174,24 @@ def test_asking_for_a_bootstrap_does_not_change_the_answer():
     assert np.array_equal(plain.frame, boot.frame)
     assert plain.model.to_dict() == boot.model.to_dict()
     assert boot.uncertainty is not None and boot.pair_volume.has_blocks is False
+
+
+def test_the_chain_runs_with_blas_on_one_thread(monkeypatch):
+    # threadpoolctl's record of the loaded BLAS libraries, taken inside two stages that
+    # call BLAS: the caller lets BLAS use two threads, the chain runs them on one (with
+    # two, the demo blanket's directional fits moved in the last bits and its likelihood
+    # ranges by 20 %: benchmarks/RESULTS.md)
+    seen = []
+
+    def spy(stage):
+        def wrapped(*args, **kwargs):
+            seen.append(sorted({int(i["num_threads"]) for i in threadpool_info()
+                                if i["user_api"] == "blas"}))
+            return stage(*args, **kwargs)
+        return wrapped
+
+    for name in ("fan_ranges", "choose_structures"):
+        monkeypatch.setattr(pipeline, name, spy(getattr(pipeline, name)))
+    with threadpool_limits(limits=2):
+        anisotropy.discover(_table(n=300), value="g", structures=1, fan_spacing=15, seed=3)
+    assert seen == [[1], [1]]

@@ -7,6 +7,7 @@ kernel was compiled for (``Dispatcher.signatures``).
 
 import numpy as np
 import pytest
+from threadpoolctl import threadpool_info, threadpool_limits
 
 from anisotropy import parallel
 from anisotropy.errors import InputError
@@ -31,6 +32,22 @@ def test_results_in_task_order_on_every_local_route(n_jobs):
     assert got == _loop()
     # every result announced once, with its own task index (any arrival order)
     assert sorted(seen) == sorted(enumerate(_loop()))
+
+
+def _blas_threads(_):
+    import scipy.linalg  # noqa: F401  (loads SciPy's BLAS in a fresh worker too)
+
+    return sorted({int(i["num_threads"]) for i in threadpool_info()
+                   if i["user_api"] == "blas"})
+
+
+@pytest.mark.parametrize("n_jobs", [1, 2])
+def test_every_task_runs_with_blas_on_one_thread(n_jobs):
+    # threadpoolctl's own record of the BLAS libraries loaded; outside the tasks
+    # BLAS may use two threads (asked for here), inside every task only one
+    with threadpool_limits(limits=2):
+        got = parallel.run_tasks(_blas_threads, [(k,) for k in range(3)], n_jobs=n_jobs)
+    assert got == [[1]] * 3
 
 
 def test_no_tasks_and_one_task():
