@@ -140,3 +140,38 @@ def test_share_logit_sd_is_the_delta_method_through_the_softmax():
     got = share_logit_sd(C, e / e.sum())
     np.testing.assert_allclose(got, np.sqrt(np.diag(J @ C @ J.T)), rtol=1e-6)
     np.testing.assert_allclose(share_logit_sd([[0.09]], [0.2, 0.8]), [0.3, 0.3])
+
+
+def test_a_range_beyond_the_limit_is_held_and_the_rest_conditioned_on_it():
+    # a range run out far beyond what the samples reach (here 1e7 m along x): the
+    # likelihood is flat along its log, so the full information is singular. Held, the
+    # other parameters' covariance is the inverse of the information of the free
+    # parameters alone (the conditional covariance of a Gaussian; Pawitan 2001, ch. 9),
+    # checked against NumPy's inverse of that block of the Hessian taken by second
+    # differences of the value kernel alone
+    X, y = _field(300, 7)
+    s = vecchia_setup(X, y, n_neighbours=10, seed=0)
+    # searched from there: the long range stays out (the likelihood does not change along
+    # it), the other parameters go to their maximum given it
+    fit = refine_frame_likelihood(X, y, np.eye(3), [[1e7, 30.0, 10.0]], 0.1, [0.9],
+                                  ("exponential",), setup=s)
+    assert fit.ranges[0][0] > 1e6
+    assert information_cones(fit, s, 0.9).cones is None
+    ic = information_cones(fit, s, 0.9, range_limit=5000.0)
+    assert ic.cones is not None
+    p = fit.parameters()
+    f = lambda q: vecchia_negloglik(q, s.coords, s.values, s.neighbours,  # noqa: E731
+                                    ("exponential",))
+    h = 3e-4   # the rotation is loosely held here: at 1e-3 the differences were 3 % off
+    E = np.eye(len(p)) * h
+    B = np.array([[(f(p + E[i] + E[j]) - f(p + E[i] - E[j]) - f(p - E[i] + E[j])
+                    + f(p - E[i] - E[j])) / (4 * h * h) for j in range(len(p))]
+                  for i in range(len(p))])
+    free = [0, 1, 2, 4, 5, 6]
+    C = np.linalg.inv(0.5 * (B + B.T)[np.ix_(free, free)])
+    np.testing.assert_allclose(ic.rotation_sd, np.degrees(np.sqrt(np.diag(C)[:3])), rtol=0.02)
+    np.testing.assert_allclose(ic.log_range_sd[0], [0.0, *np.sqrt(np.diag(C)[3:5])],
+                               rtol=0.02)
+    # a limit the ranges stay inside holds nothing: the full inverse, as without one
+    within = information_cones(fit, s, 0.9, range_limit=1e8)
+    assert within.cones is None

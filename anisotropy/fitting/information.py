@@ -68,7 +68,8 @@ class InformationCones:
     log_range_sd : ndarray (K, 3) or None
         Standard deviations of the natural logarithms of the fit's ranges
         (structures and columns as the fit's), the other parameters
-        estimated too.
+        estimated too; zero for a range beyond the range limit (held: the
+        other parameters' spreads are then those given it).
     logit_share_sd : ndarray (K + 1,) or None
         Standard deviations of the logits of the nugget share and of each
         structure's share of the sill (:func:`share_logit_sd`).
@@ -148,7 +149,8 @@ def observed_information(p, args, step=STEP):
     return 0.5 * (H + H.T)
 
 
-def information_cones(fit, setup, confidence=0.9, seed=0) -> InformationCones:
+def information_cones(fit, setup, confidence=0.9, seed=0,
+                      range_limit=None) -> InformationCones:
     """Cones of ``fit``'s axes from the observed information at its maximum.
 
     Parameters
@@ -160,6 +162,9 @@ def information_cones(fit, setup, confidence=0.9, seed=0) -> InformationCones:
     confidence : float
     seed : int
         Seed of the rotation draws.
+    range_limit : float, optional
+        The longest range the variogram fit allows: the fit's ranges beyond
+        it are held (:func:`_held`). None: none held.
 
     Returns
     -------
@@ -171,12 +176,11 @@ def information_cones(fit, setup, confidence=0.9, seed=0) -> InformationCones:
         H = observed_information(p, args)
     if not np.all(np.isfinite(H)):
         return InformationCones(None, confidence, note="the information is not finite")
-    w, V = np.linalg.eigh(H)
-    if w[0] <= 1e-9 * max(w[-1], 1e-300):
+    C = _covariance_given_held(H, _held(fit, len(p), range_limit))
+    if C is None:
         return InformationCones(None, confidence, note=(
             "the observed information is not positive definite (a flat or saddle "
             "direction, or a sill share at its bound): no cone from it"))
-    C = (V / w) @ V.T
     rot = C[:3, :3]
     M = drawn_frames(p[:3], rot, seed)
     q = _cone_quantiles(M, p[:3], confidence)
@@ -186,6 +190,34 @@ def information_cones(fit, setup, confidence=0.9, seed=0) -> InformationCones:
                             rotation_sd=np.degrees(np.sqrt(np.diag(rot))), frames=M,
                             log_range_sd=np.sqrt(np.diag(C)[3:3 + 3 * K]).reshape(K, 3),
                             logit_share_sd=share_logit_sd(C[3 + 3 * K:, 3 + 3 * K:], shares))
+
+
+def _held(fit, n_params, range_limit):
+    """(n_params,) bool: the log ranges beyond ``range_limit`` (None: none).
+
+    The likelihood is flat along a range longer than the samples can
+    resolve (a search can run it out to millions of metres, the information
+    then singular in that direction), so such a range carries no
+    information of its own: the other parameters' spread is taken with it
+    held, the conditional covariance.
+    """
+    held = np.zeros(n_params, bool)
+    if range_limit is not None:
+        lim = np.asarray(fit.ranges, float).ravel() >= float(range_limit)
+        held[3:3 + lim.size] = lim
+    return held
+
+
+def _covariance_given_held(H, held):
+    """The inverse of the information of the free parameters, zero for the held ones;
+    None where that information is not positive definite."""
+    free = ~np.asarray(held, bool)
+    w, V = np.linalg.eigh(H[np.ix_(free, free)])
+    if w[0] <= 1e-9 * max(w[-1], 1e-300):
+        return None
+    C = np.zeros_like(H)
+    C[np.ix_(free, free)] = (V / w) @ V.T
+    return C
 
 
 def share_logit_sd(covariance, shares):

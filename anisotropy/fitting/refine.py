@@ -52,8 +52,9 @@ LIKELIHOOD_NESTED_SHORT = 0.3
 #: refit for the likelihood's second structure to be reported.
 LIKELIHOOD_MIN_SHARE = 0.05
 #: Relative stopping tolerance of the nested likelihood search (see
-#: ``fitting.likelihood.refine_frame_likelihood``).
-LIKELIHOOD_NESTED_FTOL = 1e-5
+#: ``fitting.likelihood.refine_frame_likelihood``; None: SciPy's default, the
+#: search then stops on the gradient). As ``LIKELIHOOD_FTOL``.
+LIKELIHOOD_NESTED_FTOL = None
 #: The second structure's search is first run to this looser tolerance (the
 #: global frame choice's screening tolerance): it only decides whether the
 #: gain passes the BIC penalty. It goes on to ``LIKELIHOOD_NESTED_FTOL`` only
@@ -64,10 +65,16 @@ LIKELIHOOD_NESTED_FTOL = 1e-5
 #: finished search's (benchmarks/RESULTS.md, "Likelihood: the second structure
 #: decided at the screening tolerance").
 LIKELIHOOD_NESTED_SCREEN_FTOL = 1e-4
-#: The same for the first (variogram structures) likelihood search (None:
-#: SciPy's default, which took three times the evaluations for a frame that
-#: differed by thousandths of a degree on the composites speed benchmark).
-LIKELIHOOD_FTOL = 1e-5
+#: The same for the first (variogram structures) likelihood search and the
+#: kind choice. None: SciPy's default (2.2e-9), so the search stops on the
+#: gradient, at the maximum. At 1e-5 (a step gaining less than 0.005 of a
+#: log-likelihood of 500 stopped it) the demo blanket, whose likelihood is
+#: flat in its ranges and nugget, stopped 0.3 log-units short, with ranges
+#: 20 % apart depending on the last bits of its start (BLAS on one thread or
+#: two); converged, both starts give the same ranges to 0.3 % and the
+#: discovery takes as long, within the noise (benchmarks/RESULTS.md,
+#: "Likelihood: searched to the maximum").
+LIKELIHOOD_FTOL = None
 #: Compare candidate frames globally by the likelihood before the refinement
 #: (:func:`anisotropy.fitting.frames.global_frame_choice`); off only to measure
 #: what the choice costs and changes (benchmarks).
@@ -127,8 +134,9 @@ class FrameRefinement:
         (``refined = correction @ variogram``).
     choices, warnings : tuple
     likelihood : tuple or None
-        The final likelihood search and its conditioning setup, kept in
-        memory (not in the record) for :meth:`information_cones`.
+        The final likelihood search, its conditioning setup and the
+        variogram fit's range limit (or None), kept in memory (not in the
+        record) for :meth:`likelihood_information`.
     """
 
     fit: NestedFit
@@ -159,8 +167,8 @@ class FrameRefinement:
         """
         if self.likelihood is None:
             return None
-        lk, setup = self.likelihood
-        ic = information_cones(lk, setup, confidence, seed)
+        lk, setup, range_limit = self.likelihood
+        ic = information_cones(lk, setup, confidence, seed, range_limit=range_limit)
         if ic.cones is None:
             return None
         cos = np.abs(np.asarray(frame, float).T @ np.asarray(lk.frame, float))
@@ -402,7 +410,7 @@ def _added_to_variogram(P, lk2, f, nested):
     return two
 
 
-def _second_structure(P, lk, f, fit, add_structure):
+def _second_structure(P, lk, f, add_structure):
     """One structure: try a second, shorter one in the likelihood, kept by BIC."""
     kinds2 = (f.kinds[0],) * 2
     lk2 = P.add_shorter(f, kinds2, ftol=LIKELIHOOD_NESTED_SCREEN_FTOL)
@@ -413,20 +421,10 @@ def _second_structure(P, lk, f, fit, add_structure):
     if close:  # the decision is close (or the structure passes): finish the search
         lk2 = P.finish(lk2, kinds2)
     gain = lk.negloglik - lk2.negloglik
-    polished = False
-    if gain > penalty and LIKELIHOOD_FTOL is not None:
-        # the first search stopped at a loose tolerance: finish it (from where it
-        # stopped, SciPy's default tolerance) before the comparison, so that what
-        # it left undone is not counted as the second structure's gain
-        lk = P.likelihood(lk.frame, lk.ranges, lk.nugget_share, lk.shares, fit.kinds)
-        f = P.refit((lk.frame, fit.nugget, fit.sills, fit.ranges, fit.kinds), lk.frame)
-        gain = lk.negloglik - lk2.negloglik
-        polished = True
     kept = bool(gain > penalty)
     nested = {"negloglik": lk2.negloglik, "negloglik_one_structure": lk.negloglik,
               "gain": gain, "bic_penalty": penalty, "kept": kept,
               "screened_gain": screened, "search_finished": close,
-              "one_structure_polished": polished,
               "shares": [float(x) for x in lk2.shares],
               "nugget_share": float(lk2.nugget_share),
               "ranges": np.asarray(lk2.ranges, float).tolist(),
@@ -631,7 +629,7 @@ def refine_frame(fit: NestedFit, bins: FitBins, coords, values, *, seed=0, fit_k
             warnings.append(warning)
         nested = None
         if len(f.sills) == 1:
-            lk, f, nested = _second_structure(P, lk, f, fit, add_structure)
+            lk, f, nested = _second_structure(P, lk, f, add_structure)
         lk, f, kind_choice = _kind_choice(P, lk, f, () if held else kinds)
         f, refit, reported = _likelihood_reported(P, lk, f, held)
     except FitError as exc:
@@ -656,7 +654,7 @@ def refine_frame(fit: NestedFit, bins: FitBins, coords, values, *, seed=0, fit_k
     correction = matched_rotation(lk.frame, fit.frame)
     out = FrameRefinement(fit=f, record=record, correction=correction,
                           choices=tuple(choices) + (row,), warnings=tuple(warnings),
-                          likelihood=(lk, P.lk_kw["setup"]))
+                          likelihood=(lk, P.lk_kw["setup"], P.kw.get("max_range")))
     if INFORMATION_CONES:   # a study: the cones in the record (benchmarks/RESULTS.md)
         info = out.likelihood_information(f.frame, confidence, seed)
         record["information"] = {"cones_deg": None if info is None else info.cones}
