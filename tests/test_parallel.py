@@ -2,8 +2,11 @@
 
 The reference for every route is the plain Python loop ``[fn(*t, **shared) for t
 in tasks]``; the warm-up is checked with Numba's own record of the signatures a
-kernel was compiled for (``Dispatcher.signatures``).
+kernel was compiled for (``Dispatcher.signatures``); the BLAS thread count inside
+a task with threadpoolctl's ``threadpool_info``.
 """
+
+import importlib
 
 import numpy as np
 import pytest
@@ -35,8 +38,7 @@ def test_results_in_task_order_on_every_local_route(n_jobs):
 
 
 def _blas_threads(_):
-    import scipy.linalg  # noqa: F401  (loads SciPy's BLAS in a fresh worker too)
-
+    importlib.import_module("scipy.linalg")   # loads SciPy's BLAS in a fresh worker too
     return sorted({int(i["num_threads"]) for i in threadpool_info()
                    if i["user_api"] == "blas"})
 
