@@ -612,102 +612,20 @@ def check_interpretation(discovery, interpretation: Interpretation, *, threshold
     if not isinstance(interpretation, Interpretation):
         raise InputError("check_interpretation needs an Interpretation; build it with "
                          "Interpretation.from_plane(...) or Interpretation.from_axes(...)")
-    th = dict(DEFAULT_THRESHOLDS)
-    unknown = set(thresholds or {}) - set(th)
-    if unknown:
-        raise InputError(f"unknown check thresholds {sorted(unknown)}; known: {sorted(th)}")
-    th.update(thresholds or {})
+    th = _thresholds(thresholds)
     warnings = []
     D = np.asarray(discovery.frame, dtype=float)
-    refit = discovery.refit_function()
-    volume = discovery.volume_
-    boot = discovery.uncertainty
-    if boot is None:
-        boot = discovery.bootstrap(200, confidence_level=th["confidence"], rng=0,
-                                   n_jobs=n_jobs, scheduler=scheduler, progress=progress)
-        warnings.append("the discovery had no bootstrap; a block bootstrap of 200 replicates "
-                        "(seed 0) was run for the check")
-    if boot.n_replicates < 2:
-        raise InputError("the bootstrap has fewer than 2 successful replicates, so the "
-                         "interpretation cannot be weighed against it")
+    boot = _bootstrap_of(discovery, th, warnings, n_jobs=n_jobs, scheduler=scheduler,
+                         progress=progress)
     swap = boot.swap_rate
-    unresolved = bool(np.isfinite(swap) and swap > th["swap_rate"])
-    rep_angles = boot.angles_to_reference()   # (n, 3)
     reasons = []
-    angles, support = {}, {}
     interp = dict(interpretation.axes)
-    # with the in-plane order unresolved, pair interpreted in-plane axes with the nearer one
-    pairing = {k: AXIS_NAMES.index(k) for k in interp}
-    if unresolved and "major" in interp:
-        a_major = float(axis_angle(interp["major"], D[:, 0]))
-        a_semi = float(axis_angle(interp["major"], D[:, 1]))
-        if a_semi < a_major:
-            pairing["major"] = 1
-            if "semi_major" in interp:
-                pairing["semi_major"] = 0
-        reasons.append(
-            f"major and semi-major trade places in {100 * swap:.0f} % of the replicates: the "
-            "data do not say which in-plane axis is the longer, so each interpreted in-plane "
-            "axis is judged against the nearer discovered one")
-    outside_any, strong_any = [], []
-    for k, v in interp.items():
-        j = pairing[k]
-        ang = float(axis_angle(v, D[:, j]))
-        reps = rep_angles[:, j]
-        within = float(np.mean(reps <= ang))
-        cone = boot.cone(j, th["confidence"])[0]
-        outside = bool(ang > cone and ang > th["practical_deg"])
-        angles[k] = ang
-        support[k] = {"replicates_within": within, "cone_deg": float(cone),
-                      "outside": outside, "compared_with": AXIS_NAMES[j]}
-        if outside:
-            outside_any.append(k)
-            if within > th["strong_share"]:
-                strong_any.append(k)
-            reasons.append(f"the interpreted {k.replace('_', '-')} axis is {ang:.0f} deg from "
-                           f"the discovered one, outside the {100 * th['confidence']:.0f} % "
-                           f"cone ({cone:.0f} deg; {100 * within:.0f} % of replicates closer)")
-        elif ang <= th["practical_deg"]:
-            reasons.append(f"the interpreted {k.replace('_', '-')} axis is within "
-                           f"{th['practical_deg']:g} deg of the discovered one ({ang:.0f} deg)")
-        else:
-            reasons.append(f"the interpreted {k.replace('_', '-')} axis is {ang:.0f} deg from "
-                           f"the discovered one, inside the {100 * th['confidence']:.0f} % cone "
-                           f"({cone:.0f} deg)")
-    # fit with the frame fixed to the interpretation
-    F = interpretation.closest_frame(D)
-    fit = {"frame_used": [[float(x) for x in row] for row in F]}
-    try:
-        sums = volume.coarse_sums()
-        _, free = refit(sums, start=discovery.model)
-        _, fixed = refit(sums, fixed_frame=F, start=discovery.model)
-        ratio = float(fixed) / float(free) if free > 0 else math.inf
-        fit.update(free_objective=float(free), fixed_objective=float(fixed), ratio=ratio)
-    except Exception as exc:  # noqa: BLE001 - reported, and the verdict says it is partial
-        fit.update(free_objective=None, fixed_objective=None, ratio=None,
-                   error=f"{type(exc).__name__}: {exc}")
-        warnings.append(f"the fixed-frame fit failed ({exc}); the verdict rests on the angles")
-        ratio = None
-    share = None
-    if ratio is not None and boot.counts is not None:
-        vol = discovery.volume_with_blocks()   # its replicates re-read a held nugget as theirs
-        fx, fr = unc.fixed_frame_objectives(boot, vol, discovery.refit_function(vol), D,
-                                            max_replicates=th["max_ratio_replicates"],
-                                            n_jobs=n_jobs, scheduler=scheduler,
-                                            progress=progress)
-        ok = np.isfinite(fx) & np.isfinite(fr) & (fr > 0)
-        if ok.sum() >= 10:
-            rr = fx[ok] / fr[ok]
-            share = float(np.mean(rr >= ratio))
-            fit.update(bootstrap_share_at_least=share, replicates=int(ok.sum()),
-                       bootstrap_ratio_quantiles={
-                           "50": float(np.quantile(rr, 0.5)),
-                           f"{100 * th['confidence']:.0f}": float(np.quantile(rr, th["confidence"]))})
-        else:
-            warnings.append("too few replicate fixed-frame fits succeeded to place the ratio")
-    elif ratio is not None:
-        warnings.append("a model-based bootstrap keeps no block counts: the objective ratio is "
-                        "reported but not placed in a bootstrap distribution")
+    pairing = _pairing(interp, D, swap, th, reasons)
+    angles, support, outside_any, strong_any = _axis_support(interp, pairing, D, boot, th,
+                                                             reasons)
+    fit, ratio = _fixed_frame_fit(discovery, interpretation.closest_frame(D), warnings)
+    share = _placed_ratio(discovery, boot, D, ratio, fit, th, warnings, n_jobs=n_jobs,
+                          scheduler=scheduler, progress=progress)
     worse = share is not None and share < th["ratio_share"]
     fit["worse"] = bool(worse)
     if share is not None:
@@ -734,3 +652,138 @@ def check_interpretation(discovery, interpretation: Interpretation, *, threshold
     return CheckResult(interpretation, angles, support, fit, verdict, reasons, th,
                        swap_rate=float(swap) if np.isfinite(swap) else math.nan,
                        warnings=warnings + list(getattr(boot, "warnings", [])))
+
+
+def _thresholds(thresholds):
+    """:data:`DEFAULT_THRESHOLDS` with the user's overrides (unknown names refused)."""
+    th = dict(DEFAULT_THRESHOLDS)
+    unknown = set(thresholds or {}) - set(th)
+    if unknown:
+        raise InputError(f"unknown check thresholds {sorted(unknown)}; known: {sorted(th)}")
+    th.update(thresholds or {})
+    return th
+
+
+def _bootstrap_of(discovery, th, warnings, **run):
+    """The discovery's bootstrap, or one of 200 replicates (seed 0) run for the check."""
+    boot = discovery.uncertainty
+    if boot is None:
+        boot = discovery.bootstrap(200, confidence_level=th["confidence"], rng=0, **run)
+        warnings.append("the discovery had no bootstrap; a block bootstrap of 200 replicates "
+                        "(seed 0) was run for the check")
+    if boot.n_replicates < 2:
+        raise InputError("the bootstrap has fewer than 2 successful replicates, so the "
+                         "interpretation cannot be weighed against it")
+    return boot
+
+
+def _pairing(interp, D, swap, th, reasons):
+    """The discovered axis (column of ``D``) each interpreted axis is judged against.
+
+    With the in-plane order unresolved (the replicates swap major and
+    semi-major more often than the threshold), an interpreted major axis is
+    paired with the nearer of the two, and a semi-major with the other.
+    """
+    pairing = {k: AXIS_NAMES.index(k) for k in interp}
+    if not (np.isfinite(swap) and swap > th["swap_rate"] and "major" in interp):
+        return pairing
+    if float(axis_angle(interp["major"], D[:, 1])) < float(axis_angle(interp["major"], D[:, 0])):
+        pairing["major"] = 1
+        if "semi_major" in interp:
+            pairing["semi_major"] = 0
+    reasons.append(
+        f"major and semi-major trade places in {100 * swap:.0f} % of the replicates: the "
+        "data do not say which in-plane axis is the longer, so each interpreted in-plane "
+        "axis is judged against the nearer discovered one")
+    return pairing
+
+
+def _axis_support(interp, pairing, D, boot, th, reasons):
+    """Each interpreted axis's angle to its discovered axis, against that axis's cone.
+
+    Returns
+    -------
+    angles, support : dict
+        By interpreted axis: the angle (degrees); the share of replicates
+        closer, the cone, whether it lies outside, and the axis compared with.
+    outside, strong : list of str
+        The axes outside their cone (and beyond the practical tolerance), and
+        those of them with more than ``strong_share`` of the replicates closer.
+    """
+    rep_angles = boot.angles_to_reference()   # (n, 3)
+    angles, support, outside_any, strong_any = {}, {}, [], []
+    conf = f"{100 * th['confidence']:.0f} %"
+    for k, v in interp.items():
+        j = pairing[k]
+        name = k.replace("_", "-")
+        ang = float(axis_angle(v, D[:, j]))
+        within = float(np.mean(rep_angles[:, j] <= ang))
+        cone = boot.cone(j, th["confidence"])[0]
+        outside = bool(ang > cone and ang > th["practical_deg"])
+        angles[k] = ang
+        support[k] = {"replicates_within": within, "cone_deg": float(cone),
+                      "outside": outside, "compared_with": AXIS_NAMES[j]}
+        if outside:
+            outside_any.append(k)
+            if within > th["strong_share"]:
+                strong_any.append(k)
+            reasons.append(f"the interpreted {name} axis is {ang:.0f} deg from the discovered "
+                           f"one, outside the {conf} cone ({cone:.0f} deg; {100 * within:.0f} "
+                           f"% of replicates closer)")
+        elif ang <= th["practical_deg"]:
+            reasons.append(f"the interpreted {name} axis is within {th['practical_deg']:g} deg "
+                           f"of the discovered one ({ang:.0f} deg)")
+        else:
+            reasons.append(f"the interpreted {name} axis is {ang:.0f} deg from the discovered "
+                           f"one, inside the {conf} cone ({cone:.0f} deg)")
+    return angles, support, outside_any, strong_any
+
+
+def _fixed_frame_fit(discovery, F, warnings):
+    """The variogram fit free and with the frame held at ``F``; (record, objective ratio).
+
+    The ratio is None (and the record says why) when a fit fails.
+    """
+    fit = {"frame_used": [[float(x) for x in row] for row in F]}
+    refit = discovery.refit_function()
+    try:
+        sums = discovery.volume_.coarse_sums()
+        _, free = refit(sums, start=discovery.model)
+        _, fixed = refit(sums, fixed_frame=F, start=discovery.model)
+    except Exception as exc:  # noqa: BLE001 - reported, and the verdict says it is partial
+        fit.update(free_objective=None, fixed_objective=None, ratio=None,
+                   error=f"{type(exc).__name__}: {exc}")
+        warnings.append(f"the fixed-frame fit failed ({exc}); the verdict rests on the angles")
+        return fit, None
+    ratio = float(fixed) / float(free) if free > 0 else math.inf
+    fit.update(free_objective=float(free), fixed_objective=float(fixed), ratio=ratio)
+    return fit, ratio
+
+
+def _placed_ratio(discovery, boot, D, ratio, fit, th, warnings, **run):
+    """The share of replicates, held at the discovered frame, whose ratio is at least ``ratio``.
+
+    None where there is no ratio, the bootstrap keeps no block counts, or
+    fewer than 10 replicate fits succeed (each said in ``warnings``); the
+    replicates' ratio quantiles go into ``fit``.
+    """
+    if ratio is None:
+        return None
+    if boot.counts is None:
+        warnings.append("a model-based bootstrap keeps no block counts: the objective ratio is "
+                        "reported but not placed in a bootstrap distribution")
+        return None
+    vol = discovery.volume_with_blocks()   # its replicates re-read a held nugget as theirs
+    fx, fr = unc.fixed_frame_objectives(boot, vol, discovery.refit_function(vol), D,
+                                        max_replicates=th["max_ratio_replicates"], **run)
+    ok = np.isfinite(fx) & np.isfinite(fr) & (fr > 0)
+    if ok.sum() < 10:
+        warnings.append("too few replicate fixed-frame fits succeeded to place the ratio")
+        return None
+    rr = fx[ok] / fr[ok]
+    share = float(np.mean(rr >= ratio))
+    fit.update(bootstrap_share_at_least=share, replicates=int(ok.sum()),
+               bootstrap_ratio_quantiles={
+                   "50": float(np.quantile(rr, 0.5)),
+                   f"{100 * th['confidence']:.0f}": float(np.quantile(rr, th["confidence"]))})
+    return share
