@@ -522,97 +522,113 @@ def run_batch(data, *, value, domain, out, domains=None, jobs=1, scheduler=None,
         The table, columns, domain names or config cannot be used.
     """
     t0 = time.perf_counter()
-    if isinstance(data, pd.DataFrame):
-        df = data
-        source = df.attrs.get("source", "<table>")
-    else:
-        source = str(data)
-        df = read_table(data)
+    df, source = _batch_table(data)
     cfg = load_config(config)
     all_domains = domain_values(df, domain)
     if not all_domains:
         raise InputError(f"'{source}': the domain column '{domain}' has no values; "
                          "check the --domain column name")
     col = _domain_column(df, domain, source)
-    codes = _domain_codes(df[col])
-    if domains is None:
-        selected = list(all_domains)
-    else:
-        selected = list(dict.fromkeys(str(d) for d in domains))
-        missing = [d for d in selected if d not in all_domains]
-        if missing:
-            raise InputError(
-                f"'{source}': domain(s) {missing} are not in column '{col}'; "
-                f"the domains are: {', '.join(all_domains[:30])}")
+    selected = _selected_domains(domains, all_domains, source, col)
     unknown_cfg = sorted(set(cfg["domain"]) - set(all_domains))
     folders = S.folder_names(all_domains)
     out = Path(out)
     out.mkdir(parents=True, exist_ok=True)
-    columns = {k: v for k, v in {"x": x, "y": y, "z": z, "hole": hole}.items() if v is not None}
-
     _check_option_names(discover_options, cfg)
     if unknown_cfg:
         note(progress, f"note: {_notes(unknown_cfg)[0]} (domains in the table: "
                        f"{', '.join(all_domains[:30])})")
+    shared = {"value": value, "domain_column": col, "source": source, "command": command,
+              "report": bool(report), "columns": {k: v for k, v in
+                                                  {"x": x, "y": y, "z": z, "hole": hole}.items()
+                                                  if v is not None}}
+    codes = _domain_codes(df[col])
     tasks, rows, resumed = [], {}, []
     for name in selected:
-        over = dict(cfg["domain"].get(name, {}))
-        options = {**dict(discover_options), **cfg["options"],
-                   **{k: v for k, v in over.items() if k not in _OWN_KEYS}}
-        for k in ("skip", "interpretation", "min_samples"):
-            over.setdefault(k, cfg["options"].get(k))
-        topcut = _top_cut_options(options, over, cfg["options"], name)
-        units = over.get("units", cfg["options"].get("units", options.get("units")))
-        options.pop("units", None)   # grade units label the record, not discover's input
-        options.pop("skip", None)
-        options.pop("interpretation", None)
-        options.pop("min_samples", None)
-        options.setdefault("n_jobs", 1)
         in_domain = (codes == name).to_numpy()
-        n_rows = int(in_domain.sum())
-        folder = folders[name]
-        task = {
-            "domain": name, "folder": folder, "dom_dir": str(S.inside(out, folder)),
-            "value": value, "domain_column": col, "columns": columns,
-            "options": options, "interpretation": over.get("interpretation"),
-            "skip": bool(over.get("skip") or False), "n_rows": n_rows,
-            "min_samples": int(over.get("min_samples") or min_samples), "report": bool(report),
-            "source": source, "topcut": topcut, "units": units,
-            # resume must notice when the domain's data changed, not only the options
-            "data_hash": _data_hash(df, in_domain),
-            "command": command,
-        }
-        task["fingerprint"] = _fingerprint(task)
-        if resume:
-            done = _load_done(Path(task["dom_dir"]), task["fingerprint"])
-            if done is not None:
-                rows[name] = done
-                resumed.append(name)
-                continue
-        tasks.append(task)
-
+        task = _domain_task(name, cfg, discover_options, shared, folder=folders[name], out=out,
+                            in_domain=in_domain, data_hash=_data_hash(df, in_domain),
+                            min_samples=min_samples)
+        done = _load_done(Path(task["dom_dir"]), task["fingerprint"]) if resume else None
+        if done is not None:
+            rows[name] = done
+            resumed.append(name)
+        else:
+            tasks.append(task)
     for row in _execute(tasks, df, jobs=jobs, scheduler=scheduler, progress=progress):
         rows[row["domain"]] = row
-
     ordered = [rows[n] for n in selected]
     result = BatchResult(rows=ordered, out=out, index=out / "index.html",
                          ran=[t["domain"] for t in tasks], resumed=resumed,
                          seconds=time.perf_counter() - t0)
-    summary = result.to_dict()
-    summary.update(source=source, value=value, domain_column=col,
-                   config=cfg.get("source"), config_domains_not_in_table=unknown_cfg)
+    _write_summaries(result, cfg, discover_options, shared, unknown_cfg)
+    return result
+
+
+def _batch_table(data):
+    """The sample table and the name it goes by in the records."""
+    if isinstance(data, pd.DataFrame):
+        return data, data.attrs.get("source", "<table>")
+    return read_table(data), str(data)
+
+
+def _selected_domains(domains, all_domains, source, col):
+    """The domains to run, in the order asked (all, in the table's order, by default)."""
+    if domains is None:
+        return list(all_domains)
+    selected = list(dict.fromkeys(str(d) for d in domains))
+    missing = [d for d in selected if d not in all_domains]
+    if missing:
+        raise InputError(f"'{source}': domain(s) {missing} are not in column '{col}'; "
+                         f"the domains are: {', '.join(all_domains[:30])}")
+    return selected
+
+
+def _domain_task(name, cfg, discover_options, shared, *, folder, out, in_domain, data_hash,
+                 min_samples) -> dict:
+    """One domain's task: its discover options (the config's over the call's), its
+    interpretation, skip and minimum, its folder, and the fingerprint resume compares."""
+    over = dict(cfg["domain"].get(name, {}))
+    options = {**dict(discover_options), **cfg["options"],
+               **{k: v for k, v in over.items() if k not in _OWN_KEYS}}
+    for k in ("skip", "interpretation", "min_samples"):
+        over.setdefault(k, cfg["options"].get(k))
+    topcut = _top_cut_options(options, over, cfg["options"], name)
+    units = over.get("units", cfg["options"].get("units", options.get("units")))
+    for k in ("units", "skip", "interpretation", "min_samples"):
+        options.pop(k, None)   # grade units label the record; the rest are the batch's own
+    options.setdefault("n_jobs", 1)
+    task = {
+        "domain": name, "folder": folder, "dom_dir": str(S.inside(out, folder)),
+        "value": shared["value"], "domain_column": shared["domain_column"],
+        "columns": shared["columns"], "options": options,
+        "interpretation": over.get("interpretation"), "skip": bool(over.get("skip") or False),
+        "n_rows": int(in_domain.sum()),
+        "min_samples": int(over.get("min_samples") or min_samples), "report": shared["report"],
+        "source": shared["source"], "topcut": topcut, "units": units,
+        # resume must notice when the domain's data changed, not only the options
+        "data_hash": data_hash, "command": shared["command"],
+    }
+    task["fingerprint"] = _fingerprint(task)
+    return task
+
+
+def _write_summaries(result, cfg, discover_options, shared, unknown_cfg):
+    """summary.csv, summary.json (with the run record) and the index page."""
     from anisotropy.audit import run_record
 
-    summary["run"] = run_record(source, {**dict(discover_options), **cfg["options"]},
-                                {**dict(discover_options), **cfg["options"]}.get("seed", 0),
-                                command)
+    out, ordered, source = result.out, result.rows, shared["source"]
+    summary = result.to_dict()
+    summary.update(source=source, value=shared["value"], domain_column=shared["domain_column"],
+                   config=cfg.get("source"), config_domains_not_in_table=unknown_cfg)
+    options = {**dict(discover_options), **cfg["options"]}
+    summary["run"] = run_record(source, options, options.get("seed", 0), shared["command"])
     S.atomic_write_csv(out / "summary.csv",
                        [{summary_heading(k): v for k, v in r.items()} for r in ordered],
                        SUMMARY_HEADINGS)
     S.atomic_write_json(out / "summary.json", summary)
-    render_index(ordered, out / "index.html", source=source, value=value,
-                 domain_column=col, notes=_notes(unknown_cfg))
-    return result
+    render_index(ordered, out / "index.html", source=source, value=shared["value"],
+                 domain_column=shared["domain_column"], notes=_notes(unknown_cfg))
 
 
 def _data_hash(df, mask) -> str:
