@@ -77,7 +77,7 @@ def test_parquet_without_pyarrow_says_what_to_install(tmp_path, monkeypatch):
         return real_import(name, *args, **kwargs)
 
     monkeypatch.setattr(builtins, "__import__", fake_import)
-    with pytest.raises(InputError, match="pyarrow") as info:
+    with pytest.raises(InputError, match="needs the pyarrow package") as info:
         read_table(p)
     assert "t.parquet" in str(info.value) and "CSV" in str(info.value)
 

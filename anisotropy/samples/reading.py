@@ -82,41 +82,65 @@ def read_table(path) -> pd.DataFrame:
         The file is missing, empty, unreadable or not a table.
     """
     p = Path(path)
+    _check_path(p)
+    if p.suffix.lower() in (".parquet", ".pq"):
+        return _read_parquet(p)
+    text, encoding = _read_text(p)
+    sep, decimal = _sniff(text[:262144])
+    check_unique_columns(_header_names(text[:262144], sep), str(p))
+    df = _parse_text(text, sep, decimal, p)
+    df.columns = [str(c).strip() for c in df.columns]
+    if len(df.columns) and all(_looks_numeric(c) for c in df.columns):
+        raise InputError(f"The first line of '{p}' looks like data ({', '.join(df.columns[:4])}"
+                         f"{', ...' if len(df.columns) > 4 else ''}), not column names. "
+                         "Add a header line naming the columns.")
+    df.attrs["table"] = {"format": "csv", "separator": _SEPARATOR_NAMES[sep],
+                         "decimal": decimal, "encoding": encoding}
+    return df
+
+
+def _check_path(p: Path) -> None:
+    """A file that exists, is not a folder and is not a spreadsheet workbook."""
     if not p.exists():
         raise InputError(f"File not found: '{p}'. Check the path and the current folder.")
     if p.is_dir():
         raise InputError(f"'{p}' is a folder, not a sample table. Give the path of a CSV "
                          "or Parquet file.")
-    suffix = p.suffix.lower()
-    if suffix in (".xlsx", ".xls", ".xlsm", ".ods"):
+    if p.suffix.lower() in (".xlsx", ".xls", ".xlsm", ".ods"):
         raise InputError(f"'{p}' is a spreadsheet workbook, which is not read directly. "
                          "Save the sheet as CSV (or Parquet) and give that file.")
-    if suffix in (".parquet", ".pq"):
-        try:
-            import pyarrow  # noqa: F401
-        except ImportError:
-            raise InputError(f"Reading the Parquet file '{p}' needs the pyarrow package, "
-                             "which is not installed. Install it with "
-                             "pip install 'anisotropy[parquet]', or save the table as CSV."
-                             ) from None
-        try:
-            import pyarrow.parquet as pq
 
-            names = pq.read_schema(p).names
-        except Exception:  # noqa: BLE001 - an unreadable file is reported just below
-            names = []
-        check_unique_columns(names, str(p))
-        try:
-            df = pd.read_parquet(p)
-        except Exception as exc:  # noqa: BLE001 - any reader failure is bad input
-            raise InputError(f"Could not read '{p}' as Parquet ({exc}). Check that the "
-                             "file is a complete Parquet file, or save the table as CSV."
-                             ) from None
-        check_unique_columns(df.columns, str(p))
-        df.columns = [str(c).strip() for c in df.columns]
-        df.attrs["table"] = {"format": "parquet", "separator": None, "decimal": None}
-        return df
 
+def _read_parquet(p: Path) -> pd.DataFrame:
+    """A Parquet table (needs pyarrow), its column names checked for repeats."""
+    try:
+        __import__("pyarrow")   # the plain import statement, without an unused name
+    except ImportError:
+        raise InputError(f"Reading the Parquet file '{p}' needs the pyarrow package, "
+                         "which is not installed. Install it with "
+                         "pip install 'anisotropy[parquet]', or save the table as CSV."
+                         ) from None
+    try:
+        import pyarrow.parquet as pq
+
+        names = pq.read_schema(p).names
+    except Exception:  # noqa: BLE001 - an unreadable file is reported just below
+        names = []
+    check_unique_columns(names, str(p))
+    try:
+        df = pd.read_parquet(p)
+    except Exception as exc:  # noqa: BLE001 - any reader failure is bad input
+        raise InputError(f"Could not read '{p}' as Parquet ({exc}). Check that the "
+                         "file is a complete Parquet file, or save the table as CSV."
+                         ) from None
+    check_unique_columns(df.columns, str(p))
+    df.columns = [str(c).strip() for c in df.columns]
+    df.attrs["table"] = {"format": "parquet", "separator": None, "decimal": None}
+    return df
+
+
+def _read_text(p: Path) -> tuple[str, str]:
+    """The file's text and its encoding (UTF-8, else Latin-1); empty and binary files refused."""
     try:
         raw = p.read_bytes()
     except OSError as exc:
@@ -126,18 +150,19 @@ def read_table(path) -> pd.DataFrame:
         raise InputError(f"'{p}' is empty. Give a table with a header line and one "
                          "row per sample.")
     try:
-        text = raw.decode("utf-8-sig")
-        encoding = "utf-8-sig"
+        text, encoding = raw.decode("utf-8-sig"), "utf-8-sig"
     except UnicodeDecodeError:
-        text = raw.decode("latin-1")
-        encoding = "latin-1"
+        text, encoding = raw.decode("latin-1"), "latin-1"
     if "\x00" in text[:4096]:
         raise InputError(f"'{p}' looks like a binary file, not a text table. Give a CSV "
                          "file or a Parquet file (ending .parquet).")
-    sep, decimal = _sniff(text[:262144])
-    check_unique_columns(_header_names(text[:262144], sep), str(p))
+    return text, encoding
+
+
+def _parse_text(text: str, sep: str, decimal: str, p: Path) -> pd.DataFrame:
+    """The text table parsed; a line with the wrong number of fields named in the error."""
     try:
-        df = pd.read_csv(
+        return pd.read_csv(
             io.StringIO(text), sep=sep, decimal=decimal,
             engine="python" if sep == r"\s+" else "c",
             keep_default_na=False, na_values=[""], skipinitialspace=sep != r"\s+",
@@ -155,14 +180,6 @@ def read_table(path) -> pd.DataFrame:
             f"{what}. Every line must have as many fields as the header line; look for a "
             "stray separator, an unquoted separator inside a text cell, or a missing field."
             ) from None
-    df.columns = [str(c).strip() for c in df.columns]
-    if len(df.columns) and all(_looks_numeric(c) for c in df.columns):
-        raise InputError(f"The first line of '{p}' looks like data ({', '.join(df.columns[:4])}"
-                         f"{', ...' if len(df.columns) > 4 else ''}), not column names. "
-                         "Add a header line naming the columns.")
-    df.attrs["table"] = {"format": "csv", "separator": _SEPARATOR_NAMES[sep],
-                         "decimal": decimal, "encoding": encoding}
-    return df
 
 
 def _looks_numeric(s) -> bool:
