@@ -70,86 +70,97 @@ class Exploration:
 
     def summary(self) -> str:
         """Readable multi-line summary for the geologist."""
-        def g(x, fmt=".4g"):
-            return "n/a" if x is None or (isinstance(x, float) and not math.isfinite(x)) \
-                else format(x, fmt)
+        parts = (self._head_lines(), self._statistics_lines(), self._declustering_lines(),
+                 self._spacing_lines(), self._topcut_lines(), self._trend_lines())
+        L = [line for k, part in enumerate(parts) for line in ([""] if k else []) + part]
+        if self.warnings:
+            L += ["", "Warnings:"] + [f"  - {w}" for w in self.warnings]
+        return "\n".join(L)
 
-        L = []
+    def _head_lines(self) -> list:
         head = f"Exploration of {self.value_column or 'grade'}"
         if self.domain is not None:
             head += f", domain {self.domain}"
-        L.append(head + f" ({self.source})")
-        L.append("=" * len(L[0]))
-        if self.n_read is not None:
-            L.append(f"Samples read {self.n_read}, used {self.count}.")
-        else:
-            L.append(f"Samples used {self.count}.")
-        for k, v in self.dropped.items():
-            L.append(f"  dropped ({k}): {v}")
-        for k, v in self.changed.items():
-            L.append(f"  changed ({k}): {v}")
-        L.append("")
-        L.append(f"Mean {g(self.mean)}   std {g(self.std)}   CV {g(self.cv, '.2f')}   "
-                 f"skewness {g(self.skewness, '.2f')}")
-        L.append(f"Min {g(self.min)}   max {g(self.max)}")
-        L.append("Quantiles: " + "  ".join(f"{k}: {g(v)}" for k, v in self.quantiles.items()))
-        d = self.declustering
-        L.append("")
-        L.append(f"Declustered mean {g(d.mean)} and std {g(d.std)} (naive {g(d.naive_mean)}), "
-                 f"cell {g(d.cell_size, '.3g')} m, chosen as the size giving the "
-                 f"{'smallest' if d.criterion == 'min_mean' else 'largest'} declustered mean"
-                 if d.criterion != "given" else
-                 f"Declustered mean {g(d.mean)} and std {g(d.std)} at the given cell "
-                 f"{g(d.cell_size, '.3g')} m")
-        L.append("  cell size (m) -> declustered mean: " + ", ".join(
-            f"{r.cell_size:.3g}: {r.mean:.4g}" for r in d.table.itertuples()))
-        s = self.spacing
-        L.append("")
-        def m(x):
-            text = g(x, ".3g")
-            return text if text == "n/a" else f"{text} m"
+        head += f" ({self.source})"
+        L = [head, "=" * len(head)]
+        L.append(f"Samples read {self.n_read}, used {self.count}." if self.n_read is not None
+                 else f"Samples used {self.count}.")
+        L += [f"  dropped ({k}): {v}" for k, v in self.dropped.items()]
+        L += [f"  changed ({k}): {v}" for k, v in self.changed.items()]
+        return L
 
-        L.append(f"Spacing ({s.layout.replace('_', ' ')}): across-hole {m(s.across_hole)} "
-                 f"(in plan {m(s.across_hole_plan)}), "
-                 f"down-hole {m(s.down_hole)}, bench {m(s.bench)}, "
-                 f"nearest neighbour {m(s.nearest)}")
+    def _statistics_lines(self) -> list:
+        return [f"Mean {_g(self.mean)}   std {_g(self.std)}   CV {_g(self.cv, '.2f')}   "
+                f"skewness {_g(self.skewness, '.2f')}",
+                f"Min {_g(self.min)}   max {_g(self.max)}",
+                "Quantiles: " + "  ".join(f"{k}: {_g(v)}" for k, v in self.quantiles.items())]
+
+    def _declustering_lines(self) -> list:
+        d = self.declustering
+        if d.criterion != "given":
+            first = (f"Declustered mean {_g(d.mean)} and std {_g(d.std)} (naive "
+                     f"{_g(d.naive_mean)}), cell {_g(d.cell_size, '.3g')} m, chosen as the size "
+                     f"giving the {'smallest' if d.criterion == 'min_mean' else 'largest'} "
+                     "declustered mean")
+        else:
+            first = (f"Declustered mean {_g(d.mean)} and std {_g(d.std)} at the given cell "
+                     f"{_g(d.cell_size, '.3g')} m")
+        return [first, "  cell size (m) -> declustered mean: " + ", ".join(
+            f"{r.cell_size:.3g}: {r.mean:.4g}" for r in d.table.itertuples())]
+
+    def _spacing_lines(self) -> list:
+        s = self.spacing
+        L = [f"Spacing ({s.layout.replace('_', ' ')}): across-hole {_m(s.across_hole)} "
+             f"(in plan {_m(s.across_hole_plan)}), down-hole {_m(s.down_hole)}, "
+             f"bench {_m(s.bench)}, nearest neighbour {_m(s.nearest)}"]
         if s.pattern is not None:
-            L.append(f"  pattern spacing {m(s.pattern)} from the area per sample on each level "
-                     f"(in-level nearest neighbour in plan {m(s.plan_nearest)}, which "
+            L.append(f"  pattern spacing {_m(s.pattern)} from the area per sample on each level "
+                     f"(in-level nearest neighbour in plan {_m(s.plan_nearest)}, which "
                      "understates a jittered pattern)")
         for k, lag in s.suggested_lag.items():
-            L.append(f"  suggested unit lag {k.replace('_', ' '):<11} {m(lag):>9}  "
-                     f"(tolerance {m(s.lag_tolerance.get(k))}): {s.reasons.get(k, '')}")
+            L.append(f"  suggested unit lag {k.replace('_', ' '):<11} {_m(lag):>9}  "
+                     f"(tolerance {_m(s.lag_tolerance.get(k))}): {s.reasons.get(k, '')}")
         if s.extent:
             lag, n_lags, rows = discovery_lags(s, has_holes=bool(s.n_holes))
-            L.append(f"  discover starts from {n_lags} lags of {m(lag)}: {rows[0]['reason']}")
-        L.append("")
-        L.append("Top-cut candidates (the choice is yours):")
+            L.append(f"  discover starts from {n_lags} lags of {_m(lag)}: {rows[0]['reason']}")
+        return L
+
+    def _topcut_lines(self) -> list:
+        L = ["Top-cut candidates (the choice is yours):"]
         pick = suggested_topcut(self.topcut)
         for c in self.topcut:
             L.append(f"  {c['value']:.4g}  {c['method']:<16} caps {c['n_capped']} "
                      f"{'sample' if c['n_capped'] == 1 else 'samples'}, removes "
-                     f"{g(c['metal_removed_pct'], '.1f')} % of the metal"
+                     f"{_g(c['metal_removed_pct'], '.1f')} % of the metal"
                      + ("  [aggressive]" if c.get("aggressive") else "")
                      + ("  [taken by --top-cut auto]" if pick and c["method"] == pick["method"]
                         else ""))
         if self.strongly_skewed:
             L.append(f"  CV {self.cv:.2f} > {STRONG_SKEW_CV:g}: strongly skewed; prefer normal "
                      "scores or a robust estimator (common practice).")
+        return L
+
+    def _trend_lines(self) -> list:
         t = self.trend
-        L.append("")
-        L.append(f"Trend: linear R2 {g(t.r2_linear, '.3f')}, "
-                 f"quadratic R2 {g(t.r2_quadratic, '.3f')}"
-                 + (f"; grade rises toward azimuth {t.rising_azimuth:03.0f}, "
-                    f"{abs(t.rising_inclination):.0f} degrees "
-                    f"{'below' if t.rising_inclination >= 0 else 'above'} the horizontal"
-                    if t.rising_azimuth is not None and t.rising_inclination is not None
-                    else ""))
-        if self.warnings:
-            L.append("")
-            L.append("Warnings:")
-            L.extend(f"  - {w}" for w in self.warnings)
-        return "\n".join(L)
+        rising = (t.rising_azimuth is not None and t.rising_inclination is not None)
+        return [f"Trend: linear R2 {_g(t.r2_linear, '.3f')}, "
+                f"quadratic R2 {_g(t.r2_quadratic, '.3f')}"
+                + (f"; grade rises toward azimuth {t.rising_azimuth:03.0f}, "
+                   f"{abs(t.rising_inclination):.0f} degrees "
+                   f"{'below' if t.rising_inclination >= 0 else 'above'} the horizontal"
+                   if rising else "")]
+
+
+def _g(x, fmt=".4g") -> str:
+    """``x`` formatted, or "n/a" for None and non-finite numbers."""
+    return "n/a" if x is None or (isinstance(x, float) and not math.isfinite(x)) \
+        else format(x, fmt)
+
+
+def _m(x) -> str:
+    """A distance in metres, or "n/a"."""
+    text = _g(x, ".3g")
+    return text if text == "n/a" else f"{text} m"
 
 
 def explore(samples, values=None, *, holes=None, quantiles=DEFAULT_QUANTILES,
