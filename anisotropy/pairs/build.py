@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import math
 import time
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -161,95 +162,178 @@ def build_volume(coords, values, *, lag, n_lags, fine_directions=None, coarse_di
     max_distance = (n_lags + 0.5) * lag
     origin = c.min(axis=0) if len(c) else np.zeros(3)
     cl = c - origin
-    hi = cl.max(axis=0) if len(c) else np.zeros(3)
-
     fine, coarse, f2c, table = _lattices(fine_directions, coarse_directions)
-    n_fine, n_coarse, n_cls, nch = len(fine), len(coarse), n_lags + 1, len(CHANNELS)
     n_chunks = _n_chunks()
-    fkeep, bkeep, mkeep = (resolve_channels(k) for k in (channels, block_channels, map_channels))
-    (fcols, fwidth), (bcols, bwidth), (mcols, mwidth) = map(_columns, (fkeep, bkeep, mkeep))
+    keep = tuple(resolve_channels(k) for k in (channels, block_channels, map_channels))
     do_blocks, do_map = blocks is not False, map_cell is not False
+    n_cls, nch = n_lags + 1, len(CHANNELS)
+    bwidth = _columns(keep[1])[1]
     size, bshape, n_blocks, block_of_sample = _block_grid(
-        blocks, cl, hi, max_distance, n_cls * n_coarse * 8 * (bwidth * n_chunks + nch),
-        block_memory)
+        blocks, cl, cl.max(axis=0) if len(c) else np.zeros(3), max_distance,
+        n_cls * len(coarse) * 8 * (bwidth * n_chunks + nch), block_memory)
     mc, mhalf = _map_grid(map_cell, lag, max_distance)
-    mny, mnz = 2 * mhalf + 1, mhalf + 1
-
-    # accumulators (chunk slices)
-    acc_fine = _aligned_zeros((n_chunks, n_cls * n_fine, fwidth))
-    acc_blk = _aligned_zeros((n_chunks, max(n_blocks, 1) * n_cls * n_coarse if do_blocks else 1,
-                              bwidth))
-    acc_map = _aligned_zeros((n_chunks, mny * mny * mnz if do_map else 1, mwidth))
-    stats = np.zeros((n_chunks, 2), dtype=np.int64)
-    memory = (acc_fine.nbytes + acc_blk.nbytes + acc_map.nbytes) * (n_chunks + 1) // n_chunks
-    memory += table.nbytes
-
     grid, off, work, batches = _grid_and_plan(cl, max_distance, cell_divisions, batch_candidates)
     # blocks whose channels the fine sums hold go block by block: pairs are binned into a
     # scratch copy of the fine sums and each block's sums are folded from it, so the cell
     # pairs inside one block cost no per-pair block work (the grid starts at the shifted
     # origin 0, which the block-major kernel's cell ranges assume)
-    block_major = bool(do_blocks and set(bkeep) <= set(fkeep) and np.all(grid.origin == 0.0))
-    acc_scratch = _aligned_zeros(acc_fine.shape) if block_major else np.zeros((1, 1, 1))
-    touched = np.zeros(acc_fine.shape[:2] if block_major else (1, 1), dtype=np.int64)
-    if block_major:
-        memory += acc_scratch.nbytes + touched.nbytes
+    block_major = bool(do_blocks and set(keep[1]) <= set(keep[0])
+                       and np.all(grid.origin == 0.0))
+    acc = _Accumulators.allocate(n_chunks, n_cls, len(fine), len(coarse), n_blocks if do_blocks
+                                 else None, (2 * mhalf + 1, mhalf + 1) if do_map else None,
+                                 keep, block_major, table.nbytes)
     loud = callable(progress) or (progress is True and work.sum() > ANNOUNCE_PAIRS)
-    est = _announce_start(progress, cl, max_distance, work, batches, memory) if loud else None
-    o = grid.order
-    x, y, z, vv = (np.ascontiguousarray(a) for a in (cl[o, 0], cl[o, 1], cl[o, 2], v[o]))
-    occ_index, cell_lo, cell_hi = _cells.cell_bounds(grid, np.column_stack([x, y, z]))
-    maxd2 = (max_distance * (1 + 1e-12)) ** 2
-    inv_pix = table.shape[0] / 2.0  # the plane coordinates cover [-1, 1]
-    binv = np.where(size > 0, 1.0 / np.where(size > 0, size, 1.0), 0.0)
-    borig = np.zeros(3)
-    # no blocks, a fixed row layout (the map's, if any, the same): the specialised kernel
-    fixed_layout = (not do_blocks and fkeep in (CHANNELS, resolve_channels("semivariogram"))
-                    and (not do_map or mkeep == fkeep))
+    est = (_announce_start(progress, cl, max_distance, work, batches, acc.memory) if loud
+           else None)
+    P = _PassInputs.of(grid, cl, v, off, max_distance, lag, n_lags, table, f2c, len(coarse),
+                       size, bshape, mc, mhalf, keep, do_blocks, block_major)
     for bi, (q0, q1) in enumerate(batches):
-        if fixed_layout:
-            _kernels.fine_pass(x, y, z, vv, grid.start, grid.dims, grid.occupied, off, q0, q1,
-                               n_chunks, maxd2, lag, n_lags, table, inv_pix,
-                               fkeep == CHANNELS, acc_fine, stats, do_map,
-                               (1.0 / mc) if do_map else 0.0, mhalf, acc_map)
-        else:
-            if block_major:
-                _kernels.block_major_pass(x, y, z, vv, grid.start, grid.dims, grid.occupied, off,
-                                          q0, q1, n_chunks, maxd2, lag, n_lags, table, inv_pix,
-                                          f2c, n_coarse, borig, binv, size, bshape,
-                                          float(grid.cell), do_map,
-                                          (1.0 / mc) if do_map else 0.0, mhalf, acc_fine,
-                                          acc_scratch, touched, acc_blk, acc_map, stats,
-                                          occ_index, cell_lo, cell_hi, fcols, bcols, mcols)
-            _kernels.volume_pass(x, y, z, vv, grid.start, grid.dims, grid.occupied, off, q0, q1,
-                                 n_chunks, maxd2, lag, n_lags, table, inv_pix, f2c, n_coarse,
-                                 do_blocks, borig, binv, bshape, do_map,
-                                 (1.0 / mc) if do_map else 0.0, mhalf,
-                                 acc_fine, acc_blk, acc_map, stats, occ_index, cell_lo, cell_hi,
-                                 fcols, bcols, mcols, block_major)
+        _run_batch(P, acc, q0, q1)
         if loud and len(batches) > 1:
             done = float(work[:q1].sum() / max(work.sum(), 1))
             note(progress, f"pair engine: batch {bi + 1}/{len(batches)} done "
                            f"({100 * done:.0f} % of candidates)")
-    sums = _merge(acc_fine, fkeep).reshape(n_cls, n_fine, nch)
-    del acc_fine
-    block_sums = (_merge(acc_blk, bkeep).reshape(n_blocks, n_cls, n_coarse, nch) if do_blocks
-                  else np.zeros((0, n_cls, n_coarse, nch)))
-    del acc_blk
-    map_sums = (_merge(acc_map, mkeep).reshape(mny, mny, mnz, nch) if do_map
-                else np.zeros((1, 1, 1, nch)))
-    del acc_map
-    st = stats.sum(axis=0)
+    sums, block_sums, map_sums = acc.merged(keep, n_cls, len(fine), len(coarse))
+    st = acc.stats.sum(axis=0)
     return LagVolume(
         lag=lag, n_lags=n_lags, max_distance=max_distance,
         directions=fine, sums=sums, coarse_directions=coarse, fine_to_coarse=f2c,
         block_shape=tuple(int(b) for b in bshape) if do_blocks else (0, 0, 0),
         block_origin=origin.copy(), block_size=size, block_of_sample=block_of_sample,
         block_sums=block_sums, map_cell=mc, map_sums=map_sums,
-        n_pairs=int(st[1]), seconds=time.perf_counter() - t_start, memory_bytes=int(memory),
+        n_pairs=int(st[1]), seconds=time.perf_counter() - t_start, memory_bytes=int(acc.memory),
         stats={"candidates": int(st[0]), "cell": float(grid.cell), "batches": len(batches),
                "chunks": int(n_chunks), "table_size": int(table.shape[0]),
                "block_bytes": int(block_sums.nbytes),
                "estimated_pairs": -1 if est is None else int(est)},
-        channels=fkeep, block_channels=bkeep, map_channels=mkeep,
+        channels=keep[0], block_channels=keep[1], map_channels=keep[2],
     )
+
+
+@dataclass
+class _Accumulators:
+    """The pass's chunk slices (fine, block and map sums; the block-major scratch and its
+    touched rows; candidate and pair counts) and their memory in bytes.
+
+    ``n_blocks`` is None without blocks, ``map_shape`` (cells across, cells up)
+    None without a map.
+    """
+
+    fine: np.ndarray
+    blk: np.ndarray
+    map: np.ndarray
+    scratch: np.ndarray
+    touched: np.ndarray
+    stats: np.ndarray
+    memory: int
+    n_blocks: int | None
+    map_shape: tuple | None
+
+    @classmethod
+    def allocate(cls, n_chunks, n_cls, n_fine, n_coarse, n_blocks, map_shape, keep,
+                 block_major, table_bytes):
+        """Zeroed slices, on 64-byte boundaries."""
+        (_, fwidth), (_, bwidth), (_, mwidth) = map(_columns, keep)
+        fine = _aligned_zeros((n_chunks, n_cls * n_fine, fwidth))
+        blk = _aligned_zeros((n_chunks, max(n_blocks, 1) * n_cls * n_coarse
+                              if n_blocks is not None else 1, bwidth))
+        mp = _aligned_zeros((n_chunks, map_shape[0] ** 2 * map_shape[1]
+                             if map_shape is not None else 1, mwidth))
+        memory = (fine.nbytes + blk.nbytes + mp.nbytes) * (n_chunks + 1) // n_chunks
+        memory += table_bytes
+        scratch = _aligned_zeros(fine.shape) if block_major else np.zeros((1, 1, 1))
+        touched = np.zeros(fine.shape[:2] if block_major else (1, 1), dtype=np.int64)
+        if block_major:
+            memory += scratch.nbytes + touched.nbytes
+        return cls(fine, blk, mp, scratch, touched, np.zeros((n_chunks, 2), dtype=np.int64),
+                   int(memory), n_blocks, map_shape)
+
+    def merged(self, keep, n_cls, n_fine, n_coarse):
+        """(fine sums, block sums, map sums) in the volume's shapes; the slices are released
+        one by one as they are merged."""
+        nch = len(CHANNELS)
+        sums = _merge(self.fine, keep[0]).reshape(n_cls, n_fine, nch)
+        self.fine = self.scratch = None
+        block_sums = (np.zeros((0, n_cls, n_coarse, nch)) if self.n_blocks is None else
+                      _merge(self.blk, keep[1]).reshape(self.n_blocks, n_cls, n_coarse, nch))
+        self.blk = None
+        if self.map_shape is None:
+            map_sums = np.zeros((1, 1, 1, nch))
+        else:
+            ny, nz = self.map_shape
+            map_sums = _merge(self.map, keep[2]).reshape(ny, ny, nz, nch)
+        self.map = None
+        return sums, block_sums, map_sums
+
+
+@dataclass(frozen=True)
+class _PassInputs:
+    """What every batch of the pass hands the kernels: the samples in cell order, the
+    search grid, the class, direction, block and map geometry, and the channel columns."""
+
+    pts: tuple            # x, y, z, value (contiguous, in the grid's order)
+    grid: object
+    off: np.ndarray
+    cells: tuple          # each occupied cell's index and its first and last sample
+    maxd2: float
+    lag: float
+    n_lags: int
+    table: np.ndarray
+    inv_pix: float
+    f2c: np.ndarray
+    n_coarse: int
+    blocks: tuple         # origin, inverse side, side, grid shape
+    map: tuple            # inverse cell (0 without a map), half-width
+    cols: tuple           # fine, block and map columns
+    do_blocks: bool
+    do_map: bool
+    block_major: bool
+    fixed_layout: bool    # no blocks, one of the two fixed row layouts: the specialised kernel
+    all_channels: bool
+
+    @classmethod
+    def of(cls, grid, cl, v, off, max_distance, lag, n_lags, table, f2c, n_coarse, size,
+           bshape, mc, mhalf, keep, do_blocks, block_major):
+        o = grid.order
+        x, y, z, vv = (np.ascontiguousarray(a) for a in (cl[o, 0], cl[o, 1], cl[o, 2], v[o]))
+        do_map = mc is not None
+        binv = np.where(size > 0, 1.0 / np.where(size > 0, size, 1.0), 0.0)
+        fixed = (not do_blocks and keep[0] in (CHANNELS, resolve_channels("semivariogram"))
+                 and (not do_map or keep[2] == keep[0]))
+        return cls(pts=(x, y, z, vv), grid=grid, off=off,
+                   cells=_cells.cell_bounds(grid, np.column_stack([x, y, z])),
+                   maxd2=(max_distance * (1 + 1e-12)) ** 2, lag=lag, n_lags=n_lags,
+                   table=table, inv_pix=table.shape[0] / 2.0,   # plane coordinates in [-1, 1]
+                   f2c=f2c, n_coarse=n_coarse, blocks=(np.zeros(3), binv, size, bshape),
+                   map=((1.0 / mc) if do_map else 0.0, mhalf),
+                   cols=tuple(_columns(k)[0] for k in keep), do_blocks=do_blocks,
+                   do_map=do_map, block_major=block_major, fixed_layout=fixed,
+                   all_channels=keep[0] == CHANNELS)
+
+
+def _run_batch(P: _PassInputs, acc: _Accumulators, q0: int, q1: int) -> None:
+    """Search offsets ``q0:q1`` of the pass through the kernel its layout calls for."""
+    x, y, z, vv = P.pts
+    g = P.grid
+    minv, mhalf = P.map
+    n_chunks = acc.stats.shape[0]
+    if P.fixed_layout:
+        _kernels.fine_pass(x, y, z, vv, g.start, g.dims, g.occupied, P.off, q0, q1, n_chunks,
+                           P.maxd2, P.lag, P.n_lags, P.table, P.inv_pix, P.all_channels,
+                           acc.fine, acc.stats, P.do_map, minv, mhalf, acc.map)
+        return
+    borig, binv, size, bshape = P.blocks
+    occ_index, cell_lo, cell_hi = P.cells
+    fcols, bcols, mcols = P.cols
+    if P.block_major:
+        _kernels.block_major_pass(x, y, z, vv, g.start, g.dims, g.occupied, P.off, q0, q1,
+                                  n_chunks, P.maxd2, P.lag, P.n_lags, P.table, P.inv_pix,
+                                  P.f2c, P.n_coarse, borig, binv, size, bshape, float(g.cell),
+                                  P.do_map, minv, mhalf, acc.fine, acc.scratch, acc.touched,
+                                  acc.blk, acc.map, acc.stats, occ_index, cell_lo, cell_hi,
+                                  fcols, bcols, mcols)
+    _kernels.volume_pass(x, y, z, vv, g.start, g.dims, g.occupied, P.off, q0, q1, n_chunks,
+                         P.maxd2, P.lag, P.n_lags, P.table, P.inv_pix, P.f2c, P.n_coarse,
+                         P.do_blocks, borig, binv, bshape, P.do_map, minv, mhalf,
+                         acc.fine, acc.blk, acc.map, acc.stats, occ_index, cell_lo, cell_hi,
+                         fcols, bcols, mcols, P.block_major)
