@@ -134,54 +134,15 @@ def direction_ranges(directions, distance, value, pairs, *, nugget, sill, kind="
                                float(nugget), float(sill), kind)
     lo = min_range if min_range is not None else 0.1 * dpos.min()
     hi = max_range if max_range is not None else 3.0 * dpos.max()
-    grid = np.exp(np.linspace(np.log(lo), np.log(hi), n_grid))
     W = np.where(valid, w, 0.0)
     D = np.where(valid, d, 1.0)
     G = np.where(valid, g, 0.0)
-    floor = 1e-6 * (nugget + sill)
-    # model (n_dir, n_lags, n_grid)
-    model = nugget + sill * (1.0 - rho(kind, D[..., None] / grid[None, None, :]))
-    model = np.maximum(model, floor)
-    obj = np.sum(W[..., None] * (G[..., None] / model - 1.0) ** 2, axis=1)
-    k = np.argmin(obj, axis=1)
-    lg = np.log(grid)
-    kk = np.clip(k, 1, n_grid - 2)
-    i = np.arange(len(u))
-    y0, y1, y2 = obj[i, kk - 1], obj[i, kk], obj[i, kk + 1]
-    den = y0 - 2 * y1 + y2
-    step = lg[1] - lg[0]
-    with np.errstate(invalid="ignore", divide="ignore"):
-        off = np.where(den > 0, 0.5 * (y0 - y2) / den, 0.0)
-    off = np.clip(off, -1.0, 1.0)
-    best_log = np.where((k > 0) & (k < n_grid - 1), lg[kk] + off * step, lg[k])
-    a = np.exp(best_log)
-    # quality at the optimum
-    mod = np.maximum(nugget + sill * (1.0 - rho(kind, D / a[:, None])), floor)
-    rel = np.where(valid, G / mod - 1.0, 0.0)
-    wsum = W.sum(axis=1)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        rms = np.sqrt(np.sum(W * rel ** 2, axis=1) / wsum)
-    informative = np.where(valid & (D <= 1.5 * a[:, None]), W, 0.0).sum(axis=1)
-    if reference_pairs is not None:
-        pref = float(reference_pairs)
-    else:
-        pref = float(np.median(informative[~thin])) if np.any(~thin) else 1.0
-    pref = max(pref, 1.0)
-    rel_w = np.minimum(1.0, informative / pref) / (1.0 + (rms / 0.25) ** 2)
-    dmax = np.where(valid, d, -np.inf).max(axis=1)
-    dmin = np.where(valid, d, np.inf).min(axis=1)
-    flags = []
-    for j in range(len(u)):
-        if thin[j]:
-            flags.append("thin")
-        elif a[j] > dmax[j]:
-            flags.append("beyond longest lag")
-        elif a[j] < dmin[j]:
-            flags.append("below first lag")
-        else:
-            flags.append("")
-    flags_arr = np.array(flags)
-    rel_w = np.where(np.isin(flags_arr, ["beyond longest lag", "below first lag"]),
+    a = _grid_ranges(W, D, G, nugget, sill, kind, lo, hi, n_grid)
+    rel_w, rms, pref = _reliabilities(W, D, G, valid, thin, a, nugget, sill, kind,
+                                      reference_pairs)
+    flags = _range_flags(thin, a, np.where(valid, d, -np.inf).max(axis=1),
+                         np.where(valid, d, np.inf).min(axis=1))
+    rel_w = np.where(np.isin(np.array(flags), ["beyond longest lag", "below first lag"]),
                      0.5 * rel_w, rel_w)
     rel_w = np.where(thin, 0.0, np.nan_to_num(rel_w))
     a = np.where(thin, np.nan, a)
@@ -190,3 +151,49 @@ def direction_ranges(directions, distance, value, pairs, *, nugget, sill, kind="
                            settings={"min_pairs": min_pairs, "min_lags": min_lags,
                                      "min_total_pairs": min_total_pairs,
                                      "reference_pairs": float(pref)})
+
+
+def _model_values(D, a, nugget, sill, kind):
+    """The 1-D model at distances ``D`` for ranges ``a`` (broadcast), floored above zero."""
+    return np.maximum(nugget + sill * (1.0 - rho(kind, D / a)), 1e-6 * (nugget + sill))
+
+
+def _grid_ranges(W, D, G, nugget, sill, kind, lo, hi, n_grid):
+    """Each direction's range minimising the weighted relative misfit over a log grid,
+    refined by a parabola through the grid's best point and its neighbours."""
+    grid = np.exp(np.linspace(np.log(lo), np.log(hi), n_grid))
+    # model (n_dir, n_lags, n_grid)
+    model = _model_values(D[..., None], grid[None, None, :], nugget, sill, kind)
+    obj = np.sum(W[..., None] * (G[..., None] / model - 1.0) ** 2, axis=1)
+    k = np.argmin(obj, axis=1)
+    lg = np.log(grid)
+    kk = np.clip(k, 1, n_grid - 2)
+    i = np.arange(len(W))
+    y0, y1, y2 = obj[i, kk - 1], obj[i, kk], obj[i, kk + 1]
+    den = y0 - 2 * y1 + y2
+    with np.errstate(invalid="ignore", divide="ignore"):
+        off = np.where(den > 0, 0.5 * (y0 - y2) / den, 0.0)
+    off = np.clip(off, -1.0, 1.0)
+    best_log = np.where((k > 0) & (k < n_grid - 1), lg[kk] + off * (lg[1] - lg[0]), lg[k])
+    return np.exp(best_log)
+
+
+def _reliabilities(W, D, G, valid, thin, a, nugget, sill, kind, reference_pairs):
+    """Each direction's reliability (its informative weight against the reference, cut by
+    its misfit), its RMS relative misfit at the range, and the reference weight."""
+    rel = np.where(valid, G / _model_values(D, a[:, None], nugget, sill, kind) - 1.0, 0.0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        rms = np.sqrt(np.sum(W * rel ** 2, axis=1) / W.sum(axis=1))
+    informative = np.where(valid & (D <= 1.5 * a[:, None]), W, 0.0).sum(axis=1)
+    if reference_pairs is not None:
+        pref = float(reference_pairs)
+    else:
+        pref = float(np.median(informative[~thin])) if np.any(~thin) else 1.0
+    pref = max(pref, 1.0)
+    return np.minimum(1.0, informative / pref) / (1.0 + (rms / 0.25) ** 2), rms, pref
+
+
+def _range_flags(thin, a, dmax, dmin) -> list:
+    """"thin", "beyond longest lag", "below first lag" or "" per direction."""
+    return ["thin" if t else "beyond longest lag" if r > hi else "below first lag" if r < lo
+            else "" for t, r, hi, lo in zip(thin, a, dmax, dmin)]
