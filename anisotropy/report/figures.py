@@ -539,59 +539,71 @@ def directional_variograms_figure(curves, *, sill=None, value_label="semivariogr
             ax = other_ax
             colour = OTHER_DIRECTION_COLOURS[other_k % len(OTHER_DIRECTION_COLOURS)]
             other_k += 1
-        d = np.asarray(c["distance"], float)
-        g = np.asarray(c["value"], float)
-        n = np.asarray(c.get("pairs", np.zeros_like(d)), float)
-        ok = np.isfinite(d) & np.isfinite(g) & (n > 0)
-        if c.get("lo") is not None and c.get("hi") is not None and name in panels:
-            lo, hi = np.asarray(c["lo"], float), np.asarray(c["hi"], float)
-            if c.get("band_distance") is not None:
-                bd = np.asarray(c["band_distance"], float)
-                b = np.isfinite(bd) & np.isfinite(lo) & np.isfinite(hi)
-            else:
-                bd = d
-                b = ok & np.isfinite(lo) & np.isfinite(hi)
-            ax.fill_between(bd[b], lo[b], hi[b], color=colour, alpha=0.18, lw=0,
-                            label=c.get("band_label", "bootstrap band"))
-        sizes = 12 + 60 * np.sqrt(n[ok] / max(float(n[ok].max()), 1.0)) if ok.any() else 12
-        ax.scatter(d[ok], g[ok], s=sizes, color=colour, edgecolor="black", linewidths=0.4,
-                   zorder=3, label=f"{c['label']} ({int(n.sum()):,} pairs)")
-        if name in panels:
-            for di, gi, ni in zip(d[ok], g[ok], n[ok]):
-                ax.annotate(f"{int(ni)}", (di, gi), textcoords="offset points", xytext=(0, 6),
-                            ha="center", fontsize=6, color="#444444")
-        if c.get("model_distance") is not None:
-            ax.plot(c["model_distance"], c["model_value"], color=colour,
-                    lw=1.6 if name in panels else 1.0,
-                    label=c.get("model_label", "fitted model") if name in panels or other_k == 1
-                    else None)
-        if c.get("pair_model_value") is not None:
-            pv = np.asarray(c["pair_model_value"], float)
-            pd_ = (np.asarray(c["pair_model_distance"], float)
-                   if c.get("pair_model_distance") is not None else d)
-            p_ok = np.isfinite(pd_) & np.isfinite(pv)
-            ax.plot(pd_[p_ok], pv[p_ok], color=colour, ls="--", lw=1.0, marker="D",
-                    markersize=3.5, markerfacecolor="white", markeredgecolor=colour, zorder=4,
-                    label=c.get("pair_model_label", "model averaged over this lag's pairs")
-                    if name in panels or other_k == 1 else None)
+        # the other directions share a panel: their bands and pair counts are left out, and
+        # only the first one's model lines are named in the legend
+        _draw_direction(ax, c, colour, on_axis=name in panels,
+                        name_models=name in panels or other_k == 1)
     tols = {c.get("axis") if c.get("axis") in panels else "others": c.get("angular_tolerance")
             for c in curves if c.get("angular_tolerance") is not None}
     for name, ax in list(panels.items()) + [("others", other_ax)]:
-        if sill is not None and np.isfinite(sill):
-            ax.axhline(sill, color="#888888", lw=0.8, ls=":", label="total sill")
-        ax.set_xlim(0, dmax * 1.03 if dmax > 0 else 1)
-        ax.set_ylim(bottom=0)
-        ax.set_xlabel(distance_label)
-        ax.set_ylabel(value_label)
         head = ("along the " + CONTINUITY_LABELS[name] + " axis" if name in panels
                 else "other directions")
         if tols.get(name) is not None:
             head += f" (cone ±{float(tols[name]):g}°)"
-        ax.set_title(head, fontsize=10)
-        if ax.has_data():
-            ax.legend(fontsize=7, loc="lower right")
+        _dress_panel(ax, head, sill, dmax, value_label, distance_label)
     fig.suptitle(title + " (numbers beside points: pairs per lag)", fontsize=11)
     return _saved(fig, path)
+
+
+def _draw_direction(ax, c, colour, *, on_axis, name_models):
+    """One direction of :func:`directional_variograms_figure`: its band and pair counts
+    (``on_axis`` only), its points sized by pairs, its model and pair-averaged model."""
+    d = np.asarray(c["distance"], float)
+    g = np.asarray(c["value"], float)
+    n = np.asarray(c.get("pairs", np.zeros_like(d)), float)
+    ok = np.isfinite(d) & np.isfinite(g) & (n > 0)
+    if c.get("lo") is not None and c.get("hi") is not None and on_axis:
+        lo, hi = np.asarray(c["lo"], float), np.asarray(c["hi"], float)
+        if c.get("band_distance") is not None:
+            bd = np.asarray(c["band_distance"], float)
+            b = np.isfinite(bd) & np.isfinite(lo) & np.isfinite(hi)
+        else:
+            bd = d
+            b = ok & np.isfinite(lo) & np.isfinite(hi)
+        ax.fill_between(bd[b], lo[b], hi[b], color=colour, alpha=0.18, lw=0,
+                        label=c.get("band_label", "bootstrap band"))
+    sizes = 12 + 60 * np.sqrt(n[ok] / max(float(n[ok].max()), 1.0)) if ok.any() else 12
+    ax.scatter(d[ok], g[ok], s=sizes, color=colour, edgecolor="black", linewidths=0.4,
+               zorder=3, label=f"{c['label']} ({int(n.sum()):,} pairs)")
+    if on_axis:
+        for di, gi, ni in zip(d[ok], g[ok], n[ok]):
+            ax.annotate(f"{int(ni)}", (di, gi), textcoords="offset points", xytext=(0, 6),
+                        ha="center", fontsize=6, color="#444444")
+    if c.get("model_distance") is not None:
+        ax.plot(c["model_distance"], c["model_value"], color=colour, lw=1.6 if on_axis else 1.0,
+                label=c.get("model_label", "fitted model") if name_models else None)
+    if c.get("pair_model_value") is not None:
+        pv = np.asarray(c["pair_model_value"], float)
+        pd_ = (np.asarray(c["pair_model_distance"], float)
+               if c.get("pair_model_distance") is not None else d)
+        p_ok = np.isfinite(pd_) & np.isfinite(pv)
+        ax.plot(pd_[p_ok], pv[p_ok], color=colour, ls="--", lw=1.0, marker="D",
+                markersize=3.5, markerfacecolor="white", markeredgecolor=colour, zorder=4,
+                label=c.get("pair_model_label", "model averaged over this lag's pairs")
+                if name_models else None)
+
+
+def _dress_panel(ax, head, sill, dmax, value_label, distance_label):
+    """A panel's sill line, limits, axis labels, title and legend."""
+    if sill is not None and np.isfinite(sill):
+        ax.axhline(sill, color="#888888", lw=0.8, ls=":", label="total sill")
+    ax.set_xlim(0, dmax * 1.03 if dmax > 0 else 1)
+    ax.set_ylim(bottom=0)
+    ax.set_xlabel(distance_label)
+    ax.set_ylabel(value_label)
+    ax.set_title(head, fontsize=10)
+    if ax.has_data():
+        ax.legend(fontsize=7, loc="lower right")
 
 
 MODEL_TABLE_COLUMNS = ("structure", "type", "sill", "range major (m)", "range semi-major (m)",
