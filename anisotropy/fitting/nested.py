@@ -411,6 +411,31 @@ def fit_nested(bins, start, *, n_structures=None, kinds=None, fixed_frame=None,
     if bins.n < 3:
         raise FitError(f"only {bins.n} experimental points with enough pairs: a variogram "
                        "model cannot be fitted; use a longer lag or more samples")
+    frame0, nug0, sills0, ranges0, kinds = _start_values(start, n_structures, kinds,
+                                                         total_sill)
+    prob = _Problem(bins, kinds, fixed_frame=fixed_frame, fixed_nugget=fixed_nugget,
+                    total_sill=total_sill, min_range=min_range, max_range=max_range,
+                    planar=planar, shared_ratios=shared_ratios)
+    p0 = prob.pack(frame0, nug0 if fixed_nugget is None else fixed_nugget, sills0, ranges0)
+    lo, hi = prob.bounds()
+    p0 = np.clip(p0, lo + 1e-9, hi - 1e-9)
+    if not optimise:
+        return _evaluated_at_start(prob, p0, loss, f_scale, weighting, make_model)
+    res, nfev = _reweighted_search(prob, p0, lo, hi, loss=loss, f_scale=f_scale,
+                                   max_nfev=max_nfev, ftol=ftol, weighting=weighting,
+                                   outer=outer)
+    return _fit_result(prob, res.x, res.cost, success=bool(res.status > 0), nfev=nfev,
+                       make_model=make_model, message=str(res.message))
+
+
+def _start_values(start, n_structures, kinds, total_sill):
+    """The start's frame, nugget, sills, ranges and kinds, brought to ``n_structures``.
+
+    A structure is added by splitting the longest one's sill 60/40 with a
+    copy a third as long; structures beyond ``n_structures`` are dropped,
+    smallest sill first, their sill shared among the rest. The sills are
+    scaled to ``total_sill`` when it is given.
+    """
     if isinstance(start, tuple):
         frame0, nug0, sills0, ranges0, kinds0 = start
         sills0 = np.atleast_1d(np.asarray(sills0, float))
@@ -432,31 +457,32 @@ def fit_nested(bins, start, *, n_structures=None, kinds=None, fixed_frame=None,
         sills0 = sills0[order] + extra / K
         ranges0 = ranges0[order]
         kinds0 = tuple(kinds0[i] for i in order)
-    if kinds is None:
-        kinds = tuple(kinds0)
-    kinds = tuple(kinds) + (kinds[-1],) * (K - len(kinds))
-    kinds = kinds[:K]
+    kinds = tuple(kinds0) if kinds is None else tuple(kinds)
+    kinds = (kinds + (kinds[-1],) * (K - len(kinds)))[:K]
     if total_sill is not None:
         s = nug0 + sills0.sum()
         if s > 0:
             nug0, sills0 = nug0 * total_sill / s, sills0 * total_sill / s
-    prob = _Problem(bins, kinds, fixed_frame=fixed_frame, fixed_nugget=fixed_nugget,
-                    total_sill=total_sill, min_range=min_range, max_range=max_range,
-                    planar=planar, shared_ratios=shared_ratios)
-    p0 = prob.pack(frame0, nug0 if fixed_nugget is None else fixed_nugget, sills0, ranges0)
-    lo, hi = prob.bounds()
-    p0 = np.clip(p0, lo + 1e-9, hi - 1e-9)
-    if not optimise:
-        if loss not in ("soft_l1", "linear"):
-            raise ValueError("optimise=False supports the soft_l1 and linear losses, "
-                             f"not {loss!r}")
-        if weighting != "cressie":
-            prob.gw = np.maximum(prob.gamma_model(p0), 1e-3 * prob.scale)
-        z = prob.residuals(p0) ** 2
-        cost = (0.5 * np.sum(z) if loss == "linear" else
-                f_scale ** 2 * np.sum(np.sqrt(1.0 + z / f_scale ** 2) - 1.0))
-        return _fit_result(prob, p0, cost, success=True, nfev=1, make_model=make_model,
-                           message="evaluated at the start (optimise=False)")
+    return frame0, nug0, sills0, ranges0, kinds
+
+
+def _evaluated_at_start(prob, p0, loss, f_scale, weighting, make_model):
+    """The fit at ``p0`` without a search (``optimise=False``)."""
+    if loss not in ("soft_l1", "linear"):
+        raise ValueError("optimise=False supports the soft_l1 and linear losses, "
+                         f"not {loss!r}")
+    if weighting != "cressie":
+        prob.gw = np.maximum(prob.gamma_model(p0), 1e-3 * prob.scale)
+    z = prob.residuals(p0) ** 2
+    cost = (0.5 * np.sum(z) if loss == "linear" else
+            f_scale ** 2 * np.sum(np.sqrt(1.0 + z / f_scale ** 2) - 1.0))
+    return _fit_result(prob, p0, cost, success=True, nfev=1, make_model=make_model,
+                       message="evaluated at the start (optimise=False)")
+
+
+def _reweighted_search(prob, p0, lo, hi, *, loss, f_scale, max_nfev, ftol, weighting, outer):
+    """SciPy's least squares from ``p0``, its weights renewed from the model between rounds
+    (fixed point) until the model moves less than 2 %; (last result, evaluations)."""
     n_outer = 1 if weighting == "cressie" else max(int(outer), 1)
     jac = prob.jacobian if ANALYTIC_JACOBIAN else "2-point"
     nfev = 0
@@ -464,7 +490,7 @@ def fit_nested(bins, start, *, n_structures=None, kinds=None, fixed_frame=None,
     with threadpool_limits(1):
         # one BLAS thread: the problem is small (m x p with p <= 15) and a
         # threaded SVD per iteration is many times slower on a shared machine
-        for it in range(n_outer):
+        for _ in range(n_outer):
             if weighting != "cressie":
                 prob.gw = np.maximum(prob.gamma_model(x), 1e-3 * prob.scale)
             try:
@@ -479,8 +505,7 @@ def fit_nested(bins, start, *, n_structures=None, kinds=None, fixed_frame=None,
             x = res.x
             if change < 0.02:
                 break
-    return _fit_result(prob, res.x, res.cost, success=bool(res.status > 0), nfev=nfev,
-                       make_model=make_model, message=str(res.message))
+    return res, nfev
 
 
 def _fit_result(prob, x, cost, *, success, nfev, make_model, message):
