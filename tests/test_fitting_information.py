@@ -93,16 +93,16 @@ def test_no_cone_where_the_information_is_not_positive_definite():
     assert ic.cones is None and "not positive definite" in ic.note
 
 
-def test_log_range_sd_is_the_inverse_information_of_the_log_ranges():
+def test_rotation_sd_is_the_inverse_information_of_the_rotation():
     # the Wald covariance is the inverse of the observed information (Pawitan 2001,
-    # ch. 9): here its log-range diagonal against NumPy's inverse of the Hessian taken by
+    # ch. 9): here its rotation diagonal against NumPy's inverse of the Hessian taken by
     # second differences of the value kernel alone (a different code path)
     X, y = _field(300, 6)
     s = vecchia_setup(X, y, n_neighbours=10, seed=0)
     lk = refine_frame_likelihood(X, y, np.eye(3), [[60.0, 30.0, 10.0]], 0.1, [0.9],
                                  ("exponential",), setup=s)
     ic = information_cones(lk, s, 0.9)
-    assert ic.log_range_sd is not None and ic.log_range_sd.shape == (1, 3)
+    assert ic.rotation_sd is not None and ic.rotation_sd.shape == (3,)
     p = lk.parameters()
     f = lambda q: vecchia_negloglik(q, s.coords, s.values, s.neighbours,  # noqa: E731
                                     ("exponential",))
@@ -111,9 +111,9 @@ def test_log_range_sd_is_the_inverse_information_of_the_log_ranges():
     B = np.array([[(f(p + E[i] + E[j]) - f(p + E[i] - E[j]) - f(p - E[i] + E[j])
                     + f(p - E[i] - E[j])) / (4 * h * h) for j in range(len(p))]
                   for i in range(len(p))])
-    expected = np.sqrt(np.diag(np.linalg.inv(0.5 * (B + B.T)))[3:6])
-    np.testing.assert_allclose(ic.log_range_sd[0], expected, rtol=0.02)
-    assert ic.to_dict()["log_range_sd"] == [list(ic.log_range_sd[0])]
+    expected = np.degrees(np.sqrt(np.diag(np.linalg.inv(0.5 * (B + B.T)))[:3]))
+    np.testing.assert_allclose(ic.rotation_sd, expected, rtol=0.02)
+    assert ic.to_dict()["rotation_sd_deg"] == [float(x) for x in ic.rotation_sd]
     # one structure: the nugget share is the logistic of the one free logit, so both
     # shares' logits are +-that logit and share its standard deviation
     logit_sd = np.sqrt(np.linalg.inv(0.5 * (B + B.T))[6, 6])
@@ -170,8 +170,8 @@ def test_a_range_beyond_the_limit_is_held_and_the_rest_conditioned_on_it():
     free = [0, 1, 2, 4, 5, 6]
     C = np.linalg.inv(0.5 * (B + B.T)[np.ix_(free, free)])
     np.testing.assert_allclose(ic.rotation_sd, np.degrees(np.sqrt(np.diag(C)[:3])), rtol=0.02)
-    np.testing.assert_allclose(ic.log_range_sd[0], [0.0, *np.sqrt(np.diag(C)[3:5])],
-                               rtol=0.02)
+    # one structure: both share logits are +-the one free logit (its variance C[5, 5])
+    np.testing.assert_allclose(ic.logit_share_sd, [np.sqrt(C[5, 5])] * 2, rtol=0.02)
     # a limit the ranges stay inside holds nothing: the full inverse, as without one
     within = information_cones(fit, s, 0.9, range_limit=1e8)
     assert within.cones is None

@@ -7,14 +7,15 @@ covariance of the estimates, ``H^-1`` (the Wald approximation; Pawitan 2001,
 the covariance of the frame with the ranges and sill shares estimated too
 (the profile information).  Rotation vectors drawn from that normal
 distribution turn each axis of the frame; the angle within which a share
-``confidence`` of the turned axes falls is the axis's cone.  Its diagonal
-at the log ranges gives their standard deviations (``log_range_sd``; the
-bootstrap does not use them for the range intervals, whose Wald form
-under-covered: ``benchmarks/RESULTS.md``, *Range intervals*).  Carried
-through the shares' softmax (the delta method, a first-order expansion; the
-reference to Pawitan 2001 for it is recalled from memory, and the tests
-check the derivative against central differences), it gives Wald intervals
-of the nugget and sill shares on the logit scale.
+``confidence`` of the turned axes falls is the axis's cone.  (No range
+intervals are taken from it: their Wald form under-covered,
+``benchmarks/RESULTS.md``, *Range intervals*.)  Its block at the share
+logits, carried through the shares' softmax (the delta method, a
+first-order expansion; the reference to Pawitan 2001 for it is recalled
+from memory, and the tests check the derivative against central
+differences), gives Wald intervals of the nugget and sill shares on the
+logit scale.  A range beyond the variogram fit's range limit, along which
+the likelihood is flat, is held and the rest conditioned on it.
 
 Here ``H`` is the central difference of the compiled analytic gradient
 (:func:`anisotropy.fitting.likelihood.vecchia_negloglik_grad`), one pair of
@@ -65,11 +66,6 @@ class InformationCones:
     frames : ndarray (draws, 3, 3) or None
         The frames drawn from the Wald distribution (columns as the fit's),
         for trend and plunge intervals; not in :meth:`to_dict`.
-    log_range_sd : ndarray (K, 3) or None
-        Standard deviations of the natural logarithms of the fit's ranges
-        (structures and columns as the fit's), the other parameters
-        estimated too; zero for a range beyond the range limit (held: the
-        other parameters' spreads are then those given it).
     logit_share_sd : ndarray (K + 1,) or None
         Standard deviations of the logits of the nugget share and of each
         structure's share of the sill (:func:`share_logit_sd`).
@@ -80,7 +76,6 @@ class InformationCones:
     rotation_sd: np.ndarray | None = None
     note: str = ""
     frames: np.ndarray | None = None
-    log_range_sd: np.ndarray | None = None
     logit_share_sd: np.ndarray | None = None
 
     def to_dict(self) -> dict:
@@ -90,8 +85,6 @@ class InformationCones:
                 "confidence": float(self.confidence),
                 "rotation_sd_deg": None if self.rotation_sd is None else
                 [float(x) for x in self.rotation_sd], "note": self.note,
-                "log_range_sd": None if self.log_range_sd is None else
-                np.asarray(self.log_range_sd, float).tolist(),
                 "logit_share_sd": None if self.logit_share_sd is None else
                 np.asarray(self.logit_share_sd, float).tolist()}
 
@@ -188,7 +181,6 @@ def information_cones(fit, setup, confidence=0.9, seed=0,
     shares = np.r_[fit.nugget_share, np.asarray(fit.shares, float)]
     return InformationCones({a: float(q[i]) for i, a in enumerate(AXES)}, confidence,
                             rotation_sd=np.degrees(np.sqrt(np.diag(rot))), frames=M,
-                            log_range_sd=np.sqrt(np.diag(C)[3:3 + 3 * K]).reshape(K, 3),
                             logit_share_sd=share_logit_sd(C[3 + 3 * K:, 3 + 3 * K:], shares))
 
 
