@@ -72,7 +72,9 @@ class Exploration:
         """Readable multi-line summary for the geologist."""
         parts = (self._head_lines(), self._statistics_lines(), self._declustering_lines(),
                  self._spacing_lines(), self._topcut_lines(), self._trend_lines())
-        L = [line for k, part in enumerate(parts) for line in ([""] if k else []) + part]
+        L = list(parts[0])
+        for part in parts[1:]:
+            L += [""] + part
         if self.warnings:
             L += ["", "Warnings:"] + [f"  - {w}" for w in self.warnings]
         return "\n".join(L)
