@@ -20,9 +20,12 @@ Scenarios: the six of issue 4 (unchanged: same layouts, seeds and values),
 and for issue 15 holes along the minor axis, oblique holes (45 degrees to
 the plane of continuity, exponential field), holes 18 degrees off the major
 axis, underground fans (5-8 holes from each of 5 pads), two structures with
-a 0.2 nugget in holes, and pure nugget (scattered and in holes).  The
-issue-15 hole layouts cycle through three hole (or pad) spacings against the
-ranges: seed s uses ``spacings[s % 3]`` (listed per scenario below).
+a 0.2 nugget in holes, and pure nugget (scattered and in holes); and blast
+holes on four benches (one sample per hole), over a steep lode and over a
+flat ore whose minor range is shorter than the bench height.  The issue-15
+hole layouts and the benches cycle through three hole, pad or pattern
+spacings against the ranges: seed s uses ``spacings[s % 3]`` (listed per
+scenario below).
 
 Reported: median, 90th percentile and worst angular error of the major and
 minor axes (undirected), median absolute relative error of the three ranges

@@ -81,6 +81,66 @@ def test_an_axis_without_any_bin_near_it_cannot_be_checked():
     assert unresolved == ["minor"] and "no lag bin lies within 25 degrees" in w[0]
 
 
+def _benches(tilts=(-10.0, 0.0, 10.0), gap=10.0):
+    """Pairs of benches ``gap`` m apart: one distance class, cells tilted from the pole.
+
+    Plus the 9 m lattice along x and y (within the benches), classes 1..12.
+    """
+    lags, _ = _lattice(9.0)
+    flat = lags[lags[:, 2] == 0]
+    t = np.radians(tilts)
+    steep = gap * np.column_stack([np.sin(t), np.zeros_like(t), np.cos(t)]) / np.cos(t)[:, None]
+    cls = np.r_[np.tile(np.arange(1, 13), 2), np.ones(len(tilts), int)]
+    return np.vstack([flat, steep]), np.full(len(flat) + len(tilts), 500), cls
+
+
+def test_bins_of_one_distance_are_one_point_on_the_rise():
+    # benches 10 m apart: three cells within 25 degrees of the pole (z), at 10.0, 10.2 and
+    # 10.2 m (10 / cos 10 deg, by hand), all in lag class 1; a 12 m minor range along z is
+    # seen at that one distance only, so it is not resolved, and on benches its direction
+    # stays open (the bench gap is all the sampling says about it)
+    lags, pairs, cls = _benches()
+    axes, unresolved, w = resolution(lags, pairs, (150.0, 90.0, 12.0), np.eye(3),
+                                     scattered=False, min_pairs=30, lag_index=cls, bench=10.0)
+    assert axes == unresolved == ["minor"]
+    assert "one distance class" in w[0] and "3 bins" in w[0]
+    assert "benches are 10 m apart" in w[0]
+    # the same cells counted as separate classes (no class given) pass the old count of
+    # two bins: the rule needs the classes to tell them apart
+    assert resolution(lags, pairs, (150.0, 90.0, 12.0), np.eye(3), scattered=False,
+                      min_pairs=30)[1] == []
+    # a second bench gap (20 m, class 2) under a 25 m range: two distances, resolved
+    more = np.vstack([lags, [[0.0, 0.0, 20.0]]])
+    axes, unresolved, w = resolution(more, np.r_[pairs, 500], (150.0, 90.0, 25.0), np.eye(3),
+                                     scattered=False, min_pairs=30, lag_index=np.r_[cls, 2],
+                                     bench=10.0)
+    assert unresolved == [] and w == []
+
+
+def test_on_benches_an_axis_within_the_benches_keeps_its_direction():
+    # the bench lattice with a second bench gap (20 m along z, class 2). Frame columns x,
+    # z, y: the 25 m semi-major range along z (steep) is seen at 10 and 20 m, resolved; the
+    # 5 m minor range along y (horizontal) has no bin under it (9 m lattice). Pairs in
+    # every bench surround a horizontal axis, so, as on scattered samples, only its range
+    # is in doubt; the same lags without benches (hole strings) leave its direction open
+    lags, pairs, cls = _benches()
+    lags, pairs, cls = np.vstack([lags, [[0.0, 0.0, 20.0]]]), np.r_[pairs, 500], np.r_[cls, 2]
+    frame = np.eye(3)[:, [0, 2, 1]]
+    axes, unresolved, w = resolution(lags, pairs, (150.0, 25.0, 5.0), frame, scattered=False,
+                                     min_pairs=30, lag_index=cls, bench=10.0)
+    assert unresolved == ["minor"] and axes == []
+    assert "minor range is not resolved" in w[0] and "direction is still fixed" in w[0]
+    axes, unresolved, w = resolution(lags, pairs, (150.0, 25.0, 5.0), frame, scattered=False,
+                                     min_pairs=30, lag_index=cls)
+    assert unresolved == ["minor"] and axes == ["minor"]
+    # an 8 m range on the horizontal y and a 25 m one on the steep z without the 20 m
+    # gap: both unresolved, and two unresolved axes may turn about the third
+    lags, pairs, cls = _benches()
+    axes, unresolved, w = resolution(lags, pairs, (150.0, 8.0, 25.0), np.eye(3),
+                                     scattered=False, min_pairs=30, lag_index=cls, bench=10.0)
+    assert unresolved == ["semi_major", "minor"] == axes
+
+
 def test_residual_rows_against_the_spherical_formula():
     # one spherical structure, ranges 100/50/20 along the coordinate axes, nugget 0.1
     model = NestedModel(nugget=0.1, structures=[Structure("spherical", 0.9, (100.0, 50.0, 20.0))],

@@ -123,17 +123,23 @@ def _sig6(a):
 
 
 def resolution(lags, pairs, ranges, frame, *, scattered, nearest=None, across=None,
-               min_pairs=10.0, resolved=(), planar=False):
+               min_pairs=10.0, resolved=(), planar=False, lag_index=None, bench=None):
     """Say which ranges the lag bins cannot resolve, and which directions that leaves open.
 
-    A range along an axis is resolved when at least two well-paired lag bins
-    within 25 degrees of the axis lie shorter than it (the variogram's rise is
-    seen by more than one point).  On drill holes and benches an unresolved
+    A range along an axis is resolved when well-paired lag bins within 25
+    degrees of the axis lie shorter than it in at least two distance classes
+    (the variogram's rise is seen at more than one distance). Bins of one
+    class in neighbouring directions are one point on the rise, not two: on
+    benches 10 m apart, every pair across one bench lies near 10 m, and a
+    range of 12 m along the pole is then seen at 10 m only, however many
+    direction cells those pairs fall in.  On drill holes and benches an unresolved
     range leaves its axis's direction open too (the hole or bench spacing is
     all the sampling says about that direction).  Scattered samples surround
-    every direction at every distance, so there an axis whose range alone is
-    unresolved keeps its direction (it is square to the two resolved axes);
-    two unresolved ranges leave their axes free to turn about the third.
+    every direction at every distance, and on benches the pairs within each
+    bench surround every axis within 45 degrees of the horizontal; an axis
+    so surrounded whose range alone is unresolved keeps its direction (it is
+    square to the two resolved axes); two unresolved ranges leave their axes
+    free to turn about the third.
     On planar data (one bench or level) the minor axis is the one across the
     plane: no lag and no spacing on that level can resolve it, so it is
     always reported, with that reason, and the rules above apply to the two
@@ -162,6 +168,12 @@ def resolution(lags, pairs, ranges, frame, *, scattered, nearest=None, across=No
     planar : bool
         The samples lie on one plane (one bench or level); its pole is the
         minor axis.
+    lag_index : ndarray (m,) int, optional
+        Distance class of each bin (``FitBins.lag_index``). None: every bin
+        is a class of its own.
+    bench : float, optional
+        Gap between bench levels (m; blast holes only): the warning on a
+        steep axis names it.
 
     Returns
     -------
@@ -176,16 +188,23 @@ def resolution(lags, pairs, ranges, frame, *, scattered, nearest=None, across=No
     d = np.linalg.norm(L, axis=1)
     u = L / np.maximum(d, 1e-12)[:, None]
     pairs = np.asarray(pairs)
+    cls = np.arange(len(d)) if lag_index is None else np.asarray(lag_index)
+    # on benches an axis within 45 degrees of the horizontal is surrounded by pairs in
+    # every bench, as on scattered samples; a steep one is seen only across the benches
+    steep = np.abs(np.asarray(frame, float)[2]) > np.cos(np.radians(45))
+    surrounded = [scattered or (bench is not None and not steep[i]) for i in range(3)]
     unresolved, texts = [], []
     for i, name in enumerate(AXES):
         r = ranges[i]
         along = np.abs(u @ frame[:, i]) > np.cos(np.radians(25))
-        short = np.sort(d[along & (d < r) & (pairs >= min_pairs)])
-        if short.size >= 2 or name in resolved or (planar and name == "minor"):
+        below = along & (d < r) & (pairs >= min_pairs)
+        if np.unique(cls[below]).size >= 2 or name in resolved or (planar and name == "minor"):
             continue
         unresolved.append(name)
-        texts.append(_unresolved_text(name, r, d[along], short, scattered, nearest, across))
-    axes, unresolved, texts = _in_plane_directions(unresolved, texts, scattered, planar)
+        texts.append(_unresolved_text(name, r, d[along], np.sort(d[below]), surrounded[i],
+                                      nearest, across, bench if steep[i] else None))
+    axes, unresolved, texts = _in_plane_directions(
+        unresolved, texts, all(surrounded[AXES.index(a)] for a in unresolved), planar)
     if planar:
         near = np.abs(u @ frame[:, 2]) > np.cos(np.radians(25))
         axes.append("minor")
@@ -194,9 +213,13 @@ def resolution(lags, pairs, ranges, frame, *, scattered, nearest=None, across=No
     return axes, unresolved, texts
 
 
-def _in_plane_directions(unresolved, texts, scattered, planar):
-    """Which unresolved ranges leave their direction open (see :func:`resolution`)."""
-    if not scattered:
+def _in_plane_directions(unresolved, texts, surrounded, planar):
+    """Which unresolved ranges leave their direction open (see :func:`resolution`).
+
+    ``surrounded``: pairs surround every unresolved axis (scattered samples,
+    or axes within the benches).
+    """
+    if not surrounded:
         return list(unresolved), unresolved, texts
     if len(unresolved) == 1:
         texts[0] += (". Its direction is still fixed: the samples surround it, and it is "
@@ -230,13 +253,17 @@ def _planar_text(r, n_near):
             "this one) would resolve it")
 
 
-def _unresolved_text(name, r, d_along, short, scattered, nearest, across):
+def _unresolved_text(name, r, d_along, short, scattered, nearest, across, bench=None):
     label = name.replace("_", "-")
     if not d_along.size:
         seen = "cannot be checked: no lag bin lies within 25 degrees of that axis"
     elif short.size == 1:
         seen = (f"rests on one lag bin: only the bin at {short[0]:.3g} m, within 25 degrees "
                 "of that axis, is shorter than it")
+    elif short.size > 1:
+        seen = (f"rests on one lag distance: the {short.size} bins within 25 degrees of that "
+                f"axis that are shorter than it all lie at {short[0]:.3g}-{short[-1]:.3g} m, "
+                "one distance class")
     else:
         seen = (f"is shorter than the shortest lag seen near that axis "
                 f"({float(d_along.min()):.3g} m)")
@@ -246,6 +273,10 @@ def _unresolved_text(name, r, d_along, short, scattered, nearest, across):
         msg += (f"; the across-hole spacing is {across:.3g} m. Closer holes, or holes "
                 "drilled along this axis, would resolve it; until then treat this axis and "
                 "its range as a guess bounded by the spacing")
+    elif bench:
+        msg += (f"; the benches are {bench:.3g} m apart, so pairs along this steep axis start "
+                "near that distance. Holes sampled down through the benches would resolve "
+                "it; until then treat this axis and its range as a guess")
     elif nearest and nearest < 0.5 * r:
         msg += (f"; the samples are about {nearest:.3g} m apart, so a shorter unit lag "
                 "(--lag) would resolve it")
@@ -349,11 +380,13 @@ def diagnose(model: NestedModel, fan: FanRanges, bins: FitBins, *, spacing, has_
     scattered = getattr(spacing, "layout", None) == "scattered" and not has_holes
     by_holes = () if holes is None else tuple(downhole_resolved_axes(
         frame, longest.ranges, holes, tolerance=fan.tolerance))
+    benches = getattr(spacing, "layout", None) == "benches"
     axes, ranges, texts = resolution(
         bins.lags, bins.pairs, longest.ranges, frame, scattered=scattered,
         nearest=getattr(spacing, "nearest", None),
         across=getattr(spacing, "across_hole", None) if has_holes else None,
-        min_pairs=min_pairs, resolved=by_holes, planar=planar)
+        min_pairs=min_pairs, resolved=by_holes, planar=planar, lag_index=bins.lag_index,
+        bench=getattr(spacing, "bench", None) if benches else None)
     amb, axes = _ambiguous(frame_candidates, axes)
     axes, ranges, texts = _unresolvable(continuity, axes, ranges, texts)
     if planar:  # the pole of one bench is assumed, not resolved, and so is its range
