@@ -494,7 +494,8 @@ def _global_start(fit, coords, values, seed, holes, other_frames, confidence):
     if not GLOBAL_FRAME_CHOICE or len(np.atleast_1d(fit.sills)) > 1:
         # two or more variogram structures: their fit can run a structure to the range
         # limit, and candidates polished from it compared badly (issue-4 shoot seed 110,
-        # structures=2: 70 degrees off); the two starts of _first_search handle that case
+        # structures=2: 70 degrees off); refine_frame makes the choice on the best
+        # one-structure fit instead where it has one
         other_frames, holes = (), None
         return FrameChoice((PolishedFrame("variogram fit", frame, ranges, 0.0),), 0.0, (), ()), fit
     choice = global_frame_choice(coords, values, frame, ranges, fit.nugget, fit.sills,
@@ -566,9 +567,12 @@ def refine_frame(fit: NestedFit, bins: FitBins, coords, values, *, seed=0, fit_k
     relabelled); the reason is recorded in ``nested["not_added"]``.
 
     When the variogram fit has two structures and ``one_structure`` (the best
-    one-structure variogram fit) is given, the two-structure likelihood is
-    also maximised from a second start, built as above: the one-structure
-    likelihood's answer with a shorter structure added. The variogram's
+    one-structure variogram fit) is given, the global frame choice is made
+    on ``one_structure`` (a two-structure fit can run a structure to the
+    range limit, and candidates polished from it compare badly), and the
+    two-structure likelihood is also maximised from a second start: the
+    chosen one-structure frame's likelihood answer with a shorter structure
+    added. The variogram's
     two-structure fit can sit in a poor basin (a long structure with little
     sill running to the range limit, which on one issue-4 realisation turned
     the major axis 73 degrees); the start with the higher likelihood is kept
@@ -616,12 +620,17 @@ def refine_frame(fit: NestedFit, bins: FitBins, coords, values, *, seed=0, fit_k
         return FrameRefinement(fit=fit)
     warnings, choices = [], []
     try:
-        choice, start = _global_start(fit, coords, values, seed, holes, other_frames,
-                                      confidence)
+        two = one_structure is not None and len(np.atleast_1d(fit.sills)) > 1
+        if two:   # the global choice made on the one-structure fit, the second start's base
+            choice, one_structure = _global_start(one_structure, coords, values, seed, holes,
+                                                  other_frames, confidence)
+            start = fit
+        else:
+            choice, start = _global_start(fit, coords, values, seed, holes, other_frames,
+                                          confidence)
         # conditioning sets in the one-structure fit's metric where the variogram fit has
         # two structures (a structure run to the range limit distorts the metric)
-        metric_of = one_structure if (one_structure is not None
-                                      and len(np.atleast_1d(fit.sills)) > 1) else start
+        metric_of = one_structure if two else start
         P = _Problem(bins, coords, values, seed, fit_kwargs or {}, metric_of, holes)
         lk, f, starts = _first_search(P, start, one_structure)
         f, held, warning = _keep_axis_order(P, lk, f)
