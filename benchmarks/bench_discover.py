@@ -277,6 +277,11 @@ SCENARIOS = {
     "flat ore, blast-hole benches": dict(
         layout="benches", R=frame(120, 8, 10), nugget=0.2, structures=[(0.8, (80, 50, 6))],
         benches=dict(n=(24, 24), count=4, height=10.0), spacings=(5.0, 7.0, 10.0)),
+    # the flat ore above mined on 5 m benches, six of them: the gap is now under its
+    # minor range (named apart so that --scenarios "flat ore" keeps meaning the one above)
+    "gently dipping ore, 5 m benches": dict(
+        layout="benches", R=frame(120, 8, 10), nugget=0.2, structures=[(0.8, (80, 50, 6))],
+        benches=dict(n=(20, 20), count=6, height=5.0), spacings=(5.0, 7.0, 10.0)),
     "pure nugget, scattered": dict(
         layout="scattered", R=np.eye(3), nugget=1.0, structures=[], box=(250, 250, 250), n=400),
     "pure nugget, holes": dict(
