@@ -114,15 +114,13 @@ def _check_path(p: Path) -> None:
 def _read_parquet(p: Path) -> pd.DataFrame:
     """A Parquet table (needs pyarrow), its column names checked for repeats."""
     try:
-        __import__("pyarrow")   # the plain import statement, without an unused name
+        import pyarrow.parquet as pq
     except ImportError:
         raise InputError(f"Reading the Parquet file '{p}' needs the pyarrow package, "
                          "which is not installed. Install it with "
                          "pip install 'anisotropy[parquet]', or save the table as CSV."
                          ) from None
     try:
-        import pyarrow.parquet as pq
-
         names = pq.read_schema(p).names
     except Exception:  # noqa: BLE001 - an unreadable file is reported just below
         names = []
