@@ -253,7 +253,9 @@ def _planar_text(r, n_near):
             "this one) would resolve it")
 
 
-def _unresolved_text(name, r, d_along, short, scattered, nearest, across, bench=None):
+def _unresolved_text(name, r, d_along, short, surrounded, nearest, across, bench=None):
+    """The warning for an unresolved range; ``surrounded``: pairs surround the axis, so
+    only its range is in doubt; ``bench``: the bench gap, for a steep axis on benches."""
     label = name.replace("_", "-")
     if not d_along.size:
         seen = "cannot be checked: no lag bin lies within 25 degrees of that axis"
@@ -267,7 +269,7 @@ def _unresolved_text(name, r, d_along, short, scattered, nearest, across, bench=
     else:
         seen = (f"is shorter than the shortest lag seen near that axis "
                 f"({float(d_along.min()):.3g} m)")
-    what = "range" if scattered else "axis"
+    what = "range" if surrounded else "axis"
     msg = f"the {label} {what} is not resolved by the sampling: its fitted range ({r:.3g} m) {seen}"
     if across:
         msg += (f"; the across-hole spacing is {across:.3g} m. Closer holes, or holes "
