@@ -11,7 +11,8 @@ that likelihood twice to convergence on the same sets: once from the truth
 and once from the engine's answer.  When the two searches end in different
 basins, the difference of their log-likelihoods says whether that rule can
 separate them.  The exact profile log-likelihood (constant mean by
-generalised least squares, sill profiled; Mardia & Marshall 1984) is then
+generalised least squares, sill profiled; Mardia & Marshall 1984; the
+referee's own, ``exact_likelihood.ProfileLikelihood``) is then
 evaluated at each search's end, on the same samples, to show whether the
 exact likelihood at the approximation's parameters would choose better;
 and, on the engine's row, at the true model against the engine's reported
@@ -33,24 +34,20 @@ import sys
 
 import numpy as np
 import pandas as pd
-from scipy.linalg import cho_factor, cho_solve
 from threadpoolctl import threadpool_limits
 
 import anisotropy
 from anisotropy.fitting.likelihood import refine_frame_likelihood, vecchia_setup
 
 sys.path.insert(0, __file__.rsplit("/", 1)[0])
-from bench_discover import SCENARIOS, axis_err, covariance, realisation  # noqa: E402
+from bench_discover import SCENARIOS, axis_err, realisation  # noqa: E402
+from exact_likelihood import ProfileLikelihood  # noqa: E402
 
 
-def exact_loglik(coords, y, frame, ranges, nugget_share, share):
-    """Profile log-likelihood of one spherical structure (up to a constant)."""
-    C = covariance(coords, frame, nugget_share, [(share, tuple(ranges))])
-    c = cho_factor(C, lower=True)
-    one = np.ones(len(y))
-    w = cho_solve(c, one)
-    r = y - (w @ y) / (w @ one)
-    return -0.5 * len(y) * np.log(r @ cho_solve(c, r) / len(y)) - np.sum(np.log(np.diag(c[0])))
+def exact_loglik(profile, frame, ranges, nugget_share, share):
+    """The referee's profile log-likelihood of one structure at a given model."""
+    share_logit = np.log(share / max(nugget_share, 1e-12))
+    return profile.loglik(np.r_[0.0, 0.0, 0.0, np.log(ranges), share_logit], frame)
 
 
 def rules(frame, ranges, benches):
@@ -72,9 +69,10 @@ def one(name, spec, seed):
     sill, true_r = spec["structures"][0][0], spec["structures"][0][1]
     eng_r = max(m.structures, key=lambda s: s.ranges[0]).ranges
     nug = m.nugget / m.total_sill
+    profile = ProfileLikelihood(X, v, ["spherical"])
     with threadpool_limits(1):   # the exact likelihood at the truth and at the engine's model
-        gap = (exact_loglik(X, v, R, true_r, spec["nugget"], sill)
-               - exact_loglik(X, v, D.frame, eng_r, nug, 1.0 - nug))
+        gap = (exact_loglik(profile, R, true_r, spec["nugget"], sill)
+               - exact_loglik(profile, D.frame, eng_r, nug, 1.0 - nug))
     print(f"| {name} | {seed} | (the engine's own answer) | | {axis_err(D.frame[:, 0], R[:, 0]):.1f}"
           f" / {axis_err(D.frame[:, 2], R[:, 2]):.1f} | | {gap:+.2f} (truth minus the engine's "
           "reported model) |", flush=True)
@@ -84,7 +82,7 @@ def one(name, spec, seed):
                 for F, r, n, s in ((R, true_r, spec["nugget"], sill),
                                    (D.frame, eng_r, nug, 1.0 - nug))]
         with threadpool_limits(1):
-            ex = [exact_loglik(X, v, f.frame, f.ranges[0], f.nugget_share, f.shares[0])
+            ex = [exact_loglik(profile, f.frame, f.ranges[0], f.nugget_share, f.shares[0])
                   for f in ends]
         errs = [f"{axis_err(f.frame[:, 0], R[:, 0]):.1f} / {axis_err(f.frame[:, 2], R[:, 2]):.1f}"
                 for f in ends]
