@@ -199,9 +199,52 @@ def discover(data, *, value=None, x=None, y=None, z=None, domain=None, domain_va
         return run_discovery(data, p)
 
 
+@dataclasses.dataclass(frozen=True)
+class _Measured:
+    """The stages up to the fan: what the samples and their pairs show (steps 2-7)."""
+
+    samples: object
+    prep: object
+    tc: object
+    sc: object
+    lc: object
+    pv: object
+    wb: object
+    fr: object
+
+
+@dataclasses.dataclass(frozen=True)
+class _Fitted:
+    """The stages from the starting frames to the diagnosis (steps 8-10)."""
+
+    fs: FitSettings
+    starts: tuple
+    search: object
+    ref: object
+    dg: object
+
+
 def run_discovery(data, p: DiscoverParams) -> Discovery:
     """The discovery chain for settings already checked (see :func:`discover`)."""
     t = _Clock(p.progress)
+    m = _measure(data, p, t)
+    f = _fit(m, p, t)
+    records = (m.prep, m.tc, m.sc, m.lc, m.pv, m.wb, m.fr, f.search, f.ref, f.dg)
+    D = Discovery(params=p, prepared=m.prep, transform_choice=m.tc, sill_choice=m.sc,
+                  lag_choice=m.lc, pair_volume=m.pv, weighted=m.wb, fan_ranges=m.fr,
+                  starts=f.starts, search=f.search, refinement=f.ref, diagnosis=f.dg,
+                  refit=RefitState.of(f.ref, m.wb, f.fs, estimator=p.estimator,
+                                      shared_ratios=p.shared_ratios),
+                  warnings=[w for r in records for w in r.warnings],
+                  choices=[dict(c) for r in records for c in r.choices], seconds=t.total())
+    D.run = run_record(m.samples.source, _options(p), p.seed)
+    if p.n_bootstrap:
+        _add_bootstrap(D, p, t)
+    return D
+
+
+def _measure(data, p: DiscoverParams, t) -> _Measured:
+    """Read, prepare, transform, lags, the pair volume, its fit bins and the fan."""
     samples = t("read", read, data, p)
     prep = t("prepare", prepare, samples, top_cut=p.top_cut, top_cut_mode=p.top_cut_mode)
     samples = prep.samples   # after the top-cut (exclusion leaves samples out)
@@ -225,50 +268,50 @@ def run_discovery(data, p: DiscoverParams) -> Discovery:
            kind=p.kind_list[0], fan_spacing=p.fan_spacing,
            angular_tolerance=p.angular_tolerance, bandwidth=p.bandwidth, estimator=p.estimator,
            min_pairs=p.min_pairs_fan, planar=prep.planar, seed=p.seed)
+    return _Measured(samples=samples, prep=prep, tc=tc, sc=sc, lc=lc, pv=pv, wb=wb, fr=fr)
+
+
+def _fit(m: _Measured, p: DiscoverParams, t) -> _Fitted:
+    """The orientation search, the structures and likelihood, continuity and the diagnosis."""
+    samples, prep, lc, wb, fr = m.samples, m.prep, m.lc, m.wb, m.fr
     starts = t("starts", starting_frames, fr, wb.bins, unit_lag=lc.unit_lag,
                max_distance=lc.max_distance, seed=p.seed, planar=prep.planar)
     fs = FitSettings.for_lags(lc.unit_lag, lc.max_distance, fixed_nugget=wb.fixed_nugget,
-                              total_sill=sc.total, planar=prep.planar)
+                              total_sill=m.sc.total, planar=prep.planar)
     t.say(f"fitting the orientation from {len(starts)} starting frames")
     search = t("search", search_orientation, wb.bins, starts, fs, nugget=fr.nugget,
                sill=fr.sill, kinds=p.kind_list)
     t.say("nested structures")
     ref = t("structures", choose_structures, wb.bins, search, fs, coords=samples.coords,
-            values=tc.values, n_structures=p.n_structures, kinds=p.kinds,
+            values=m.tc.values, n_structures=p.n_structures, kinds=p.kinds,
             shared_ratios=p.shared_ratios, seed=p.seed, holes=samples.holes,
             confidence=p.confidence,
-            refine=refinement_applies(planar=prep.planar, transform_kind=tc.kind,
+            refine=refinement_applies(planar=prep.planar, transform_kind=m.tc.kind,
                                       estimator=p.estimator))
     t.say("is there continuity to model? (permutation test)")
-    cc = t("continuity", check_continuity, samples.coords, tc.values, lag=lc.unit_lag,
+    cc = t("continuity", check_continuity, samples.coords, m.tc.values, lag=lc.unit_lag,
            seed=p.seed, shortest_downhole=prep.spacing.down_hole if prep.has_holes else None,
            holes=samples.holes if prep.has_holes else None)
     dg = t("diagnose", diagnose, ref.model, fr, wb.bins, spacing=prep.spacing,
            has_holes=prep.has_holes, planar=prep.planar, max_distance=lc.max_distance,
-           max_range=fs.max_range, min_pairs=wb.min_pairs, transform_kind=tc.kind,
+           max_range=fs.max_range, min_pairs=wb.min_pairs, transform_kind=m.tc.kind,
            estimator=p.estimator, continuity=cc,
            holes=hole_axes(samples.coords, samples.holes) if prep.has_holes else None,
            frame_candidates=(ref.record or {}).get("frame_candidates"))
-    records = (prep, tc, sc, lc, pv, wb, fr, search, ref, dg)
-    D = Discovery(params=p, prepared=prep, transform_choice=tc, sill_choice=sc, lag_choice=lc,
-                  pair_volume=pv, weighted=wb, fan_ranges=fr, starts=starts, search=search,
-                  refinement=ref, diagnosis=dg,
-                  refit=RefitState.of(ref, wb, fs, estimator=p.estimator,
-                                      shared_ratios=p.shared_ratios),
-                  warnings=[w for r in records for w in r.warnings],
-                  choices=[dict(c) for r in records for c in r.choices], seconds=t.total())
-    D.run = run_record(samples.source, _options(p), p.seed)
-    if p.n_bootstrap:
-        D.uncertainty = t("bootstrap", D.bootstrap, p.n_bootstrap, method=p.bootstrap_method,
-                          confidence_level=p.confidence, rng=p.seed, n_jobs=p.n_jobs,
-                          scheduler=p.scheduler, progress=p.progress)
-        _record_bootstrap_blocks(D)
-        after = with_bootstrap(D.diagnosis, D.uncertainty.swap_rates(), p.confidence,
-                               cones=_cones(D.uncertainty), tolerance=fr.tolerance)
-        D.warnings.extend(w for w in after.warnings if w not in D.diagnosis.warnings)
-        D.diagnosis = after
-        D.seconds = t.total()
-    return D
+    return _Fitted(fs=fs, starts=starts, search=search, ref=ref, dg=dg)
+
+
+def _add_bootstrap(D: Discovery, p: DiscoverParams, t) -> None:
+    """The bands, and the diagnosis after them (axes the replicates leave open)."""
+    D.uncertainty = t("bootstrap", D.bootstrap, p.n_bootstrap, method=p.bootstrap_method,
+                      confidence_level=p.confidence, rng=p.seed, n_jobs=p.n_jobs,
+                      scheduler=p.scheduler, progress=p.progress)
+    _record_bootstrap_blocks(D)
+    after = with_bootstrap(D.diagnosis, D.uncertainty.swap_rates(), p.confidence,
+                           cones=_cones(D.uncertainty), tolerance=D.fan_ranges.tolerance)
+    D.warnings.extend(w for w in after.warnings if w not in D.diagnosis.warnings)
+    D.diagnosis = after
+    D.seconds = t.total()
 
 
 def _cones(boot) -> dict:
