@@ -105,58 +105,71 @@ def samples_from_frame(df, *, value, x=None, y=None, z=None, domain=None, domain
         raise InsufficientDataError(f"'{source}' has no data rows"
                                     + (f" in domain {selected_domain!r}." if selected_domain
                                        else ". Give a table with one row per sample."))
-    parsed, v, v_blank, v_text = _parse_numbers(
-        df, cols, z=z, source=source, data_rows=data_rows,
-        decimal=table_info.get("decimal") or ".", warnings=warnings)
-
-    tally = _Tally(data_rows)
-    _drop_blanks(tally, parsed, v_blank, v_text, warnings)
-    _apply_missing_codes(tally, v, missing_codes, warnings)
-    v = _apply_below_detection(tally, v, below_detection, warnings)
-
-    idx = np.flatnonzero(tally.alive)
-    world = np.column_stack([parsed[a][0][idx] for a in "xyz"]).astype(np.float64)
-    values = v[idx].astype(np.float64)
-    rows = data_rows[idx]
-    holes = _hole_ids(df, cols["hole"], idx, rows, warnings)
-    if len(values) == 0:
-        raise InsufficientDataError(
-            f"In '{source}': no samples are left to study"
-            + (f" in domain {selected_domain!r}" if selected_domain else "")
-            + f" after leaving out {', '.join(f'{c} ({r})' for r, c in tally.dropped.items())}. "
-            "Check the grade column and the assay-code options.")
-
-    # local origin, before any other arithmetic
-    origin = np.floor(world.min(axis=0))
-    coords = world - origin
-    coords, values, rows, holes, dup = _apply_duplicates(
-        tally, coords, values, rows, holes, duplicates, warnings)
-
-    planar = True if cols["z"] is None else _planarity(coords, warnings)
-    if len(values) > 1 and np.ptp(values) == 0:
-        warnings.append(f"All {len(values)} grades are equal ({values[0]:g}); there is no "
-                        "variability to study.")
-
+    parsed, v, tally = _tallied_values(df, cols, z=z, source=source, data_rows=data_rows,
+                                       decimal=table_info.get("decimal") or ".",
+                                       policies=policies, warnings=warnings)
+    kept = _kept_samples(df, cols, parsed, v, tally, source=source, domain=selected_domain,
+                         duplicates=duplicates, warnings=warnings)
     return SampleSet(
-        coords=np.ascontiguousarray(coords, dtype=np.float64),
-        values=np.ascontiguousarray(values, dtype=np.float64),
-        origin=origin.astype(np.float64),
-        holes=holes,
+        coords=np.ascontiguousarray(kept["coords"], dtype=np.float64),
+        values=np.ascontiguousarray(kept["values"], dtype=np.float64),
+        origin=kept["origin"].astype(np.float64),
+        holes=kept["holes"],
         domain=selected_domain,
         source=source,
         columns=cols,
         n_read=n_read,
         dropped=tally.dropped,
         changed=tally.changed,
-        duplicates=dup,
+        duplicates=kept["duplicates"],
         warnings=warnings,
-        planar=planar,
-        rows=np.asarray(rows, dtype=np.int64),
+        planar=kept["planar"],
+        rows=np.asarray(kept["rows"], dtype=np.int64),
         policies=policies,
         table=table_info,
         dropped_rows=tally.dropped_rows,
         changed_rows=tally.changed_rows,
     )
+
+
+def _tallied_values(df, cols, *, z, source, data_rows, decimal, policies, warnings):
+    """The numbers of every column, and the grade policies applied, each drop counted.
+
+    Returns the parsed columns, the grades after the below-detection policy
+    and the :class:`_Tally` of what was left out or changed.
+    """
+    parsed, v, v_blank, v_text = _parse_numbers(
+        df, cols, z=z, source=source, data_rows=data_rows, decimal=decimal, warnings=warnings)
+    tally = _Tally(data_rows)
+    _drop_blanks(tally, parsed, v_blank, v_text, warnings)
+    _apply_missing_codes(tally, v, policies["missing_codes"], warnings)
+    v = _apply_below_detection(tally, v, policies["below_detection"], warnings)
+    return parsed, v, tally
+
+
+def _kept_samples(df, cols, parsed, v, tally, *, source, domain, duplicates, warnings) -> dict:
+    """The samples still alive: local coordinates, grades, rows, holes, duplicates, planarity."""
+    idx = np.flatnonzero(tally.alive)
+    world = np.column_stack([parsed[a][0][idx] for a in "xyz"]).astype(np.float64)
+    values = v[idx].astype(np.float64)
+    rows = tally.data_rows[idx]
+    holes = _hole_ids(df, cols["hole"], idx, rows, warnings)
+    if len(values) == 0:
+        raise InsufficientDataError(
+            f"In '{source}': no samples are left to study"
+            + (f" in domain {domain!r}" if domain else "")
+            + f" after leaving out {', '.join(f'{c} ({r})' for r, c in tally.dropped.items())}. "
+            "Check the grade column and the assay-code options.")
+    # local origin, before any other arithmetic
+    origin = np.floor(world.min(axis=0))
+    coords, values, rows, holes, dup = _apply_duplicates(
+        tally, world - origin, values, rows, holes, duplicates, warnings)
+    planar = True if cols["z"] is None else _planarity(coords, warnings)
+    if len(values) > 1 and np.ptp(values) == 0:
+        warnings.append(f"All {len(values)} grades are equal ({values[0]:g}); there is no "
+                        "variability to study.")
+    return {"coords": coords, "values": values, "origin": origin, "rows": rows,
+            "holes": holes, "duplicates": dup, "planar": planar}
 
 
 def _checked_frame(df, policies: dict, source) -> tuple[pd.DataFrame, str, dict]:
