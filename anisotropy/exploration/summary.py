@@ -198,27 +198,7 @@ def explore(samples, values=None, *, holes=None, quantiles=DEFAULT_QUANTILES,
     -------
     Exploration
     """
-    meta: dict = {}
-    if values is None:
-        if not hasattr(samples, "coords") or not hasattr(samples, "values"):
-            raise InputError("explore() takes a SampleSet, or coordinates and values: "
-                             "explore(coords, values, holes=None).")
-        coords, vals = samples.coords, samples.values
-        if holes is None:
-            holes = getattr(samples, "holes", None)
-        cols = getattr(samples, "columns", None) or {}
-        origin = getattr(samples, "origin", None)
-        meta = dict(dropped=dict(getattr(samples, "dropped", {}) or {}),
-                    changed=dict(getattr(samples, "changed", {}) or {}),
-                    warnings=list(getattr(samples, "warnings", []) or []),
-                    source=str(getattr(samples, "source", "<table>")),
-                    value_column=cols.get("value"), domain=getattr(samples, "domain", None),
-                    n_read=getattr(samples, "n_read", None),
-                    duplicates=getattr(samples, "duplicates", None),
-                    planar=bool(getattr(samples, "planar", False)),
-                    origin=None if origin is None else [float(o) for o in origin])
-    else:
-        coords, vals = samples, values
+    coords, vals, holes, meta = _inputs(samples, values, holes)
     c, v = _coords_values(coords, vals)
     if v.size < MIN_SAMPLES:
         raise InsufficientDataError(
@@ -228,39 +208,72 @@ def explore(samples, values=None, *, holes=None, quantiles=DEFAULT_QUANTILES,
     if any(not 0.0 <= q <= 1.0 for q in qs):
         raise InputError("quantiles must be probabilities between 0 and 1.")
     warnings = list(meta.pop("warnings", []))
-    mean = float(v.mean())
-    std = float(v.std())
+    mean, std = float(v.mean()), float(v.std())
     cv = std / mean if mean > 0 else None
-    skew = float(stats.skew(v)) if std > 0 else None
     qv = np.quantile(v, qs) if qs else []
-    quant = {_qkey(q): float(x) for q, x in zip(qs, qv)}
     spacing = nominal_spacing(c, holes, bench_tolerance=bench_tolerance)
     if cell_sizes is None:
-        base = spacing.across_hole or spacing.nearest
-        extent = float(np.ptp(c, axis=0).max())
-        if base and extent > 0:
-            cell_sizes = np.geomspace(base / 2.0, max(base, min(10.0 * base, extent / 2.0)), 24)
+        cell_sizes = _default_cell_sizes(c, spacing)
     decl = cell_declustering(c, v, cell_sizes, n_offsets=n_offsets, cell_shape=cell_shape,
                              criterion=declustering_criterion)
     warnings.extend(n for n in decl.notes if "end of the range" in n)
-    topcut = topcut_candidates(v)
-    strongly = bool(cv is not None and cv > STRONG_SKEW_CV)
-    if strongly:
-        warnings.append(f"CV is {cv:.2f} (above {STRONG_SKEW_CV:g}): strongly skewed; prefer "
-                        "normal scores or a robust estimator (common practice).")
-    if mean <= 0:
-        warnings.append("The mean grade is zero or negative: CV is not defined; check the value "
-                        "column and the assay-code policy.")
     trend = trend_check(c, v, threshold=trend_threshold)
-    if trend.warning:
-        warnings.append(trend.warning)
-    if v.size < 100:
-        warnings.append(f"Only {v.size} samples: experimental variograms will be noisy "
-                        "(fewer than about 100 is thin, common practice).")
-    if spacing.layout == "scattered" and holes is None:
-        warnings.append("No hole ids given and no bench levels found: down-hole spacing is "
-                        "unknown; give the hole column if the samples come from drill holes.")
+    warnings += _cautions(v, mean, cv, trend, spacing, holes)
     return Exploration(count=int(v.size), mean=mean, std=std, cv=cv, min=float(v.min()),
-                       max=float(v.max()), skewness=skew, quantiles=quant, declustering=decl,
-                       spacing=spacing, topcut=topcut, strongly_skewed=strongly, trend=trend,
-                       warnings=warnings, **meta)
+                       max=float(v.max()), skewness=float(stats.skew(v)) if std > 0 else None,
+                       quantiles={_qkey(q): float(x) for q, x in zip(qs, qv)},
+                       declustering=decl, spacing=spacing, topcut=topcut_candidates(v),
+                       strongly_skewed=bool(cv is not None and cv > STRONG_SKEW_CV),
+                       trend=trend, warnings=warnings, **meta)
+
+
+def _inputs(samples, values, holes):
+    """Coordinates, grades, hole ids and the reading's record (a SampleSet's, or none)."""
+    if values is not None:
+        return samples, values, holes, {}
+    if not hasattr(samples, "coords") or not hasattr(samples, "values"):
+        raise InputError("explore() takes a SampleSet, or coordinates and values: "
+                         "explore(coords, values, holes=None).")
+    if holes is None:
+        holes = getattr(samples, "holes", None)
+    cols = getattr(samples, "columns", None) or {}
+    origin = getattr(samples, "origin", None)
+    meta = dict(dropped=dict(getattr(samples, "dropped", {}) or {}),
+                changed=dict(getattr(samples, "changed", {}) or {}),
+                warnings=list(getattr(samples, "warnings", []) or []),
+                source=str(getattr(samples, "source", "<table>")),
+                value_column=cols.get("value"), domain=getattr(samples, "domain", None),
+                n_read=getattr(samples, "n_read", None),
+                duplicates=getattr(samples, "duplicates", None),
+                planar=bool(getattr(samples, "planar", False)),
+                origin=None if origin is None else [float(o) for o in origin])
+    return samples.coords, samples.values, holes, meta
+
+
+def _default_cell_sizes(c, spacing):
+    """24 declustering cell sizes, half to ten times the nominal spacing (None: no spacing)."""
+    base = spacing.across_hole or spacing.nearest
+    extent = float(np.ptp(c, axis=0).max())
+    if base and extent > 0:
+        return np.geomspace(base / 2.0, max(base, min(10.0 * base, extent / 2.0)), 24)
+    return None
+
+
+def _cautions(v, mean, cv, trend, spacing, holes) -> list:
+    """Warnings on skewness, the mean, a trend, few samples and unknown hole ids."""
+    out = []
+    if cv is not None and cv > STRONG_SKEW_CV:
+        out.append(f"CV is {cv:.2f} (above {STRONG_SKEW_CV:g}): strongly skewed; prefer "
+                   "normal scores or a robust estimator (common practice).")
+    if mean <= 0:
+        out.append("The mean grade is zero or negative: CV is not defined; check the value "
+                   "column and the assay-code policy.")
+    if trend.warning:
+        out.append(trend.warning)
+    if v.size < 100:
+        out.append(f"Only {v.size} samples: experimental variograms will be noisy "
+                   "(fewer than about 100 is thin, common practice).")
+    if spacing.layout == "scattered" and holes is None:
+        out.append("No hole ids given and no bench levels found: down-hole spacing is "
+                   "unknown; give the hole column if the samples come from drill holes.")
+    return out
