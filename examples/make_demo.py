@@ -260,73 +260,95 @@ def demo_layout(*, seed=DEFAULT_SEED, scale=1.0):
     g = _geometry()
     rng, field_seeds, _ = _streams(seed)
     regions = _regions(scale)
+    collars, composites, drilled = _drill(regions, g, rng)
+    blastholes, n_blast_outside = _blast(regions, rng, scale)
+    _check_sizes(composites, blastholes, scale)
+    return {
+        "collars": collars,
+        "composites": composites,
+        "blastholes": blastholes,
+        "excluded": {
+            "collar_candidates_not_drilled": drilled["candidates"] - drilled["holes"],
+            "composites_outside_domains": drilled["composites_outside"],
+            "blastholes_outside_domain": n_blast_outside,
+        },
+        "field_seeds": field_seeds,
+    }
 
+
+def _collar_grid(region, drill, g):
+    """Centre, along/across unit vectors, spacings and grid indices of a domain's collars."""
+    az0, dip0 = drill["azimuth"], drill["dip"]
+    s_along, s_across = drill["spacing"]
+    u0 = np.asarray(g.line_to_vector(az0, -dip0), float)
+    # collar-grid centre: back from the region centre along the hole to the surface
+    depth = _topography(*region.centre[:2]) - region.centre[2]
+    back = depth / np.tan(np.radians(-dip0))
+    centre_xy = region.centre[:2] - back * u0[:2] / np.hypot(*u0[:2])
+    across = u0[:2] / np.hypot(*u0[:2])
+    along = np.array([across[1], -across[0]])
+    reach = float(np.linalg.norm(region.half)) + 60.0
+    ia = np.arange(-np.ceil(reach / s_along), np.ceil(reach / s_along) + 1)
+    ic = np.arange(-np.ceil(reach / s_across), np.ceil(reach / s_across) + 1)
+    return centre_xy, along, across, (s_along, s_across), (ia, ic)
+
+
+def _drill(regions, g, rng):
+    """Every domain's holes, in domain order: collars, composites and the counts."""
     collar_rows, composite_blocks = [], []
-    n_hole = 0
-    n_comp_outside = 0
-    n_candidates = 0
+    counts = {"candidates": 0, "holes": 0, "composites_outside": 0}
     for region, (name, spec) in zip(regions, DOMAINS.items()):
         drill = spec["drilling"]
-        az0, dip0 = drill["azimuth"], drill["dip"]
-        s_along, s_across = drill["spacing"]
-        u0 = np.asarray(g.line_to_vector(az0, -dip0), float)
-        # collar-grid centre: back from the region centre along the hole to the surface
-        depth = _topography(*region.centre[:2]) - region.centre[2]
-        back = depth / np.tan(np.radians(-dip0))
-        centre_xy = region.centre[:2] - back * u0[:2] / np.hypot(*u0[:2])
-        across = u0[:2] / np.hypot(*u0[:2])
-        along = np.array([across[1], -across[0]])
-        reach = float(np.linalg.norm(region.half)) + 60.0
-        ia = np.arange(-np.ceil(reach / s_along), np.ceil(reach / s_along) + 1)
-        ic = np.arange(-np.ceil(reach / s_across), np.ceil(reach / s_across) + 1)
+        centre_xy, along, across, (s_along, s_across), (ia, ic) = _collar_grid(region, drill, g)
         for c in ic:
             for a in ia:
-                n_candidates += 1
-                jit = rng.uniform(-1.0, 1.0, size=4)
+                counts["candidates"] += 1
                 xy = centre_xy + a * s_along * along + c * s_across * across
-                xy = np.round(xy + HOLE_JITTER["collar_m"] * jit[:2], 2)
-                z = round(float(_topography(*xy)), 2)
-                az = round(float((az0 + HOLE_JITTER["azimuth_deg"] * jit[2]) % 360.0), 2)
-                dip = round(float(dip0 + HOLE_JITTER["dip_deg"] * jit[3]), 2)
-                collar = np.array([xy[0], xy[1], z])
-                u = np.asarray(g.line_to_vector(az, -dip), float)
-                frm = np.arange(0.0, MAX_HOLE_LENGTH, COMPOSITE_LENGTH)
-                mids = collar + np.outer(frm + COMPOSITE_LENGTH / 2.0, u)
-                labels = _label(mids, regions)
-                hit = labels != ""
-                if not np.any(labels == name):
-                    continue  # this collar never reaches its target: not drilled
-                n_hole += 1
-                hole_id = f"FH{n_hole:04d}"
-                last_to = frm[hit][-1] + COMPOSITE_LENGTH
-                depth_m = float(last_to + rng.integers(10, 31))
-                in_hole = frm + COMPOSITE_LENGTH <= depth_m
-                n_comp_outside += int(np.count_nonzero(in_hole & ~hit))
-                collar_rows.append(
-                    {"hole_id": hole_id, "x": xy[0], "y": xy[1], "z": z, "azimuth": az,
-                     "dip": dip, "depth_m": depth_m, "target": name}
-                )
-                composite_blocks.append(
-                    pd.DataFrame(
-                        {
-                            "hole_id": hole_id,
-                            "from_m": frm[hit],
-                            "to_m": frm[hit] + COMPOSITE_LENGTH,
-                            "mid_x": mids[hit, 0],
-                            "mid_y": mids[hit, 1],
-                            "mid_z": mids[hit, 2],
-                            "domain": labels[hit].astype(str),
-                        }
-                    )
-                )
+                hole = _drill_hole(xy, drill, name, regions, g, rng, counts)
+                if hole is not None:
+                    collar_rows.append(hole[0])
+                    composite_blocks.append(hole[1])
     collars = pd.DataFrame(collar_rows, columns=COLLAR_COLUMNS)
     composites = (
         pd.concat(composite_blocks, ignore_index=True)
         if composite_blocks
         else pd.DataFrame(columns=["hole_id", "from_m", "to_m", "mid_x", "mid_y", "mid_z", "domain"])
     )
+    return collars, composites, counts
 
-    # grade-control blast holes over the blanket
+
+def _drill_hole(xy, drill, name, regions, g, rng, counts):
+    """One jittered collar: its row and composites, or None when it never reaches its domain."""
+    jit = rng.uniform(-1.0, 1.0, size=4)
+    xy = np.round(xy + HOLE_JITTER["collar_m"] * jit[:2], 2)
+    z = round(float(_topography(*xy)), 2)
+    az = round(float((drill["azimuth"] + HOLE_JITTER["azimuth_deg"] * jit[2]) % 360.0), 2)
+    dip = round(float(drill["dip"] + HOLE_JITTER["dip_deg"] * jit[3]), 2)
+    collar = np.array([xy[0], xy[1], z])
+    u = np.asarray(g.line_to_vector(az, -dip), float)
+    frm = np.arange(0.0, MAX_HOLE_LENGTH, COMPOSITE_LENGTH)
+    mids = collar + np.outer(frm + COMPOSITE_LENGTH / 2.0, u)
+    labels = _label(mids, regions)
+    hit = labels != ""
+    if not np.any(labels == name):
+        return None  # this collar never reaches its target: not drilled
+    counts["holes"] += 1
+    hole_id = f"FH{counts['holes']:04d}"
+    last_to = frm[hit][-1] + COMPOSITE_LENGTH
+    depth_m = float(last_to + rng.integers(10, 31))
+    in_hole = frm + COMPOSITE_LENGTH <= depth_m
+    counts["composites_outside"] += int(np.count_nonzero(in_hole & ~hit))
+    row = {"hole_id": hole_id, "x": xy[0], "y": xy[1], "z": z, "azimuth": az, "dip": dip,
+           "depth_m": depth_m, "target": name}
+    block = pd.DataFrame({"hole_id": hole_id, "from_m": frm[hit],
+                          "to_m": frm[hit] + COMPOSITE_LENGTH, "mid_x": mids[hit, 0],
+                          "mid_y": mids[hit, 1], "mid_z": mids[hit, 2],
+                          "domain": labels[hit].astype(str)})
+    return row, block
+
+
+def _blast(regions, rng, scale):
+    """Grade-control blast holes over the domains that have them (the blanket)."""
     blocks, n_blast_outside = [], 0
     for region, (name, spec) in zip(regions, DOMAINS.items()):
         bh = spec.get("blastholes")
@@ -342,35 +364,16 @@ def demo_layout(*, seed=DEFAULT_SEED, scale=1.0):
             x = np.round(gx.ravel() + jit[:, 0], 2)
             y = np.round(gy.ravel() + jit[:, 1], 2)
             z = np.full(x.size, floor + bh["bench_height"] / 2.0)
-            pts = np.column_stack([x, y, z])
-            inside = region.contains(pts)
+            inside = region.contains(np.column_stack([x, y, z]))
             n_blast_outside += int(np.count_nonzero(~inside))
             bench = int(round(floor))
-            blocks.append(
-                pd.DataFrame(
-                    {
-                        "blast_id": [f"GC{bench}-{k + 1:04d}" for k in range(int(inside.sum()))],
-                        "bench": bench,
-                        "x": x[inside],
-                        "y": y[inside],
-                        "z": z[inside],
-                        "domain": name,
-                    }
-                )
-            )
-    blastholes = pd.concat(blocks, ignore_index=True) if blocks else pd.DataFrame(columns=BLASTHOLE_COLUMNS)
-    _check_sizes(composites, blastholes, scale)
-    return {
-        "collars": collars,
-        "composites": composites,
-        "blastholes": blastholes,
-        "excluded": {
-            "collar_candidates_not_drilled": n_candidates - n_hole,
-            "composites_outside_domains": n_comp_outside,
-            "blastholes_outside_domain": n_blast_outside,
-        },
-        "field_seeds": field_seeds,
-    }
+            blocks.append(pd.DataFrame({
+                "blast_id": [f"GC{bench}-{k + 1:04d}" for k in range(int(inside.sum()))],
+                "bench": bench, "x": x[inside], "y": y[inside], "z": z[inside],
+                "domain": name}))
+    blastholes = (pd.concat(blocks, ignore_index=True) if blocks
+                  else pd.DataFrame(columns=BLASTHOLE_COLUMNS))
+    return blastholes, n_blast_outside
 
 
 def _check_sizes(composites, blastholes, scale):
@@ -520,6 +523,34 @@ def _r(x, nd=6):
 
 
 def _truth_domain(name, spec, layout, scale):
+    """The true model and everything that made one domain's samples, for truth.json."""
+    out = {"description": spec["description"]}
+    out.update(_truth_geometry(spec))
+    out.update(_truth_making(spec, scale))
+    out.update(_truth_counts(name, layout))
+    out["field_seed"] = int(layout["field_seeds"][name])
+    out["codes"] = {"composites": dict(CODES["composites"])}
+    if "blastholes" in spec:
+        bh = spec["blastholes"]
+        out["blastholes"] = {
+            "pattern_m": [_r(v) for v in bh["pattern"]],
+            "extent_m": [_r(v * np.sqrt(scale)) for v in bh["extent"]],
+            "bench_height_m": _r(bh["bench_height"]),
+            "bench_floors": [int(v) for v in bh["bench_floors"]],
+            "z": "mid-bench RL",
+            "jitter_m": _r(BLASTHOLE_JITTER_M),
+        }
+        out["codes"]["blastholes"] = dict(CODES["blastholes"])
+    return {k: out[k] for k in _TRUTH_ORDER if k in out}
+
+
+#: The order of a domain's sections in truth.json (as the file has always had them).
+_TRUTH_ORDER = ("description", "model", "axes", "rotation", "plane", "grade_transform", "region",
+                "drilling", "field_seed", "simulation", "counts", "codes", "blastholes")
+
+
+def _truth_geometry(spec):
+    """The model, its axes, rotation and plane (as discovery.json writes them)."""
     g = _geometry()
     R = _domain_frame(spec)
     dd, dip = spec["plane"]["dip_direction"], spec["plane"]["dip"]
@@ -528,20 +559,10 @@ def _truth_domain(name, spec, layout, scale):
     axes = {}
     for k, axis in enumerate(("major", "semi_major", "minor")):
         t, p = g.vector_to_line(R[:, k])
-        axes[axis] = {
-            "vector": [_r(v, 12) for v in R[:, k]],
-            "trend": _r(t, 3),
-            "plunge": _r(p, 3),
-            "range": _r(longest["ranges"][k]),
-        }
+        axes[axis] = {"vector": [_r(v, 12) for v in R[:, k]], "trend": _r(t, 3),
+                      "plunge": _r(p, 3), "range": _r(longest["ranges"][k])}
     az, pl, rot = g.angles_from_frame(R)
     pole_dd, pole_dip = g.pole_to_plane(R[:, 2])
-    mu, sigma = _lognormal_parameters(spec["grade"]["mean_gpt"], spec["grade"]["cv"])
-    comp = layout["composites"]
-    blast = layout["blastholes"]
-    n_comp = int(np.count_nonzero(comp["domain"].to_numpy() == name))
-    n_blast = int(np.count_nonzero(blast["domain"].to_numpy() == name)) if len(blast) else 0
-    holes = sorted(set(comp.loc[comp["domain"] == name, "hole_id"]))
     structures = [
         {
             "type": s["kind"],
@@ -550,8 +571,7 @@ def _truth_domain(name, spec, layout, scale):
         }
         for s in spec["model"]["structures"]
     ]
-    out = {
-        "description": spec["description"],
+    return {
         "model": {
             "units": "normal score",
             "nugget": _r(spec["model"]["nugget"]),
@@ -572,6 +592,13 @@ def _truth_domain(name, spec, layout, scale):
             "pitch": _r(g.pitch_of(R[:, 0], dd, dip), 3),
             "check_from_pole": {"dip_direction": _r(pole_dd, 3), "dip": _r(pole_dip, 3)},
         },
+    }
+
+
+def _truth_making(spec, scale):
+    """The grade transform, the region and the drilling that made the samples."""
+    mu, sigma = _lognormal_parameters(spec["grade"]["mean_gpt"], spec["grade"]["cv"])
+    return {
         "grade_transform": {
             "kind": "lognormal",
             "formula": "au_gpt = exp(mu + sigma * y), y the normal-score Gaussian field; rounded to 0.01 g/t, at least 0.01",
@@ -593,7 +620,17 @@ def _truth_domain(name, spec, layout, scale):
             "collar_spacing_m": [_r(v) for v in spec["drilling"]["spacing"]],
             "jitter": {k: _r(v) for k, v in HOLE_JITTER.items()},
         },
-        "field_seed": int(layout["field_seeds"][name]),
+    }
+
+
+def _truth_counts(name, layout):
+    """How the domain's points were simulated, and how many holes, composites, blast holes."""
+    comp = layout["composites"]
+    blast = layout["blastholes"]
+    n_comp = int(np.count_nonzero(comp["domain"].to_numpy() == name))
+    n_blast = int(np.count_nonzero(blast["domain"].to_numpy() == name)) if len(blast) else 0
+    holes = sorted(set(comp.loc[comp["domain"] == name, "hole_id"]))
+    return {
         "simulation": {
             "function": "anisotropy.simulate.simulate_field",
             "method": _simulation_method(n_comp + n_blast),
@@ -605,20 +642,7 @@ def _truth_domain(name, spec, layout, scale):
             "composites": n_comp + CODES["composites"]["duplicated_locations"],
             "blastholes": n_blast + (CODES["blastholes"]["duplicated_locations"] if n_blast else 0),
         },
-        "codes": {"composites": dict(CODES["composites"])},
     }
-    if "blastholes" in spec:
-        bh = spec["blastholes"]
-        out["blastholes"] = {
-            "pattern_m": [_r(v) for v in bh["pattern"]],
-            "extent_m": [_r(v * np.sqrt(scale)) for v in bh["extent"]],
-            "bench_height_m": _r(bh["bench_height"]),
-            "bench_floors": [int(v) for v in bh["bench_floors"]],
-            "z": "mid-bench RL",
-            "jitter_m": _r(BLASTHOLE_JITTER_M),
-        }
-        out["codes"]["blastholes"] = dict(CODES["blastholes"])
-    return out
 
 
 def _truth_from_layout(layout, seed, scale):
