@@ -33,7 +33,10 @@ every result):
   ``confidence`` (0.9) cone of that axis (the cone as reported before any
   widening to a rival frame: the likelihood's information cone where its
   axis and the variogram fit's agree, else the wider of it and the
-  replicates' cone with the bootstrap's calibration factor;
+  replicates' cone with the bootstrap's calibration factor, and never
+  narrower than twice the fan's angular tolerance on an axis whose
+  direction the sampling leaves unresolved, which the data therefore cannot
+  contradict closer than that;
   :meth:`anisotropy.uncertainty.result.BootstrapResult.cone`) and exceeds
   ``practical_deg`` (10 degrees: differences below this are within what
   careful practitioners disagree by, common practice, and never count

@@ -311,6 +311,7 @@ def _add_bootstrap(D: Discovery, p: DiscoverParams, t) -> None:
                            cones=_cones(D.uncertainty), tolerance=D.fan_ranges.tolerance)
     D.warnings.extend(w for w in after.warnings if w not in D.diagnosis.warnings)
     D.diagnosis = after
+    D.uncertainty.open_axes = D.open_cone_floors()   # the axes the replicates also left open
     D.seconds = t.total()
 
 

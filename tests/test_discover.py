@@ -651,6 +651,26 @@ def test_planar_bench_gives_an_azimuth_only_result():
     assert "not resolved (planar data" in minor_line
 
 
+def test_an_unresolved_direction_has_no_narrow_cone():
+    # one bench: the vertical pole is assumed, not resolved, so every replicate holds it
+    # too and their cone is 0; the reported cone is then the floor of an open direction,
+    # twice the fan's angular tolerance (Discovery.open_cone_floors), with a note
+    rng = np.random.default_rng(1)
+    g = np.stack(np.meshgrid(np.arange(30) * 5.0, np.arange(30) * 5.0), -1).reshape(-1, 2)
+    coords = np.c_[g + rng.normal(0, 0.5, g.shape), np.zeros(len(g))]
+    v = simulate(coords, frame_from_trend_plunge(60.0, 0.0, 0.0), 0.1,
+                 [("spherical", 0.9, (60, 25, 10))], seed=3)
+    D = anisotropy.discover(table(coords, v + 10), value="grade", transform="raw",
+                            structures=1, bootstrap=12, n_jobs=1)
+    u = D.uncertainty.to_dict()
+    floor = 2.0 * D.fan_ranges.tolerance
+    assert u["minor"]["replicate_cone_deg"] < 1.0
+    assert u["minor"]["cone_deg"] == pytest.approx(floor)
+    assert u["minor"]["cone_source"] == "unresolved direction" and "cone_note" in u["minor"]
+    for a in D.diagnostics["unresolved_axes"]:
+        assert u[a]["cone_deg"] >= floor
+
+
 def test_correlogram_sums_to_one(steep_vein):
     D = steep_vein
     D2 = anisotropy.discover(D.samples, estimator="correlogram", structures=1)

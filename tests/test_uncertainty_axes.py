@@ -111,3 +111,45 @@ def test_vertical_axis_has_no_trend(rng):
     trend, plunge, note = U.trend_plunge_intervals(axes, ref, 0.9)
     assert trend is None and "undefined" in note
     assert plunge[1] <= 90
+
+
+@pytest.mark.parametrize("trend, plunge, cone", [(40.0, 20.0, 30.0), (300.0, 0.0, 10.0),
+                                                 (120.0, 55.0, 30.0), (10.0, 70.0, 25.0)])
+def test_cone_extents_against_the_small_circle_brute_force(trend, plunge, cone):
+    # exact brute force: 20,000 axes on the cone's boundary (the small circle at angle
+    # `cone` from the axis), signed to agree with it as trend_plunge_intervals signs its
+    # replicates; their largest trend difference and their plunge span
+    from anisotropy.uncertainty.axes import cone_extents
+    ref = line_to_vector(trend, plunge)
+    a = np.cross(ref, [0.0, 0.0, 1.0])
+    a /= np.linalg.norm(a)
+    b = np.cross(ref, a)
+    phi = np.linspace(0.0, 2.0 * np.pi, 20000, endpoint=False)
+    c = np.radians(cone)
+    v = np.cos(c) * ref + np.sin(c) * (np.cos(phi)[:, None] * a + np.sin(phi)[:, None] * b)
+    t = np.degrees(np.arctan2(v[:, 0], v[:, 1]))
+    dt = (t - trend + 180.0) % 360.0 - 180.0
+    p = np.degrees(np.arcsin(np.abs(v[:, 2])))
+    half, (lo, hi) = cone_extents(ref, cone)
+    if plunge + cone >= 90.0:
+        assert half is None
+    else:
+        assert half == pytest.approx(np.abs(dt).max(), abs=1e-3)
+    # a cone reaching past the vertical holds it (its inside, not its boundary)
+    assert hi == pytest.approx(90.0 if plunge + cone >= 90.0 else p.max(), abs=1e-3)
+    # below the horizontal the span starts at 0 (an axis has no upward half)
+    assert lo == pytest.approx(0.0 if plunge < cone else p.min(), abs=1e-3)
+
+
+def test_intervals_reach_a_widened_cone(rng):
+    # replicates all within 2 degrees give narrow intervals; reach=True widens them to
+    # every axis inside the cone (cone_extents, tested above against brute force)
+    from anisotropy.uncertainty.axes import cone_extents
+    ref = line_to_vector(200.0, 25.0)
+    reps = _scatter_axes(rng, ref, 1.0, 200)
+    t0, p0, _ = U.trend_plunge_intervals(reps, ref, 0.9, cone_deg=30.0)
+    t1, p1, _ = U.trend_plunge_intervals(reps, ref, 0.9, cone_deg=30.0, reach=True)
+    half, (plo, phi) = cone_extents(ref, 30.0)
+    assert p0[1] - p0[0] < 5.0 and t0 is not None
+    assert p1 == pytest.approx([plo, phi])
+    assert t1 == pytest.approx([(200.0 - half) % 360.0, (200.0 + half) % 360.0])

@@ -95,6 +95,31 @@ def test_information_cones_replace_the_replicates_unless_the_axes_are_exchanged(
         assert all(res.axis_summary(i)["cone_source"] == "replicates" for i in range(3))
 
 
+def test_an_open_direction_gets_no_cone_narrower_than_its_floor(rng):
+    # BootstrapResult.open_axes: the diagnosis calls the minor axis's direction open; its
+    # cone becomes the floor (twice a 15-degree tolerance here) with a note, and its trend
+    # and plunge intervals reach the cone's extents (cone_extents, tested against brute
+    # force in test_uncertainty_axes); other axes, and a cone already wider, are unchanged
+    from anisotropy.uncertainty.axes import cone_extents
+    R = Rotation.from_euler("z", 30, degrees=True).as_matrix()
+    vol = StandInVolume((8, 8, 1), (10, 10, 10), rng, R @ np.diag([9.0, 4.0, 1.0]) @ R.T,
+                        noise=0.3)
+    res = U.block_bootstrap(vol, stand_in_refit, reference(vol), n_replicates=60, seed=4)
+    plain = [res.axis_summary(i) for i in range(3)]
+    assert plain[2]["cone_deg"] < 30.0
+    res.open_axes = {"minor": 30.0}
+    got = [res.axis_summary(i) for i in range(3)]
+    assert got[:2] == plain[:2]
+    assert got[2]["cone_deg"] == 30.0 and got[2]["cone_source"] == "unresolved direction"
+    assert got[2]["replicate_cone_deg"] == plain[2]["cone_deg"]
+    assert "unresolved" in got[2]["cone_note"]
+    half, (plo, phi) = cone_extents(res.reference_frame[:, 2], 30.0)
+    assert got[2]["plunge"][0] <= plo + 1e-9 and got[2]["plunge"][1] >= phi - 1e-9
+    assert res.cone(2)[0] == 30.0          # what check_interpretation reads
+    res.open_axes = {"minor": 0.5 * plain[2]["cone_deg"]}
+    assert res.axis_summary(2) == plain[2]
+
+
 def test_information_cone_kept_only_where_the_two_estimators_agree():
     # BootstrapResult.gap_check: the angle between the likelihood's axis and the variogram
     # fit's may reach sqrt(replicate cone^2 - information cone^2) (Hausman 1978: the

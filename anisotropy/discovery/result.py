@@ -488,7 +488,25 @@ class Discovery:
         res.recentred = fr is not None and fr.reports_likelihood_model
         res.information = self.likelihood_information(confidence_level)
         res.variogram_gap = self.variogram_gap()
+        res.open_axes = self.open_cone_floors()
         return res
+
+    def open_cone_floors(self) -> dict | None:
+        """The narrowest cone each axis the diagnosis leaves open may have (degrees).
+
+        Twice the fan's angular tolerance for every axis in
+        ``diagnostics["unresolved_axes"]``: two directions that far apart
+        share no pair in their directional variograms, so a narrower cone
+        would claim a resolution the sampling does not give (the converse of
+        the rule that a wider cone makes an axis unresolved,
+        :func:`anisotropy.discovery.diagnose.with_bootstrap`). None when every
+        direction is resolved.
+        """
+        axes = list(self.diagnosis.unresolved_axes or [])
+        if not axes:
+            return None
+        floor = 2.0 * float(self.fan_ranges.tolerance)
+        return {a: floor for a in axes}
 
     def likelihood_information(self, confidence=0.9):
         """Cones and Wald intervals of the reported model from the likelihood's information.

@@ -627,6 +627,9 @@ def _uncertainty(unc) -> dict | None:
 def _cone_source(u) -> str:
     """Where an axis's cone comes from, and why not the likelihood's where it could have."""
     source = str(u.get("cone_source") or "replicates")
+    if source == "unresolved direction":
+        return (f"the least cone of an unresolved direction, twice the sweep's angular "
+                f"tolerance (the replicates gave {u.get('replicate_cone_deg', 0.0):.0f}°)")
     gap = u.get("variogram_gap") or {}
     if source == "replicates" and gap and not gap.get("within", True):
         return (f"replicates (the likelihood's and the variogram's axes differ by "

@@ -152,7 +152,39 @@ def match_frames(reference, frames):
     return out, perms
 
 
-def trend_plunge_intervals(axes, reference, confidence=0.9, *, cone_deg=None):
+def cone_extents(reference, cone_deg):
+    """Trend and plunge half-widths of every axis within ``cone_deg`` of a reference axis.
+
+    The axes within angle ``c`` of an axis of plunge ``p`` fill a small
+    circle on the sphere; its plunges span ``[p - c, p + c]`` (clipped to
+    [0, 90]) and, while ``p + c < 90``, its trends span the reference trend
+    plus or minus ``asin(sin c / cos p)`` (the great circle through the
+    vertical tangent to the small circle; spherical trigonometry, e.g.
+    Fisher, Lewis & Embleton 1987, sec. 2.2).
+
+    Parameters
+    ----------
+    reference : array_like, shape (3,)
+    cone_deg : float
+
+    Returns
+    -------
+    trend_half : float or None
+        Degrees; None where the cone reaches the vertical (every trend).
+    plunge : [lo, hi]
+    """
+    ref_l = _lower(_unit(np.asarray(reference, dtype=float)))
+    _, p = _trend_plunge(ref_l)
+    p, c = float(p), float(cone_deg)
+    plunge = [max(0.0, p - c), min(90.0, p + c)]
+    if p + c >= 90.0:
+        return None, plunge
+    half = math.degrees(math.asin(min(1.0, math.sin(math.radians(c))
+                                      / math.cos(math.radians(p)))))
+    return half, plunge
+
+
+def trend_plunge_intervals(axes, reference, confidence=0.9, *, cone_deg=None, reach=False):
     """Trend and plunge intervals of replicate axes around a reported axis.
 
     Each replicate axis is first signed to point the same way as the
@@ -174,6 +206,10 @@ def trend_plunge_intervals(axes, reference, confidence=0.9, *, cone_deg=None):
     confidence : float
     cone_deg : float, optional
         Cone radius, computed with :func:`axis_cone` when not given.
+    reach : bool
+        The intervals also hold every axis inside the cone
+        (:func:`cone_extents`): for a cone widened beyond the replicates'
+        spread, so that the intervals say no less than the cone.
 
     Returns
     -------
@@ -194,6 +230,8 @@ def trend_plunge_intervals(axes, reference, confidence=0.9, *, cone_deg=None):
     _, ref_plunge = _trend_plunge(ref_l)
     _, plunges = _trend_plunge(a)
     plo, phi = percentile_interval(plunges, confidence)
+    half, (clo, chi) = cone_extents(ref, cone_deg) if reach else (0.0, (plo, phi))
+    plo, phi = min(plo, clo), max(phi, chi)
     if ref_plunge + cone_deg >= 90.0:
         note = (f"trend undefined: the axis plunges {ref_plunge:.0f} deg and its "
                 f"{cone_deg:.0f} deg cone reaches the vertical")
@@ -202,5 +240,6 @@ def trend_plunge_intervals(axes, reference, confidence=0.9, *, cone_deg=None):
     trends = np.degrees(np.arctan2(a[:, 0], a[:, 1]))
     diff = (trends - ref_trend + 180.0) % 360.0 - 180.0
     dlo, dhi = percentile_interval(diff, confidence)
+    dlo, dhi = min(dlo, -half), max(dhi, half)
     return [float((ref_trend + dlo) % 360.0), float((ref_trend + dhi) % 360.0)], \
         [float(plo), float(phi)], None

@@ -19,6 +19,10 @@ from anisotropy.uncertainty.intervals import (_carried, _scalar_interval, bounde
                                               percentile_interval, range_text)
 
 
+#: ``cone_source`` of an axis whose cone is the floor of an unresolved direction
+#: (:attr:`BootstrapResult.open_axes`).
+OPEN_SOURCE = "unresolved direction"
+
 #: The axis exchanges :meth:`BootstrapResult.swap_rates` counts, and the two
 #: axes each involves.
 SWAP_AXES = {"major_semi_major": ("major", "semi_major"),
@@ -161,6 +165,17 @@ class BootstrapResult:
         (:meth:`gap_check`); otherwise the cone is the wider of the
         replicates' and the information's. None: no such comparison (the
         information's cone is kept as above).
+    open_axes : dict or None
+        Per axis name, the narrowest cone (degrees) an axis may have whose
+        direction the diagnosis finds unresolved by the sampling
+        (:meth:`anisotropy.discovery.Discovery.open_cone_floors`: twice the
+        fan's angular tolerance). Such an axis's cone is widened to it, and
+        its trend and plunge intervals to the cone's extents: the replicates
+        refit the same estimator, so they share its blind spot, and a cone
+        narrower than the directions the sweep can tell apart would claim
+        what the sampling cannot show. An axis whose cone exceeds it is
+        itself called unresolved (:func:`anisotropy.discovery.diagnose.with_bootstrap`),
+        so the two statements agree.
     """
 
     method: str
@@ -194,6 +209,7 @@ class BootstrapResult:
     rival_nugget: tuple | None = None
     information: ReportedInformation | None = None
     variogram_gap: dict | None = None
+    open_axes: dict | None = None
 
     # -- derived -----------------------------------------------------------
     @property
@@ -263,9 +279,11 @@ class BootstrapResult:
         cone = max(cone, reach)
         drawn = reps
         axes = None if self.information is None else self.information.axes
-        if source != "replicates" and axes is not None:
+        if source == "likelihood information" and axes is not None:
             drawn = axes[:, :, i]     # intervals agreeing with the cone
-        trend, plunge, note = trend_plunge_intervals(drawn, ref, conf, cone_deg=cone)
+        widened = widened_to_rival or source == OPEN_SOURCE
+        trend, plunge, note = trend_plunge_intervals(drawn, ref, conf, cone_deg=cone,
+                                                     reach=widened)
         est = self.reference_ranges[i]
         rng, how = self._interval(self.ranges[:, i], est, conf)
         rng = self._calibrate(rng, est)
@@ -290,10 +308,35 @@ class BootstrapResult:
             out["cone_note"] = (f"widened to {cone:.0f} degrees to hold a rival frame the "
                                 f"likelihood cannot tell from this one ({rival:.1f} degrees "
                                 "away) and a cone as wide around it")
+        elif source == OPEN_SOURCE:
+            out["cone_note"] = (f"widened from {replicate_cone:.0f} to {cone:.0f} degrees: the "
+                                "sampling leaves this direction unresolved, and no narrower "
+                                "cone than the directions the sweep can tell apart (twice "
+                                "its angular tolerance) is claimed for it")
         return out
 
     def cone(self, i, confidence=None):
         """Cone radius (degrees) of reference axis ``i``, before any widening to a rival frame.
+
+        At least the floor of :attr:`open_axes` for an axis the sampling
+        leaves open; otherwise as :meth:`_estimated_cone`.
+
+        Returns
+        -------
+        cone : float
+        source : str
+            "replicates", "likelihood information" or "unresolved direction"
+            (:data:`OPEN_SOURCE`: the floor).
+        replicate_cone : float
+        """
+        cone, source, replicate_cone = self._estimated_cone(i, confidence)
+        floor = float((self.open_axes or {}).get(AXIS_NAMES[i], 0.0))
+        if cone < floor:
+            return min(90.0, floor), OPEN_SOURCE, replicate_cone
+        return cone, source, replicate_cone
+
+    def _estimated_cone(self, i, confidence=None):
+        """The cone from the replicates or the likelihood's information (see :meth:`cone`).
 
         The replicates' cone (calibrated), or the likelihood's information
         cone where one was given at this confidence, the replicates do not
