@@ -122,7 +122,7 @@ def _sig6(a):
     return [float(f"{x:.6g}") for x in np.asarray(a, float)]
 
 
-def resolution(lags, pairs, ranges, frame, *, scattered, nearest=None, across=None,
+def resolution(lags, pairs, ranges, frame, *, nearest=None, across=None,
                min_pairs=10.0, resolved=(), planar=False, lag_index=None, bench=None):
     """Say which ranges the lag bins cannot resolve, and which directions that leaves open.
 
@@ -132,14 +132,17 @@ def resolution(lags, pairs, ranges, frame, *, scattered, nearest=None, across=No
     class in neighbouring directions are one point on the rise, not two: on
     benches 10 m apart, every pair across one bench lies near 10 m, and a
     range of 12 m along the pole is then seen at 10 m only, however many
-    direction cells those pairs fall in.  On drill holes and benches an unresolved
-    range leaves its axis's direction open too (the hole or bench spacing is
-    all the sampling says about that direction).  Scattered samples surround
-    every direction at every distance, and on benches the pairs within each
-    bench surround every axis within 45 degrees of the horizontal; an axis
-    so surrounded whose range alone is unresolved keeps its direction (it is
-    square to the two resolved axes); two unresolved ranges leave their axes
-    free to turn about the third.
+    direction cells those pairs fall in.
+
+    Which directions that leaves open (:func:`_open_directions`): a frame
+    cannot have exactly one open axis, since two axes whose directions are
+    resolved fix the third (it is square to both); so one unresolved range
+    leaves its axis's direction fixed, on any layout, and only its range is
+    in doubt. The exception is a steep axis (more than 45 degrees from the
+    horizontal) on benches: pairs within a bench fix only horizontal
+    directions, so with the steep axis open the plunges of the other two are
+    open too, and all three are reported. Two unresolved ranges leave their
+    axes free to turn about the third, three the whole frame.
     On planar data (one bench or level) the minor axis is the one across the
     plane: no lag and no spacing on that level can resolve it, so it is
     always reported, with that reason, and the rules above apply to the two
@@ -155,8 +158,6 @@ def resolution(lags, pairs, ranges, frame, *, scattered, nearest=None, across=No
         Ranges of the longest structure along the frame's columns.
     frame : ndarray (3, 3)
         Columns major, semi-major, minor.
-    scattered : bool
-        Scattered samples (no holes, no benches).
     nearest : float, optional
         Nominal sample spacing (m).
     across : float, optional
@@ -189,22 +190,22 @@ def resolution(lags, pairs, ranges, frame, *, scattered, nearest=None, across=No
     u = L / np.maximum(d, 1e-12)[:, None]
     pairs = np.asarray(pairs)
     cls = np.arange(len(d)) if lag_index is None else np.asarray(lag_index)
-    # on benches an axis within 45 degrees of the horizontal is surrounded by pairs in
-    # every bench, as on scattered samples; a steep one is seen only across the benches
+    # on benches a steep axis is seen only across the benches (pairs within a bench are
+    # horizontal); an axis within 45 degrees of the horizontal is surrounded in every bench
     steep = np.abs(np.asarray(frame, float)[2]) > np.cos(np.radians(45))
-    surrounded = [scattered or (bench is not None and not steep[i]) for i in range(3)]
-    unresolved, texts = [], []
+    seen = {}
     for i, name in enumerate(AXES):
-        r = ranges[i]
         along = np.abs(u @ frame[:, i]) > np.cos(np.radians(25))
-        below = along & (d < r) & (pairs >= min_pairs)
+        below = along & (d < ranges[i]) & (pairs >= min_pairs)
         if np.unique(cls[below]).size >= 2 or name in resolved or (planar and name == "minor"):
             continue
-        unresolved.append(name)
-        texts.append(_unresolved_text(name, r, d[along], np.sort(d[below]), surrounded[i],
-                                      nearest, across, bench if steep[i] else None))
-    axes, unresolved, texts = _in_plane_directions(
-        unresolved, texts, all(surrounded[AXES.index(a)] for a in unresolved), planar)
+        seen[name] = (d[along], np.sort(d[below]))
+    unresolved = list(seen)
+    steep_open = [a for a in unresolved if bench is not None and steep[AXES.index(a)]]
+    axes = _open_directions(unresolved, steep_open)
+    texts = [_unresolved_text(a, ranges[AXES.index(a)], *seen[a], a not in axes, nearest,
+                              across, bench if a in steep_open else None) for a in unresolved]
+    texts = _direction_texts(unresolved, axes, steep_open, texts, planar)
     if planar:
         near = np.abs(u @ frame[:, 2]) > np.cos(np.radians(25))
         axes.append("minor")
@@ -213,22 +214,38 @@ def resolution(lags, pairs, ranges, frame, *, scattered, nearest=None, across=No
     return axes, unresolved, texts
 
 
-def _in_plane_directions(unresolved, texts, surrounded, planar):
-    """Which unresolved ranges leave their direction open (see :func:`resolution`).
+def _open_directions(unresolved, steep_open):
+    """Axes whose direction the unresolved ranges leave open (see :func:`resolution`).
 
-    ``surrounded``: pairs surround every unresolved axis (scattered samples,
-    or axes within the benches).
+    A frame cannot have exactly one open axis: two axes whose directions are
+    resolved fix the third (it is square to both). So one unresolved range
+    leaves its direction fixed, unless it is a steep axis on benches: pairs
+    within a bench fix only horizontal directions, so the plunges of the
+    other two rest on the pairs across benches as well, and the whole frame's
+    tilt is open with it. Two or three unresolved ranges leave their axes free
+    to turn (about the third, or altogether).
     """
-    if not surrounded:
-        return list(unresolved), unresolved, texts
-    if len(unresolved) == 1:
-        texts[0] += (". Its direction is still fixed: the samples surround it, and it is "
-                     "square to the other two axes, whose ranges are resolved" if not planar
+    if steep_open:
+        return list(AXES)
+    return list(unresolved) if len(unresolved) >= 2 else []
+
+
+def _direction_texts(unresolved, axes, steep_open, texts, planar):
+    """What the open directions mean, appended to the range warnings."""
+    if len(unresolved) == 1 and not axes:
+        texts[0] += (". Its direction is still fixed: it is square to the other two axes, "
+                     "whose ranges are resolved" if not planar
                      else ". Its direction is still fixed: the samples surround it in their "
                      "plane, and it is square to the other axis in that plane, whose range "
                      "is resolved")
-        return [], unresolved, texts
-    if len(unresolved) == 2:
+    elif steep_open:
+        steep = " and ".join(a.replace("_", "-") for a in steep_open)
+        texts.append(f"the steep {steep} axis is open on benches, and with it the tilt of the "
+                     "whole frame: pairs within a bench fix only horizontal directions, so "
+                     "the plunges of all three axes rest on the pairs across benches; all "
+                     "three are reported unresolved; treat their plunges as a guess and "
+                     "check them against the geology")
+    elif len(unresolved) == 2:
         other = next(a for a in AXES if a not in unresolved).replace("_", "-")
         a, b = (x.replace("_", "-") for x in unresolved)
         texts.append(f"the {a} and {b} axes are not resolved in direction: with neither "
@@ -237,7 +254,7 @@ def _in_plane_directions(unresolved, texts, surrounded, planar):
     elif len(unresolved) == 3:
         texts.append("no range is resolved along any axis: the whole frame is a guess; "
                      "check it against the geology and the sampling before using it")
-    return list(unresolved), unresolved, texts
+    return texts
 
 
 def _planar_text(r, n_near):
@@ -254,8 +271,9 @@ def _planar_text(r, n_near):
 
 
 def _unresolved_text(name, r, d_along, short, surrounded, nearest, across, bench=None):
-    """The warning for an unresolved range; ``surrounded``: pairs surround the axis, so
-    only its range is in doubt; ``bench``: the bench gap, for a steep axis on benches."""
+    """The warning for an unresolved range; ``surrounded``: its direction is fixed all the
+    same, so only its range is in doubt; ``bench``: the bench gap, for a steep axis on
+    benches."""
     label = name.replace("_", "-")
     if not d_along.size:
         seen = "cannot be checked: no lag bin lies within 25 degrees of that axis"
@@ -273,8 +291,9 @@ def _unresolved_text(name, r, d_along, short, surrounded, nearest, across, bench
     msg = f"the {label} {what} is not resolved by the sampling: its fitted range ({r:.3g} m) {seen}"
     if across:
         msg += (f"; the across-hole spacing is {across:.3g} m. Closer holes, or holes "
-                "drilled along this axis, would resolve it; until then treat this axis and "
-                "its range as a guess bounded by the spacing")
+                "drilled along this axis, would resolve it; until then treat "
+                + ("its range" if surrounded else "this axis and its range")
+                + " as a guess bounded by the spacing")
     elif bench:
         msg += (f"; the benches are {bench:.3g} m apart, so pairs along this steep axis start "
                 "near that distance. Holes sampled down through the benches would resolve "
@@ -379,12 +398,11 @@ def diagnose(model: NestedModel, fan: FanRanges, bins: FitBins, *, spacing, has_
     rows = residuals_by_direction(model, fan.directions, fan.distance, fan.value, fan.pairs,
                                   min_pairs=fan.min_pairs, tolerance=fan.tolerances,
                                   flags=dr.flag)
-    scattered = getattr(spacing, "layout", None) == "scattered" and not has_holes
     by_holes = () if holes is None else tuple(downhole_resolved_axes(
         frame, longest.ranges, holes, tolerance=fan.tolerance))
     benches = getattr(spacing, "layout", None) == "benches"
     axes, ranges, texts = resolution(
-        bins.lags, bins.pairs, longest.ranges, frame, scattered=scattered,
+        bins.lags, bins.pairs, longest.ranges, frame,
         nearest=getattr(spacing, "nearest", None),
         across=getattr(spacing, "across_hole", None) if has_holes else None,
         min_pairs=min_pairs, resolved=by_holes, planar=planar, lag_index=bins.lag_index,
