@@ -309,7 +309,12 @@ def _add_bootstrap(D: Discovery, p: DiscoverParams, t) -> None:
     _record_bootstrap_blocks(D)
     after = with_bootstrap(D.diagnosis, D.uncertainty.swap_rates(), p.confidence,
                            cones=_cones(D.uncertainty), tolerance=D.fan_ranges.tolerance)
-    D.warnings.extend(w for w in after.warnings if w not in D.diagnosis.warnings)
+    # the diagnosis's own warnings come first in ``after``, some reworded (a lone range's
+    # direction opened by an axis the replicates opened); the rest are new
+    n = len(D.diagnosis.warnings)
+    reworded = dict(zip(D.diagnosis.warnings, after.warnings[:n]))
+    D.warnings = [reworded.get(w, w) for w in D.warnings]
+    D.warnings.extend(w for w in after.warnings[n:] if w not in D.warnings)
     D.diagnosis = after
     D.uncertainty.open_axes = D.open_cone_floors()   # the axes the replicates also left open
     D.seconds = t.total()

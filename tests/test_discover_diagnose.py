@@ -209,6 +209,26 @@ def test_axes_the_bootstrap_exchanges_too_often_become_unresolved():
 
 
 
+def test_a_lone_range_keeps_its_direction_only_while_the_other_two_are_fixed():
+    # the 13 m minor range of the first test: alone, its direction is fixed by the two
+    # resolved axes; once the bootstrap opens those two (they trade places in 30 % of the
+    # replicates), nothing fixes the minor either, and its warning says so
+    from anisotropy.discovery.diagnose import (KEPT, REOPENED, with_bootstrap,
+                                               with_open_ranges)
+    axes, unresolved, w = _resolution((150.0, 90.0, 13.0), holes=True)
+    assert axes == [] and KEPT in w[0]
+    dg = _diagnosis(unresolved_axes=axes, unresolved_ranges=unresolved, warnings=tuple(w))
+    out = with_bootstrap(dg, {"major_semi_major": 0.3, "semi_major_minor": 0.0}, 0.9)
+    assert out.unresolved_axes == ["major", "semi_major", "minor"]
+    assert REOPENED in out.warnings[0] and KEPT not in out.warnings[0]
+    # the rule by itself: no open axis, nothing to add; the assumed pole of one level
+    # (planar) opens nothing, while an open in-plane axis opens the other in-plane range
+    assert with_open_ranges([], ["minor"]) == []
+    assert with_open_ranges(["minor"], ["semi_major", "minor"], planar=True) == ["minor"]
+    assert with_open_ranges(["major", "minor"], ["semi_major", "minor"], planar=True) == \
+        ["major", "semi_major", "minor"]
+
+
 def test_an_axis_whose_cone_exceeds_twice_the_tolerance_becomes_unresolved():
     from anisotropy.discovery.diagnose import with_bootstrap
 

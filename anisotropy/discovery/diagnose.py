@@ -37,6 +37,9 @@ class Diagnostics:
         Axes the holes run along and resolve by their down-hole lags.
     ambiguous_axes : tuple of str
         Axes on which a rival frame of the likelihood is as well supported.
+    planar : bool
+        One level of samples: its pole (the minor axis) is assumed, so it
+        opens no other axis (:func:`with_open_ranges`).
     """
 
     direction_ranges: DirectionRanges
@@ -48,6 +51,7 @@ class Diagnostics:
     continuity: dict | None = None
     resolved_down_hole: tuple[str, ...] = ()
     ambiguous_axes: tuple[str, ...] = ()
+    planar: bool = False
 
 
 def residuals_by_direction(model, directions, distance, value, pairs, *, min_pairs,
@@ -233,8 +237,7 @@ def _open_directions(unresolved, steep_open):
 def _direction_texts(unresolved, axes, steep_open, texts, planar):
     """What the open directions mean, appended to the range warnings."""
     if len(unresolved) == 1 and not axes:
-        texts[0] += (". Its direction is still fixed: it is square to the other two axes, "
-                     "whose ranges are resolved" if not planar
+        texts[0] += (KEPT if not planar
                      else ". Its direction is still fixed: the samples surround it in their "
                      "plane, and it is square to the other axis in that plane, whose range "
                      "is resolved")
@@ -412,12 +415,45 @@ def diagnose(model: NestedModel, fan: FanRanges, bins: FitBins, *, spacing, has_
     if planar:  # the pole of one bench is assumed, not resolved, and so is its range
         axes = sorted(set(axes) | {"minor"})
         ranges = sorted(set(ranges) | {"minor"})
+    axes, before = with_open_ranges(axes, ranges, planar), axes
+    texts = reopened(texts, before, axes)
     texts += _range_warnings(model, fan, max_distance=max_distance, max_range=max_range,
                              transform_kind=transform_kind, estimator=estimator)
     return Diagnostics(direction_ranges=dr, residuals=rows, unresolved_axes=axes,
                        unresolved_ranges=ranges, warnings=tuple(texts),
                        continuity=None if continuity is None else continuity.to_dict(),
-                       resolved_down_hole=by_holes, ambiguous_axes=amb)
+                       resolved_down_hole=by_holes, ambiguous_axes=amb, planar=planar)
+
+
+#: What the warning of a lone unresolved range says of its direction, and what it says
+#: instead once another axis is open (:func:`with_open_ranges`).
+KEPT = (". Its direction is still fixed: it is square to the other two axes, whose ranges "
+        "are resolved")
+REOPENED = (". Its direction is open as well: it would be square to the other two axes, "
+            "but they are not both resolved in direction")
+
+
+def reopened(texts, before, after) -> list:
+    """The warnings with :data:`KEPT` replaced where ``after`` opened a kept direction."""
+    if set(after) == set(before):
+        return list(texts)
+    return [t.replace(KEPT, REOPENED) for t in texts]
+
+
+def with_open_ranges(axes, ranges, planar=False) -> list:
+    """The open axes, with every unresolved range whose direction they no longer fix.
+
+    One unresolved range keeps its axis's direction only because the other
+    two axes' directions fix it (:func:`_open_directions`). Once another
+    axis is open for any reason (a rival frame, the bootstrap's exchanges, a
+    wide cone, no continuity), that argument falls and the axis is open too.
+    The assumed pole of one level of samples (``planar``) opens nothing: the
+    axes in its plane fix each other.
+    """
+    triggers = [a for a in axes if not (planar and a == "minor")]
+    if not triggers:
+        return list(axes)
+    return [a for a in AXES if a in set(axes) | set(ranges)]
 
 
 def with_bootstrap(dg: Diagnostics, swap_rates: dict, confidence: float, *,
@@ -453,9 +489,11 @@ def with_bootstrap(dg: Diagnostics, swap_rates: dict, confidence: float, *,
     wide, cone_texts = _wide_cones(cones, tolerance, confidence, set(dg.unresolved_axes) | amb)
     if not texts and not wide:
         return dg
-    axes = [x for x in AXES if x in set(dg.unresolved_axes) | amb | wide]
+    before = [x for x in AXES if x in set(dg.unresolved_axes) | amb | wide]
+    axes = with_open_ranges(before, dg.unresolved_ranges, dg.planar)
     return replace(dg, unresolved_axes=axes, ambiguous_axes=tuple(x for x in AXES if x in amb),
-                   warnings=dg.warnings + tuple(texts + cone_texts))
+                   warnings=tuple(reopened(dg.warnings + tuple(texts + cone_texts), before,
+                                           axes)))
 
 
 def _swap_texts(swap_rates, limit):
