@@ -146,7 +146,9 @@ def resolution(lags, pairs, ranges, frame, *, nearest=None, across=None,
     horizontal) on benches: pairs within a bench fix only horizontal
     directions, so with the steep axis open the plunges of the other two are
     open too, and all three are reported. Two unresolved ranges leave their
-    axes free to turn about the third, three the whole frame.
+    axes free to turn about the third, three the whole frame. A lone range
+    kept here is opened later if another axis opens for another reason
+    (:func:`with_open_ranges`).
     On planar data (one bench or level) the minor axis is the one across the
     plane: no lag and no spacing on that level can resolve it, so it is
     always reported, with that reason, and the rules above apply to the two
