@@ -492,3 +492,21 @@ def test_uncertainty_table_says_where_each_cone_comes_from():
     assert "differ by 12°, more than their spreads allow" in text
     assert "likelihood information" in text
     assert text.count("differ by") == 1       # the minor's replicates cone had no gap test
+
+
+def test_uncertainty_table_names_the_least_cone_and_a_rival_widening():
+    # cone_source "unresolved direction" (BootstrapResult.open_axes) is said with the
+    # replicates' own width; a cone widened to a rival frame says so before its base
+    from anisotropy.report.html import _uncertainty
+    rival = ("widened to 61 degrees to hold a rival frame the likelihood cannot tell "
+             "from this one (31.2 degrees away) and a cone as wide around it")
+    unc = {"method": "block", "replicates": 60, "confidence": 0.9,
+           "major": {"cone_deg": 61.2, "cone_source": "unresolved direction",
+                     "replicate_cone_deg": 19.0, "cone_note": rival},
+           "semi_major": {"cone_deg": 8.0, "cone_source": "likelihood information"},
+           "minor": {"cone_deg": 30.0, "cone_source": "unresolved direction",
+                     "replicate_cone_deg": 3.0, "cone_note": "widened from 3 to 30 degrees"}}
+    text = str(_uncertainty(unc)["table"])
+    assert text.count("the least cone of an unresolved direction") == 2
+    assert "replicates gave 19°" in text and "replicates gave 3°" in text
+    assert text.count("rival frame") == 1

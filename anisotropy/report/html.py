@@ -626,6 +626,14 @@ def _uncertainty(unc) -> dict | None:
 
 def _cone_source(u) -> str:
     """Where an axis's cone comes from, and why not the likelihood's where it could have."""
+    base = _base_cone_source(u)
+    if "rival frame" in str(u.get("cone_note") or ""):
+        return f"widened to hold a rival frame's axis and a cone as wide around it; that cone: {base}"
+    return base
+
+
+def _base_cone_source(u) -> str:
+    """The cone before any widening to a rival frame: where it comes from."""
     source = str(u.get("cone_source") or "replicates")
     if source == "unresolved direction":
         return (f"the least cone of an unresolved direction, twice the sweep's angular "
