@@ -428,7 +428,7 @@ def engine_record(D, spec, real):
             e = u.get(ax)
             rec[f"{ax}_cone"] = None if not isinstance(e, dict) else e.get("cone_deg")
             # widened to hold a rival frame of the likelihood (not the bootstrap's width)
-            rec[f"{ax}_cone_widened"] = isinstance(e, dict) and "cone_note" in e
+            rec[f"{ax}_cone_widened"] = isinstance(e, dict) and "cone_rival_deg" in e
             rec[f"{ax}_in_cone"] = cone_holds(e, D.frame[:, i], R[:, i])
             rec[f"{ax}_range_in"] = range_holds(e, true_r[i])
         rec["swap_rate"] = u.get("swap_rate")

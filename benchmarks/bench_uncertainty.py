@@ -328,7 +328,7 @@ def one_discover(name, sim, reps, refine=True, information=False):
             out[f"{ax}_info_cone"] = float(lk["information"]["cones_deg"][ax])
             out[f"{ax}_info_in"] = bool(err <= out[f"{ax}_info_cone"])
         # widened to hold a rival frame of the likelihood (then not the bootstrap's width)
-        out[f"{ax}_widened"] = "cone_note" in d[ax]
+        out[f"{ax}_widened"] = "cone_rival_deg" in d[ax]
         lo, hi = d[ax]["range"]
         t = sc["ranges"][i]
         out[f"{ax}_range_in"] = _holds(lo, hi, t)

@@ -502,7 +502,7 @@ def test_uncertainty_table_names_the_least_cone_and_a_rival_widening():
              "from this one (31.2 degrees away) and a cone as wide around it")
     unc = {"method": "block", "replicates": 60, "confidence": 0.9,
            "major": {"cone_deg": 61.2, "cone_source": "unresolved direction",
-                     "replicate_cone_deg": 19.0, "cone_note": rival},
+                     "replicate_cone_deg": 19.0, "cone_note": rival, "cone_rival_deg": 31.2},
            "semi_major": {"cone_deg": 8.0, "cone_source": "likelihood information"},
            "minor": {"cone_deg": 30.0, "cone_source": "unresolved direction",
                      "replicate_cone_deg": 3.0, "cone_note": "widened from 3 to 30 degrees"}}

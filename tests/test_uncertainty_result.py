@@ -92,6 +92,7 @@ def test_information_cones_replace_the_replicates_unless_the_axes_are_exchanged(
         res.rival_angles = {"major": 40.0}
         assert res.axis_summary(0)["cone_deg"] == min(90.0, 40.0 + plain[0]["cone_deg"])
         assert "40.0 degrees away" in res.axis_summary(0)["cone_note"]
+        assert res.axis_summary(0)["cone_rival_deg"] == 40.0
         assert all(res.axis_summary(i)["cone_source"] == "replicates" for i in range(3))
 
 
@@ -112,7 +113,7 @@ def test_an_open_direction_gets_no_cone_narrower_than_its_floor(rng):
     assert got[:2] == plain[:2]
     assert got[2]["cone_deg"] == 30.0 and got[2]["cone_source"] == "unresolved direction"
     assert got[2]["replicate_cone_deg"] == plain[2]["cone_deg"]
-    assert "unresolved" in got[2]["cone_note"]
+    assert "unresolved" in got[2]["cone_note"] and "cone_rival_deg" not in got[2]
     half, (plo, phi) = cone_extents(res.reference_frame[:, 2], 30.0)
     assert got[2]["plunge"][0] <= plo + 1e-9 and got[2]["plunge"][1] >= phi - 1e-9
     assert res.cone(2)[0] == 30.0          # what check_interpretation reads

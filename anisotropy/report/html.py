@@ -627,7 +627,7 @@ def _uncertainty(unc) -> dict | None:
 def _cone_source(u) -> str:
     """Where an axis's cone comes from, and why not the likelihood's where it could have."""
     base = _base_cone_source(u)
-    if "rival frame" in str(u.get("cone_note") or ""):
+    if u.get("cone_rival_deg") is not None:
         return f"widened to hold a rival frame's axis and a cone as wide around it; that cone: {base}"
     return base
 

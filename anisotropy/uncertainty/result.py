@@ -305,14 +305,16 @@ class BootstrapResult:
         if check is not None:
             out["variogram_gap"] = check
         if widened_to_rival:
+            out["cone_rival_deg"] = rival
             out["cone_note"] = (f"widened to {cone:.0f} degrees to hold a rival frame the "
                                 f"likelihood cannot tell from this one ({rival:.1f} degrees "
                                 "away) and a cone as wide around it")
         elif source == OPEN_SOURCE:
-            out["cone_note"] = (f"widened from {replicate_cone:.0f} to {cone:.0f} degrees: the "
-                                "sampling leaves this direction unresolved, and no narrower "
-                                "cone than the directions the sweep can tell apart (twice "
-                                "its angular tolerance) is claimed for it")
+            out["cone_note"] = (f"widened to {cone:.0f} degrees (the replicates' cone is "
+                                f"{replicate_cone:.0f}): the sampling leaves this direction "
+                                "unresolved, and no narrower cone than the directions the "
+                                "sweep can tell apart (twice its angular tolerance) is "
+                                "claimed for it")
         return out
 
     def cone(self, i, confidence=None):
