@@ -467,13 +467,20 @@ def engine_record(D, spec, real):
     return rec
 
 
+def table(real):
+    """The samples of a realisation as ``discover`` reads them: x, y, z, grade (+ 10), hole."""
+    coords = real["coords"]
+    df = pd.DataFrame({"x": coords[:, 0], "y": coords[:, 1], "z": coords[:, 2],
+                       "grade": real["values"] + 10.0})
+    if real["holes"] is not None:
+        df["hole"] = real["holes"]
+    return df
+
+
 def one(name, spec, seed, bootstrap=0):
     real = realisation(spec, seed)
-    coords, v, holes = real["coords"], real["values"], real["holes"]
-    df = pd.DataFrame({"x": coords[:, 0], "y": coords[:, 1], "z": coords[:, 2],
-                       "grade": v + 10.0})
-    if holes is not None:
-        df["hole"] = holes
+    coords, holes = real["coords"], real["holes"]
+    df = table(real)
     extra = {"bootstrap": int(bootstrap), "n_jobs": 1} if bootstrap else {}
     t0 = time.perf_counter()
     out = {"scenario": name, "seed": seed, "n": len(coords),

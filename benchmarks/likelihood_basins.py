@@ -42,7 +42,6 @@ import argparse
 import sys
 
 import numpy as np
-import pandas as pd
 from threadpoolctl import threadpool_limits
 
 import anisotropy
@@ -50,14 +49,18 @@ from anisotropy.fitting import fit_nested
 from anisotropy.fitting.likelihood import refine_frame_likelihood, vecchia_setup
 
 sys.path.insert(0, __file__.rsplit("/", 1)[0])
-from bench_discover import SCENARIOS, axis_err, realisation  # noqa: E402
-from exact_likelihood import ProfileLikelihood, bounds, maximise  # noqa: E402
+from bench_discover import SCENARIOS, axis_err, realisation, table  # noqa: E402
+from exact_likelihood import ProfileLikelihood, bounds, describe, maximise  # noqa: E402
+
+
+def _theta(ranges, nugget_share, share):
+    """The referee's parameters of one structure in its own frame (rotation zero)."""
+    return np.r_[0.0, 0.0, 0.0, np.log(ranges), np.log(share / max(nugget_share, 1e-12))]
 
 
 def exact_loglik(profile, frame, ranges, nugget_share, share):
     """The referee's profile log-likelihood of one structure at a given model."""
-    share_logit = np.log(share / max(nugget_share, 1e-12))
-    return profile.loglik(np.r_[0.0, 0.0, 0.0, np.log(ranges), share_logit], frame)
+    return profile.loglik(_theta(ranges, nugget_share, share), frame)
 
 
 def _errors(frame, R):
@@ -66,16 +69,15 @@ def _errors(frame, R):
 
 def exact_row(name, seed, profile, extent, starts, R):
     """The exact likelihood searched to convergence from the truth and from the engine."""
-    ends = []
-    with threadpool_limits(1):
-        for F, r, nug, share in starts:
-            theta = np.r_[0.0, 0.0, 0.0, np.log(r), np.log(share / max(nug, 1e-12))]
-            fit = maximise(profile, theta, np.asarray(F, float), bounds(extent, 1), 200)
-            frame, ranges, _, _ = profile.unpack(fit["theta"], fit["R0"])
-            ends.append((frame[:, np.argsort(-ranges[0])], fit["loglik"]))
-    gap = ends[0][1] - ends[1][1]
-    print(f"| {name} | {seed} | exact likelihood (every pair) | {_errors(ends[0][0], R)} | "
-          f"{_errors(ends[1][0], R)} | {gap:+.2f} | {gap:+.2f} |", flush=True)
+    with threadpool_limits(1):   # the referee's search, its axes ordered by its ranges
+        ends = [describe(profile, maximise(profile, _theta(r, nug, share), np.asarray(F, float),
+                                           bounds(extent, 1), 200), R)
+                for F, r, nug, share in starts]
+    gap = ends[0]["loglik"] - ends[1]["loglik"]
+    print(f"| {name} | {seed} | exact likelihood (every pair) | "
+          f"{ends[0]['major']:.1f} / {ends[0]['minor']:.1f} | "
+          f"{ends[1]['major']:.1f} / {ends[1]['minor']:.1f} | {gap:+.2f} | {gap:+.2f} |",
+          flush=True)
 
 
 def variogram_row(name, seed, bins, starts, R):
@@ -102,8 +104,7 @@ def rules(frame, ranges, benches):
 def one(name, spec, seed):
     real = realisation(spec, seed)
     X, v = real["coords"], real["values"]
-    df = pd.DataFrame({"x": X[:, 0], "y": X[:, 1], "z": X[:, 2], "grade": v + 10.0})
-    D = anisotropy.discover(df, value="grade", transform="raw", seed=seed)
+    D = anisotropy.discover(table(real), value="grade", transform="raw", seed=seed)
     R, m = spec["R"], D.model
     sill, true_r = spec["structures"][0][0], spec["structures"][0][1]
     eng_r = max(m.structures, key=lambda s: s.ranges[0]).ranges
@@ -119,18 +120,17 @@ def one(name, spec, seed):
     print(f"| {name} | {seed} | (the engine's variogram search, before the likelihood) | | "
           f"{_errors(best.frame[:, np.argsort(-np.asarray(best.ranges[0]))], R)} | | |",
           flush=True)
+    starts = ((R, true_r, spec["nugget"], sill), (D.frame, eng_r, nug, 1.0 - nug))
     for label, kw in rules(D.frame, eng_r, np.round(X[:, 2], 1)).items():
         st = vecchia_setup(X, v, seed=seed, **kw)
         ends = [refine_frame_likelihood(X, v, F, [r], n, [s], ("spherical",), seed=seed, setup=st)
-                for F, r, n, s in ((R, true_r, spec["nugget"], sill),
-                                   (D.frame, eng_r, nug, 1.0 - nug))]
+                for F, r, n, s in starts]
         with threadpool_limits(1):
             ex = [exact_loglik(profile, f.frame, f.ranges[0], f.nugget_share, f.shares[0])
                   for f in ends]
         errs = [_errors(f.frame, R) for f in ends]
         print(f"| {name} | {seed} | {label} | {errs[0]} | {errs[1]} | "
               f"{ends[1].negloglik - ends[0].negloglik:+.2f} | {ex[0] - ex[1]:+.2f} |", flush=True)
-    starts = ((R, true_r, spec["nugget"], sill), (D.frame, eng_r, nug, 1.0 - nug))
     exact_row(name, seed, profile, float(np.max(np.ptp(X, axis=0))), starts, R)
     total = float(m.total_sill)
     variogram_row(name, seed, D.bins_, [(F, r, n * total, s * total) for F, r, n, s in starts], R)
