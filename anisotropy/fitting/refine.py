@@ -546,6 +546,23 @@ def _frame_words(frame):
     return ", ".join(words)
 
 
+def _starts(fit, one_structure, coords, values, seed, holes, other_frames, confidence):
+    """The global frame choice, the search's start, its one-structure base and its metric.
+
+    With two variogram structures and a one-structure fit, the choice is made
+    on the one-structure fit, which (as chosen) is the second start's base;
+    the conditioning sets are then in its metric too (a structure run to the
+    range limit distorts the two-structure fit's). Otherwise the choice is
+    made on ``fit`` and its answer is both the start and the metric.
+    """
+    if one_structure is not None and len(np.atleast_1d(fit.sills)) > 1:
+        choice, one_structure = _global_start(one_structure, coords, values, seed, holes,
+                                              other_frames, confidence)
+        return choice, fit, one_structure, one_structure
+    choice, start = _global_start(fit, coords, values, seed, holes, other_frames, confidence)
+    return choice, start, one_structure, start
+
+
 def refine_frame(fit: NestedFit, bins: FitBins, coords, values, *, seed=0, fit_kwargs=None,
                  add_structure=False, one_structure=None, holes=None, other_frames=(),
                  confidence=0.9, kinds=()) -> FrameRefinement:
@@ -620,17 +637,8 @@ def refine_frame(fit: NestedFit, bins: FitBins, coords, values, *, seed=0, fit_k
         return FrameRefinement(fit=fit)
     warnings, choices = [], []
     try:
-        two = one_structure is not None and len(np.atleast_1d(fit.sills)) > 1
-        if two:   # the global choice made on the one-structure fit, the second start's base
-            choice, one_structure = _global_start(one_structure, coords, values, seed, holes,
-                                                  other_frames, confidence)
-            start = fit
-        else:
-            choice, start = _global_start(fit, coords, values, seed, holes, other_frames,
-                                          confidence)
-        # conditioning sets in the one-structure fit's metric where the variogram fit has
-        # two structures (a structure run to the range limit distorts the metric)
-        metric_of = one_structure if two else start
+        choice, start, one_structure, metric_of = _starts(
+            fit, one_structure, coords, values, seed, holes, other_frames, confidence)
         P = _Problem(bins, coords, values, seed, fit_kwargs or {}, metric_of, holes)
         lk, f, starts = _first_search(P, start, one_structure)
         f, held, warning = _keep_axis_order(P, lk, f)
